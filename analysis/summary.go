@@ -1,0 +1,141 @@
+package analysis
+
+// Summary is what one pass over a capture yields: the JSON document of
+// `caploop summary --json` and the figures the live screen shows. Pointers are null in
+// JSON where a figure does not apply or could not be measured; every key carries its
+// unit as a suffix (_s, _v, _hz, _counts, _ohm, _f).
+type Summary struct {
+	Source        string        `json:"source"`
+	Samples       int64         `json:"samples"`
+	RejectedLines int64         `json:"rejected_lines"`
+	FirstRejects  []Reject      `json:"first_rejects"`
+	DurationS     float64       `json:"duration_s"`
+	SamplePeriodS *float64      `json:"sample_period_s"`
+	PeriodFrom    string        `json:"sample_period_from"` // "t", "period_us", "host" or ""
+	JitterS       *float64      `json:"jitter_s"`
+	Gaps          int64         `json:"gaps"`           // missing samples seen from t or n
+	InferredDrive bool          `json:"inferred_drive"` // u was missing and inferred from the rule
+	Board         Board         `json:"board"`
+	Plant         Plant         `json:"plant"`
+	Segments      []Segment     `json:"segments"`
+	Steps         []StepFigures `json:"steps"`
+	Diagnostics   []Diagnostic  `json:"diagnostics"`
+	Traces        *Traces       `json:"-"` // bounded waveforms for plots (report, screen)
+}
+
+// Reject is one rejected line: where and why. Text is already sanitised.
+type Reject struct {
+	Line   int64  `json:"line"`
+	Reason string `json:"reason"`
+}
+
+// Board is what the meta lines said (last value of each field), null when not said.
+type Board struct {
+	VrefV          *float64 `json:"vref_v"`
+	ADCBits        *int     `json:"adc_bits"`
+	Mode           string   `json:"mode"`
+	DeadbandCounts *float64 `json:"deadband_counts"`
+	SupplyV        *float64 `json:"supply_v"`
+	ROhm           *float64 `json:"r_ohm"`
+	CF             *float64 `json:"c_f"`
+	LoadOhm        *float64 `json:"load_ohm"`
+}
+
+// Plant is the identified circuit: the real RC, not the one on the parts list.
+// The _ci fields are 95 % confidence intervals [low, high].
+type Plant struct {
+	TauChargeS      *float64    `json:"tau_charge_s"`
+	TauChargeCIS    *[2]float64 `json:"tau_charge_ci_s"`
+	TauDischargeS   *float64    `json:"tau_discharge_s"`
+	TauDischargeCIS *[2]float64 `json:"tau_discharge_ci_s"`
+	VHighV          *float64    `json:"v_high_v"`
+	VHighCIV        *[2]float64 `json:"v_high_ci_v"`
+	VLowV           *float64    `json:"v_low_v"`
+	VLowCIV         *[2]float64 `json:"v_low_ci_v"`
+	TauHoldS        *float64    `json:"tau_hold_s"`
+	TauHoldCIS      *[2]float64 `json:"tau_hold_ci_s"`
+	NoiseRMSCounts  *float64    `json:"noise_rms_counts"`
+	MissingCodes    []int       `json:"missing_codes"`
+	StuckCodes      []int       `json:"stuck_codes"`
+	EffectiveROhm   *float64    `json:"effective_r_ohm"` // from tau and the meta C
+	EffectiveCF     *float64    `json:"effective_c_f"`   // from tau and the meta R
+	LoadOhm         *float64    `json:"load_ohm"`        // from v_high, supply and R
+	SenseDropV      *float64    `json:"sense_drop_v"`    // supply - v_high when it looks like a buffer drop
+}
+
+// Segment holds the figures of one run of samples with one setpoint, over its steady part.
+type Segment struct {
+	SetpointCounts    float64  `json:"setpoint_counts"`
+	SetpointV         *float64 `json:"setpoint_v"`
+	StartS            float64  `json:"start_s"`
+	EndS              float64  `json:"end_s"`
+	SteadyStartS      *float64 `json:"steady_start_s"`
+	SteadySamples     int64    `json:"steady_samples"`
+	MeanErrorV        *float64 `json:"mean_error_v"`
+	MeanErrorCounts   *float64 `json:"mean_error_counts"`
+	RipplePPV         *float64 `json:"ripple_pp_v"`
+	RipplePPCounts    *float64 `json:"ripple_pp_counts"`
+	RippleRobustPPV   *float64 `json:"ripple_robust_pp_v"`
+	RippleRMSV        *float64 `json:"ripple_rms_v"`
+	RippleRMSCounts   *float64 `json:"ripple_rms_counts"`
+	DutyCharge        *float64 `json:"duty_charge"`
+	DutyHold          *float64 `json:"duty_hold"`
+	DutyDischarge     *float64 `json:"duty_discharge"`
+	LimitCyclePeriodS *float64 `json:"limit_cycle_period_s"`
+	SwitchingHz       *float64 `json:"switching_hz"`
+	RippleFreqHz      *float64 `json:"ripple_freq_hz"`
+	DeadbandEntries   int64    `json:"deadband_entries"`
+	DeadbandExits     int64    `json:"deadband_exits"`
+	BandJumps         int64    `json:"band_jumps"`
+	Unreachable       bool     `json:"unreachable"`
+	DeadbandCounts    *float64 `json:"deadband_counts"` // the band in force during the segment
+}
+
+// StepFigures describe the response to one setpoint change.
+type StepFigures struct {
+	AtS        float64  `json:"at_s"`
+	FromV      *float64 `json:"from_v"`
+	ToV        *float64 `json:"to_v"`
+	FromCounts float64  `json:"from_counts"`
+	ToCounts   float64  `json:"to_counts"`
+	RiseS      *float64 `json:"rise_s"`
+	SettleS    *float64 `json:"settle_s"`
+	OvershootV *float64 `json:"overshoot_v"`
+	SlewVPerS  *float64 `json:"slew_v_per_s"`
+}
+
+// Diagnostic is one finding, a plain sentence with the numbers behind it.
+type Diagnostic struct {
+	Code     string `json:"code"`     // stable identifier: unreachable_setpoint, band_too_narrow, ...
+	Severity string `json:"severity"` // "info", "warning" or "error"
+	Message  string `json:"message"`
+}
+
+// Traces are bounded waveforms kept for plots. Every slice is bounded in length whatever
+// the capture's size (decimated with min/max envelopes where needed).
+type Traces struct {
+	// Overview: time (s), setpoint and measurement (V, or counts when vref is unknown),
+	// and the min/max envelope of pv in each bucket.
+	T, SP, PV, PVMin, PVMax []float64
+	Volts                   bool // the values are volts (else counts)
+	// Per segment, a window of the steady part (a few limit-cycle periods) at full rate.
+	Zoom []ZoomTrace
+	// Error histogram over steady parts: bin centres in counts and counts of samples.
+	ErrBins, ErrHist []float64
+	// Ripple spectrum of the longest steady part: frequency (Hz) and amplitude (counts).
+	SpecFreq, SpecAmp []float64
+	// Step responses with the fitted exponential.
+	StepTraces []StepTrace
+}
+
+// ZoomTrace is a short full-rate window of one segment's steady part.
+type ZoomTrace struct {
+	Segment  int
+	T, PV, U []float64
+}
+
+// StepTrace is one step response with the exponential fitted to it.
+type StepTrace struct {
+	Step          int
+	T, PV, Fitted []float64
+}
