@@ -1,0 +1,65 @@
+package telemetry
+
+import (
+	"errors"
+	"strconv"
+)
+
+// Sentinel errors say what kind of fault a rejected line had; a *ParseError wraps one
+// of them and says where. Test with errors.Is.
+var (
+	ErrBadNumber    = errors.New("telemetry: bad number")
+	ErrBadDrive     = errors.New("telemetry: bad drive (want 1, 0, -1, +, -)")
+	ErrFieldCount   = errors.New("telemetry: wrong number of fields")
+	ErrMissingField = errors.New("telemetry: missing field")
+	ErrTooLong      = errors.New("telemetry: line too long")
+	ErrBinary       = errors.New("telemetry: binary or control bytes")
+	ErrBadMeta      = errors.New("telemetry: bad meta value")
+	ErrDuplicateKey = errors.New("telemetry: duplicate key")
+	ErrSyntax       = errors.New("telemetry: not a key=value data line")
+	ErrBadKey       = errors.New("telemetry: bad key")
+	ErrNoHeader     = errors.New("telemetry: numeric line before a column header")
+	ErrTooManyKeys  = errors.New("telemetry: too many distinct extra channels")
+	ErrBadCapture   = errors.New("telemetry: bad capture record")
+)
+
+// ParseError is a rejected line: the file name, the 1-based line number, the field at
+// fault (empty when the whole line is), the line as sanitised text (cut to about 80
+// bytes) and the sentinel error that says why.
+type ParseError struct {
+	Name  string // file name as given to the Scanner or Parser ("" when unknown)
+	Line  int64  // 1-based line number
+	Field string // key or column at fault, "" for the whole line
+	Text  string // the offending line, sanitised and cut
+	Err   error  // one of the Err* sentinels
+}
+
+// Error returns "name:line: reason", with the field and the sanitised text when known.
+func (e *ParseError) Error() string {
+	var b []byte
+	if e.Name != "" {
+		b = append(b, e.Name...)
+		b = append(b, ':')
+	} else {
+		b = append(b, "line "...)
+	}
+	b = strconv.AppendInt(b, e.Line, 10)
+	b = append(b, ": "...)
+	if e.Err != nil {
+		b = append(b, e.Err.Error()...)
+	} else {
+		b = append(b, "telemetry: rejected"...)
+	}
+	if e.Field != "" {
+		b = append(b, " in "...)
+		b = append(b, e.Field...)
+	}
+	if e.Text != "" {
+		b = append(b, ": "...)
+		b = strconv.AppendQuote(b, e.Text)
+	}
+	return string(b)
+}
+
+// Unwrap returns the sentinel, so errors.Is(err, ErrBadNumber) works.
+func (e *ParseError) Unwrap() error { return e.Err }
