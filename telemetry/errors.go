@@ -21,6 +21,7 @@ var (
 	ErrNoHeader     = errors.New("telemetry: numeric line before a column header")
 	ErrTooManyKeys  = errors.New("telemetry: too many distinct extra channels")
 	ErrBadCapture   = errors.New("telemetry: bad capture record")
+	ErrCutShort     = errors.New("telemetry: line cut short by a read error")
 )
 
 // ParseError is a rejected line: the file name, the 1-based line number, the field at
@@ -55,8 +56,9 @@ func (e *ParseError) Error() string {
 		b = append(b, e.Field...)
 	}
 	if e.Text != "" {
-		b = append(b, ": "...)
-		b = strconv.AppendQuote(b, e.Text)
+		b = append(b, ": \""...)
+		b = append(b, e.Text...) // already sanitised
+		b = append(b, '"')
 	}
 	return string(b)
 }

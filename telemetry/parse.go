@@ -1,9 +1,866 @@
 package telemetry
 
+import (
+	"bytes"
+	"math"
+	"strconv"
+	"strings"
+	"time"
+	"unsafe"
+
+	"github.com/caploop/caploop/telemetry/si"
+)
+
+// MaxLineLen is the longest line, in bytes without its terminator, that the parser
+// accepts. Longer lines are cut and rejected with ErrTooLong; the Scanner does not
+// buffer their rest.
+const MaxLineLen = 1024
+
+// MaxRejectsKept is how many rejected lines Stats.FirstRejects keeps.
+const MaxRejectsKept = 10
+
+// maxExtraNames bounds the table of interned extra channel names, so hostile input
+// cannot grow memory without bound.
+const maxExtraNames = 256
+
+// captureSlack is the room a capture record prefix ("123456.123456 < ") may take on top
+// of MaxLineLen.
+const captureSlack = 40
+
 // Extra is one value of an unknown key on a data line, kept as a named channel.
 // Name is interned by the Parser: the same key gives the same string, without an
 // allocation per line.
 type Extra struct {
 	Name  string
 	Value float64
+}
+
+// RecordKind says what a line turned out to be.
+type RecordKind uint8
+
+// Record kinds.
+const (
+	RecNone     RecordKind = iota // blank line, comment, column header or capture header
+	RecSample                     // a data line or a numeric row: a Sample
+	RecMeta                       // a meta line: Meta changed
+	RecEvent                      // a capture '>' or '!' record: an Event
+	RecRejected                   // a line that could not be read: counted, with a ParseError
+)
+
+// String returns "none", "sample", "meta", "event" or "rejected".
+func (k RecordKind) String() string {
+	switch k {
+	case RecSample:
+		return "sample"
+	case RecMeta:
+		return "meta"
+	case RecEvent:
+		return "event"
+	case RecRejected:
+		return "rejected"
+	}
+	return "none"
+}
+
+// Event is a capture record that is not a board line: a line the host sent to the board
+// ('>', such as "set deadband=14") or a host event ('!': mark, unplugged, reconnected,
+// note). Text is sanitised and safe to print.
+type Event struct {
+	Host int64     // host time, ns since the capture started
+	Dir  Direction // ToBoard or HostEvent
+	Text string    // sanitised text of the record
+	Line int64     // 1-based line number in the source
+}
+
+// Stats counts the lines a Parser or Scanner has seen. Every line falls in exactly one
+// of Samples, Metas, Comments, Blank, Headers, Events and Rejected, so they add up to
+// Lines. Partial counts the rejected lines that look like a piece of a line (two lines
+// glued together by a board reset, or the tail of a line), and is part of Rejected.
+type Stats struct {
+	Lines, Samples, Metas, Comments, Rejected, Partial int64
+	Events                                             int64 // capture '>' and '!' records
+	Blank                                              int64 // empty lines
+	Headers                                            int64 // column header lines and the capture header line
+
+	// FirstRejects holds the first MaxRejectsKept rejected lines, in order.
+	FirstRejects []*ParseError
+}
+
+// Record is what Parser.Parse makes of one line.
+type Record struct {
+	Kind   RecordKind
+	Sample Sample      // valid for RecSample
+	Extras []Extra     // extra channels of the sample; valid until the next Parse
+	Meta   Meta        // merged meta after this line; valid for every kind
+	Delta  Meta        // the fields this line set, for RecMeta
+	Event  Event       // valid for RecEvent
+	Err    *ParseError // valid for RecRejected
+}
+
+// column kinds for numeric rows and known data keys.
+const (
+	colExtra = iota
+	colT
+	colN
+	colSP
+	colPV
+	colU
+)
+
+type column struct {
+	kind int
+	name string // interned name for colExtra
+}
+
+// Parser reads the caploop line protocol one line at a time. It keeps the state that
+// spans lines: the merged meta, the column header of a numeric table, capture mode,
+// the unwrapping of the board clock t across 2^32 and the line and sample counters.
+// The zero value is ready to use. Parse does not allocate for data lines.
+//
+// The first line decides capture mode: a line starting with CaptureMagic makes every
+// later line a capture record whose host time replaces the one given to Parse.
+type Parser struct {
+	// Name is the source name used in errors (a file name, a port path).
+	Name string
+
+	line   int64
+	index  int64
+	stats  Stats
+	meta   Meta
+	delta  Meta
+	sample Sample
+	extras []Extra
+	event  Event
+	names  map[string]string
+	cols   []column
+
+	capture      bool
+	captureStart time.Time
+
+	tPrev  uint32
+	tWraps int64
+	tSeen  bool
+
+	errKind   error
+	errField  string
+	errText   []byte
+	errLineNo int64
+}
+
+// Parse reads one line (with or without its "\n" or "\r\n"). host is the host receive
+// time in ns since the source started, used when hasHost is true (and replaced by the
+// record's own time in a capture). The returned Record's Extras slice is reused by the
+// next call.
+func (p *Parser) Parse(line []byte, host int64, hasHost bool) Record {
+	if n := len(line); n > 0 && line[n-1] == '\n' {
+		line = line[:n-1]
+	}
+	k := p.parse(line, host, hasHost, false)
+	r := Record{Kind: k, Meta: p.meta}
+	switch k {
+	case RecSample:
+		r.Sample, r.Extras = p.sample, p.extras
+	case RecMeta:
+		r.Delta = p.delta
+	case RecEvent:
+		r.Event = p.event
+	case RecRejected:
+		r.Err = p.LastError()
+	}
+	return r
+}
+
+// Stats returns the counts so far.
+func (p *Parser) Stats() Stats { return p.stats }
+
+// Meta returns the merged meta so far.
+func (p *Parser) Meta() Meta { return p.meta }
+
+// Line returns the number of lines parsed so far.
+func (p *Parser) Line() int64 { return p.line }
+
+// Capture reports whether the input is a capture, and its start time when the header
+// gave one.
+func (p *Parser) Capture() (bool, time.Time) { return p.capture, p.captureStart }
+
+// ResetClock forgets the board clock history, so the next t is not read as a wrap of the
+// previous one. Call it when the board was reset or the port reopened.
+func (p *Parser) ResetClock() { p.tSeen, p.tWraps = false, 0 }
+
+// LastError returns the last rejected line as a *ParseError, or nil if none was rejected.
+func (p *Parser) LastError() *ParseError {
+	if p.errKind == nil {
+		return nil
+	}
+	return &ParseError{Name: p.Name, Line: p.errLineNo, Field: p.errField, Text: SanitizeN(p.errText, 80), Err: p.errKind}
+}
+
+// parse handles one line without its "\n". cut says the line was longer than the limit
+// and line holds only its start.
+func (p *Parser) parse(line []byte, host int64, hasHost bool, cut bool) RecordKind {
+	p.line++
+	p.stats.Lines++
+	if n := len(line); n > 0 && line[n-1] == '\r' {
+		line = line[:n-1]
+	}
+	limit := MaxLineLen
+	if p.capture {
+		limit += captureSlack
+	}
+	if cut || len(line) > limit {
+		if len(line) > limit {
+			line = line[:limit]
+		}
+		return p.reject(ErrTooLong, "", line)
+	}
+	if p.capture {
+		return p.parseCapture(line)
+	}
+	if p.line == 1 && bytes.HasPrefix(line, []byte(CaptureMagic)) {
+		return p.parseCaptureHeader(line)
+	}
+	if len(line) > MaxLineLen {
+		return p.reject(ErrTooLong, "", line[:MaxLineLen])
+	}
+	return p.parseBoard(line, host, hasHost)
+}
+
+func (p *Parser) parseCaptureHeader(line []byte) RecordKind {
+	p.capture = true
+	p.stats.Headers++
+	for _, f := range strings.Fields(string(line[len(CaptureMagic):])) {
+		if v, ok := strings.CutPrefix(f, "start="); ok {
+			if t, err := time.Parse(time.RFC3339Nano, v); err == nil {
+				p.captureStart = t
+			}
+		}
+	}
+	return RecNone
+}
+
+// parseCapture reads "<seconds>.<fraction> <dir> <raw>".
+func (p *Parser) parseCapture(line []byte) RecordKind {
+	if len(line) == 0 {
+		p.stats.Blank++
+		return RecNone
+	}
+	i, n := 0, len(line)
+	var sec, frac int64
+	for i < n && line[i] >= '0' && line[i] <= '9' && i < 12 {
+		sec = sec*10 + int64(line[i]-'0')
+		i++
+	}
+	if i == 0 || i >= n || line[i] != '.' {
+		return p.reject(ErrBadCapture, "", line)
+	}
+	i++
+	f0 := i
+	scale := int64(1e9)
+	for i < n && line[i] >= '0' && line[i] <= '9' && i-f0 < 9 {
+		scale /= 10
+		frac += int64(line[i]-'0') * scale
+		i++
+	}
+	if i == f0 || i+1 >= n || line[i] != ' ' || (i+2 < n && line[i+2] != ' ') {
+		return p.reject(ErrBadCapture, "", line)
+	}
+	host := sec*1e9 + frac
+	dir := Direction(line[i+1])
+	raw := line[min(i+3, n):]
+	if len(raw) > MaxLineLen {
+		return p.reject(ErrTooLong, "", raw[:MaxLineLen])
+	}
+	switch dir {
+	case FromBoard:
+		return p.parseBoard(raw, host, true)
+	case ToBoard, HostEvent:
+		p.event = Event{Host: host, Dir: dir, Text: Sanitize(raw), Line: p.line}
+		if dir == HostEvent && clockBreak(raw) {
+			p.ResetClock()
+		}
+		p.stats.Events++
+		return RecEvent
+	}
+	return p.reject(ErrBadCapture, "", line)
+}
+
+// clockBreak reports whether a host event says the board may have restarted.
+func clockBreak(text []byte) bool {
+	for _, w := range [...]string{"unplug", "replug", "reconnect", "reset", "reopen"} {
+		if bytes.Contains(text, []byte(w)) {
+			return true
+		}
+	}
+	return false
+}
+
+func isSep(c byte) bool { return c == ' ' || c == ',' || c == '\t' }
+
+func isDigit(c byte) bool { return c-'0' <= 9 }
+
+func isKeyStart(c byte) bool {
+	return c >= 'a' && c <= 'z' || c >= 'A' && c <= 'Z' || c == '_'
+}
+
+func isKeyByte(c byte) bool { return isKeyStart(c) || isDigit(c) || c == '.' }
+
+// parseBoard reads a line the board sent.
+func (p *Parser) parseBoard(line []byte, host int64, hasHost bool) RecordKind {
+	i := 0
+	for i < len(line) && isSep(line[i]) {
+		i++
+	}
+	if i == len(line) {
+		p.stats.Blank++
+		return RecNone
+	}
+	c := line[i]
+	switch {
+	case isKeyStart(c):
+		return p.parseKV(line, i, host, hasHost)
+	case isDigit(c) || c == '-' || c == '+' || c == '.':
+		return p.parseRow(line, i, host, hasHost)
+	case c == '#':
+		return p.parseHash(line, i+1)
+	}
+	return p.reject(ErrSyntax, "", line)
+}
+
+var fieldNames = [...]string{colExtra: "", colT: "t", colN: "n", colSP: "sp", colPV: "pv", colU: "u"}
+
+// parseKV reads a key=value data line from line[i:]. It is the hot path.
+func (p *Parser) parseKV(line []byte, i int, host int64, hasHost bool) RecordKind {
+	var s Sample
+	var seen uint8
+	p.extras = p.extras[:0]
+	n := len(line)
+	for {
+		for i < n && isSep(line[i]) {
+			i++
+		}
+		if i >= n {
+			break
+		}
+		key := colExtra
+		switch line[i] {
+		case 't':
+			if i+1 < n && line[i+1] == '=' {
+				key, i = colT, i+2
+			}
+		case 's':
+			if i+2 < n && line[i+1] == 'p' && line[i+2] == '=' {
+				key, i = colSP, i+3
+			}
+		case 'p':
+			if i+2 < n && line[i+1] == 'v' && line[i+2] == '=' {
+				key, i = colPV, i+3
+			}
+		case 'u':
+			if i+1 < n && line[i+1] == '=' {
+				key, i = colU, i+2
+			}
+		case 'n':
+			if i+1 < n && line[i+1] == '=' {
+				key, i = colN, i+2
+			}
+		}
+		if key != colExtra {
+			bit := uint8(1) << key
+			if seen&bit != 0 {
+				p.stats.Partial++
+				return p.reject(ErrDuplicateKey, fieldNames[key], line)
+			}
+			seen |= bit
+		}
+		var ok bool
+		switch key {
+		case colT:
+			var v uint64
+			v, i, ok = parseUint(line, i)
+			if !ok {
+				return p.rejectValue(ErrBadNumber, "t", line)
+			}
+			s.T = p.unwrap(v)
+		case colN:
+			var v uint64
+			v, i, ok = parseUint(line, i)
+			if !ok {
+				return p.rejectValue(ErrBadNumber, "n", line)
+			}
+			s.N = int64(v)
+		case colSP:
+			s.SP, i, ok = parseNum(line, i)
+			if !ok {
+				return p.rejectValue(ErrBadNumber, "sp", line)
+			}
+		case colPV:
+			s.PV, i, ok = parseNum(line, i)
+			if !ok {
+				return p.rejectValue(ErrBadNumber, "pv", line)
+			}
+		case colU:
+			s.U, i, ok = parseDrive(line, i)
+			if !ok {
+				return p.rejectValue(ErrBadDrive, "u", line)
+			}
+		default:
+			k0 := i
+			if !isKeyStart(line[i]) {
+				return p.reject(ErrBadKey, "", line)
+			}
+			for i < n && isKeyByte(line[i]) {
+				i++
+			}
+			if i >= n || line[i] != '=' {
+				if bytes.IndexByte(line, '=') < 0 {
+					return p.parseHeader(line, k0)
+				}
+				if i < n && !isSep(line[i]) {
+					return p.reject(ErrBadKey, "", line)
+				}
+				return p.reject(ErrSyntax, "", line)
+			}
+			name, ok := p.intern(line[k0:i])
+			if !ok {
+				return p.reject(ErrTooManyKeys, "", line)
+			}
+			for _, e := range p.extras {
+				if e.Name == name {
+					p.stats.Partial++
+					return p.reject(ErrDuplicateKey, name, line)
+				}
+			}
+			var v float64
+			v, i, ok = parseNum(line, i+1)
+			if !ok {
+				return p.rejectValue(ErrBadNumber, name, line)
+			}
+			p.extras = append(p.extras, Extra{Name: name, Value: v})
+		}
+	}
+	const need = 1<<colSP | 1<<colPV
+	if seen&need != need {
+		field := "sp"
+		if seen&(1<<colSP) != 0 {
+			field = "pv"
+		}
+		if seen&(1<<colPV|1<<colU) != 0 && seen&(1<<colT|1<<colN) == 0 {
+			p.stats.Partial++ // the tail of a data line
+		}
+		return p.reject(ErrMissingField, field, line)
+	}
+	s.Flags = SampleFlags(seen>>colT&1)*HasT | SampleFlags(seen>>colN&1)*HasN | SampleFlags(seen>>colU&1)*HasU
+	return p.accept(s, host, hasHost)
+}
+
+func (p *Parser) accept(s Sample, host int64, hasHost bool) RecordKind {
+	if hasHost {
+		s.Host = host
+		s.Flags |= HasHost
+	}
+	s.Line = p.line
+	s.Index = p.index
+	p.index++
+	p.sample = s
+	p.stats.Samples++
+	return RecSample
+}
+
+// rejectValue rejects a line whose value for field could not be read, and counts it as
+// partial when a key seems glued into a value ("sp=51t=1234"), the mark of two lines run
+// together by a reset.
+func (p *Parser) rejectValue(err error, field string, line []byte) RecordKind {
+	if glued(line) {
+		p.stats.Partial++
+	}
+	return p.reject(err, field, line)
+}
+
+// glued reports whether line has a digit directly followed by a key and '='.
+func glued(line []byte) bool {
+	for j := 1; j < len(line); j++ {
+		if !isDigit(line[j-1]) || !isKeyStart(line[j]) {
+			continue
+		}
+		k := j
+		for k < len(line) && isKeyStart(line[k]) {
+			k++
+		}
+		if k < len(line) && line[k] == '=' {
+			return true
+		}
+	}
+	return false
+}
+
+func (p *Parser) intern(b []byte) (string, bool) {
+	if s, ok := p.names[string(b)]; ok {
+		return s, true
+	}
+	if p.names == nil {
+		p.names = make(map[string]string)
+	}
+	if len(p.names) >= maxExtraNames {
+		return "", false
+	}
+	s := string(b)
+	p.names[s] = s
+	return s, true
+}
+
+func (p *Parser) unwrap(raw uint64) int64 {
+	if raw >= 1<<32 {
+		return int64(raw)
+	}
+	r := uint32(raw)
+	if p.tSeen && r < p.tPrev && r-p.tPrev < 1<<31 {
+		p.tWraps++
+	}
+	p.tPrev, p.tSeen = r, true
+	return p.tWraps<<32 + int64(r)
+}
+
+var pow10 = [...]float64{1, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
+
+// parseNum reads a decimal number at b[i:] that ends at a separator or the end of b.
+// Plain integers and decimals of up to 15 digits take an exact fast path (an integer
+// below 2^53 divided by an exact power of ten rounds correctly); anything else goes to
+// strconv.ParseFloat. NaN and infinities are refused.
+func parseNum(b []byte, i int) (float64, int, bool) {
+	start, n := i, len(b)
+	neg := false
+	if i < n && (b[i] == '-' || b[i] == '+') {
+		neg = b[i] == '-'
+		i++
+	}
+	var m uint64
+	d0 := i
+	for i < n && isDigit(b[i]) {
+		m = m*10 + uint64(b[i]-'0')
+		i++
+	}
+	digits := i - d0
+	frac := 0
+	if i < n && b[i] == '.' {
+		i++
+		f0 := i
+		for i < n && isDigit(b[i]) {
+			m = m*10 + uint64(b[i]-'0')
+			i++
+		}
+		frac = i - f0
+	}
+	if digits > 0 && digits+frac <= 15 && (i == n || isSep(b[i])) {
+		v := float64(m)
+		if frac > 0 {
+			v /= pow10[frac]
+		}
+		if neg {
+			v = -v
+		}
+		return v, i, true
+	}
+	return parseNumSlow(b, start)
+}
+
+func parseNumSlow(b []byte, start int) (float64, int, bool) {
+	end := start
+	for end < len(b) && !isSep(b[end]) {
+		end++
+	}
+	if end == start {
+		return 0, end, false
+	}
+	tok := b[start:end]
+	// strconv copies the text into any error it returns, so the string need not outlive tok.
+	v, err := strconv.ParseFloat(unsafe.String(&tok[0], len(tok)), 64)
+	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+		return 0, end, false
+	}
+	return v, end, true
+}
+
+// parseUint reads an unsigned decimal integer below 2^63 at b[i:] ending at a separator
+// or the end of b.
+func parseUint(b []byte, i int) (uint64, int, bool) {
+	n := len(b)
+	var v uint64
+	d0 := i
+	for i < n && isDigit(b[i]) {
+		v = v*10 + uint64(b[i]-'0')
+		i++
+	}
+	if i == d0 || i-d0 > 18 || (i < n && !isSep(b[i])) {
+		return 0, i, false
+	}
+	return v, i, true
+}
+
+// parseDrive reads 1, 0, -1, +1, + or - at b[i:].
+func parseDrive(b []byte, i int) (Drive, int, bool) {
+	n := len(b)
+	if i >= n {
+		return 0, i, false
+	}
+	var d Drive
+	switch b[i] {
+	case '1':
+		d = Charge
+	case '0':
+		d = Hold
+	case '+':
+		d = Charge
+		if i+1 < n && b[i+1] == '1' {
+			i++
+		}
+	case '-':
+		d = Discharge
+		if i+1 < n && b[i+1] == '1' {
+			i++
+		}
+	default:
+		return 0, i, false
+	}
+	i++
+	if i < n && !isSep(b[i]) {
+		return 0, i, false
+	}
+	return d, i, true
+}
+
+// parseHeader reads a column header line ("t,sp,pv,u") starting at line[i:].
+func (p *Parser) parseHeader(line []byte, i int) RecordKind {
+	var cols []column
+	var seen uint8
+	known := false
+	n := len(line)
+	for {
+		for i < n && isSep(line[i]) {
+			i++
+		}
+		if i >= n {
+			break
+		}
+		k0 := i
+		if !isKeyStart(line[i]) {
+			return p.reject(ErrSyntax, "", line)
+		}
+		for i < n && isKeyByte(line[i]) {
+			i++
+		}
+		if i < n && !isSep(line[i]) {
+			return p.reject(ErrSyntax, "", line)
+		}
+		name := line[k0:i]
+		c := column{kind: colExtra}
+		for k := colT; k <= colU; k++ {
+			if string(name) == fieldNames[k] {
+				c.kind = k
+			}
+		}
+		if c.kind != colExtra {
+			known = true
+			if seen&(1<<c.kind) != 0 {
+				return p.reject(ErrDuplicateKey, fieldNames[c.kind], line)
+			}
+			seen |= 1 << c.kind
+		} else {
+			var ok bool
+			if c.name, ok = p.intern(name); !ok {
+				return p.reject(ErrTooManyKeys, "", line)
+			}
+			for _, o := range cols {
+				if o.kind == colExtra && o.name == c.name {
+					return p.reject(ErrDuplicateKey, c.name, line)
+				}
+			}
+		}
+		cols = append(cols, c)
+	}
+	if !known {
+		return p.reject(ErrSyntax, "", line)
+	}
+	const need = 1<<colSP | 1<<colPV
+	if seen&need != need {
+		field := "sp"
+		if seen&(1<<colSP) != 0 {
+			field = "pv"
+		}
+		return p.reject(ErrMissingField, field, line)
+	}
+	p.cols = cols
+	p.stats.Headers++
+	return RecNone
+}
+
+// parseRow reads a numeric row ("512,498,1") against the column header.
+func (p *Parser) parseRow(line []byte, i int, host int64, hasHost bool) RecordKind {
+	if p.cols == nil {
+		return p.reject(ErrNoHeader, "", line)
+	}
+	var s Sample
+	p.extras = p.extras[:0]
+	n := len(line)
+	for _, c := range p.cols {
+		for i < n && isSep(line[i]) {
+			i++
+		}
+		if i >= n {
+			return p.reject(ErrFieldCount, "", line)
+		}
+		var ok bool
+		switch c.kind {
+		case colT:
+			var v uint64
+			if v, i, ok = parseUint(line, i); ok {
+				s.T = p.unwrap(v)
+				s.Flags |= HasT
+			}
+		case colN:
+			var v uint64
+			if v, i, ok = parseUint(line, i); ok {
+				s.N = int64(v)
+				s.Flags |= HasN
+			}
+		case colSP:
+			s.SP, i, ok = parseNum(line, i)
+		case colPV:
+			s.PV, i, ok = parseNum(line, i)
+		case colU:
+			if s.U, i, ok = parseDrive(line, i); ok {
+				s.Flags |= HasU
+			} else {
+				return p.reject(ErrBadDrive, "u", line)
+			}
+		default:
+			var v float64
+			if v, i, ok = parseNum(line, i); ok {
+				p.extras = append(p.extras, Extra{Name: c.name, Value: v})
+			}
+		}
+		if !ok {
+			field := c.name
+			if c.kind != colExtra {
+				field = fieldNames[c.kind]
+			}
+			return p.reject(ErrBadNumber, field, line)
+		}
+	}
+	for i < n && isSep(line[i]) {
+		i++
+	}
+	if i < n {
+		return p.reject(ErrFieldCount, "", line)
+	}
+	return p.accept(s, host, hasHost)
+}
+
+// parseHash reads a '#' line from line[i:]: a meta line when its first word is
+// key=value, else a comment.
+func (p *Parser) parseHash(line []byte, i int) RecordKind {
+	rest := line[i:]
+	words := bytes.FieldsFunc(rest, func(r rune) bool { return r == ' ' || r == '\t' || r == ',' })
+	if len(words) == 0 || bytes.IndexByte(words[0], '=') <= 0 {
+		if !printableText(line) {
+			return p.reject(ErrBinary, "", line)
+		}
+		p.stats.Comments++
+		return RecNone
+	}
+	var m Meta
+	for _, w := range words {
+		k, v, ok := bytes.Cut(w, []byte{'='})
+		key := string(k)
+		if !ok || len(k) == 0 || len(v) == 0 {
+			return p.reject(ErrBadMeta, SanitizeN(k, 32), line)
+		}
+		f, err := m.setField(key, string(v))
+		if err != nil {
+			return p.reject(ErrBadMeta, key, line)
+		}
+		if f != 0 {
+			if m.Set&f != 0 {
+				return p.reject(ErrDuplicateKey, key, line)
+			}
+			m.Set |= f
+		}
+	}
+	p.delta = m
+	p.meta = p.meta.Merge(m)
+	p.stats.Metas++
+	return RecMeta
+}
+
+// setField stores one meta key=value in m and returns its field bit (0 for an unknown
+// key, which is ignored so newer firmware can send more).
+func (m *Meta) setField(key, val string) (MetaField, error) {
+	positive := func(unit string) (float64, error) {
+		v, err := si.ParseUnit(val, unit)
+		if err == nil && v <= 0 {
+			err = ErrBadMeta
+		}
+		return v, err
+	}
+	var err error
+	switch key {
+	case "vref":
+		m.Vref, err = positive("V")
+		return FieldVref, err
+	case "adc_bits":
+		var b int
+		b, err = strconv.Atoi(val)
+		if err == nil && (b < 1 || b > 32) {
+			err = ErrBadMeta
+		}
+		m.ADCBits = b
+		return FieldADCBits, err
+	case "period_us":
+		var us float64
+		us, err = positive("")
+		m.Period = us * 1e-6
+		return FieldPeriod, err
+	case "mode":
+		switch val {
+		case "two-state":
+			m.Mode = TwoState
+		case "three-state":
+			m.Mode = ThreeState
+		default:
+			err = ErrBadMeta
+		}
+		return FieldMode, err
+	case "deadband":
+		m.Deadband, err = si.Parse(val)
+		if err == nil && m.Deadband < 0 {
+			err = ErrBadMeta
+		}
+		return FieldDeadband, err
+	case "supply":
+		m.Supply, err = positive("V")
+		return FieldSupply, err
+	case "r":
+		m.R, err = positive("Ω")
+		return FieldR, err
+	case "c":
+		m.C, err = positive("F")
+		return FieldC, err
+	case "load":
+		m.Load, err = positive("Ω")
+		return FieldLoad, err
+	}
+	return 0, nil
+}
+
+// reject counts a rejected line and remembers why. A line with control bytes or invalid
+// UTF-8 is reported as ErrBinary whatever else was wrong with it.
+func (p *Parser) reject(err error, field string, line []byte) RecordKind {
+	if err != ErrTooLong && err != ErrBinary && !printableText(line) {
+		err, field = ErrBinary, ""
+	}
+	p.stats.Rejected++
+	p.errKind, p.errField, p.errText, p.errLineNo = err, field, line, p.line
+	if len(p.stats.FirstRejects) < MaxRejectsKept {
+		p.stats.FirstRejects = append(p.stats.FirstRejects, p.LastError())
+	}
+	return RecRejected
 }
