@@ -1,0 +1,566 @@
+package telemetry
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"sync"
+	"syscall"
+	"time"
+)
+
+// Line is one line of a live link: a line the board sent (Dir FromBoard), a command the
+// host sent (ToBoard), or a host event (HostEvent) such as "unplugged". Raw is the line
+// without its terminator (LF or CRLF), byte for byte as received: it is untrusted, so
+// sanitise it before showing it. Host is the time the line was received or sent.
+type Line struct {
+	Host time.Time
+	Dir  Direction
+	Raw  []byte
+}
+
+// EventKind returns the first word of a HostEvent line ("unplugged", "reconnected", ...)
+// and "" for other lines.
+func (ln Line) EventKind() string {
+	if ln.Dir != HostEvent {
+		return ""
+	}
+	if i := bytes.IndexByte(ln.Raw, ' '); i >= 0 {
+		return string(ln.Raw[:i])
+	}
+	return string(ln.Raw)
+}
+
+// Host events of a Link. An event line's Raw starts with one of these words, followed
+// for some of them by a space and details.
+const (
+	EventConnected   = "connected"   // first open of the port: "connected /dev/ttyACM0 115200 8N1"
+	EventReconnected = "reconnected" // the port came back after an unplug
+	EventUnplugged   = "unplugged"   // the port went away (unplug, board reset with USB re-enumeration)
+	EventPartial     = "partial"     // the partial first line after an open was dropped: "partial 17 bytes"
+	EventWaiting     = "waiting"     // the port cannot be opened yet: "waiting <reason>"
+)
+
+// LinkOptions tune a Link. The zero value works: no recording, reopen polled every 250 ms.
+type LinkOptions struct {
+	// Record, when set, receives a capture (see CaptureWriter) of every line: board lines,
+	// sent commands and events. It is flushed at least every second, and synced to disk
+	// when it has a Sync method (an *os.File does). The Link does not close it.
+	Record io.Writer
+	// RecordPath, when set (and Record is not), is a file the Link creates (replacing an
+	// existing one) for the capture, syncs and closes.
+	RecordPath string
+	// RecordAttrs are extra key=value pairs for the capture header.
+	RecordAttrs []string
+	// Poll is how often a port that is not there is tried again; 0 = 250 ms.
+	Poll time.Duration
+	// FlushEvery is how often the recording is flushed and synced; 0 = 500 ms, at most 1 s.
+	FlushEvery time.Duration
+	// MaxLine cuts longer lines (the rest up to the newline is discarded and the line is
+	// counted in LinkStats.Cut); 0 = 4096 bytes.
+	MaxLine int
+	// Queue bounds the lines waiting for the consumer of Batches; when the consumer lags
+	// further, the oldest waiting lines are dropped from delivery (never from the
+	// recording) and counted in LinkStats.Dropped. 0 = 65536.
+	Queue int
+	// FailFirst stops the Link when the very first open fails (Err says why) instead of
+	// polling until the port appears.
+	FailFirst bool
+}
+
+// LinkStats are the counters of a Link.
+type LinkStats struct {
+	Lines     int64 // board lines received
+	Sent      int64 // commands sent
+	Partial   int64 // partial first lines dropped after an open
+	Cut       int64 // lines longer than MaxLine, cut
+	Dropped   int64 // lines not delivered on Batches because the consumer lagged (still recorded)
+	Opens     int64 // successful opens of the port
+	Unplugs   int64 // times the port went away
+	Connected bool  // the port is open now
+	LastErr   error // the latest open or read error, nil after a good open
+}
+
+// Link keeps a serial port open for a live session: it reads lines in its own goroutine,
+// stamps them with the host time, optionally records them, and hands them out in batches.
+// When the port goes away (unplug, reset with USB re-enumeration) it emits an "unplugged"
+// event, polls the path until it can open it again (a symlink is resolved anew each time)
+// and emits "reconnected". After every open the partial first line is dropped and counted.
+//
+// The reader goroutine never waits for the consumer of Batches: lines queue (bounded by
+// LinkOptions.Queue) and the oldest are dropped from delivery if the consumer falls far
+// behind; the recording never drops a line.
+type Link struct {
+	cfg   SerialConfig
+	opt   LinkOptions
+	start time.Time
+
+	out        chan []Line
+	notify     chan struct{}
+	done       chan struct{} // closed by Close
+	readerDone chan struct{}
+	dispDone   chan struct{}
+	flushDone  chan struct{}
+	closeOnce  sync.Once
+
+	mu      sync.Mutex // pending, stats, err
+	pending []Line
+	stats   LinkStats
+	err     error
+
+	portMu sync.RWMutex // port; writers hold it shared, closers exclusively
+	port   io.ReadWriteCloser
+
+	recMu    sync.Mutex
+	rec      *CaptureWriter
+	recSync  interface{ Sync() error }
+	recFile  *os.File
+	recDirty bool
+	recErr   error
+}
+
+// Dial starts a Link on cfg.Path and returns at once; the port is opened (and reopened) by
+// the Link's goroutine. Stop it with Close.
+func Dial(cfg SerialConfig, opt LinkOptions) *Link {
+	cfg = cfg.withDefaults()
+	if opt.Poll <= 0 {
+		opt.Poll = 250 * time.Millisecond
+	}
+	if opt.FlushEvery <= 0 || opt.FlushEvery > time.Second {
+		opt.FlushEvery = 500 * time.Millisecond
+	}
+	if opt.MaxLine <= 0 {
+		opt.MaxLine = 4096
+	}
+	if opt.Queue <= 0 {
+		opt.Queue = 1 << 16
+	}
+	l := &Link{
+		cfg:        cfg,
+		opt:        opt,
+		start:      time.Now(),
+		out:        make(chan []Line, 8),
+		notify:     make(chan struct{}, 1),
+		done:       make(chan struct{}),
+		readerDone: make(chan struct{}),
+		dispDone:   make(chan struct{}),
+		flushDone:  make(chan struct{}),
+	}
+	if err := l.openRecord(); err != nil {
+		l.err = err
+		close(l.readerDone)
+		close(l.flushDone)
+		go l.dispatch()
+		return l
+	}
+	go l.run()
+	go l.dispatch()
+	go l.flusher()
+	return l
+}
+
+// Path returns the port path the Link opens.
+func (l *Link) Path() string { return l.cfg.Path }
+
+// Start returns the time the Link was made; capture times count from it.
+func (l *Link) Start() time.Time { return l.start }
+
+// Batches returns the channel of line batches, in order. It is closed after Close, or when
+// the Link stops by itself (FailFirst, recording file not creatable; see Err).
+func (l *Link) Batches() <-chan []Line { return l.out }
+
+// Stats returns a snapshot of the counters.
+func (l *Link) Stats() LinkStats {
+	l.mu.Lock()
+	defer l.mu.Unlock()
+	return l.stats
+}
+
+// Err returns why the Link stopped by itself, or the first recording error; nil otherwise.
+func (l *Link) Err() error {
+	l.mu.Lock()
+	err := l.err
+	l.mu.Unlock()
+	if err != nil {
+		return err
+	}
+	l.recMu.Lock()
+	defer l.recMu.Unlock()
+	return l.recErr
+}
+
+// Send writes cmd and a newline to the board (for example "set deadband=14") and records
+// it as a ToBoard line. cmd must be one line. Without an open port it returns an error
+// wrapping ErrNotConnected.
+func (l *Link) Send(cmd string) error {
+	if i := bytes.IndexAny([]byte(cmd), "\r\n"); i >= 0 {
+		return fmt.Errorf("%w: command %q holds a line break", ErrSerialConfig, cmd)
+	}
+	l.portMu.RLock()
+	defer l.portMu.RUnlock()
+	if l.port == nil {
+		return &SerialError{Path: l.cfg.Path, Op: "write", Kind: ErrNotConnected}
+	}
+	if _, err := l.port.Write([]byte(cmd + "\n")); err != nil {
+		return readError(l.cfg.Path, "write", err)
+	}
+	l.mu.Lock()
+	l.stats.Sent++
+	l.mu.Unlock()
+	l.deliver([]Line{{Host: time.Now(), Dir: ToBoard, Raw: []byte(cmd)}})
+	return nil
+}
+
+// Close stops the Link: it closes the port, flushes, syncs and (for RecordPath) closes the
+// recording, and closes Batches. Lines not yet taken from Batches are discarded. It returns
+// the first recording error. Closing twice is harmless.
+func (l *Link) Close() error {
+	l.closeOnce.Do(func() {
+		close(l.done)
+		l.portMu.Lock()
+		if l.port != nil {
+			l.port.Close()
+		}
+		l.portMu.Unlock()
+		<-l.readerDone
+		<-l.dispDone
+		<-l.flushDone
+		l.flushRecord()
+		if l.recFile != nil {
+			l.recMu.Lock()
+			if err := l.recFile.Close(); err != nil && l.recErr == nil {
+				l.recErr = fmt.Errorf("telemetry: close %s: %w", l.opt.RecordPath, err)
+			}
+			l.recMu.Unlock()
+		}
+	})
+	l.recMu.Lock()
+	defer l.recMu.Unlock()
+	return l.recErr
+}
+
+func (l *Link) isDone() bool {
+	select {
+	case <-l.done:
+		return true
+	default:
+		return false
+	}
+}
+
+// sleep waits d or until Close; it reports whether the Link is still running.
+func (l *Link) sleep(d time.Duration) bool {
+	t := time.NewTimer(d)
+	defer t.Stop()
+	select {
+	case <-l.done:
+		return false
+	case <-t.C:
+		return true
+	}
+}
+
+// run is the reader goroutine: open, read until the port fails, report, poll, reopen.
+func (l *Link) run() {
+	defer close(l.readerDone)
+	buf := make([]byte, 4096)
+	first := true
+	lastWait := ""
+	for !l.isDone() {
+		p, err := openPort(l.cfg)
+		if err != nil {
+			l.mu.Lock()
+			l.stats.LastErr = err
+			if first && l.opt.FailFirst {
+				l.err = err
+				l.mu.Unlock()
+				return
+			}
+			l.mu.Unlock()
+			// After an unplug a missing port is expected (the unplugged event said so);
+			// other reasons, and any reason before the first open, are reported once.
+			quiet := !first && errors.Is(err, ErrPortNotFound)
+			if msg := err.Error(); msg != lastWait && !quiet {
+				lastWait = msg
+				l.event(EventWaiting + " " + msg)
+			}
+			if !l.sleep(l.opt.Poll) {
+				return
+			}
+			continue
+		}
+		lastWait = ""
+		l.portMu.Lock()
+		if l.isDone() {
+			l.portMu.Unlock()
+			p.Close()
+			return
+		}
+		l.port = p
+		l.portMu.Unlock()
+		l.mu.Lock()
+		l.stats.Opens++
+		l.stats.Connected = true
+		l.stats.LastErr = nil
+		l.mu.Unlock()
+		if first {
+			l.event(fmt.Sprintf("%s %s %s", EventConnected, l.cfg.Path, l.cfg))
+		} else {
+			l.event(EventReconnected)
+		}
+		first = false
+
+		err = l.readLoop(p, buf)
+
+		l.portMu.Lock()
+		l.port = nil
+		p.Close()
+		l.portMu.Unlock()
+		l.mu.Lock()
+		l.stats.Connected = false
+		if l.isDone() {
+			l.mu.Unlock()
+			return
+		}
+		l.stats.Unplugs++
+		l.stats.LastErr = readError(l.cfg.Path, "read", err)
+		l.mu.Unlock()
+		l.event(EventUnplugged)
+		l.flushRecord() // the capture is complete up to the unplug
+		if !l.sleep(l.opt.Poll) {
+			return
+		}
+	}
+}
+
+// readLoop reads the open port until it fails, splitting lines and dropping the partial
+// first one.
+func (l *Link) readLoop(p io.Reader, buf []byte) error {
+	dropping := true // before the first newline after open
+	skipped := 0     // bytes of the partial first line
+	var lastSkipped byte
+	cur := make([]byte, 0, 256)
+	cut := false
+	var lines []Line
+	for {
+		n, err := p.Read(buf)
+		now := time.Now()
+		data := buf[:n]
+		lines = lines[:0]
+		for len(data) > 0 {
+			i := bytes.IndexByte(data, '\n')
+			seg := data
+			if i >= 0 {
+				seg, data = data[:i], data[i+1:]
+			} else {
+				data = nil
+			}
+			if dropping {
+				if len(seg) > 0 {
+					skipped += len(seg)
+					lastSkipped = seg[len(seg)-1]
+				}
+				if i >= 0 {
+					dropping = false
+					if lastSkipped == '\r' {
+						skipped--
+					}
+					if skipped > 0 {
+						l.mu.Lock()
+						l.stats.Partial++
+						l.mu.Unlock()
+						lines = append(lines, Line{Host: now, Dir: HostEvent,
+							Raw: fmt.Appendf(nil, "%s %d bytes", EventPartial, skipped)})
+					}
+				}
+				continue
+			}
+			if room := l.opt.MaxLine - len(cur); len(seg) > room {
+				cur = append(cur, seg[:room]...)
+				cut = true
+			} else {
+				cur = append(cur, seg...)
+			}
+			if i >= 0 {
+				raw := bytes.TrimSuffix(cur, []byte{'\r'})
+				lines = append(lines, Line{Host: now, Dir: FromBoard, Raw: bytes.Clone(raw)})
+				l.mu.Lock()
+				l.stats.Lines++
+				if cut {
+					l.stats.Cut++
+				}
+				l.mu.Unlock()
+				cur, cut = cur[:0], false
+			}
+		}
+		if len(lines) > 0 {
+			l.deliver(lines)
+		}
+		if err != nil {
+			return err
+		}
+		if n == 0 && l.isDone() {
+			return io.EOF
+		}
+	}
+}
+
+// event records and delivers a host event line.
+func (l *Link) event(text string) {
+	l.deliver([]Line{{Host: time.Now(), Dir: HostEvent, Raw: []byte(text)}})
+}
+
+// deliver records lines and queues them for the consumer without waiting for it. The
+// slice is copied, so callers may reuse it.
+func (l *Link) deliver(lines []Line) {
+	l.record(lines)
+	l.mu.Lock()
+	l.pending = append(l.pending, lines...)
+	if over := len(l.pending) - l.opt.Queue; over > 0 {
+		drop := over + l.opt.Queue/4 // drop a chunk, not one line at a time
+		if drop > len(l.pending) {
+			drop = len(l.pending)
+		}
+		l.stats.Dropped += int64(drop)
+		l.pending = append(l.pending[:0], l.pending[drop:]...)
+	}
+	l.mu.Unlock()
+	select {
+	case l.notify <- struct{}{}:
+	default:
+	}
+}
+
+// dispatch moves queued lines to the Batches channel; it is the only goroutine that may
+// wait for the consumer.
+func (l *Link) dispatch() {
+	defer close(l.dispDone)
+	defer close(l.out)
+	readerDone := l.readerDone
+	for {
+		select {
+		case <-l.notify:
+		case <-readerDone:
+			// The reader stopped by itself: hand out what is left, then end.
+			readerDone = nil
+		case <-l.done:
+			return
+		}
+		l.mu.Lock()
+		b := l.pending
+		l.pending = nil
+		l.mu.Unlock()
+		if len(b) > 0 {
+			select {
+			case l.out <- b:
+			case <-l.done:
+				return
+			}
+		}
+		if readerDone == nil {
+			l.mu.Lock()
+			left := len(l.pending)
+			l.mu.Unlock()
+			if left == 0 {
+				return
+			}
+		}
+	}
+}
+
+// openRecord sets up the capture writer from the options.
+func (l *Link) openRecord() error {
+	w := l.opt.Record
+	if w == nil && l.opt.RecordPath != "" {
+		f, err := os.Create(l.opt.RecordPath)
+		if err != nil {
+			return fmt.Errorf("telemetry: create capture: %w", err)
+		}
+		l.recFile = f
+		w = f
+	}
+	if w == nil {
+		return nil
+	}
+	attrs := append([]string{
+		"source=" + l.cfg.Path,
+		fmt.Sprintf("baud=%d", l.cfg.Baud),
+		fmt.Sprintf("framing=%s", frameString(l.cfg)),
+	}, l.opt.RecordAttrs...)
+	cw, err := NewCaptureWriter(w, l.start, attrs...)
+	if err != nil {
+		if l.recFile != nil {
+			l.recFile.Close()
+		}
+		return fmt.Errorf("telemetry: write capture header: %w", err)
+	}
+	l.rec = cw
+	l.recDirty = true
+	if s, ok := w.(interface{ Sync() error }); ok {
+		l.recSync = s
+	}
+	return nil
+}
+
+// frameString returns "8N1" style framing of a config with defaults filled in.
+func frameString(c SerialConfig) string {
+	s := c.String()
+	if i := bytes.IndexByte([]byte(s), ' '); i >= 0 {
+		return s[i+1:]
+	}
+	return s
+}
+
+// record appends lines to the capture; a write error is kept and stops recording.
+func (l *Link) record(lines []Line) {
+	l.recMu.Lock()
+	defer l.recMu.Unlock()
+	if l.rec == nil || l.recErr != nil {
+		return
+	}
+	for _, ln := range lines {
+		if err := l.rec.Write(ln.Host.Sub(l.start), ln.Dir, ln.Raw); err != nil {
+			l.recErr = fmt.Errorf("telemetry: write capture: %w", err)
+			return
+		}
+	}
+	l.recDirty = true
+}
+
+// flushRecord flushes the capture and syncs it to disk.
+func (l *Link) flushRecord() {
+	l.recMu.Lock()
+	defer l.recMu.Unlock()
+	if l.rec == nil || l.recErr != nil || !l.recDirty {
+		return
+	}
+	l.recDirty = false
+	if err := l.rec.Flush(); err != nil {
+		l.recErr = fmt.Errorf("telemetry: write capture: %w", err)
+		return
+	}
+	if l.recSync != nil {
+		if err := l.recSync.Sync(); err != nil && !errors.Is(err, syscall.EINVAL) {
+			// EINVAL: the writer is a pipe or terminal, which has nothing to sync.
+			l.recErr = fmt.Errorf("telemetry: sync capture: %w", err)
+		}
+	}
+}
+
+// flusher flushes the recording every FlushEvery until the reader stops.
+func (l *Link) flusher() {
+	defer close(l.flushDone)
+	t := time.NewTicker(l.opt.FlushEvery)
+	defer t.Stop()
+	for {
+		select {
+		case <-t.C:
+			l.flushRecord()
+		case <-l.readerDone:
+			l.flushRecord()
+			return
+		}
+	}
+}
