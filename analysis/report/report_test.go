@@ -1,0 +1,282 @@
+package report
+
+import (
+	"bytes"
+	"encoding/xml"
+	"errors"
+	"flag"
+	"image/png"
+	"os"
+	"path/filepath"
+	"regexp"
+	"strings"
+	"testing"
+	"unicode/utf8"
+
+	"github.com/caploop/caploop/analysis"
+)
+
+var update = flag.Bool("update", false, "rewrite the golden files in testdata")
+
+// golden compares got with testdata/<test name>.golden, rewriting it with -update.
+func golden(t *testing.T, got []byte) {
+	t.Helper()
+	path := filepath.Join("testdata", filepath.FromSlash(t.Name())+".golden")
+	if *update {
+		if err := os.MkdirAll(filepath.Dir(path), 0o755); err != nil {
+			t.Fatal(err)
+		}
+		if err := os.WriteFile(path, got, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return
+	}
+	want, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatalf("%v (run go test -update to create it)", err)
+	}
+	if !bytes.Equal(got, want) {
+		t.Errorf("%s differs from the golden file; got:\n%s\nwant:\n%s", path, got, want)
+	}
+}
+
+func TestTablesGolden(t *testing.T) {
+	before := Doc{Name: "before", Summary: fixtureSummary(), Advice: fixtureAdvice()}
+	after := Doc{Name: "after", Summary: fixtureAfter()}
+	tables := DocTables(before, "")
+	tables = append(tables, CompareTable([]Doc{before, after}))
+	var ids []string
+	for _, tb := range tables {
+		ids = append(ids, tb.ID)
+		t.Run(tb.ID, func(t *testing.T) {
+			var buf bytes.Buffer
+			if err := RenderTable(&buf, tb); err != nil {
+				t.Fatal(err)
+			}
+			golden(t, buf.Bytes())
+		})
+	}
+	want := "capture board plant segments steps diagnostics rejects advice-deadband advice-parts advice-period advice-topology advice-notes compare"
+	if got := strings.Join(ids, " "); got != want {
+		t.Errorf("tables:\ngot  %s\nwant %s", got, want)
+	}
+}
+
+// links matches anything in a page that could make a browser fetch: src/href attributes,
+// CSS url() and @import.
+var links = regexp.MustCompile(`(?i)\b(src|href|xlink:href|action|srcset)\s*=|url\(|@import`)
+
+func TestWriteHTML(t *testing.T) {
+	one := []Doc{synth(benchBefore)}
+	two := []Doc{synth(benchBefore), synth(benchAfter)}
+	tests := []struct {
+		name  string
+		docs  []Doc
+		plots map[string]int // data-plot kind -> count
+		ids   []string       // table ids that must be present
+	}{
+		{"one capture", one, map[string]int{"overview": 1, "zoom": 3, "histogram": 1, "spectrum": 1, "step": 2, "ripple": 0},
+			[]string{"capture", "segments", "diagnostics"}},
+		{"before and after", two, map[string]int{"overview": 2, "zoom": 6, "histogram": 2, "spectrum": 2, "step": 4, "ripple": 1},
+			[]string{"compare", "c1-capture", "c2-segments"}},
+		{"no waveforms", []Doc{{Name: "bare", Summary: fixtureSummary(), Advice: fixtureAdvice()}},
+			map[string]int{"overview": 0, "zoom": 0}, []string{"capture", "advice-parts"}},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			var buf bytes.Buffer
+			if err := WriteHTML(&buf, tc.docs, Options{Title: "bench reference", Note: "made by a test"}); err != nil {
+				t.Fatal(err)
+			}
+			page := buf.String()
+			if !strings.HasPrefix(page, "<!DOCTYPE html>") {
+				t.Errorf("page does not start with a doctype: %.40q", page)
+			}
+			for kind, n := range tc.plots {
+				if got := strings.Count(page, `data-plot="`+kind+`"`); got != n {
+					t.Errorf("plots of kind %s: got %d, want %d", kind, got, n)
+				}
+			}
+			for _, id := range tc.ids {
+				if !strings.Contains(page, `<table id="`+id+`">`) {
+					t.Errorf("table %q missing", id)
+				}
+			}
+			if strings.Contains(strings.ToLower(page), "<script") {
+				t.Errorf("page holds a script")
+			}
+			if m := links.FindString(page); m != "" {
+				t.Errorf("page could fetch something: %q", m)
+			}
+			// The only URLs are the SVG namespaces.
+			rest := strings.NewReplacer(`"http://www.w3.org/2000/svg"`, "", `"http://www.w3.org/1999/xlink"`, "").Replace(page)
+			if i := strings.Index(rest, "://"); i >= 0 {
+				t.Errorf("page names a URL: %q", rest[i:min(len(rest), i+60)])
+			}
+			if !strings.Contains(page, "Content-Security-Policy") {
+				t.Errorf("page has no Content-Security-Policy")
+			}
+		})
+	}
+}
+
+func TestWriteHTMLNoDocs(t *testing.T) {
+	if err := WriteHTML(&bytes.Buffer{}, nil, Options{}); !errors.Is(err, ErrNoDocs) {
+		t.Errorf("got %v, want ErrNoDocs", err)
+	}
+}
+
+func TestHostileText(t *testing.T) {
+	hostile := "<script>alert(1)</script>\x1b[2J\xff\xfe\u202egnp.exe"
+	a := synth(benchBefore)
+	a.Name = hostile
+	a.Summary.Source = hostile
+	a.Summary.FirstRejects = []analysis.Reject{{Line: 3, Reason: "</td><img src=x onerror=alert(1)>" + hostile}}
+	a.Summary.RejectedLines = 1
+	a.Summary.Diagnostics = append(a.Summary.Diagnostics, analysis.Diagnostic{Code: "x\"><b>", Severity: "warning", Message: hostile})
+	a.Summary.Board.Mode = hostile
+	b := synth(benchAfter)
+	b.Name = "after " + hostile
+	docs := []Doc{a, b}
+	var html, svg bytes.Buffer
+	if err := WriteHTML(&html, docs, Options{Title: hostile, Note: hostile}); err != nil {
+		t.Fatal(err)
+	}
+	if err := WritePicture(&svg, docs, "svg"); err != nil {
+		t.Fatal(err)
+	}
+	for _, out := range []struct {
+		name string
+		text string
+	}{{"html", html.String()}, {"svg", svg.String()}} {
+		t.Run(out.name, func(t *testing.T) {
+			for _, bad := range []string{"<script>", "<img", "<b>", "\x1b", "\u202e", "\xff"} {
+				if strings.Contains(out.text, bad) {
+					t.Errorf("output holds %q", bad)
+				}
+			}
+			if !utf8.ValidString(out.text) {
+				t.Errorf("output is not valid UTF-8")
+			}
+			if !strings.Contains(out.text, `&lt;script&gt;alert(1)&lt;/script&gt;\x1b[2J\xff\xfe\u{202e}gnp.exe`) {
+				t.Errorf("output does not show the name escaped and sanitised")
+			}
+		})
+	}
+}
+
+func TestWritePicture(t *testing.T) {
+	tests := []struct {
+		name   string
+		docs   []Doc
+		format string
+		wantW  int // PNG width in pixels: 30 cm at 96 dpi
+	}{
+		{"svg one", []Doc{synth(benchBefore)}, "svg", 0},
+		{"svg two", []Doc{synth(benchBefore), synth(benchAfter)}, "SVG", 0},
+		{"png one", []Doc{synth(benchBefore)}, "png", 1134},
+		{"png two", []Doc{synth(benchBefore), synth(benchAfter)}, "png", 1134},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			var buf bytes.Buffer
+			if err := WritePicture(&buf, tc.docs, tc.format); err != nil {
+				t.Fatal(err)
+			}
+			if tc.wantW == 0 {
+				paths, texts := 0, 0
+				dec := xml.NewDecoder(bytes.NewReader(buf.Bytes()))
+				for {
+					tok, err := dec.Token()
+					if err != nil {
+						if err.Error() != "EOF" {
+							t.Fatalf("svg does not parse: %v", err)
+						}
+						break
+					}
+					if se, ok := tok.(xml.StartElement); ok {
+						switch se.Name.Local {
+						case "path":
+							paths++
+						case "text":
+							texts++
+						}
+					}
+				}
+				if paths < 50 || texts < 20 {
+					t.Errorf("svg has %d paths and %d texts, want at least 50 and 20", paths, texts)
+				}
+				return
+			}
+			img, err := png.Decode(&buf)
+			if err != nil {
+				t.Fatalf("png does not decode: %v", err)
+			}
+			bnd := img.Bounds()
+			if bnd.Dx() != tc.wantW {
+				t.Errorf("png width: got %d, want %d", bnd.Dx(), tc.wantW)
+			}
+			ink := 0
+			for y := bnd.Min.Y; y < bnd.Max.Y; y += 2 {
+				for x := bnd.Min.X; x < bnd.Max.X; x += 2 {
+					if r, g, b, _ := img.At(x, y).RGBA(); r < 0xc000 || g < 0xc000 || b < 0xc000 {
+						ink++
+					}
+				}
+			}
+			if frac := float64(ink) / float64(bnd.Dx()*bnd.Dy()/4); frac < 0.01 {
+				t.Errorf("png is nearly blank: %.3f of pixels inked", frac)
+			}
+		})
+	}
+}
+
+func TestWritePictureErrors(t *testing.T) {
+	tests := []struct {
+		name   string
+		docs   []Doc
+		format string
+		want   string
+	}{
+		{"bad format", []Doc{synth(benchBefore)}, "gif", "want svg or png"},
+		{"no docs", nil, "svg", "no capture"},
+		{"no traces", []Doc{{Name: "bare", Summary: fixtureSummary()}}, "png", "nothing to draw"},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			err := WritePicture(&bytes.Buffer{}, tc.docs, tc.format)
+			if err == nil || !strings.Contains(err.Error(), tc.want) {
+				t.Errorf("got %v, want an error containing %q", err, tc.want)
+			}
+		})
+	}
+}
+
+func TestNiceTicks(t *testing.T) {
+	tests := []struct {
+		name   string
+		lo, hi float64
+		want   []string
+	}{
+		{"unit range", 0, 10, []string{"0", "2", "4", "6", "8", "10"}},
+		{"narrow ripple around 1.46 V", 1.455, 1.49, []string{"1.455", "1.460", "1.465", "1.470", "1.475", "1.480", "1.485", "1.490"}},
+		{"negative to positive", -1.3, 1.3, []string{"-1.0", "-0.5", "0.0", "0.5", "1.0"}},
+		{"large", 0, 120000, []string{"0", "20000", "40000", "60000", "80000", "100000", "120000"}},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			var got []string
+			for _, tk := range (niceTicks{}).Ticks(tc.lo, tc.hi) {
+				if tk.Label != "" {
+					got = append(got, tk.Label)
+				}
+				if tk.Value < tc.lo-1e-9 || tk.Value > tc.hi+1e-9 {
+					t.Errorf("tick %v outside [%v, %v]", tk.Value, tc.lo, tc.hi)
+				}
+			}
+			if strings.Join(got, " ") != strings.Join(tc.want, " ") {
+				t.Errorf("labels: got %v, want %v", got, tc.want)
+			}
+		})
+	}
+}

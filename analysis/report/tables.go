@@ -1,0 +1,462 @@
+package report
+
+import (
+	"fmt"
+	"math"
+	"strconv"
+
+	"github.com/caploop/caploop/analysis"
+	"github.com/caploop/caploop/analysis/advice"
+	"github.com/caploop/caploop/telemetry/si"
+)
+
+// Table is one table of the report: a caption, a header row and rows of text cells. Cells
+// hold plain text; the template escapes it.
+type Table struct {
+	ID      string // HTML id, unique in the page
+	Caption string
+	Head    []string
+	Rows    []Row
+}
+
+// Row is one table row; Class, when set, is a CSS class ("warning", "error", "better",
+// "worse") that colours the row.
+type Row struct {
+	Cells []string
+	Class string
+}
+
+func (t *Table) add(cells ...string) { t.Rows = append(t.Rows, Row{Cells: cells}) }
+
+// DocTables returns the tables of one capture, in page order: capture, board, plant,
+// segments, steps, diagnostics, rejected lines and, when the doc has advice, the advice
+// tables. prefix makes the table ids unique when the page holds several captures.
+func DocTables(d Doc, prefix string) []Table {
+	s := d.Summary
+	if s == nil {
+		return nil
+	}
+	ts := []Table{
+		captureTable(s, prefix),
+		boardTable(s, prefix),
+		plantTable(s, prefix),
+		segmentsTable(s, prefix),
+	}
+	if len(s.Steps) > 0 {
+		ts = append(ts, stepsTable(s, prefix))
+	}
+	ts = append(ts, diagnosticsTable(s, prefix))
+	if len(s.FirstRejects) > 0 || s.RejectedLines > 0 {
+		ts = append(ts, rejectsTable(s, prefix))
+	}
+	if d.Advice != nil {
+		ts = append(ts, AdviceTables(d.Advice, prefix)...)
+	}
+	return ts
+}
+
+func captureTable(s *analysis.Summary, prefix string) Table {
+	t := Table{ID: prefix + "capture", Caption: "Capture", Head: []string{"figure", "value"}}
+	t.add("source", clean(s.Source))
+	t.add("samples", strconv.FormatInt(s.Samples, 10))
+	t.add("rejected lines", strconv.FormatInt(s.RejectedLines, 10))
+	t.add("duration", si.Format(s.DurationS, "s"))
+	from := s.PeriodFrom
+	if from == "" {
+		from = "unknown"
+	}
+	t.add("sample period", fmtSI(s.SamplePeriodS, "s")+" (from "+clean(from)+")")
+	t.add("jitter", fmtSI(s.JitterS, "s"))
+	t.add("gaps (missing samples)", strconv.FormatInt(s.Gaps, 10))
+	t.add("drive inferred from the rule", yesNo(s.InferredDrive))
+	return t
+}
+
+func boardTable(s *analysis.Summary, prefix string) Table {
+	b := s.Board
+	t := Table{ID: prefix + "board", Caption: "Board (as its meta lines said)", Head: []string{"field", "value"}}
+	t.add("ADC reference", fmtSI(b.VrefV, "V"))
+	bits := na
+	if b.ADCBits != nil {
+		bits = strconv.Itoa(*b.ADCBits) + " bits"
+	}
+	t.add("ADC resolution", bits)
+	mode := b.Mode
+	if mode == "" {
+		mode = na
+	}
+	t.add("controller", clean(mode))
+	t.add("deadband (half-width)", fmtCounts(b.DeadbandCounts))
+	t.add("supply", fmtSI(b.SupplyV, "V"))
+	t.add("R", fmtSI(b.ROhm, "Ω"))
+	t.add("C", fmtSI(b.CF, "F"))
+	t.add("load", fmtSI(b.LoadOhm, "Ω"))
+	return t
+}
+
+func plantTable(s *analysis.Summary, prefix string) Table {
+	p := s.Plant
+	t := Table{ID: prefix + "plant", Caption: "Identified circuit (95 % intervals)", Head: []string{"figure", "value", "interval"}}
+	t.add("tau, charging", fmtSI(p.TauChargeS, "s"), fmtCI(p.TauChargeCIS, "s"))
+	t.add("tau, discharging", fmtSI(p.TauDischargeS, "s"), fmtCI(p.TauDischargeCIS, "s"))
+	t.add("tau, holding", fmtSI(p.TauHoldS, "s"), fmtCI(p.TauHoldCIS, "s"))
+	t.add("charge end level (V high)", fmtSI(p.VHighV, "V"), fmtCI(p.VHighCIV, "V"))
+	t.add("discharge end level (V low)", fmtSI(p.VLowV, "V"), fmtCI(p.VLowCIV, "V"))
+	t.add("ADC noise (rms)", fmtCounts(p.NoiseRMSCounts), "")
+	t.add("missing codes", fmtInts(p.MissingCodes), "")
+	t.add("stuck codes", fmtInts(p.StuckCodes), "")
+	t.add("effective R (from tau and C)", fmtSI(p.EffectiveROhm, "Ω"), "")
+	t.add("effective C (from tau and R)", fmtSI(p.EffectiveCF, "F"), "")
+	t.add("load (from V high, supply and R)", fmtSI(p.LoadOhm, "Ω"), "")
+	t.add("sense drop (supply − V high)", fmtSI(p.SenseDropV, "V"), "")
+	return t
+}
+
+// setpointText is "512 counts (2.5 V)".
+func setpointText(g analysis.Segment) string {
+	txt := fmtNum(g.SetpointCounts) + " counts"
+	if g.SetpointV != nil && finite(*g.SetpointV) {
+		txt += " (" + si.Format(*g.SetpointV, "V") + ")"
+	}
+	return txt
+}
+
+// ripplePP is the peak-to-peak ripple in volts when known, else in counts.
+func ripplePP(g analysis.Segment) string {
+	if g.RipplePPV != nil {
+		return fmtSI(g.RipplePPV, "V")
+	}
+	return fmtCounts(g.RipplePPCounts)
+}
+
+func rippleRMS(g analysis.Segment) string {
+	if g.RippleRMSV != nil {
+		return fmtSI(g.RippleRMSV, "V")
+	}
+	return fmtCounts(g.RippleRMSCounts)
+}
+
+func meanError(g analysis.Segment) string {
+	if g.MeanErrorV != nil {
+		return fmtSI(g.MeanErrorV, "V")
+	}
+	return fmtCounts(g.MeanErrorCounts)
+}
+
+func segmentsTable(s *analysis.Summary, prefix string) Table {
+	t := Table{ID: prefix + "segments", Caption: "Segments (figures over the steady part)", Head: []string{
+		"#", "setpoint", "from – to", "steady samples", "mean error", "ripple p-p", "ripple rms",
+		"duty charge / hold / discharge", "limit-cycle period", "switching", "deadband", "band entries / exits", "band jumps", "reachable",
+	}}
+	for i, g := range s.Segments {
+		span := si.Format(g.StartS, "s") + " – " + si.Format(g.EndS, "s")
+		duty := fmtPct(g.DutyCharge) + " / " + fmtPct(g.DutyHold) + " / " + fmtPct(g.DutyDischarge)
+		r := Row{Cells: []string{
+			strconv.Itoa(i + 1), setpointText(g), span, strconv.FormatInt(g.SteadySamples, 10),
+			meanError(g), ripplePP(g), rippleRMS(g), duty, fmtSI(g.LimitCyclePeriodS, "s"),
+			fmtSI(g.SwitchingHz, "Hz"), fmtCounts(g.DeadbandCounts),
+			strconv.FormatInt(g.DeadbandEntries, 10) + " / " + strconv.FormatInt(g.DeadbandExits, 10),
+			strconv.FormatInt(g.BandJumps, 10), yesNo(!g.Unreachable),
+		}}
+		if g.Unreachable {
+			r.Class = "error"
+		} else if g.BandJumps > 0 {
+			r.Class = "warning"
+		}
+		t.Rows = append(t.Rows, r)
+	}
+	if len(s.Segments) == 0 {
+		t.add(append([]string{"no segment found"}, make([]string, len(t.Head)-1)...)...)
+	}
+	return t
+}
+
+func levelText(v *float64, counts float64) string {
+	if v != nil && finite(*v) {
+		return si.Format(*v, "V")
+	}
+	return fmtNum(counts) + " counts"
+}
+
+func stepsTable(s *analysis.Summary, prefix string) Table {
+	t := Table{ID: prefix + "steps", Caption: "Steps", Head: []string{"#", "at", "from", "to", "rise (10–90 %)", "settle", "overshoot", "slew"}}
+	for i, st := range s.Steps {
+		t.add(strconv.Itoa(i+1), si.Format(st.AtS, "s"), levelText(st.FromV, st.FromCounts), levelText(st.ToV, st.ToCounts),
+			fmtSI(st.RiseS, "s"), fmtSI(st.SettleS, "s"), fmtSI(st.OvershootV, "V"), fmtSI(st.SlewVPerS, "V/s"))
+	}
+	return t
+}
+
+func diagnosticsTable(s *analysis.Summary, prefix string) Table {
+	t := Table{ID: prefix + "diagnostics", Caption: "Diagnostics", Head: []string{"severity", "code", "finding"}}
+	for _, d := range s.Diagnostics {
+		sev := clean(d.Severity)
+		r := Row{Cells: []string{sev, clean(d.Code), clean(d.Message)}}
+		if d.Severity == "warning" || d.Severity == "error" {
+			r.Class = d.Severity
+		}
+		t.Rows = append(t.Rows, r)
+	}
+	if len(s.Diagnostics) == 0 {
+		t.add("", "", "nothing to report")
+	}
+	return t
+}
+
+func rejectsTable(s *analysis.Summary, prefix string) Table {
+	t := Table{ID: prefix + "rejects", Caption: fmt.Sprintf("Rejected lines (%d in all, first ones shown)", s.RejectedLines), Head: []string{"line", "reason"}}
+	for _, r := range s.FirstRejects {
+		t.add(strconv.FormatInt(r.Line, 10), clean(r.Reason))
+	}
+	return t
+}
+
+// AdviceTables returns the tables of an advice block: the suggested deadband with its
+// working, the R and C candidates, the sample period, circuit changes, cautions and
+// notes. Empty parts are left out.
+func AdviceTables(a *advice.Advice, prefix string) []Table {
+	var ts []Table
+	if a.DeadbandCounts != nil || a.Deadband != nil {
+		t := Table{ID: prefix + "advice-deadband", Caption: "Advice: deadband", Head: []string{"figure", "value"}}
+		if a.DeadbandCounts != nil {
+			t.add("suggested deadband (half-width)", strconv.Itoa(*a.DeadbandCounts)+" counts")
+		}
+		if w := a.Deadband; w != nil {
+			t.add("largest step near the setpoints", fmtNum(w.StepCounts)+" counts")
+			t.add("ADC noise (rms)", fmtNum(w.NoiseRMSCounts)+" counts")
+			t.add("noise margin", fmtNum(w.SigmaMultiple)+" σ = "+fmtNum(w.MarginCounts)+" counts")
+			t.add("static error it allows", si.Format(w.StaticErrorV, "V"))
+			if w.FromVoltageBand != nil {
+				t.add("from the ripple goal", strconv.Itoa(*w.FromVoltageBand)+" counts")
+			}
+			t.add("rule", clean(w.Rule))
+			t.add("band jumps in the checking simulation", strconv.FormatInt(w.VerifiedJumps, 10))
+		}
+		ts = append(ts, t)
+	}
+	if len(a.Candidates) > 0 {
+		t := Table{ID: prefix + "advice-parts", Caption: "Advice: R and C (each checked by simulating the loop)", Head: []string{
+			"R", "C", "series", "deadband", "ripple p-p", "settle", "pin current", "V∞ sag", "verdict", "trades"}}
+		for _, c := range a.Candidates {
+			r := Row{Cells: []string{si.Format(c.ROhm, "Ω"), si.Format(c.CF, "F"), clean(c.Series), strconv.Itoa(c.DeadbandCounts) + " counts",
+				si.Format(c.PredictedRipplePPV, "V"), si.Format(c.PredictedSettleS, "s"), si.Format(c.PinCurrentA, "A"),
+				si.Format(c.VInfSagV, "V"), clean(c.Verdict), clean(c.Trades)}}
+			if c.Verdict == "meets goals" {
+				r.Class = "better"
+			}
+			t.Rows = append(t.Rows, r)
+		}
+		ts = append(ts, t)
+	}
+	if p := a.SamplePeriod; p != nil {
+		t := Table{ID: prefix + "advice-period", Caption: "Advice: sample period", Head: []string{"current", "suggested", "floor (ADC conversion)", "reason"}}
+		t.add(si.Format(p.CurrentS, "s"), si.Format(p.SuggestedS, "s"), si.Format(p.FloorS, "s"), clean(p.Reason))
+		ts = append(ts, t)
+	}
+	if len(a.Topology) > 0 {
+		t := Table{ID: prefix + "advice-topology", Caption: "Advice: circuit changes", Head: []string{"change", "ripple p-p", "settle", "reason"}}
+		for _, c := range a.Topology {
+			t.add(clean(c.Change), si.Format(c.PredictedRipplePPV, "V"), si.Format(c.PredictedSettleS, "s"), clean(c.Reason))
+		}
+		ts = append(ts, t)
+	}
+	if len(a.Cautions) > 0 || len(a.Notes) > 0 {
+		t := Table{ID: prefix + "advice-notes", Caption: "Advice: cautions and notes", Head: []string{"kind", "text"}}
+		for _, c := range a.Cautions {
+			t.Rows = append(t.Rows, Row{Cells: []string{"caution", clean(c)}, Class: "warning"})
+		}
+		for _, n := range a.Notes {
+			t.add("note", clean(n))
+		}
+		ts = append(ts, t)
+	}
+	return ts
+}
+
+// figure is one row of the comparison table: how to read it from a summary.
+type figure struct {
+	label string
+	unit  string // SI unit for si.Format; "" for plain numbers, "%" for fractions
+	get   func(s *analysis.Summary) *float64
+}
+
+func i64(v int64) *float64 { f := float64(v); return &f }
+
+var captureFigures = []figure{
+	{"samples", "", func(s *analysis.Summary) *float64 { return i64(s.Samples) }},
+	{"rejected lines", "", func(s *analysis.Summary) *float64 { return i64(s.RejectedLines) }},
+	{"duration", "s", func(s *analysis.Summary) *float64 { return &s.DurationS }},
+	{"sample period", "s", func(s *analysis.Summary) *float64 { return s.SamplePeriodS }},
+	{"deadband (meta)", "counts", func(s *analysis.Summary) *float64 { return s.Board.DeadbandCounts }},
+	{"R (meta)", "Ω", func(s *analysis.Summary) *float64 { return s.Board.ROhm }},
+	{"C (meta)", "F", func(s *analysis.Summary) *float64 { return s.Board.CF }},
+	{"tau, charging", "s", func(s *analysis.Summary) *float64 { return s.Plant.TauChargeS }},
+	{"tau, discharging", "s", func(s *analysis.Summary) *float64 { return s.Plant.TauDischargeS }},
+	{"tau, holding", "s", func(s *analysis.Summary) *float64 { return s.Plant.TauHoldS }},
+	{"V high", "V", func(s *analysis.Summary) *float64 { return s.Plant.VHighV }},
+	{"ADC noise (rms)", "counts", func(s *analysis.Summary) *float64 { return s.Plant.NoiseRMSCounts }},
+}
+
+// segFigure is one per-segment row of the comparison table. When volts are not known
+// for every capture, the row falls back to counts (counts is then set).
+type segFigure struct {
+	label  string
+	unit   string
+	get    func(g *analysis.Segment) *float64
+	counts func(g *analysis.Segment) *float64
+}
+
+var segmentFigures = []segFigure{
+	{"mean error", "V", func(g *analysis.Segment) *float64 { return g.MeanErrorV }, func(g *analysis.Segment) *float64 { return g.MeanErrorCounts }},
+	{"ripple p-p", "V", func(g *analysis.Segment) *float64 { return g.RipplePPV }, func(g *analysis.Segment) *float64 { return g.RipplePPCounts }},
+	{"ripple rms", "V", func(g *analysis.Segment) *float64 { return g.RippleRMSV }, func(g *analysis.Segment) *float64 { return g.RippleRMSCounts }},
+	{"duty charge", "%", func(g *analysis.Segment) *float64 { return g.DutyCharge }, nil},
+	{"duty hold", "%", func(g *analysis.Segment) *float64 { return g.DutyHold }, nil},
+	{"limit-cycle period", "s", func(g *analysis.Segment) *float64 { return g.LimitCyclePeriodS }, nil},
+	{"switching", "Hz", func(g *analysis.Segment) *float64 { return g.SwitchingHz }, nil},
+	{"deadband", "counts", func(g *analysis.Segment) *float64 { return g.DeadbandCounts }, nil},
+	{"band entries", "", func(g *analysis.Segment) *float64 { return i64(g.DeadbandEntries) }, nil},
+	{"band jumps", "", func(g *analysis.Segment) *float64 { return i64(g.BandJumps) }, nil},
+}
+
+// allOrNone reports whether the values are all present or all missing.
+func allOrNone(vals []*float64) bool {
+	n := 0
+	for _, v := range vals {
+		if v != nil {
+			n++
+		}
+	}
+	return n == 0 || n == len(vals)
+}
+
+func fmtUnit(p *float64, unit string) string {
+	switch unit {
+	case "":
+		return fmtNumP(p)
+	case "%":
+		return fmtPct(p)
+	case "counts":
+		return fmtCounts(p)
+	}
+	return fmtSI(p, unit)
+}
+
+// fmtDiff formats b - a with its sign and, when a is not zero, the relative change.
+func fmtDiff(a, b *float64, unit string) string {
+	if a == nil || b == nil || !finite(*a) || !finite(*b) {
+		return na
+	}
+	d := *b - *a
+	if d == 0 {
+		return "no change"
+	}
+	var txt string
+	switch unit {
+	case "":
+		txt = strconv.FormatFloat(d, 'g', 4, 64)
+	case "%":
+		txt = strconv.FormatFloat(d*100, 'f', 1, 64) + " points"
+	case "counts":
+		txt = strconv.FormatFloat(d, 'g', 4, 64) + " counts"
+	default:
+		txt = si.Format(d, unit)
+	}
+	if d > 0 {
+		txt = "+" + txt
+	}
+	if *a != 0 && unit != "%" {
+		txt += fmt.Sprintf(" (%+.0f %%)", 100*d/math.Abs(*a))
+	}
+	return txt
+}
+
+// CompareTable puts the figures of several captures side by side, with the difference of
+// each later capture from the first. Segments are matched by setpoint (in counts): the
+// first segment of each capture at that setpoint.
+func CompareTable(docs []Doc) Table {
+	t := Table{ID: "compare", Caption: "Side by side (differences from the first capture)", Head: []string{"figure"}}
+	for _, d := range docs {
+		t.Head = append(t.Head, clean(d.Name))
+	}
+	for _, d := range docs[1:] {
+		t.Head = append(t.Head, clean(d.Name)+" − "+clean(docs[0].Name))
+	}
+	row := func(label, unit string, vals []*float64) {
+		cells := []string{label}
+		present := false
+		for _, v := range vals {
+			cells = append(cells, fmtUnit(v, unit))
+			present = present || v != nil
+		}
+		if !present {
+			return
+		}
+		for _, v := range vals[1:] {
+			cells = append(cells, fmtDiff(vals[0], v, unit))
+		}
+		t.Rows = append(t.Rows, Row{Cells: cells})
+	}
+	for _, f := range captureFigures {
+		vals := make([]*float64, len(docs))
+		for i, d := range docs {
+			if d.Summary != nil {
+				vals[i] = f.get(d.Summary)
+			}
+		}
+		row(f.label, f.unit, vals)
+	}
+	// Setpoints in the order they first appear in any capture.
+	var sps []float64
+	seen := map[float64]bool{}
+	for _, d := range docs {
+		if d.Summary == nil {
+			continue
+		}
+		for _, g := range d.Summary.Segments {
+			if !seen[g.SetpointCounts] {
+				seen[g.SetpointCounts] = true
+				sps = append(sps, g.SetpointCounts)
+			}
+		}
+	}
+	for _, sp := range sps {
+		segs := make([]*analysis.Segment, len(docs))
+		var label string
+		for i, d := range docs {
+			if d.Summary == nil {
+				continue
+			}
+			for j := range d.Summary.Segments {
+				if g := &d.Summary.Segments[j]; g.SetpointCounts == sp {
+					segs[i] = g
+					if label == "" {
+						label = setpointText(*g)
+					}
+					break
+				}
+			}
+		}
+		head := Row{Cells: []string{"at setpoint " + label}, Class: "group"}
+		t.Rows = append(t.Rows, head)
+		for _, f := range segmentFigures {
+			vals := make([]*float64, len(docs))
+			unit := f.unit
+			for i, g := range segs {
+				if g != nil {
+					vals[i] = f.get(g)
+				}
+			}
+			if f.counts != nil && !allOrNone(vals) {
+				unit = "counts"
+				for i, g := range segs {
+					if g != nil {
+						vals[i] = f.counts(g)
+					}
+				}
+			}
+			row(f.label, unit, vals)
+		}
+	}
+	return t
+}
