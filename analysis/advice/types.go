@@ -10,6 +10,43 @@ type Advice struct {
 	Topology       []TopologyAdvice `json:"topology"`
 	Cautions       []string         `json:"cautions"`
 	Notes          []string         `json:"notes"`
+
+	// Added fields.
+	Goals   *GoalsUsed   `json:"goals"`   // the goals and assumptions the advice was made for
+	Current *Candidate   `json:"current"` // the board's present R and C as the model predicts them (summary only)
+	Search  *SearchStats `json:"search"`  // how many pairs were tried, run and verified
+}
+
+// GoalsUsed are the resolved goals and assumptions, defaults filled in.
+type GoalsUsed struct {
+	Mode           string  `json:"mode"`
+	SupplyV        float64 `json:"supply_v"`
+	VrefV          float64 `json:"vref_v"`
+	ADCBits        int     `json:"adc_bits"`
+	PeriodS        float64 `json:"period_s"`
+	LoadOhm        float64 `json:"load_ohm"`
+	RipplePPV      float64 `json:"ripple_pp_v"`
+	SettleS        float64 `json:"settle_s"`
+	SettleTolV     float64 `json:"settle_tolerance_v"` // settled = within this of the setpoint (top candidate)
+	StaticErrorV   float64 `json:"static_error_v"`     // 0 = no goal
+	PinCurrentA    float64 `json:"pin_current_a"`
+	MinPeriodS     float64 `json:"min_period_s"`
+	NoiseRMSCounts float64 `json:"noise_rms_counts"`
+	NoiseMeasured  bool    `json:"noise_measured"`
+	SigmaMultiple  float64 `json:"sigma_multiple"`
+	SetpointCounts []int   `json:"setpoints_counts"`
+	StepFromCounts int     `json:"full_scale_step_from_counts"`
+	StepToCounts   int     `json:"full_scale_step_to_counts"`
+	CRatio         float64 `json:"c_ratio"` // real / marked capacitance used in the design
+	RParts         string  `json:"r_parts"`
+	CParts         string  `json:"c_parts"`
+}
+
+// SearchStats say how much work the search did.
+type SearchStats struct {
+	PairsTried     int `json:"pairs_tried"`     // every R and C pair considered (closed forms)
+	PairsSimulated int `json:"pairs_simulated"` // short closed-loop runs
+	PairsMeeting   int `json:"pairs_meeting"`   // pairs meeting the goals in the short run
 }
 
 // DeadbandWorking shows the arithmetic behind the suggested deadband.
@@ -22,6 +59,11 @@ type DeadbandWorking struct {
 	FromVoltageBand *int    `json:"from_voltage_band"`   // dV * full-scale / vref, when a ripple goal is given
 	Rule            string  `json:"rule"`                // the rule of the trade, in words
 	VerifiedJumps   int64   `json:"verified_band_jumps"` // band jumps in the checking simulation
+
+	// Added fields.
+	Steps         []SetpointStep `json:"steps"`               // the step at each used setpoint
+	NarrowerDB    int            `json:"narrower_db"`         // the band one count narrower, for the check below
+	NarrowerJumps int64          `json:"narrower_band_jumps"` // band jumps the model shows with that band
 }
 
 // Candidate is one R and C pair with what the loop model predicts for it.
@@ -36,6 +78,13 @@ type Candidate struct {
 	VInfSagV           float64 `json:"v_inf_sag_v"`
 	Verdict            string  `json:"verdict"` // "meets goals", "ripple too high", ...
 	Trades             string  `json:"trades"`  // what it trades away
+
+	// Added fields.
+	TauS         float64 `json:"tau_s"`          // charge time constant with the real C and the load
+	EffectiveCF  float64 `json:"effective_c_f"`  // the capacitance designed with (marked C times the measured ratio)
+	StaticErrorV float64 `json:"static_error_v"` // largest mean error over the steady parts, model
+	BandJumps    int64   `json:"band_jumps"`     // band jumps in the checking runs (three-state)
+	Settled      bool    `json:"settled"`        // both full-scale steps settled within the run
 }
 
 // PeriodAdvice says whether another sample period would serve the goal better.
@@ -52,4 +101,7 @@ type TopologyAdvice struct {
 	PredictedRipplePPV float64 `json:"predicted_ripple_pp_v"`
 	PredictedSettleS   float64 `json:"predicted_settle_s"`
 	Reason             string  `json:"reason"`
+
+	// Added fields.
+	Meets bool `json:"meets_goals"`
 }

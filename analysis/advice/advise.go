@@ -1,0 +1,421 @@
+package advice
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"sort"
+
+	"github.com/caploop/caploop/analysis"
+	"github.com/caploop/caploop/analysis/loop"
+	"github.com/caploop/caploop/telemetry/si"
+)
+
+// ErrNoBoard is returned (wrapped) by FromSummary when the capture does not say enough
+// about the board (vref, adc_bits and the sample period are needed).
+var ErrNoBoard = errors.New("advice: capture does not describe the board")
+
+// Design answers a design question without a board: it tries every R and C pair on hand,
+// prunes with closed forms, runs the survivors through the loop model, verifies the best
+// with longer runs and two more seeds, and returns the ranked table, the deadband, the
+// sample period and, when no pair meets the goals, the change of circuit that would.
+// Every predicted figure comes from a loop model run.
+func Design(req Request) (*Advice, error) {
+	p, err := req.resolve()
+	if err != nil {
+		return nil, err
+	}
+	return p.advise(nil, false)
+}
+
+// FromSummary gives advice for the board a capture came from: the deadband for its present
+// circuit (with the identified plant: real tau, load, noise), and standard R and C pairs
+// designed with the measured capacitance ratio. Goals fill in as in Design.
+func FromSummary(s *analysis.Summary, g Goals) (*Advice, error) {
+	if s == nil {
+		return nil, fmt.Errorf("advice: nil summary")
+	}
+	req, cur, err := requestFromSummary(s, g)
+	if err != nil {
+		return nil, err
+	}
+	p, err := req.resolve()
+	if err != nil {
+		return nil, err
+	}
+	return p.advise(cur, req.noiseMeasured)
+}
+
+// present is the board's own R and C (marked), when known.
+type present struct{ r, c float64 }
+
+func requestFromSummary(s *analysis.Summary, g Goals) (Request, *present, error) {
+	b, pl := s.Board, s.Plant
+	var req Request
+	var missing []string
+	if b.VrefV == nil {
+		missing = append(missing, "vref")
+	} else {
+		req.VrefV = *b.VrefV
+	}
+	if b.ADCBits == nil {
+		missing = append(missing, "adc_bits")
+	} else {
+		req.Bits = *b.ADCBits
+	}
+	if s.SamplePeriodS == nil {
+		missing = append(missing, "sample period")
+	} else {
+		req.PeriodS = *s.SamplePeriodS
+	}
+	if len(missing) > 0 {
+		return req, nil, fmt.Errorf("%w: missing %v", ErrNoBoard, missing)
+	}
+	if pl.SenseDropV != nil && *pl.SenseDropV >= 0.3 && *pl.SenseDropV < 1.2 {
+		req.VBE = *pl.SenseDropV
+	}
+	switch {
+	case b.SupplyV != nil:
+		req.SupplyV = *b.SupplyV
+	case pl.VHighV != nil:
+		req.SupplyV = *pl.VHighV + req.VBE
+	default:
+		req.SupplyV = req.VrefV
+	}
+	switch {
+	case pl.LoadOhm != nil && *pl.LoadOhm > 0:
+		req.LoadOhm = *pl.LoadOhm
+	case b.LoadOhm != nil:
+		req.LoadOhm = *b.LoadOhm
+	}
+	switch b.Mode {
+	case "three-state":
+		req.Mode = loop.ThreeState
+	case "two-state":
+		req.Mode = loop.TwoState
+	default:
+		req.Mode = loop.TwoState
+		if b.DeadbandCounts != nil {
+			req.Mode = loop.ThreeState
+		}
+	}
+	var cur *present
+	if b.ROhm != nil && b.CF != nil && *b.ROhm > 0 && *b.CF > 0 {
+		cur = &present{r: *b.ROhm, c: *b.CF}
+		if pl.EffectiveCF != nil && *pl.EffectiveCF > 0 {
+			req.CRatio = *pl.EffectiveCF / *b.CF
+		}
+	} else if pl.TauChargeS != nil && *pl.TauChargeS > 0 {
+		// Parts unknown: any R and C with the identified tau behave the same; take 10 kOhm.
+		r := 10e3
+		rp := r
+		if req.LoadOhm > 0 {
+			rp = r * req.LoadOhm / (r + req.LoadOhm)
+		}
+		cur = &present{r: r, c: *pl.TauChargeS / rp}
+	}
+	if cur != nil && pl.TauHoldS != nil && *pl.TauHoldS > 0 && req.LoadOhm == 0 {
+		ceff := cur.c
+		if req.CRatio > 0 {
+			ceff *= req.CRatio
+		}
+		req.LeakOhm = *pl.TauHoldS / ceff
+	}
+	if pl.NoiseRMSCounts != nil && *pl.NoiseRMSCounts > 0 && g.NoiseRMSCount == 0 {
+		g.NoiseRMSCount = *pl.NoiseRMSCounts
+		req.noiseMeasured = true
+	}
+	if len(g.Setpoints) == 0 {
+		for _, seg := range s.Segments {
+			if !seg.Unreachable {
+				g.Setpoints = append(g.Setpoints, math.Round(seg.SetpointCounts))
+			}
+		}
+	}
+	req.Goals = g
+	return req, cur, nil
+}
+
+// advise runs the whole engine. cur is the board's present pair (summary) or nil (design).
+func (p *plant) advise(cur *present, noiseMeasured bool) (*Advice, error) {
+	a := &Advice{Candidates: []Candidate{}, Topology: []TopologyAdvice{}}
+	sr, err := p.search(p.kind, p.period)
+	if err != nil {
+		return nil, err
+	}
+	a.Search = &SearchStats{PairsTried: sr.tried, PairsSimulated: sr.simmed, PairsMeeting: sr.meeting}
+	for _, pr := range sr.shown {
+		a.Candidates = append(a.Candidates, p.candidate(pr, p.kind))
+	}
+
+	// The deadband: for the present circuit when there is one, else for the top pair.
+	ref := sr.best
+	if cur != nil {
+		ref = &pair{r: cur.r, c: cur.c, ci: p.circuit(cur.r, cur.c)}
+		p.closedForm(ref, p.kind, p.period)
+		if err := p.check(ref, p.kind, p.period, verifyWindow, []uint64{p.g.seed + 1, p.g.seed + 2}); err != nil {
+			return nil, err
+		}
+		c := p.candidate(ref, p.kind)
+		c.Series = "present"
+		a.Current = &c
+	}
+	if ref != nil {
+		db, w, steps := deadband(ref.ci, p, p.period)
+		w.Steps = steps
+		// The band as run: the checking simulation of this very circuit at this band.
+		if err := p.bandCheck(ref, db, w); err != nil {
+			return nil, err
+		}
+		a.DeadbandCounts, a.Deadband = &db, w
+	}
+	p.fillGoals(a, noiseMeasured)
+	if ref != nil {
+		a.Goals.SettleTolV = p.tolFor(ref.db)
+		pa, err := p.periodAdvice(ref)
+		if err != nil {
+			return nil, err
+		}
+		a.SamplePeriod = pa
+	}
+	if sr.meeting == 0 || len(a.Candidates) == 0 || a.Candidates[0].Verdict != "meets goals" {
+		t, err := p.topology(sr)
+		if err != nil {
+			return nil, err
+		}
+		a.Topology = t
+	}
+	a.Cautions = p.cautions(a)
+	a.Notes = p.notes(a, sr)
+	return a, nil
+}
+
+// bandCheck runs the three-state loop on the reference circuit at the suggested band and
+// one count narrower, and records the band jumps the model shows in each.
+func (p *plant) bandCheck(ref *pair, db int, w *DeadbandWorking) error {
+	q := *ref
+	q.db = db
+	plan := p.plan(&q, p.period, verifyWindow)
+	seeds := []uint64{p.g.seed + 3}
+	r, err := simulate(p.config(q.ci, loop.ThreeState, db, p.period, p.g.noise, seeds[0]), p, p.tolFor(db), plan)
+	if err != nil {
+		return err
+	}
+	w.VerifiedJumps = r.jumps
+	w.NarrowerDB = db - 1
+	if db >= 1 {
+		q.db = db - 1
+		r, err := simulate(p.config(q.ci, loop.ThreeState, db-1, p.period, p.g.noise, seeds[0]), p, p.tolFor(db-1), plan)
+		if err != nil {
+			return err
+		}
+		w.NarrowerJumps = r.jumps
+	}
+	return nil
+}
+
+func (p *plant) fillGoals(a *Advice, noiseMeasured bool) {
+	a.Goals = &GoalsUsed{
+		Mode: p.kind.String(), SupplyV: p.supply, VrefV: p.vref, ADCBits: p.bits, PeriodS: p.period,
+		LoadOhm: p.load, RipplePPV: p.g.rippleV, SettleS: p.g.settleS, StaticErrorV: p.g.staticV,
+		PinCurrentA: p.g.pinA, MinPeriodS: p.g.minPeriod, NoiseRMSCounts: p.g.noise,
+		NoiseMeasured: noiseMeasured, SigmaMultiple: p.g.sigmaK,
+		SetpointCounts: append([]int(nil), p.sps...), StepFromCounts: p.lo, StepToCounts: p.hi,
+		CRatio: p.cRatio, RParts: p.partsText(p.rParts, "Ω", 100, 1e6), CParts: p.partsText(p.cParts, "F", 10e-9, 100e-6),
+	}
+}
+
+func (p *plant) partsText(pp Parts, unit string, lo, hi float64) string {
+	if len(pp.List) > 0 {
+		s := ""
+		for i, v := range pp.List {
+			if i > 0 {
+				s += " "
+			}
+			s += si.Format(v, unit)
+		}
+		return s
+	}
+	if pp.Min > 0 {
+		lo = pp.Min
+	}
+	if pp.Max > 0 {
+		hi = pp.Max
+	}
+	return fmt.Sprintf("%s %s to %s", pp.String(), si.Format(lo, unit), si.Format(hi, unit))
+}
+
+// periodAdvice runs the reference pair at other sample periods (never below the ADC
+// conversion time) and suggests the one with the best margin on the goals.
+func (p *plant) periodAdvice(ref *pair) (*PeriodAdvice, error) {
+	pa := &PeriodAdvice{CurrentS: p.period, SuggestedS: p.period, FloorS: p.g.minPeriod}
+	type try struct {
+		t     float64
+		pr    *pair
+		meets bool
+	}
+	var tries []try
+	seen := map[float64]bool{}
+	for _, f := range []float64{0.25, 0.5, 1, 2, 4} {
+		t := math.Max(p.period*f, p.g.minPeriod)
+		t = roundSig(t, 3)
+		if f == 1 {
+			t = p.period
+		}
+		if seen[t] {
+			continue
+		}
+		seen[t] = true
+		q := &pair{r: ref.r, c: ref.c, ci: ref.ci}
+		p.closedForm(q, p.kind, t)
+		if err := p.check(q, p.kind, t, quickWindow, []uint64{p.g.seed + 4}); err != nil {
+			return nil, err
+		}
+		tries = append(tries, try{t, q, len(p.failures(q)) == 0})
+	}
+	best := -1
+	cur := -1
+	for i, tr := range tries {
+		if tr.t == p.period {
+			cur = i
+		}
+		if best < 0 || tr.pr.score > tries[best].pr.score+0.05 {
+			best = i
+		}
+	}
+	if cur >= 0 && best >= 0 && tries[best].pr.score <= tries[cur].pr.score+0.05 {
+		best = cur
+	}
+	b := tries[best]
+	pa.SuggestedS = b.t
+	atFloor := ""
+	if b.t <= p.g.minPeriod*1.0001 {
+		atFloor = " (the ADC conversion time floor)"
+	}
+	switch {
+	case b.t == p.period && b.meets:
+		pa.Reason = fmt.Sprintf("keep %s: it meets the goals and no other period in 1/4..4x does clearly better", si.Format(p.period, "s"))
+	case b.t == p.period:
+		pa.Reason = fmt.Sprintf("no period from %s to %s meets the goals with these parts; the period is not the limit",
+			si.Format(tries[0].t, "s"), si.Format(tries[len(tries)-1].t, "s"))
+	case b.t < p.period:
+		pa.Reason = fmt.Sprintf("a shorter period %s%s makes each step smaller: ripple %s, settling %s, band %d (the firmware reads the ADC more often)",
+			si.Format(b.t, "s"), atFloor, fmtV(b.pr.res.ripplePP), si.Format(b.pr.res.settleS, "s"), b.pr.db)
+	default:
+		pa.Reason = fmt.Sprintf("a longer period %s still meets the goals with more margin: ripple %s, settling %s (fewer conversions for the firmware)",
+			si.Format(b.t, "s"), fmtV(b.pr.res.ripplePP), si.Format(b.pr.res.settleS, "s"))
+	}
+	return pa, nil
+}
+
+// topology tries the changes of circuit when no pair meets the goals.
+func (p *plant) topology(sr *searchResult) ([]TopologyAdvice, error) {
+	var out []TopologyAdvice
+	add := func(change, reason string, pr *pair) {
+		out = append(out, TopologyAdvice{
+			Change: change, Reason: reason, Meets: len(p.failures(pr)) == 0,
+			PredictedRipplePPV: pr.res.ripplePP, PredictedSettleS: pr.res.settleS,
+		})
+	}
+	if p.kind == loop.TwoState {
+		r, err := p.search(loop.ThreeState, p.period)
+		if err != nil {
+			return nil, err
+		}
+		if r.best != nil {
+			add(fmt.Sprintf("three-state with hold: R %s, C %s, deadband %d",
+				si.Format(r.best.r, "Ω"), si.Format(r.best.c, "F"), r.best.db),
+				"hold stops the limit cycle once the output is in the band; needs a pin that can float or two switches, each with its own series resistor", r.best)
+		}
+	}
+	if p.load > 0 {
+		q := *p
+		q.load = 0
+		r, err := q.search(p.kind, p.period)
+		if err != nil {
+			return nil, err
+		}
+		if r.best != nil {
+			add(fmt.Sprintf("op-amp follower buffer between the capacitor and the %s load: R %s, C %s",
+				si.Format(p.load, "Ω"), si.Format(r.best.r, "Ω"), si.Format(r.best.c, "F")),
+				"the load no longer sags V_inf or shortens tau; the buffer's supply must reach the top setpoint", r.best)
+		}
+	}
+	// A second RC stage after the best pair that misses on ripple only.
+	var base *pair
+	for _, pr := range sr.shown {
+		f := p.failures(pr)
+		if len(f) == 1 && f[0] == "ripple too high" {
+			base = pr
+			break
+		}
+	}
+	if base != nil {
+		r2 := Snap(10*base.r, "E12")
+		for _, k := range []float64{0.05, 0.1, 0.2, 0.3, 0.5} {
+			c2 := Snap(k*base.ci.Tau(loop.Charge)/r2, "E12")
+			q := *base
+			plan := p.plan(&q, p.period, verifyWindow)
+			plan.tau2 = r2 * c2
+			if err := p.checkPlan(&q, p.kind, p.period, plan, []uint64{p.g.seed + 5}); err != nil {
+				return nil, err
+			}
+			if len(p.failures(&q)) == 0 || k == 0.5 {
+				add(fmt.Sprintf("second RC stage after R %s, C %s: R2 %s, C2 %s",
+					si.Format(base.r, "Ω"), si.Format(base.c, "F"), si.Format(r2, "Ω"), si.Format(c2, "F")),
+					"the second stage filters the limit-cycle ripple outside the loop (the ADC still reads the first capacitor); R2 = 10 R so it barely loads the first, and the load must be >= 10 R2", &q)
+				break
+			}
+		}
+	}
+	sort.SliceStable(out, func(i, j int) bool { return out[i].Meets && !out[j].Meets })
+	return out, nil
+}
+
+func (p *plant) cautions(a *Advice) []string {
+	maxI := 0.0
+	for _, c := range a.Candidates {
+		maxI = math.Max(maxI, c.PinCurrentA)
+	}
+	c := []string{
+		fmt.Sprintf("pin current: the first instant of a charge or discharge draws Vs / R (up to %s in this table); keep it inside the part's datasheet limit (about 20 mA per pin in normal use on classic 8-bit parts, from memory)",
+			fmtA(maxI)),
+	}
+	if p.kind == loop.ThreeState || len(a.Topology) > 0 {
+		c = append(c, "three-state with a high-side and a low-side switch: never turn both on together; give each path its own series resistor so that a firmware slip cannot short the supply")
+	}
+	for _, t := range a.Topology {
+		if len(t.Change) >= 6 && t.Change[:6] == "op-amp" {
+			c = append(c, "op-amp stage: if it runs from a higher supply it needs a common ground with the board, and its output range must suit the load and the ADC input")
+			break
+		}
+	}
+	c = append(c, "these are low-voltage circuits: defer to the parts' datasheets, and to local codes and licensed practice for anything mains-powered")
+	return c
+}
+
+func (p *plant) notes(a *Advice, sr *searchResult) []string {
+	var n []string
+	if p.cRatio < 0.85 || p.cRatio > 1.15 {
+		n = append(n, fmt.Sprintf("the identified tau says the capacitor is %.0f %% %s than marked (a class-2 ceramic under DC bias does this); every candidate is designed with the real one (marked C x %.2f)",
+			100*math.Abs(1-p.cRatio), map[bool]string{true: "lower", false: "higher"}[p.cRatio < 1], p.cRatio))
+	}
+	if p.rRatio != 1 {
+		n = append(n, fmt.Sprintf("resistors are taken as %.2f x marked (measured)", p.rRatio))
+	}
+	src := "assumed"
+	if a.Goals.NoiseMeasured {
+		src = "measured"
+	}
+	n = append(n, fmt.Sprintf("figures are from the loop model (ADC noise %.2f counts rms, %s), not from formulas: %d pairs tried, %d pruned by closed forms, %d run in closed loop, best checked again with two more seeds",
+		p.g.noise, src, sr.tried, sr.tried-sr.simmed, sr.simmed))
+	n = append(n, fmt.Sprintf("settling is timed on a step from %d to %d counts and back, to within %s of the setpoint; ripple is the largest p-p over the steady parts at counts %v",
+		p.lo, p.hi, fmtV(a.Goals.SettleTolV), p.sps))
+	if p.kind == loop.TwoState && a.DeadbandCounts != nil {
+		n = append(n, "the deadband applies if you switch to three-state (hold)")
+	}
+	return n
+}
+
+func fmtV(v float64) string { return si.FormatDigits(v, "V", 3) }
+func fmtA(v float64) string { return si.Format(v, "A") }

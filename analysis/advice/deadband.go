@@ -1,0 +1,83 @@
+package advice
+
+import (
+	"fmt"
+	"math"
+
+	"github.com/caploop/caploop/analysis/loop"
+)
+
+// SetpointStep is the single-period step of one used setpoint and whether a band one
+// count narrower than the suggestion would be jumped there.
+type SetpointStep struct {
+	SetpointCounts  int     `json:"setpoint_counts"`
+	ChargeCounts    float64 `json:"charge_step_counts"`
+	DischargeCounts float64 `json:"discharge_step_counts"`
+	// NarrowerJumps: the larger step alone is at least 2*(db-1)+1 counts, so a band one
+	// count narrower than the suggestion is jumped here (not only by noise).
+	NarrowerJumps bool `json:"narrower_band_jumps"`
+}
+
+// stepsAt returns the charge and discharge steps of one period at a setpoint, in counts.
+func stepsAt(ci loop.Circuit, p *plant, sp int, period float64) (up, down float64) {
+	v := p.nodeV(sp)
+	perCount := math.Ldexp(1, p.bits) / p.vref
+	up = (ci.Advance(v, loop.Charge, period) - v) * perCount
+	down = (v - ci.Advance(v, loop.Discharge, period)) * perCount
+	return math.Max(up, 0), math.Max(down, 0)
+}
+
+// bandFor is the smallest deadband half-width db (counts) that a single step of x counts
+// cannot jump: x < 2*db + 1, so db = floor((x - 1) / 2) + 1 (0 when x < 1).
+func bandFor(x float64) int {
+	if x < 1 {
+		return 0
+	}
+	return int(math.Floor((x-1)/2)) + 1
+}
+
+// deadband works out the suggested band for circuit ci at the plant's used setpoints.
+func deadband(ci loop.Circuit, p *plant, period float64) (int, *DeadbandWorking, []SetpointStep) {
+	w := &DeadbandWorking{
+		NoiseRMSCounts: p.g.noise,
+		SigmaMultiple:  p.g.sigmaK,
+		MarginCounts:   p.g.sigmaK * p.g.noise,
+	}
+	var steps []SetpointStep
+	for _, sp := range p.sps {
+		up, down := stepsAt(ci, p, sp, period)
+		steps = append(steps, SetpointStep{SetpointCounts: sp, ChargeCounts: up, DischargeCounts: down})
+		w.StepCounts = math.Max(w.StepCounts, math.Max(up, down))
+	}
+	db := bandFor(w.StepCounts + w.MarginCounts)
+	for i := range steps {
+		s := math.Max(steps[i].ChargeCounts, steps[i].DischargeCounts)
+		steps[i].NarrowerJumps = db >= 1 && s >= float64(2*(db-1)+1)
+	}
+	w.StaticErrorV = float64(db) * p.lsb()
+	if p.g.rippleSaid {
+		// The rule of the trade: a band of dV volts is dV * full-scale counts / Vref counts,
+		// rounded up (0.1 V * 1023 / 5 V = 20.46 -> 21, common practice).
+		n := int(math.Ceil(p.g.rippleV*p.fullScale()/p.vref - 1e-9))
+		w.FromVoltageBand = &n
+	}
+	w.Rule = fmt.Sprintf("hold settles only if one step cannot jump the band: step + %g sigma noise < 2*db + 1, "+
+		"so db = floor((%.2f + %.2f - 1) / 2) + 1 = %d counts; static error up to db counts = %s",
+		p.g.sigmaK, w.StepCounts, w.MarginCounts, db, fmtV(w.StaticErrorV))
+	return db, w, steps
+}
+
+// TauForStep is the time constant R*C whose largest single-period step, a charge from the
+// bottom rail, is dV (the ripple budget of the trade):
+//
+//	tau = -T / ln(1 - dV / Vs)     (exact, from dV = Vs (1 - exp(-T / tau)))
+//	tau ~ T * Vs / dV               (linear form, T << tau)
+//
+// T = 1 ms, dV = 0.1 V, Vs = 5 V gives 0.0495 s (linear 0.05 s): about 50 kOhm with 1 uF.
+// It returns NaN unless 0 < dV < Vs and T > 0.
+func TauForStep(T, dV, Vs float64) float64 {
+	if !(T > 0) || !(dV > 0) || !(dV < Vs) {
+		return math.NaN()
+	}
+	return -T / math.Log1p(-dV/Vs)
+}

@@ -1,0 +1,386 @@
+package advice
+
+import (
+	"fmt"
+	"math"
+	"sort"
+	"strings"
+
+	"github.com/caploop/caploop/analysis/loop"
+)
+
+// Search limits: the closed forms prune every pair first; at most maxQuick survivors get
+// a short closed-loop run, and the best are checked again with a longer run and two seeds.
+const (
+	maxQuick     = 400
+	quickWindow  = 192
+	verifyWindow = 1024
+	maxSettleLen = 20000
+	pruneFactor  = 1.5 // closed-form bound beyond goal*pruneFactor: rejected without a run
+)
+
+// pair is one R and C under study.
+type pair struct {
+	r, c     float64 // marked values
+	ci       loop.Circuit
+	db       int
+	work     *DeadbandWorking
+	steps    []SetpointStep
+	cfSettle float64 // closed-form settling time, s
+	cfRipple float64 // closed-form ripple lower bound, V
+	pinA     float64
+	sag      float64
+	fail     []string // closed-form failures
+	res      simResult
+	simmed   bool
+	verified bool
+	score    float64
+}
+
+// tolFor is the settling band for a loop with deadband db: the output is settled when it
+// stays within the larger of the ripple goal, the static-error goal and db + 1 counts.
+func (p *plant) tolFor(db int) float64 {
+	return math.Max(math.Max(p.g.rippleV, p.g.staticV), float64(db+1)*p.lsb())
+}
+
+// closedForm fills the closed-form bounds of a pair and the reasons it cannot meet the goals.
+func (p *plant) closedForm(pr *pair, kind loop.Kind, period float64) {
+	ci := pr.ci
+	pr.db, pr.work, pr.steps = deadband(ci, p, period)
+	if kind == loop.TwoState {
+		pr.db = 0
+	}
+	pr.pinA = p.supply / ci.RCharge()
+	vinf := ci.VInf(loop.Charge)
+	pr.sag = p.supply - vinf
+	if pr.pinA > p.g.pinA {
+		pr.fail = append(pr.fail, "pin current too high")
+	}
+	tol := p.tolFor(pr.db)
+	top := ci.Sense(vinf)
+	if top < p.senseV(p.hi)+0.5*p.lsb() {
+		pr.fail = append(pr.fail, "cannot reach the top setpoint")
+		pr.cfSettle = math.Inf(1)
+	} else {
+		pr.cfSettle = p.settleTo(ci, tol)
+	}
+	if pr.cfSettle > pruneFactor*p.g.settleS {
+		pr.fail = append(pr.fail, "too slow")
+	}
+	var lb float64
+	droop := !math.IsInf(ci.Tau(loop.Hold), 1)
+	for _, s := range pr.steps {
+		switch {
+		case kind == loop.TwoState:
+			lb = math.Max(lb, math.Max(s.ChargeCounts, s.DischargeCounts))
+		case droop:
+			lb = math.Max(lb, s.ChargeCounts)
+		}
+	}
+	pr.cfRipple = 0.8 * lb * p.lsb()
+	if pr.cfRipple > pruneFactor*p.g.rippleV {
+		pr.fail = append(pr.fail, "ripple too high")
+	}
+	if kind == loop.ThreeState && p.g.staticV > 0 && pr.work.StaticErrorV > p.g.staticV {
+		pr.fail = append(pr.fail, "static error too high")
+	}
+}
+
+// plan sizes a run from the closed form: settling to within the band itself (not just
+// the settling tolerance), so that the steady window sees no leftover approach steps.
+func (p *plant) plan(pr *pair, period float64, window int) runPlan {
+	s := 1.3*p.settleTo(pr.ci, math.Max(0.5*float64(pr.db), 1)*p.lsb()) + 20*period
+	s = math.Min(s, 1.6*p.g.settleS)
+	n := int(math.Ceil(s/period)) + 10
+	n = min(max(n, 20), maxSettleLen)
+	// Hold with a load droops: make the window long enough to see a few corrections.
+	if tau := pr.ci.Tau(loop.Hold); !math.IsInf(tau, 1) && pr.db > 0 {
+		v := math.Max(p.nodeV(p.sps[0]), p.lsb()) // the slowest droop: the lowest setpoint
+		cyc := float64(2*pr.db+1) * p.lsb() * tau / (v * period)
+		window = max(window, min(int(3*cyc), 8*window))
+	}
+	return runPlan{settleLen: n, window: window}
+}
+
+// settleTo is the closed-form time of the slower full-scale step to within tol (V) of the
+// setpoint, +Inf when the top setpoint is out of reach.
+func (p *plant) settleTo(ci loop.Circuit, tol float64) float64 {
+	vinf := ci.VInf(loop.Charge)
+	vlo, vhi := p.nodeV(p.lo), p.nodeV(p.hi)
+	if vinf <= vhi-tol {
+		return math.Inf(1)
+	}
+	up := ci.Tau(loop.Charge) * math.Log(math.Max(vinf-vlo, 1e-12)/(vinf-(vhi-tol)))
+	vd := ci.VInf(loop.Discharge)
+	down := ci.Tau(loop.Discharge) * math.Log(math.Max(vhi-vd, 1e-12)/math.Max(vlo+tol-vd, 1e-12))
+	return math.Max(math.Max(up, down), 0)
+}
+
+// check runs the loop model on a pair and records the figures and verdict.
+func (p *plant) check(pr *pair, kind loop.Kind, period float64, window int, seeds []uint64) error {
+	return p.checkPlan(pr, kind, period, p.plan(pr, period, window), seeds)
+}
+
+// checkPlan is check with an explicit run plan.
+func (p *plant) checkPlan(pr *pair, kind loop.Kind, period float64, plan runPlan, seeds []uint64) error {
+	tol := p.tolFor(pr.db)
+	var agg simResult
+	for i, seed := range seeds {
+		cfg := p.config(pr.ci, kind, pr.db, period, p.g.noise, seed)
+		r, err := simulate(cfg, p, tol, plan)
+		if err != nil {
+			return err
+		}
+		if i == 0 {
+			agg = r
+			continue
+		}
+		agg.ripplePP = math.Max(agg.ripplePP, r.ripplePP)
+		agg.settleS = math.Max(agg.settleS, r.settleS)
+		agg.settled = agg.settled && r.settled
+		agg.staticErr = math.Max(agg.staticErr, r.staticErr)
+		agg.jumps += r.jumps
+		for k, v := range r.jumpsAt {
+			agg.jumpsAt[k] += v
+		}
+		for k, v := range r.rippleAt {
+			agg.rippleAt[k] = math.Max(agg.rippleAt[k], v)
+		}
+	}
+	if len(seeds) == 1 && kind == loop.ThreeState && !math.IsInf(pr.ci.Tau(loop.Hold), 1) {
+		// A short run may end before the hold droops out of the band; the correction
+		// step that follows is the ripple in the long run. Rank the short runs with it.
+		agg.ripplePP = math.Max(agg.ripplePP, pr.cfRipple/0.8)
+	}
+	pr.res, pr.simmed = agg, true
+	pr.score = p.score(pr)
+	return nil
+}
+
+// failures lists the goals a simulated pair misses, closed-form failures first.
+func (p *plant) failures(pr *pair) []string {
+	var f []string
+	for _, s := range pr.fail {
+		if s == "pin current too high" || s == "cannot reach the top setpoint" || s == "static error too high" {
+			f = append(f, s)
+		}
+	}
+	if !pr.simmed {
+		return pr.fail
+	}
+	if !pr.res.settled || pr.res.settleS > p.g.settleS {
+		f = append(f, "too slow")
+	}
+	if pr.res.ripplePP > p.g.rippleV {
+		f = append(f, "ripple too high")
+	}
+	if p.g.staticV > 0 && pr.res.staticErr > p.g.staticV && !contains(f, "static error too high") {
+		f = append(f, "static error too high")
+	}
+	return f
+}
+
+func contains(s []string, x string) bool {
+	for _, v := range s {
+		if v == x {
+			return true
+		}
+	}
+	return false
+}
+
+// score ranks pairs: for a pair that meets the goals, the smaller of its two margins
+// (log of goal over figure), so the pair in the middle of the window wins; for one that
+// misses, minus the sum of its log excesses.
+func (p *plant) score(pr *pair) float64 {
+	rip := math.Max(pr.res.ripplePP, 0.5*p.lsb())
+	set := math.Max(pr.res.settleS, p.period)
+	if !pr.res.settled {
+		set = math.Max(set, 2*p.g.settleS)
+	}
+	mr, ms := math.Log(p.g.rippleV/rip), math.Log(p.g.settleS/set)
+	if len(p.failures(pr)) == 0 {
+		return math.Min(mr, ms) - p.penalty(pr)
+	}
+	return -10 - math.Max(-mr, 0) - math.Max(-ms, 0) - 5*float64(len(pr.fail))
+}
+
+// penalty is a soft preference against parts that work but cost something: a pin current
+// over half the limit, a load under 10 R, an electrolytic-sized or large ceramic capacitor.
+func (p *plant) penalty(pr *pair) float64 {
+	var x float64
+	if pr.pinA > 0.5*p.g.pinA {
+		x += 0.2
+	}
+	if p.load > 0 && p.load < 10*pr.r {
+		x += 0.2
+	}
+	switch {
+	case pr.c >= 10e-6:
+		x += 0.2
+	case pr.c >= 1e-6:
+		x += 0.05
+	}
+	return x
+}
+
+// searchResult is the outcome of one search over the parts.
+type searchResult struct {
+	shown   []*pair // verified, best first
+	tried   int     // pairs considered
+	simmed  int     // pairs run in closed loop
+	meeting int     // pairs meeting the goals in the short run
+	best    *pair   // best pair overall (may miss goals)
+}
+
+// search tries every R and C pair on hand.
+func (p *plant) search(kind loop.Kind, period float64) (*searchResult, error) {
+	rs, err := p.rParts.values(100, 1e6)
+	if err != nil {
+		return nil, err
+	}
+	cs, err := p.cParts.values(10e-9, 100e-6)
+	if err != nil {
+		return nil, err
+	}
+	out := &searchResult{}
+	var pass, nearMiss []*pair
+	for _, r := range rs {
+		for _, c := range cs {
+			pr := &pair{r: r, c: c, ci: p.circuit(r, c)}
+			p.closedForm(pr, kind, period)
+			out.tried++
+			if len(pr.fail) == 0 {
+				pass = append(pass, pr)
+			} else if !contains(pr.fail, "pin current too high") && !contains(pr.fail, "cannot reach the top setpoint") {
+				nearMiss = append(nearMiss, pr)
+			}
+		}
+	}
+	// Order the survivors by how well centred they are in closed form, and run the best.
+	cfScore := func(pr *pair) float64 {
+		rip := math.Max(pr.cfRipple, float64(pr.db+1)*p.lsb()*0.5)
+		return math.Min(math.Log(p.g.rippleV/rip), math.Log(p.g.settleS/math.Max(pr.cfSettle, p.period)))
+	}
+	sort.SliceStable(pass, func(i, j int) bool { return cfScore(pass[i]) > cfScore(pass[j]) })
+	if len(pass) > maxQuick {
+		pass = pass[:maxQuick]
+	}
+	if len(pass) < p.g.top {
+		// Nothing (or little) passes the closed forms: run the closest misses too, so
+		// the table can show what comes nearest.
+		sort.SliceStable(nearMiss, func(i, j int) bool { return cfScore(nearMiss[i]) > cfScore(nearMiss[j]) })
+		pass = append(pass, nearMiss[:min(len(nearMiss), 3*p.g.top)]...)
+	}
+	for _, pr := range pass {
+		if err := p.check(pr, kind, period, quickWindow, []uint64{p.g.seed}); err != nil {
+			return nil, err
+		}
+		out.simmed++
+		if len(p.failures(pr)) == 0 {
+			out.meeting++
+		}
+	}
+	sort.SliceStable(pass, func(i, j int) bool {
+		if pass[i].score != pass[j].score {
+			return pass[i].score > pass[j].score
+		}
+		return pass[i].c < pass[j].c
+	})
+	// Verify the best, one pair per time constant, until Top are shown.
+	var products []float64
+	for _, pr := range pass {
+		if len(out.shown) >= p.g.top || len(products) > 3*p.g.top {
+			break
+		}
+		tau := pr.r * pr.c
+		dup := false
+		for _, q := range products {
+			if math.Abs(tau/q-1) < 0.02 {
+				dup = true
+				break
+			}
+		}
+		if dup {
+			continue
+		}
+		products = append(products, tau)
+		if err := p.check(pr, kind, period, verifyWindow, []uint64{p.g.seed + 1, p.g.seed + 2}); err != nil {
+			return nil, err
+		}
+		pr.verified = true
+		if out.meeting > 0 && len(p.failures(pr)) > 0 && len(out.shown) > 0 {
+			continue // failed its longer check: keep looking for one that holds
+		}
+		out.shown = append(out.shown, pr)
+	}
+	sort.SliceStable(out.shown, func(i, j int) bool { return out.shown[i].score > out.shown[j].score })
+	if len(out.shown) > 0 {
+		out.best = out.shown[0]
+	}
+	return out, nil
+}
+
+// candidate turns a verified pair into a table row.
+func (p *plant) candidate(pr *pair, kind loop.Kind) Candidate {
+	series := p.rParts.String() + "/" + p.cParts.String()
+	c := Candidate{
+		ROhm:               pr.r,
+		CF:                 pr.c,
+		Series:             series,
+		PredictedRipplePPV: pr.res.ripplePP,
+		PredictedSettleS:   pr.res.settleS,
+		PinCurrentA:        pr.pinA,
+		VInfSagV:           pr.sag,
+		TauS:               pr.ci.Tau(loop.Charge),
+		EffectiveCF:        pr.ci.C,
+		StaticErrorV:       pr.res.staticErr,
+		BandJumps:          pr.res.jumps,
+		Settled:            pr.res.settled,
+	}
+	if kind == loop.ThreeState {
+		c.DeadbandCounts = pr.db
+	}
+	f := p.failures(pr)
+	if len(f) == 0 {
+		c.Verdict = "meets goals"
+	} else {
+		c.Verdict = strings.Join(f, ", ")
+	}
+	c.Trades = p.trades(pr, kind)
+	return c
+}
+
+// trades says what a pair gives up.
+func (p *plant) trades(pr *pair, kind loop.Kind) string {
+	var t []string
+	rr := pr.res.ripplePP / p.g.rippleV
+	sr := pr.res.settleS / p.g.settleS
+	switch {
+	case rr > 0.7 && sr < 0.5:
+		t = append(t, fmt.Sprintf("fast (%.0f %% of the settling budget) but ripple uses %.0f %% of its budget", 100*sr, 100*rr))
+	case sr > 0.7 && rr < 0.5:
+		t = append(t, fmt.Sprintf("quiet (ripple %.0f %% of budget) but slow: %.0f %% of the settling budget", 100*rr, 100*sr))
+	default:
+		t = append(t, fmt.Sprintf("ripple %.0f %% and settling %.0f %% of budget", 100*rr, 100*sr))
+	}
+	if kind == loop.ThreeState && pr.db > 0 {
+		t = append(t, fmt.Sprintf("static error up to %d counts (%s)", pr.db, fmtV(float64(pr.db)*p.lsb())))
+	}
+	if pr.pinA > 0.5*p.g.pinA {
+		t = append(t, fmt.Sprintf("pin current %s is over half the %s limit", fmtA(pr.pinA), fmtA(p.g.pinA)))
+	}
+	if p.load > 0 && p.load < 10*pr.r {
+		t = append(t, fmt.Sprintf("load is under 10 R: V_inf sags %s", fmtV(pr.sag)))
+	}
+	switch {
+	case pr.c >= 10e-6:
+		t = append(t, "electrolytic size: leaks and -20/+80 % tolerance")
+	case pr.c >= 1e-6:
+		t = append(t, "a class-2 ceramic this size loses capacitance under DC bias: film or measure")
+	}
+	if pr.r >= 470e3 {
+		t = append(t, "high R: leakage and ADC input current start to matter")
+	}
+	return strings.Join(t, "; ")
+}

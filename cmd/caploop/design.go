@@ -1,0 +1,151 @@
+package main
+
+import (
+	"encoding/json"
+	"fmt"
+	"strings"
+
+	"github.com/spf13/cobra"
+
+	"github.com/caploop/caploop/analysis/advice"
+	"github.com/caploop/caploop/analysis/loop"
+	"github.com/caploop/caploop/telemetry/si"
+)
+
+func init() { commands = append(commands, newDesignCmd) }
+
+// designFlags are the flags of `caploop design`, as typed (engineering notation).
+type designFlags struct {
+	supply, vref, period, ripple, settle, static, load, pin, minPeriod string
+	bits                                                               int
+	mode, rParts, cParts, series, setpoints                            string
+	noise, sigma                                                       float64
+	top                                                                int
+	jsonOut                                                            bool
+}
+
+func newDesignCmd() *cobra.Command {
+	var f designFlags
+	cmd := &cobra.Command{
+		Use:   "design",
+		Short: "suggest deadband, R and C from goals alone (no board needed)",
+		Long: `design tries every resistor and capacitor pair of the chosen series (or the parts
+listed) against the goals, runs the promising ones through the loop model, and prints a
+ranked table with the predicted ripple, settling time, pin current and load sag of each,
+the deadband with its arithmetic, sample-period advice and, when no pair can meet the
+goals, the change of circuit that would.
+
+Ripple may be given in volts (100mV) or as a percentage of full scale (2%).`,
+		Example: `  caploop design --supply 5 --vref 5 --bits 10 --period 1ms --ripple 100mV --settle 200ms --series E12 --load 1M
+  caploop design --ripple 1% --settle 50ms --mode two-state --c "100n 470n 1u 2.2u" --json`,
+		Args: cobra.NoArgs,
+		RunE: func(cmd *cobra.Command, args []string) error {
+			req, err := f.request()
+			if err != nil {
+				return withCode(2, err)
+			}
+			a, err := advice.Design(req)
+			if err != nil {
+				return withCode(2, err)
+			}
+			out := cmd.OutOrStdout()
+			if f.jsonOut {
+				enc := json.NewEncoder(out)
+				enc.SetIndent("", "  ")
+				return enc.Encode(a)
+			}
+			return a.WriteText(out)
+		},
+	}
+	fl := cmd.Flags()
+	fl.StringVar(&f.supply, "supply", "5V", "pin high level (supply)")
+	fl.StringVar(&f.vref, "vref", "", "ADC reference (default: the supply)")
+	fl.IntVar(&f.bits, "bits", 10, "ADC resolution, bits")
+	fl.StringVar(&f.period, "period", "1ms", "sample period")
+	fl.StringVar(&f.mode, "mode", "three-state", "controller: two-state or three-state")
+	fl.StringVar(&f.ripple, "ripple", "", "allowed ripple p-p, volts (100mV) or % of full scale (2%); default 2%")
+	fl.StringVar(&f.settle, "settle", "", "settling time of a full-scale step (default 500ms)")
+	fl.StringVar(&f.static, "static-error", "", "allowed static error, volts (default: no goal)")
+	fl.StringVar(&f.load, "load", "", "resistive load on the capacitor node (default: none)")
+	fl.StringVar(&f.series, "series", "E12", "preferred-number series for R and C: E6, E12, E24, E96")
+	fl.StringVar(&f.rParts, "r", "", `resistors on hand: a series or a list ("10k 22k 47k")`)
+	fl.StringVar(&f.cParts, "c", "", `capacitors on hand: a series or a list ("100n 470n 1u 2.2u")`)
+	fl.StringVar(&f.pin, "pin-current", "20mA", "pin current limit (about 20 mA on classic parts, from memory)")
+	fl.StringVar(&f.minPeriod, "min-period", "104us", "ADC conversion time, the floor of the sample period")
+	fl.StringVar(&f.setpoints, "setpoints", "", "used setpoints in counts, comma separated (default 10, 50, 90 % of full scale)")
+	fl.Float64Var(&f.noise, "noise", 0, "ADC noise, counts rms (default 1)")
+	fl.Float64Var(&f.sigma, "sigma", 0, "noise margin of the deadband, in sigmas (default 3)")
+	fl.IntVar(&f.top, "top", 0, "pairs to show (default 5)")
+	fl.BoolVar(&f.jsonOut, "json", false, "print the advice as JSON")
+	return cmd
+}
+
+// request turns the flags into an advice request.
+func (f designFlags) request() (advice.Request, error) {
+	var req advice.Request
+	var err error
+	parse := func(name, s, unit string) float64 {
+		if err != nil || s == "" {
+			return 0
+		}
+		v, e := si.ParseUnit(s, unit)
+		if e != nil {
+			err = fmt.Errorf("design: --%s: %w", name, e)
+		}
+		return v
+	}
+	req.SupplyV = parse("supply", f.supply, "V")
+	req.VrefV = parse("vref", f.vref, "V")
+	req.PeriodS = parse("period", f.period, "s")
+	req.LoadOhm = parse("load", f.load, "Ω")
+	req.Bits = f.bits
+	g := &req.Goals
+	if r := strings.TrimSpace(f.ripple); strings.HasSuffix(r, "%") {
+		g.RipplePct = parse("ripple", strings.TrimSuffix(r, "%"), "")
+	} else {
+		g.RippleV = parse("ripple", r, "V")
+	}
+	g.SettleS = parse("settle", f.settle, "s")
+	g.StaticErrorV = parse("static-error", f.static, "V")
+	g.PinCurrentA = parse("pin-current", f.pin, "A")
+	g.MinPeriodS = parse("min-period", f.minPeriod, "s")
+	if err != nil {
+		return req, err
+	}
+	switch strings.ToLower(f.mode) {
+	case "three-state", "3":
+		req.Mode = loop.ThreeState
+	case "two-state", "2":
+		req.Mode = loop.TwoState
+	default:
+		return req, fmt.Errorf("design: --mode: want two-state or three-state, got %q", f.mode)
+	}
+	if advice.Series(f.series) == nil {
+		return req, fmt.Errorf("design: --series: unknown series %q (want E6, E12, E24 or E96)", f.series)
+	}
+	g.R.Series, g.C.Series = strings.ToUpper(f.series), strings.ToUpper(f.series)
+	if f.rParts != "" {
+		if g.R, err = advice.ParseParts(f.rParts, "Ω"); err != nil {
+			return req, fmt.Errorf("design: --r: %w", err)
+		}
+	}
+	if f.cParts != "" {
+		if g.C, err = advice.ParseParts(f.cParts, "F"); err != nil {
+			return req, fmt.Errorf("design: --c: %w", err)
+		}
+	}
+	if f.setpoints != "" {
+		for _, s := range strings.Split(f.setpoints, ",") {
+			v, e := si.Parse(strings.TrimSpace(s))
+			if e != nil {
+				return req, fmt.Errorf("design: --setpoints: %w", e)
+			}
+			g.Setpoints = append(g.Setpoints, v)
+		}
+	}
+	g.NoiseRMSCount, g.SigmaMultiple, g.Top = f.noise, f.sigma, f.top
+	if f.noise < 0 || f.sigma < 0 || f.top < 0 {
+		return req, fmt.Errorf("design: --noise, --sigma and --top must not be negative")
+	}
+	return req, nil
+}
