@@ -1,0 +1,188 @@
+package tui
+
+import (
+	"fmt"
+	"strings"
+
+	tea "github.com/charmbracelet/bubbletea"
+
+	"github.com/caploop/caploop/analysis"
+)
+
+// Change is one deadband change sent from the screen, with the figures of the steady
+// segment before it and the newest figures after it.
+type Change struct {
+	At       float64 // seconds, when the board confirmed
+	From, To float64 // deadband half-width, counts (From < 0: not known)
+	Before   *analysis.Segment
+	After    *analysis.Segment
+}
+
+// FiguresModel shows the analysis figures of the current steady segment and the plant,
+// compact under the trace or in full on its own view with a before/after table.
+type FiguresModel struct {
+	sum     *analysis.Summary
+	change  *Change
+	width   int
+	height  int
+	compact bool
+}
+
+// NewFigures returns an empty figures model.
+func NewFigures() FiguresModel { return FiguresModel{} }
+
+// SetSize sets the block size; compact picks the short form.
+func (m *FiguresModel) SetSize(width, height int, compact bool) {
+	m.width, m.height, m.compact = width, height, compact
+}
+
+// Update takes summary snapshots and deadband changes.
+func (m FiguresModel) Update(msg tea.Msg) (FiguresModel, tea.Cmd) {
+	switch msg := msg.(type) {
+	case snapshotMsg:
+		if msg.summary != nil {
+			m.sum = msg.summary
+		}
+		if msg.change != nil {
+			c := *msg.change
+			m.change = &c
+		}
+	}
+	return m, nil
+}
+
+// currentSegment returns the newest segment with a steady part, or the newest one.
+func currentSegment(s *analysis.Summary) *analysis.Segment {
+	if s == nil || len(s.Segments) == 0 {
+		return nil
+	}
+	for i := len(s.Segments) - 1; i >= 0; i-- {
+		if s.Segments[i].SteadySamples > 0 {
+			return &s.Segments[i]
+		}
+	}
+	return &s.Segments[len(s.Segments)-1]
+}
+
+// View renders the block.
+func (m FiguresModel) View() string {
+	if m.compact {
+		return fitBlock(m.compactView(), m.width, m.height)
+	}
+	return fitBlock(m.fullView(), m.width, m.height)
+}
+
+func (m FiguresModel) compactView() string {
+	seg := currentSegment(m.sum)
+	if seg == nil {
+		return "figures: waiting for a steady segment…"
+	}
+	var b strings.Builder
+	fmt.Fprintf(&b, "sp %s  ripple %s p-p, %s rms  mean error %s\n",
+		fmtSPV(seg), fmtSI(seg.RipplePPV, "V"), fmtSI(seg.RippleRMSV, "V"), fmtSI(seg.MeanErrorV, "V"))
+	fmt.Fprintf(&b, "duty charge %s hold %s discharge %s  cycle %s  switching %s\n",
+		fmtPct(seg.DutyCharge), fmtPct(seg.DutyHold), fmtPct(seg.DutyDischarge),
+		fmtSI(seg.LimitCyclePeriodS, "s"), fmtSI(seg.SwitchingHz, "Hz"))
+	fmt.Fprintf(&b, "band ±%s counts  entries %d  exits %d  band jumps %d%s\n",
+		fmtCounts(seg.DeadbandCounts), seg.DeadbandEntries, seg.DeadbandExits, seg.BandJumps, unreachable(seg))
+	p := m.sum.Plant
+	fmt.Fprintf(&b, "tau charge %s%s discharge %s  v_high %s  noise %s counts rms",
+		fmtSI(p.TauChargeS, "s"), fmtCI(p.TauChargeS, p.TauChargeCIS), fmtSI(p.TauDischargeS, "s"),
+		fmtSI(p.VHighV, "V"), fmtCounts(p.NoiseRMSCounts))
+	return b.String()
+}
+
+func fmtSPV(seg *analysis.Segment) string {
+	if seg.SetpointV != nil {
+		return fmtSI(seg.SetpointV, "V")
+	}
+	return fmt.Sprintf("%.0f counts", seg.SetpointCounts)
+}
+
+func unreachable(seg *analysis.Segment) string {
+	if seg.Unreachable {
+		return "  UNREACHABLE"
+	}
+	return ""
+}
+
+// segmentRows lists the figures of one segment as label/value rows.
+func segmentRows(seg *analysis.Segment) [][2]string {
+	if seg == nil {
+		return [][2]string{{"segment", "none yet"}}
+	}
+	return [][2]string{
+		{"setpoint", fmtSPV(seg)},
+		{"steady from", fmtSI(seg.SteadyStartS, "s") + fmt.Sprintf(" (%d samples)", seg.SteadySamples)},
+		{"ripple p-p", fmtSI(seg.RipplePPV, "V") + " (" + fmtCounts(seg.RipplePPCounts) + " counts)"},
+		{"ripple rms", fmtSI(seg.RippleRMSV, "V")},
+		{"mean error", fmtSI(seg.MeanErrorV, "V") + " (" + fmtCounts(seg.MeanErrorCounts) + " counts)"},
+		{"duty c/h/d", fmtPct(seg.DutyCharge) + " / " + fmtPct(seg.DutyHold) + " / " + fmtPct(seg.DutyDischarge)},
+		{"limit cycle", fmtSI(seg.LimitCyclePeriodS, "s")},
+		{"switching", fmtSI(seg.SwitchingHz, "Hz")},
+		{"ripple freq", fmtSI(seg.RippleFreqHz, "Hz")},
+		{"band", "±" + fmtCounts(seg.DeadbandCounts) + " counts"},
+		{"entries/exits", fmt.Sprintf("%d / %d", seg.DeadbandEntries, seg.DeadbandExits)},
+		{"band jumps", fmt.Sprintf("%d", seg.BandJumps)},
+	}
+}
+
+func plantRows(p analysis.Plant) [][2]string {
+	return [][2]string{
+		{"tau charge", fmtSI(p.TauChargeS, "s") + fmtCI(p.TauChargeS, p.TauChargeCIS)},
+		{"tau discharge", fmtSI(p.TauDischargeS, "s") + fmtCI(p.TauDischargeS, p.TauDischargeCIS)},
+		{"tau hold", fmtSI(p.TauHoldS, "s") + fmtCI(p.TauHoldS, p.TauHoldCIS)},
+		{"v_high", fmtSI(p.VHighV, "V") + fmtCI(p.VHighV, p.VHighCIV)},
+		{"v_low", fmtSI(p.VLowV, "V")},
+		{"noise", fmtCounts(p.NoiseRMSCounts) + " counts rms"},
+		{"effective R", fmtSI(p.EffectiveROhm, "Ω")},
+		{"effective C", fmtSI(p.EffectiveCF, "F")},
+		{"load", fmtSI(p.LoadOhm, "Ω")},
+	}
+}
+
+func rowsBlock(title string, rows [][2]string) string {
+	var b strings.Builder
+	b.WriteString(title)
+	for _, r := range rows {
+		fmt.Fprintf(&b, "\n %-13s %s", r[0], r[1])
+	}
+	return b.String()
+}
+
+// compareBlock puts two segments' figures side by side with a title.
+func compareBlock(c *Change) string {
+	before, after := segmentRows(c.Before), segmentRows(c.After)
+	var b strings.Builder
+	from := "?"
+	if c.From >= 0 {
+		from = fmt.Sprintf("%.0f", c.From)
+	}
+	fmt.Fprintf(&b, "deadband %s → %.0f at %s", from, c.To, formatSeconds(c.At))
+	fmt.Fprintf(&b, "\n %-13s %-22s %s", "", "before", "after")
+	for i := range before {
+		a := dash
+		if i < len(after) {
+			a = after[i][1]
+		}
+		if before[i][0] == "steady from" || before[i][0] == "setpoint" && c.Before == nil {
+			continue
+		}
+		fmt.Fprintf(&b, "\n %-13s %-22s %s", before[i][0], before[i][1], a)
+	}
+	return b.String()
+}
+
+func (m FiguresModel) fullView() string {
+	seg := currentSegment(m.sum)
+	left := rowsBlock("current segment", segmentRows(seg))
+	var right string
+	if m.sum != nil {
+		right = rowsBlock("plant (identified)", plantRows(m.sum.Plant))
+	}
+	out := sideBySide(left, right, 3)
+	if m.change != nil {
+		out += "\n\n" + compareBlock(m.change)
+	}
+	return out
+}

@@ -1,0 +1,126 @@
+package tui
+
+import "github.com/charmbracelet/bubbles/key"
+
+// Mode is what the screen is doing with its source.
+type Mode int
+
+// Screen modes: following a live source, frozen (the source keeps running and the
+// analysis keeps every sample), or replaying a file.
+const (
+	ModeLive Mode = iota
+	ModePaused
+	ModeReplay
+)
+
+// String returns "live", "paused" or "replay".
+func (m Mode) String() string {
+	switch m {
+	case ModePaused:
+		return "paused"
+	case ModeReplay:
+		return "replay"
+	}
+	return "live"
+}
+
+// KeyMap holds every key binding of the screen, each with its help text. It provides
+// ShortHelp and FullHelp for bubbles/help; SetMode turns bindings on and off so the help
+// shows only what works in the current mode.
+type KeyMap struct {
+	Quit      key.Binding
+	Help      key.Binding
+	Pause     key.Binding
+	ZoomIn    key.Binding
+	ZoomOut   key.Binding
+	Back      key.Binding
+	Forward   key.Binding
+	Latest    key.Binding
+	NextView  key.Binding
+	PrevView  key.Binding
+	Trace     key.Binding
+	Figures   key.Binding
+	Spread    key.Binding
+	Ripple    key.Binding
+	Step      key.Binding
+	Apply     key.Binding
+	Mark      key.Binding
+	Faster    key.Binding
+	Slower    key.Binding
+	StepOnce  key.Binding
+	SeekBack  key.Binding
+	SeekAhead key.Binding
+	Confirm   key.Binding
+	Cancel    key.Binding
+}
+
+// DefaultKeyMap returns the screen's key bindings.
+func DefaultKeyMap() KeyMap {
+	return KeyMap{
+		Quit:      key.NewBinding(key.WithKeys("q", "ctrl+c"), key.WithHelp("q", "quit")),
+		Help:      key.NewBinding(key.WithKeys("?", "h"), key.WithHelp("?", "keys")),
+		Pause:     key.NewBinding(key.WithKeys(" ", "p"), key.WithHelp("space", "hold/run")),
+		ZoomIn:    key.NewBinding(key.WithKeys("+", "="), key.WithHelp("+/-", "time zoom")),
+		ZoomOut:   key.NewBinding(key.WithKeys("-", "_"), key.WithHelp("-", "zoom out")),
+		Back:      key.NewBinding(key.WithKeys("left"), key.WithHelp("←/→", "scroll")),
+		Forward:   key.NewBinding(key.WithKeys("right"), key.WithHelp("→", "scroll ahead")),
+		Latest:    key.NewBinding(key.WithKeys("end", "G"), key.WithHelp("G", "newest")),
+		NextView:  key.NewBinding(key.WithKeys("tab"), key.WithHelp("tab", "next view")),
+		PrevView:  key.NewBinding(key.WithKeys("shift+tab"), key.WithHelp("shift+tab", "previous view")),
+		Trace:     key.NewBinding(key.WithKeys("1"), key.WithHelp("1", "trace")),
+		Figures:   key.NewBinding(key.WithKeys("2"), key.WithHelp("2", "figures")),
+		Spread:    key.NewBinding(key.WithKeys("3"), key.WithHelp("3", "error spread")),
+		Ripple:    key.NewBinding(key.WithKeys("4"), key.WithHelp("4", "ripple spectrum")),
+		Step:      key.NewBinding(key.WithKeys("5"), key.WithHelp("5", "last step")),
+		Apply:     key.NewBinding(key.WithKeys("d"), key.WithHelp("d", "send suggested deadband")),
+		Mark:      key.NewBinding(key.WithKeys("m"), key.WithHelp("m", "mark moment")),
+		Faster:    key.NewBinding(key.WithKeys("]"), key.WithHelp("[/]", "replay speed")),
+		Slower:    key.NewBinding(key.WithKeys("["), key.WithHelp("[", "slower")),
+		StepOnce:  key.NewBinding(key.WithKeys("n"), key.WithHelp("n", "step (held)")),
+		SeekBack:  key.NewBinding(key.WithKeys(","), key.WithHelp(",/.", "seek 10 s")),
+		SeekAhead: key.NewBinding(key.WithKeys("."), key.WithHelp(".", "seek ahead")),
+		Confirm:   key.NewBinding(key.WithKeys("y", "enter"), key.WithHelp("y", "confirm")),
+		Cancel:    key.NewBinding(key.WithKeys("n", "esc"), key.WithHelp("n/esc", "cancel")),
+	}
+}
+
+// SetMode enables the bindings that work in mode: replay controls only in replay, the
+// deadband key only on a source that accepts commands, stepping only while held.
+func (k *KeyMap) SetMode(m Mode, replay, canSend bool) {
+	k.Faster.SetEnabled(replay)
+	k.Slower.SetEnabled(replay)
+	k.SeekBack.SetEnabled(replay)
+	k.SeekAhead.SetEnabled(replay)
+	k.StepOnce.SetEnabled(replay && m == ModePaused)
+	k.Apply.SetEnabled(canSend)
+	k.Forward.SetEnabled(true)
+	k.Confirm.SetEnabled(false)
+	k.Cancel.SetEnabled(false)
+}
+
+// SetConfirming switches to the y/n bindings of a confirmation question and back.
+func (k *KeyMap) SetConfirming(on bool) {
+	k.Confirm.SetEnabled(on)
+	k.Cancel.SetEnabled(on)
+}
+
+// ShortHelp is the one-line help: bindings people need first.
+func (k KeyMap) ShortHelp() []key.Binding {
+	if k.Confirm.Enabled() {
+		return []key.Binding{k.Confirm, k.Cancel}
+	}
+	return []key.Binding{k.Help, k.Pause, k.ZoomIn, k.Back, k.NextView, k.Apply, k.Mark, k.Faster, k.Quit}
+}
+
+// FullHelp is the full key list in columns.
+func (k KeyMap) FullHelp() [][]key.Binding {
+	if k.Confirm.Enabled() {
+		return [][]key.Binding{{k.Confirm, k.Cancel}}
+	}
+	return [][]key.Binding{
+		{k.Pause, k.ZoomIn, k.ZoomOut, k.Back, k.Forward, k.Latest},
+		{k.NextView, k.Trace, k.Figures, k.Spread, k.Ripple, k.Step},
+		{k.Apply, k.Mark, k.Faster, k.Slower, k.StepOnce, k.SeekBack, k.SeekAhead},
+		{k.Help, k.Quit},
+	}
+}

@@ -1,0 +1,645 @@
+package tui
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/charmbracelet/bubbles/help"
+	"github.com/charmbracelet/bubbles/key"
+	tea "github.com/charmbracelet/bubbletea"
+	"github.com/charmbracelet/lipgloss"
+
+	"github.com/caploop/caploop/analysis"
+	"github.com/caploop/caploop/analysis/advice"
+	"github.com/caploop/caploop/telemetry"
+)
+
+var errNoSend = errors.New("tui: this source does not take commands")
+
+func ftoa(v float64) string { return strconv.FormatFloat(v, 'f', -1, 64) }
+
+// View is one screen of the bench screen.
+type View int
+
+// The views, in tab order.
+const (
+	ViewTrace View = iota
+	ViewFigures
+	ViewSpread
+	ViewRipple
+	ViewStep
+	numViews
+)
+
+var viewNames = [...]string{"trace", "figures", "spread", "ripple", "step"}
+
+// String returns the view's name.
+func (v View) String() string { return viewNames[v] }
+
+// Options tune the screen. The zero value is usable.
+type Options struct {
+	Color   bool          // colour the plot and the header (false honours NO_COLOR)
+	Span    float64       // initial time window, s (0 = 2 s)
+	Retain  int           // points kept for scrolling back (0 = DefaultRetain)
+	Timeout time.Duration // how long to wait for the board to confirm a command (0 = 5 s)
+}
+
+// snapshotMsg is what the root model forwards to its children after each frame.
+type snapshotMsg struct {
+	summary   *analysis.Summary
+	advice    *advice.Advice
+	adviceErr string
+	stats     *SourceStats
+	change    *Change
+}
+
+// confirmTimeoutMsg fires when the board did not answer a command in time.
+type confirmTimeoutMsg struct{ id int }
+
+// sentMsg reports the result of writing a command to the board.
+type sentMsg struct {
+	cmd string
+	err error
+}
+
+// pendingChange is a deadband command waiting for the board's meta line.
+type pendingChange struct {
+	id     int
+	to     int
+	from   float64
+	before *analysis.Segment
+}
+
+// scratch holds buffers reused across frames (the model is copied by value).
+type scratch struct{ pts []Point }
+
+// Model is the bench screen: the root bubbletea model that owns the small models and
+// the retained window of points.
+type Model struct {
+	src   *Pipeline
+	opts  Options
+	keys  KeyMap
+	help  help.Model
+	mode  Mode
+	view  View
+	full  bool // full help shown
+	ring  *Ring
+	marks []Mark
+	buf   *scratch
+
+	span   float64 // seconds shown
+	end    float64 // right edge when not following
+	follow bool
+
+	width, height int
+
+	figures FiguresModel
+	advice  AdviceModel
+	status  StatusModel
+	charts  [3]ChartModel
+
+	sum     *analysis.Summary
+	volts   bool
+	confirm int // deadband waiting for y/n; 0 = none
+	noting  bool
+	note    []rune
+	pending *pendingChange
+	change  *Change
+	nextID  int
+	message string
+	ended   bool
+	last    time.Time
+	speeds  []float64
+	speedIx int
+}
+
+// New returns the screen for a pipeline.
+func New(src *Pipeline, opts Options) Model {
+	if opts.Span <= 0 {
+		opts.Span = 2
+	}
+	if opts.Retain <= 0 {
+		opts.Retain = DefaultRetain
+	}
+	if opts.Timeout <= 0 {
+		opts.Timeout = 5 * time.Second
+	}
+	m := Model{
+		src:     src,
+		opts:    opts,
+		keys:    DefaultKeyMap(),
+		help:    help.New(),
+		ring:    NewRing(opts.Retain),
+		buf:     &scratch{},
+		span:    opts.Span,
+		follow:  true,
+		width:   80,
+		height:  24,
+		figures: NewFigures(),
+		advice:  NewAdvice(src.CanSend()),
+		status:  NewStatus(src.Replay()),
+		charts:  [3]ChartModel{NewChart(ChartSpread, opts.Color), NewChart(ChartRipple, opts.Color), NewChart(ChartStep, opts.Color)},
+		speeds:  []float64{1, 2, 10, 0},
+	}
+	if src.Replay() {
+		m.mode = ModeReplay
+	}
+	m.keys.SetMode(m.mode, src.Replay(), src.CanSend())
+	m.layout()
+	return m
+}
+
+// Init starts waiting for the source.
+func (m Model) Init() tea.Cmd { return m.src.wait(time.Time{}) }
+
+// Ring returns the retained window (for tests and benchmarks).
+func (m Model) Ring() *Ring { return m.ring }
+
+func (m *Model) layout() {
+	m.help.Width = m.width
+	m.status.SetWidth(m.width)
+	bodyH := m.height - 4
+	figH, advH := 4, 2
+	if m.height >= 36 {
+		advH = 5
+	}
+	if m.view == ViewTrace {
+		m.figures.SetSize(m.width, figH, true)
+		m.advice.SetSize(m.width, advH, true)
+	} else {
+		m.figures.SetSize(m.width, bodyH-(bodyH/3), false)
+		m.advice.SetSize(m.width, bodyH/3, false)
+	}
+	for i := range m.charts {
+		m.charts[i].SetSize(m.width, bodyH)
+	}
+}
+
+func (m *Model) setMode(mode Mode) {
+	m.mode = mode
+	m.status.SetMode(mode)
+	m.keys.SetMode(mode, m.src.Replay(), m.src.CanSend())
+	if m.confirm != 0 {
+		m.keys.SetConfirming(true)
+	}
+}
+
+// Update handles messages: frames from the source, keys, sizes and timers.
+func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
+	switch msg := msg.(type) {
+	case tea.WindowSizeMsg:
+		m.width, m.height = msg.Width, msg.Height
+		m.layout()
+		return m, nil
+	case samplesMsg:
+		if msg.src != m.src {
+			return m, nil
+		}
+		cmd := m.takeFrame(msg.box)
+		m.last = time.Now()
+		return m, tea.Batch(cmd, m.src.wait(m.last))
+	case sourceErrMsg:
+		m.message = "source: " + telemetry.Sanitize([]byte(msg.err.Error()))
+		m.ended = true
+		if m.src.Replay() {
+			return m, m.src.wait(time.Now())
+		}
+		return m, nil
+	case sourceDoneMsg:
+		m.ended = true
+		if m.src.Replay() {
+			return m, m.src.wait(time.Now())
+		}
+		return m, nil
+	case sentMsg:
+		if msg.err != nil {
+			m.message = "could not send " + msg.cmd + ": " + telemetry.Sanitize([]byte(msg.err.Error()))
+			m.pending = nil
+		}
+		return m, nil
+	case confirmTimeoutMsg:
+		if m.pending != nil && m.pending.id == msg.id {
+			m.message = fmt.Sprintf("the board did not confirm deadband %d within %s", m.pending.to, m.opts.Timeout)
+			m.pending = nil
+		}
+		return m, nil
+	case tea.KeyMsg:
+		return m.key(msg)
+	}
+	return m, nil
+}
+
+// takeFrame applies one mailbox to the model.
+func (m *Model) takeFrame(b mailbox) tea.Cmd {
+	if b.reset {
+		m.ring.Reset()
+		m.marks = m.marks[:0]
+		m.change, m.pending = nil, nil
+	}
+	for _, p := range b.points {
+		m.ring.Push(p)
+	}
+	for _, e := range b.events {
+		m.event(e)
+	}
+	if b.summary != nil {
+		m.sum = b.summary
+		if b.summary.Traces != nil {
+			m.volts = b.summary.Traces.Volts
+		} else {
+			m.volts = b.summary.Board.VrefV != nil && b.summary.Board.ADCBits != nil
+		}
+		if m.change != nil {
+			if seg := currentSegment(b.summary); seg != nil && seg.DeadbandCounts != nil &&
+				*seg.DeadbandCounts == m.change.To && (m.change.Before == nil || seg.StartS > m.change.Before.StartS) {
+				s := *seg
+				m.change.After = &s
+			}
+		}
+	}
+	if b.stats != nil {
+		st := *b.stats
+		st.Dropped = b.dropped
+		b.stats = &st
+	}
+	if b.done {
+		m.ended = true
+	} else if len(b.points) > 0 {
+		m.ended = false
+	}
+	if b.err != nil {
+		m.message = "source: " + telemetry.Sanitize([]byte(b.err.Error()))
+	}
+	snap := snapshotMsg{summary: b.summary, advice: b.advice, adviceErr: b.adviceErr, stats: b.stats, change: m.change}
+	m.figures, _ = m.figures.Update(snap)
+	m.advice, _ = m.advice.Update(snap)
+	m.status, _ = m.status.Update(snap)
+	for i := range m.charts {
+		m.charts[i], _ = m.charts[i].Update(snap)
+	}
+	return nil
+}
+
+func (m *Model) event(e Event) {
+	switch e.Kind {
+	case EventMark:
+		m.marks = append(m.marks, Mark{T: e.T, Label: cut(e.Text, 20)})
+	case EventState:
+		m.marks = append(m.marks, Mark{T: e.T, Label: cut(e.Text, 12)})
+		m.message = "link: " + e.Text
+	case EventNote:
+		m.marks = append(m.marks, Mark{T: e.T, Label: cut(e.Text, 16)})
+	case EventSent:
+		m.message = "sent: " + e.Text
+	case EventDeadband:
+		m.marks = append(m.marks, Mark{T: e.T, Label: "db " + strings.TrimPrefix(e.Text, "deadband ")})
+		if m.pending != nil && int(math.Round(e.Value)) == m.pending.to {
+			m.change = &Change{At: e.T, From: m.pending.from, To: e.Value, Before: m.pending.before}
+			m.message = fmt.Sprintf("the board confirmed deadband %d; figures before and after on view 2", m.pending.to)
+			m.pending = nil
+		} else if m.pending == nil {
+			m.message = "the board reports " + e.Text
+		}
+	}
+	// Keep marks bounded: drop those older than the retained window.
+	if len(m.marks) > 256 {
+		m.marks = append(m.marks[:0], m.marks[len(m.marks)-128:]...)
+	}
+}
+
+func cut(s string, n int) string {
+	r := []rune(s)
+	if len(r) > n {
+		return string(r[:n-1]) + "…"
+	}
+	return s
+}
+
+func (m Model) key(msg tea.KeyMsg) (tea.Model, tea.Cmd) {
+	if m.noting {
+		switch msg.Type {
+		case tea.KeyEnter:
+			m.noting = false
+			note := telemetry.Sanitize([]byte(strings.TrimSpace(string(m.note))))
+			if note == "" {
+				note = "mark"
+			}
+			m.note = nil
+			t := m.latest()
+			m.marks = append(m.marks, Mark{T: t, Label: cut(note, 20)})
+			m.message = "marked " + formatSeconds(t) + ": " + note
+			src := m.src
+			return m, func() tea.Msg {
+				if err := src.Mark(note); err != nil {
+					return sentMsg{cmd: "mark", err: err}
+				}
+				return nil
+			}
+		case tea.KeyEsc:
+			m.noting = false
+			m.note = nil
+			return m, nil
+		case tea.KeyCtrlC:
+			return m, tea.Quit
+		case tea.KeyBackspace:
+			if len(m.note) > 0 {
+				m.note = m.note[:len(m.note)-1]
+			}
+		case tea.KeyRunes, tea.KeySpace:
+			if len(m.note)+len(msg.Runes) <= 60 {
+				m.note = append(m.note, msg.Runes...)
+			}
+		}
+		return m, nil
+	}
+	if m.confirm != 0 {
+		switch {
+		case key.Matches(msg, m.keys.Confirm):
+			return m.sendDeadband()
+		case key.Matches(msg, m.keys.Quit) && msg.String() == "ctrl+c":
+			return m, tea.Quit
+		default:
+			m.confirm = 0
+			m.keys.SetConfirming(false)
+			m.message = "not sent"
+			return m, nil
+		}
+	}
+	k := m.keys
+	switch {
+	case key.Matches(msg, k.Quit):
+		return m, tea.Quit
+	case key.Matches(msg, k.Help):
+		m.full = !m.full
+	case key.Matches(msg, k.Pause):
+		m.togglePause()
+	case key.Matches(msg, k.ZoomIn):
+		m.zoom(0.5)
+	case key.Matches(msg, k.ZoomOut):
+		m.zoom(2)
+	case key.Matches(msg, k.Back):
+		m.scroll(-0.25)
+	case key.Matches(msg, k.Forward):
+		m.scroll(0.25)
+	case key.Matches(msg, k.Latest):
+		m.follow = true
+	case key.Matches(msg, k.NextView):
+		m.view = (m.view + 1) % numViews
+		m.layout()
+	case key.Matches(msg, k.PrevView):
+		m.view = (m.view + numViews - 1) % numViews
+		m.layout()
+	case key.Matches(msg, k.Trace), key.Matches(msg, k.Figures), key.Matches(msg, k.Spread),
+		key.Matches(msg, k.Ripple), key.Matches(msg, k.Step):
+		m.view = View(msg.Runes[0] - '1')
+		m.layout()
+	case key.Matches(msg, k.Apply):
+		n, ok := m.advice.Suggested()
+		if !ok {
+			m.message = "no suggested deadband yet"
+			return m, nil
+		}
+		if m.pending != nil {
+			m.message = "still waiting for the board to confirm the last change"
+			return m, nil
+		}
+		m.confirm = n
+		m.keys.SetConfirming(true)
+		m.message = fmt.Sprintf("send \"set deadband=%d\" to the board? y/n", n)
+	case key.Matches(msg, k.Mark):
+		m.noting = true
+		m.note = nil
+		return m, nil
+	case key.Matches(msg, k.Faster):
+		m.setSpeed(+1)
+	case key.Matches(msg, k.Slower):
+		m.setSpeed(-1)
+	case key.Matches(msg, k.StepOnce):
+		m.src.control(control{step: m.span / 10})
+	case key.Matches(msg, k.SeekBack):
+		m.src.control(control{seek: -10})
+		m.follow = true
+	case key.Matches(msg, k.SeekAhead):
+		m.src.control(control{seek: 10})
+		m.follow = true
+	}
+	return m, nil
+}
+
+func (m Model) sendDeadband() (tea.Model, tea.Cmd) {
+	n := m.confirm
+	m.confirm = 0
+	m.keys.SetConfirming(false)
+	m.nextID++
+	from := -1.0
+	if m.sum != nil && m.sum.Board.DeadbandCounts != nil {
+		from = *m.sum.Board.DeadbandCounts
+	}
+	var before *analysis.Segment
+	if seg := currentSegment(m.sum); seg != nil {
+		s := *seg
+		before = &s
+	}
+	m.pending = &pendingChange{id: m.nextID, to: n, from: from, before: before}
+	cmd := fmt.Sprintf("set deadband=%d", n)
+	m.message = "sent \"" + cmd + "\", waiting for the board…"
+	src, id, timeout := m.src, m.nextID, m.opts.Timeout
+	return m, tea.Batch(
+		func() tea.Msg { return sentMsg{cmd: cmd, err: src.Send(cmd)} },
+		tea.Tick(timeout, func(time.Time) tea.Msg { return confirmTimeoutMsg{id: id} }),
+	)
+}
+
+func (m *Model) togglePause() {
+	if m.mode == ModePaused {
+		if m.src.Replay() {
+			m.src.control(control{pause: -1})
+			m.setMode(ModeReplay)
+		} else {
+			m.setMode(ModeLive)
+		}
+		m.follow = true
+		return
+	}
+	if m.src.Replay() {
+		m.src.control(control{pause: 1})
+	}
+	m.end = m.latest()
+	m.follow = false
+	m.setMode(ModePaused)
+}
+
+func (m *Model) setSpeed(d int) {
+	m.speedIx = min(max(m.speedIx+d, 0), len(m.speeds)-1)
+	m.src.control(control{speed: m.speeds[m.speedIx], setSpeed: true})
+}
+
+func (m Model) latest() float64 {
+	if p, ok := m.ring.Last(); ok {
+		return p.T
+	}
+	return 0
+}
+
+func (m Model) oldest() float64 {
+	if m.ring.Len() == 0 {
+		return 0
+	}
+	return m.ring.At(0).T
+}
+
+func (m *Model) zoom(f float64) {
+	s := m.span * f
+	lo := 0.005
+	hi := math.Max(m.latest()-m.oldest(), 1)
+	m.span = math.Min(math.Max(s, lo), math.Max(hi, lo))
+}
+
+func (m *Model) scroll(frac float64) {
+	if m.follow {
+		m.end = m.latest()
+	}
+	m.end += frac * m.span
+	if m.end >= m.latest() {
+		m.end = m.latest()
+		if m.mode != ModePaused {
+			m.follow = true
+		}
+		return
+	}
+	m.follow = false
+	if m.end < m.oldest()+m.span {
+		m.end = m.oldest() + m.span
+	}
+}
+
+// window returns the span on screen.
+func (m Model) window() (from, to float64) {
+	to = m.end
+	if m.follow {
+		to = m.latest()
+	}
+	if to < m.span {
+		to = math.Max(to, m.span)
+	}
+	return to - m.span, to
+}
+
+// View draws the screen: header, body of the current view, message, status, help.
+func (m Model) View() string {
+	w, h := m.width, m.height
+	if w < 20 || h < 8 {
+		return "caploop: terminal too small"
+	}
+	header := m.header()
+	var body string
+	bodyH := h - 4
+	if m.full {
+		body = fitBlock("keys\n"+m.help.FullHelpView(m.keys.FullHelp()), w, bodyH)
+	} else {
+		switch m.view {
+		case ViewTrace:
+			figH, advH := m.figures.height, m.advice.height
+			plotH := bodyH - figH - advH
+			body = m.plotView(w, plotH) + "\n" + m.figures.View() + "\n" + m.advice.View()
+		case ViewFigures:
+			body = m.figures.View() + "\n" + m.advice.View()
+		default:
+			body = m.charts[m.view-ViewSpread].View()
+		}
+	}
+	msg := m.message
+	if m.noting {
+		msg = "note (enter stores it, esc cancels): " + string(m.note) + "█"
+	}
+	lines := []string{header, fitBlock(body, w, bodyH), padRight(msg, w), m.status.View(), padRight(m.help.ShortHelpView(m.keys.ShortHelp()), w)}
+	return strings.Join(lines, "\n")
+}
+
+func (m Model) header() string {
+	var tabs []string
+	for v := View(0); v < numViews; v++ {
+		name := fmt.Sprintf("%d %s", v+1, v)
+		if v == m.view {
+			name = "[" + name + "]"
+			if m.opts.Color {
+				name = lipgloss.NewStyle().Bold(true).Reverse(true).Render(name)
+			}
+		}
+		tabs = append(tabs, name)
+	}
+	left := "caploop  " + strings.Join(tabs, " ")
+	right := "window " + formatSeconds(m.span)
+	if m.ended {
+		right = "ended · " + right
+	}
+	gap := m.width - lipgloss.Width(left) - lipgloss.Width(right)
+	if gap < 1 {
+		return padRight(left, m.width)
+	}
+	return left + strings.Repeat(" ", gap) + right
+}
+
+// plotView decimates the visible part of the ring to at most two points per column
+// (the column's lowest and highest pv), then draws it with RenderPlot.
+func (m Model) plotView(w, h int) string {
+	from, to := m.window()
+	cols := max(plotColumns(w), 1)
+	pts := decimate(m.ring, from, to, cols, m.buf.pts[:0])
+	m.buf.pts = pts
+	var marks []Mark
+	for _, mk := range m.marks {
+		if mk.T >= from && mk.T < to {
+			marks = append(marks, mk)
+		}
+	}
+	return RenderPlot(Window{From: from, To: to, Points: pts, Marks: marks, Volts: m.volts, Color: m.opts.Color}, w, h)
+}
+
+// decimate appends to dst the points of r in [from, to), keeping for each of cols equal
+// time columns only its lowest-pv and highest-pv points (in time order), so the plot of
+// the result equals the plot of all points while the work per frame stays bounded.
+func decimate(r *Ring, from, to float64, cols int, dst []Point) []Point {
+	i := r.Search(from)
+	n := r.Len()
+	span := to - from
+	cur := -1
+	var lo, hi Point
+	var loI, hiI int
+	emit := func() {
+		if cur < 0 {
+			return
+		}
+		if loI == hiI {
+			dst = append(dst, lo)
+		} else if loI < hiI {
+			dst = append(dst, lo, hi)
+		} else {
+			dst = append(dst, hi, lo)
+		}
+	}
+	for ; i < n; i++ {
+		p := r.At(i)
+		if p.T >= to {
+			break
+		}
+		c := int((p.T - from) / span * float64(cols))
+		if c != cur {
+			emit()
+			cur, lo, hi, loI, hiI = c, p, p, i, i
+			continue
+		}
+		if p.PV < lo.PV {
+			lo, loI = p, i
+		}
+		if p.PV >= hi.PV {
+			hi, hiI = p, i
+		}
+	}
+	emit()
+	return dst
+}
