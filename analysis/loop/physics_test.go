@@ -251,3 +251,64 @@ func TestAdvanceFollowerCrossing(t *testing.T) {
 		})
 	}
 }
+
+// TestAdvanceComposes checks that advancing over t1 then t2 equals advancing over
+// t1 + t2 (the flow of a time-invariant ODE composes), across VBE crossings too:
+// a wrong crossing time or regime would break it.
+func TestAdvanceComposes(t *testing.T) {
+	circuits := []struct {
+		name string
+		c    Circuit
+	}{
+		{"plain", Circuit{Supply: 5, R: 47e3, C: 1e-6}},
+		{"loaded leaky split", Circuit{Supply: 3.3, R: 22e3, RDischarge: 10e3, RPin: 40, C: 2.2e-6, Load: 220e3, Leak: 3e6}},
+		{"follower heavy", Circuit{Supply: 5, R: 10e3, C: 1e-6, Load: 200e3, Follower: Follower{VBE: 0.65, Beta: 50, RE: 200}}},
+		{"follower only in hold", Circuit{Supply: 5, R: 10e3, C: 1e-6, Follower: Follower{VBE: 0.7, RE: 1e3}}},
+	}
+	for _, cc := range circuits {
+		for _, d := range []Drive{Discharge, Hold, Charge} {
+			for _, v0 := range []float64{0, 0.3, 0.65, 0.7, 0.9, 2.5, 4.9} {
+				for _, t1 := range []float64{1e-5, 3e-4, 2e-3, 0.05} {
+					t2 := 1.7e-3
+					got := cc.c.Advance(cc.c.Advance(v0, d, t1), d, t2)
+					want := cc.c.Advance(v0, d, t1+t2)
+					if math.Abs(got-want) > 1e-12*math.Max(1, math.Abs(want)) {
+						t.Errorf("%s d=%d v0=%g t1=%g: two steps %.15g, one step %.15g", cc.name, d, v0, t1, got, want)
+					}
+				}
+			}
+		}
+	}
+}
+
+// FuzzAdvance checks that Advance never leaves the interval spanned by its start and
+// the Thevenin voltages of the two regimes (a first-order trajectory moves
+// monotonically towards its equilibrium), and never returns NaN.
+func FuzzAdvance(f *testing.F) {
+	f.Add(0.0, int8(1), 1e-3, 10e3, 1e6, 200.0)
+	f.Add(0.9, int8(-1), 5e-3, 10e3, 0.0, 200.0)
+	f.Add(0.7, int8(0), 2e-2, 0.0, 0.0, 1e3)
+	f.Fuzz(func(t *testing.T, v float64, d int8, dt, load, leak, re float64) {
+		if !finite(v) || !finite(dt) || dt < 0 || dt > 10 || math.Abs(v) > 100 {
+			return
+		}
+		if !finite(load) || load < 0 || !finite(leak) || leak < 0 || !finite(re) || re < 0 || re > 1e9 {
+			return
+		}
+		dr := Drive(max(-1, min(1, d)))
+		c := Circuit{Supply: 5, R: 47e3, C: 1e-6, Load: load, Leak: leak, Follower: Follower{VBE: 0.65, RE: re}}
+		got := c.Advance(v, dr, dt)
+		if math.IsNaN(got) {
+			t.Fatalf("Advance(%g, %d, %g) = NaN", v, dr, dt)
+		}
+		lo, hi := v, v
+		for _, on := range []bool{false, true} {
+			vi, _ := c.thevenin(dr, on)
+			lo, hi = math.Min(lo, vi), math.Max(hi, vi)
+		}
+		eps := 1e-12 * math.Max(1, math.Abs(v))
+		if got < lo-eps || got > hi+eps {
+			t.Fatalf("Advance(%g, %d, %g) = %g outside [%g, %g]", v, dr, dt, got, lo, hi)
+		}
+	})
+}
