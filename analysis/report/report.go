@@ -230,8 +230,10 @@ ul.missing { color: #666; font-size: 0.9em; }
 {{if .Compare}}
 <section id="comparison">
 <h2>Comparison</h2>
-{{if .Overlay}}<div class="plots">{{range .Overlay}}{{template "figure" .}}{{end}}</div>{{end}}
+<div class="plots">
+{{range .Overlay}}{{template "figure" .}}{{end}}
 <div class="scroll">{{template "table" .Compare}}</div>
+</div>
 </section>
 {{end}}
 {{range .Docs}}
