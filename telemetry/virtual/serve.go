@@ -1,0 +1,241 @@
+package virtual
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"sync"
+	"sync/atomic"
+	"syscall"
+	"time"
+
+	"github.com/creack/pty"
+	"golang.org/x/sys/unix"
+	"golang.org/x/term"
+)
+
+// ServeOptions configure Serve.
+type ServeOptions struct {
+	// Link is the stable device path: a symbolic link that always points at the current
+	// pseudo-terminal, so a re-plugged board (a new pseudo-terminal) appears at the same
+	// path. Empty means "tty" in a new temporary directory, removed when Serve returns.
+	Link string
+	// Ready, when set, is called once with the device path as soon as it can be opened.
+	Ready func(path string)
+}
+
+// Serve runs the board in real time on a pseudo-terminal, as if it were on USB: any
+// serial program can open the device path, read the board's lines and write `set` lines
+// to it. Serve returns when ctx ends (with nil) or when the scenario's Samples or
+// Duration limit is reached; it removes the link on the way out. A scenario unplug
+// closes the pseudo-terminal (readers see the port vanish) and removes the link; the
+// re-plug opens a new pseudo-terminal behind the same link and the board boots again.
+//
+// While no program has the device open, the board's output is dropped, as a USB serial
+// device's would be; a program that opens it reads fresh lines, not stale ones.
+func (b *Board) Serve(ctx context.Context, opt ServeOptions) error {
+	link := opt.Link
+	tmpDir := ""
+	if link == "" {
+		d, err := os.MkdirTemp("", "caploop-sim-")
+		if err != nil {
+			return fmt.Errorf("virtual: %w", err)
+		}
+		tmpDir = d
+		link = filepath.Join(d, "tty")
+	} else if abs, err := filepath.Abs(link); err == nil {
+		link = abs
+	}
+	if fi, err := os.Lstat(link); err == nil && fi.Mode()&os.ModeSymlink == 0 {
+		return fmt.Errorf("virtual: %s exists and is not a symbolic link; choose another --link", link)
+	}
+	s := &ptyServer{board: b, link: link}
+	defer func() {
+		s.unplug()
+		if tmpDir != "" {
+			os.RemoveAll(tmpDir)
+		}
+	}()
+	if err := s.replug(); err != nil {
+		return err
+	}
+	if opt.Ready != nil {
+		opt.Ready(link)
+	}
+	err := b.Run(ctx, s, true)
+	if errors.Is(err, context.Canceled) || errors.Is(err, context.DeadlineExceeded) {
+		return nil
+	}
+	return err
+}
+
+// ptyServer is the io.Writer (and plugger) that Run writes to while serving.
+type ptyServer struct {
+	board   *Board
+	link    string
+	conn    *ptyConn // nil while unplugged
+	dropped atomic.Int64
+}
+
+// Dropped returns the bytes dropped because no program had the device open or it did
+// not read fast enough.
+func (s *ptyServer) Dropped() int64 { return s.dropped.Load() }
+
+func (s *ptyServer) Write(p []byte) (int, error) {
+	c := s.conn
+	if c == nil {
+		s.dropped.Add(int64(len(p)))
+		return len(p), nil
+	}
+	chunk := append([]byte(nil), p...)
+	select {
+	case c.out <- chunk:
+	default:
+		s.dropped.Add(int64(len(p)))
+	}
+	return len(p), nil
+}
+
+// unplug closes the pseudo-terminal and removes the link.
+func (s *ptyServer) unplug() {
+	if s.conn == nil {
+		return
+	}
+	os.Remove(s.link)
+	s.conn.close()
+	s.conn = nil
+}
+
+// replug opens a new pseudo-terminal and points the link at it.
+func (s *ptyServer) replug() error {
+	s.unplug()
+	c, err := openConn(s.board, &s.dropped)
+	if err != nil {
+		return err
+	}
+	tmp := s.link + ".new"
+	os.Remove(tmp)
+	if err := os.Symlink(c.path, tmp); err != nil {
+		c.close()
+		return fmt.Errorf("virtual: %w", err)
+	}
+	if err := os.Rename(tmp, s.link); err != nil {
+		os.Remove(tmp)
+		c.close()
+		return fmt.Errorf("virtual: %w", err)
+	}
+	s.conn = c
+	return nil
+}
+
+// ptyConn is one pseudo-terminal: the master side, a writer goroutine that copies the
+// board's output to it and a reader goroutine that hands host lines to the board.
+type ptyConn struct {
+	master *os.File
+	path   string // slave device
+	out    chan []byte
+	wg     sync.WaitGroup
+	once   sync.Once
+}
+
+// openConn opens a pseudo-terminal in raw mode (no echo, no line editing, no signals)
+// with a master that Close can interrupt.
+func openConn(b *Board, dropped *atomic.Int64) (*ptyConn, error) {
+	m, sl, err := pty.Open()
+	if err != nil {
+		return nil, fmt.Errorf("virtual: open pseudo-terminal: %w", err)
+	}
+	defer sl.Close()
+	if _, err := term.MakeRaw(int(sl.Fd())); err != nil {
+		m.Close()
+		return nil, fmt.Errorf("virtual: raw mode: %w", err)
+	}
+	// creack/pty leaves the master in blocking mode, where Close does not interrupt a
+	// Read; a non-blocking duplicate goes through the runtime poller instead.
+	fd, err := unix.Dup(int(m.Fd()))
+	m.Close()
+	if err != nil {
+		return nil, fmt.Errorf("virtual: %w", err)
+	}
+	unix.CloseOnExec(fd)
+	if err := unix.SetNonblock(fd, true); err != nil {
+		unix.Close(fd)
+		return nil, fmt.Errorf("virtual: %w", err)
+	}
+	c := &ptyConn{master: os.NewFile(uintptr(fd), "/dev/ptmx"), path: sl.Name(), out: make(chan []byte, 256)}
+	c.wg.Add(2)
+	go c.writer(dropped)
+	go c.reader(b)
+	return c, nil
+}
+
+func (c *ptyConn) close() {
+	c.once.Do(func() {
+		c.master.Close()
+		close(c.out)
+		c.wg.Wait()
+	})
+}
+
+// hungUp reports whether no program has the slave side open.
+func (c *ptyConn) hungUp() bool {
+	rc, err := c.master.SyscallConn()
+	if err != nil {
+		return true
+	}
+	var hup bool
+	rc.Control(func(fd uintptr) {
+		p := []unix.PollFd{{Fd: int32(fd), Events: unix.POLLOUT}}
+		if _, err := unix.Poll(p, 0); err == nil {
+			hup = p[0].Revents&unix.POLLHUP != 0
+		}
+	})
+	return hup
+}
+
+func (c *ptyConn) writer(dropped *atomic.Int64) {
+	defer c.wg.Done()
+	broken := false
+	for chunk := range c.out {
+		if broken || c.hungUp() {
+			dropped.Add(int64(len(chunk)))
+			continue
+		}
+		if _, err := c.master.Write(chunk); err != nil {
+			if errors.Is(err, os.ErrClosed) {
+				broken = true
+			}
+			dropped.Add(int64(len(chunk)))
+		}
+	}
+}
+
+// reader hands every line the host writes to the board. Lines longer than 512 bytes are
+// cut. While no program has the device open the master reads EIO; it waits and retries.
+func (c *ptyConn) reader(b *Board) {
+	defer c.wg.Done()
+	buf := make([]byte, 1024)
+	var line []byte
+	for {
+		n, err := c.master.Read(buf)
+		for _, ch := range buf[:n] {
+			if ch == '\n' {
+				b.Send(string(line))
+				line = line[:0]
+			} else if len(line) < 512 {
+				line = append(line, ch)
+			}
+		}
+		if err == nil {
+			continue
+		}
+		if errors.Is(err, syscall.EIO) || errors.Is(err, io.EOF) {
+			time.Sleep(20 * time.Millisecond)
+			continue
+		}
+		return // closed
+	}
+}
