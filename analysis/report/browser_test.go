@@ -102,8 +102,8 @@ const probeTail = `<script>
 </script>`
 
 type probePlot struct {
-	Kind                        string
-	W, H                        float64
+	Kind                       string
+	W, H                       float64
 	Texts, Axes, Marks, Points int
 }
 
