@@ -21,6 +21,11 @@ type Summary struct {
 	Steps         []StepFigures `json:"steps"`
 	Diagnostics   []Diagnostic  `json:"diagnostics"`
 	Traces        *Traces       `json:"-"` // bounded waveforms for plots (report, screen)
+
+	// SegmentsOmitted and StepsOmitted count segments and steps seen but not listed,
+	// because the lists are bounded (Options.MaxSegments).
+	SegmentsOmitted int64 `json:"segments_omitted"`
+	StepsOmitted    int64 `json:"steps_omitted"`
 }
 
 // Reject is one rejected line: where and why. Text is already sanitised.
@@ -61,6 +66,11 @@ type Plant struct {
 	EffectiveCF     *float64    `json:"effective_c_f"`   // from tau and the meta R
 	LoadOhm         *float64    `json:"load_ohm"`        // from v_high, supply and R
 	SenseDropV      *float64    `json:"sense_drop_v"`    // supply - v_high when it looks like a buffer drop
+
+	// ChargePairs, DischargePairs and HoldPairs count the sample pairs each fit used.
+	ChargePairs    int64 `json:"charge_pairs"`
+	DischargePairs int64 `json:"discharge_pairs"`
+	HoldPairs      int64 `json:"hold_pairs"`
 }
 
 // Segment holds the figures of one run of samples with one setpoint, over its steady part.
@@ -89,6 +99,19 @@ type Segment struct {
 	BandJumps         int64    `json:"band_jumps"`
 	Unreachable       bool     `json:"unreachable"`
 	DeadbandCounts    *float64 `json:"deadband_counts"` // the band in force during the segment
+
+	// RippleSignalPPV is the ripple with the ADC noise averaged out: the peak-to-peak of
+	// the mean waveform of the limit cycle, aligned on each charge onset. Null when the
+	// steady part holds fewer than 8 cycles.
+	RippleSignalPPV *float64 `json:"ripple_signal_pp_v"`
+	// LimitCycleDriveS is the cross-check of the limit-cycle period from the drive pattern:
+	// the mean interval between charge onsets in the steady part.
+	LimitCycleDriveS *float64 `json:"limit_cycle_drive_s"`
+	// NoiseExits counts deadband exits on the side the hold droop cannot reach (upward
+	// when the hold droops downward): exits caused by noise, not by droop.
+	NoiseExits int64 `json:"noise_exits"`
+	// Settled says the steady part was reached (the error changed sign or entered the band).
+	Settled bool `json:"settled"`
 }
 
 // StepFigures describe the response to one setpoint change.

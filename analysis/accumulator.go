@@ -1,0 +1,419 @@
+package analysis
+
+import (
+	"math"
+
+	"github.com/caploop/caploop/telemetry"
+)
+
+// Options tune the accumulator. The zero value picks the defaults.
+type Options struct {
+	// Source names the capture in the Summary (a file name, a port path).
+	Source string
+	// MaxSegments bounds the listed segments and steps (0 = 4096). Later ones are
+	// counted in SegmentsOmitted and StepsOmitted.
+	MaxSegments int
+	// Window is the number of steady readings per segment kept for the autocorrelation
+	// and the spectrum (0 = 4096).
+	Window int
+	// MarginCounts is how far, in counts, a reading must be from the controller's switching
+	// threshold for its sample pair to enter the plant fit (0 = 5): readings near a
+	// threshold chose their drive partly by noise, which biases the fit.
+	MarginCounts float64
+	// TraceBuckets is the length of the overview trace (0 = 1024).
+	TraceBuckets int
+	// ConversionS is the ADC conversion time the sample period is compared with
+	// (0 = 104 µs: 13 ADC clocks at 125 kHz for a 10-bit successive-approximation ADC,
+	// classic 8-bit microcontroller datasheets, from memory).
+	ConversionS float64
+}
+
+func (o Options) withDefaults() Options {
+	if o.MaxSegments <= 0 {
+		o.MaxSegments = 4096
+	}
+	if o.Window <= 0 {
+		o.Window = 4096
+	}
+	if o.MarginCounts <= 0 {
+		o.MarginCounts = 5
+	}
+	if o.TraceBuckets <= 0 {
+		o.TraceBuckets = 1024
+	}
+	if o.TraceBuckets%2 == 1 {
+		o.TraceBuckets++
+	}
+	if o.ConversionS <= 0 {
+		o.ConversionS = 104e-6
+	}
+	return o
+}
+
+// Kept traces: at most this many zoom windows, of this many samples, and step traces.
+const (
+	maxZooms      = 64
+	zoomLen       = 256
+	maxStepTraces = 16
+)
+
+// memo is what the plant fit remembers of the previous samples.
+type memo struct {
+	pv     float64
+	u      telemetry.Drive
+	forced bool // the drive was far from the switching threshold
+	ok     bool // a usable reading (not at a rail)
+	steady bool // in the steady part of its segment
+	next   bool // the following sample came without a gap
+}
+
+// balance holds the sums of the hold droop estimate over steady sample pairs: the sum
+// of the changes pv[k+1] - pv[k], and per drive the count and sum of pv[k].
+type balance struct {
+	delta float64
+	s, n  [3]float64
+}
+
+// Accumulator is the streaming analysis of one sample stream: feed it samples with Add
+// (and meta lines with SetMeta) and ask for the Summary at any time. It keeps bounded
+// memory whatever the stream's length, costs O(1) amortised per sample, and Summary's
+// cost does not grow with the samples seen, so the live screen and the headless summary
+// share it.
+//
+// The plant identification fits V[k+1] = a V[k] + b (counts) separately for each drive
+// over sample pairs where the drive was constant, with an instrumental variable: the
+// regressor V[k] is a noisy reading, and ordinary least squares would shrink a towards 0
+// by var(noise)/var(V) (errors in variables), which matters because tau = -T / ln a is
+// very sensitive to a near 1. The lagged reading V[k-1] is used as the instrument
+//
+//	a = sum (z - zbar)(y - ybar) / sum (z - zbar)(x - xbar),   z = V[k-1], x = V[k], y = V[k+1]
+//
+// which is consistent because the ADC noise of V[k-1] is independent of the noise in
+// V[k] and V[k+1]. A pair enters only when the reading V[k] was at least MarginCounts
+// beyond the controller's switching threshold (so the drive did not depend on the noise:
+// otherwise selecting "charge" selects negative noise), no reading is at an ADC rail, and
+// no sample is missing between them.
+//
+// The hold droop cannot be fitted the same way: inside the band the readings span a few
+// counts, every hold decision selects its reading (so the noise of the regressor is
+// never independent of the selection), and the droop per sample is a fraction of a
+// count. It comes instead from the balance of the steady parts, where what the charges
+// add the holds and discharges take away. Summed over steady sample pairs,
+//
+//	sum (pv[k+1] - pv[k]) = sum_d [ (a_d - 1) S_d + b_d N_d ],   S_d = sum of pv[k] with drive d
+//
+// and with the charge and discharge fits known and the hold asymptote c taken as the
+// discharge asymptote (the node decays towards ground in both),
+//
+//	1 - a_hold = [ (a_c - 1) S_c + b_c N_c + (a_d - 1) S_d + b_d N_d - sum (pv[k+1] - pv[k]) ] / (S_h - c N_h)
+//
+// which is linear in the readings, so their noise averages out instead of biasing it.
+type Accumulator struct {
+	opts  Options
+	meta  telemetry.Meta
+	stats telemetry.Stats
+	db    float64
+	mode  telemetry.Mode
+	three bool // band jumps count
+
+	clk      clock
+	n        int64
+	first    float64
+	last     float64
+	inferred bool
+
+	seg      *segState
+	segs     []segFig
+	segSeen  int64
+	zooms    []ZoomTrace
+	zoomSeg  []int
+	stepTr   []stepRaw
+	spec     spectral
+	buf      []float64
+	bestSpec specKeep
+
+	fits       [3]ivSums // discharge, (unused), charge
+	bal        balance
+	p1, p2     memo
+	codes      []uint32
+	maxCode    int
+	railLo     int64
+	railHi     int64
+	steadyHist [2*histHalf + 1]int64
+
+	ov overview
+}
+
+// stepRaw is the start of one step response, kept for the plot.
+type stepRaw struct {
+	step      int
+	t, pv     []float64
+	u         []int8
+	perSample float64
+}
+
+// specKeep is the spectrum of the longest steady part so far.
+type specKeep struct {
+	sn   int64
+	freq []float64 // cycles per sample
+	amp  []float64 // counts
+}
+
+// New returns an empty accumulator.
+func New(opts Options) *Accumulator {
+	a := &Accumulator{opts: opts.withDefaults(), seg: new(segState)}
+	a.seg.reset(a.opts.Window)
+	a.ov.init(a.opts.TraceBuckets)
+	a.db = 0
+	return a
+}
+
+// SetMeta sets what the board's meta lines say (the current merged meta). A deadband or
+// mode change takes effect from the next sample.
+func (a *Accumulator) SetMeta(m telemetry.Meta) {
+	a.meta = m
+	a.db = 0
+	a.mode = m.Mode
+	if m.Has(telemetry.FieldDeadband) && m.Mode != telemetry.TwoState {
+		a.db = m.Deadband
+	}
+	if a.mode == telemetry.ModeUnknown && a.db > 0 {
+		a.mode = telemetry.ThreeState
+	}
+	a.three = a.mode == telemetry.ThreeState
+	if m.Has(telemetry.FieldADCBits) && m.ADCBits > 0 && m.ADCBits <= 16 {
+		a.maxCode = 1<<m.ADCBits - 1
+	}
+}
+
+// SetStats records the reader's line counts (rejected lines, first rejects).
+func (a *Accumulator) SetStats(st telemetry.Stats) { a.stats = st }
+
+// infer applies the controller rule to a reading: three-state when the mode says so or
+// when a deadband is known, else two-state.
+func (a *Accumulator) infer(e float64) telemetry.Drive {
+	if a.three {
+		switch {
+		case e > a.db:
+			return telemetry.Discharge
+		case e < -a.db:
+			return telemetry.Charge
+		}
+		return telemetry.Hold
+	}
+	if e < 0 {
+		return telemetry.Charge
+	}
+	return telemetry.Discharge
+}
+
+// Add feeds one sample.
+func (a *Accumulator) Add(s telemetry.Sample) {
+	tick, contiguous := a.clk.tick(s)
+	u := s.U
+	e := s.PV - s.SP
+	if !s.Has(telemetry.HasU) {
+		u = a.infer(e)
+		a.inferred = true
+	} else if u < telemetry.Discharge || u > telemetry.Charge {
+		u = telemetry.Hold
+	}
+	if a.n == 0 {
+		a.first = tick
+		a.openSegment(s.SP, tick, false, 0)
+	} else if s.SP != a.seg.sp {
+		from := a.seg.sp
+		a.closeSegment()
+		a.openSegment(s.SP, tick, true, from)
+	}
+	a.n++
+	a.last = tick
+	a.seg.db = a.db
+	a.seg.add(tick, s.PV, u, a.three)
+	if a.seg.steady {
+		a.steadyHist[binOf(e)]++
+	}
+
+	// ADC code histogram and rails.
+	pv := s.PV
+	code := int(pv)
+	ok := pv >= 0 && float64(code) == pv
+	if ok {
+		if code < len(a.codes) {
+			a.codes[code]++
+		} else if code < 1<<16 {
+			a.growCodes(code)
+			a.codes[code]++
+		}
+	}
+	if pv <= 0 {
+		a.railLo++
+		ok = false
+	} else if a.maxCode > 0 && pv >= float64(a.maxCode) {
+		a.railHi++
+		ok = false
+	}
+
+	// Plant fit: pair (p1 -> this) with instrument p2.
+	a.p1.next = contiguous
+	if ok && a.p1.ok && contiguous {
+		if a.p1.forced && a.p1.u != telemetry.Hold && a.p2.ok && a.p2.next {
+			a.fits[a.p1.u+1].add(a.p2.pv, a.p1.pv, pv)
+		}
+		if a.p1.steady {
+			d := a.p1.u + 1
+			a.bal.delta += pv - a.p1.pv
+			a.bal.s[d] += a.p1.pv
+			a.bal.n[d]++
+		}
+	}
+	a.p2 = a.p1
+	m := a.opts.MarginCounts
+	var forced bool
+	switch u {
+	case telemetry.Charge:
+		forced = e < -a.db-m
+	case telemetry.Discharge:
+		forced = e > a.db+m
+	default:
+		forced = math.Abs(e) < a.db-m
+	}
+	a.p1 = memo{pv: pv, u: u, forced: forced, ok: ok, steady: a.seg.steady}
+
+	a.ov.add(tick, s.SP, pv)
+}
+
+func (a *Accumulator) growCodes(code int) {
+	n := 1024
+	for n <= code {
+		n <<= 1
+	}
+	c := make([]uint32, n)
+	copy(c, a.codes)
+	a.codes = c
+}
+
+func (a *Accumulator) openSegment(sp, tick float64, hasFrom bool, from float64) {
+	a.seg.reset(a.opts.Window)
+	a.seg.sp, a.seg.start, a.seg.end = sp, tick, tick
+	a.seg.hasFrom, a.seg.from = hasFrom, from
+	a.seg.index = int(a.segSeen)
+	a.seg.db = a.db
+	a.segSeen++
+}
+
+// closeSegment finishes the open segment and keeps its figures (bounded).
+func (a *Accumulator) closeSegment() {
+	s := a.seg
+	if s.n == 0 {
+		return
+	}
+	if len(a.segs) >= a.opts.MaxSegments {
+		return
+	}
+	var f segFig
+	f, a.buf = s.finish(&a.spec, a.buf)
+	a.keepSpectrum(s)
+	a.segs = append(a.segs, f)
+	if len(a.zooms) < maxZooms && s.sn > 0 {
+		a.zooms = append(a.zooms, s.zoom(zoomLen))
+		a.zoomSeg = append(a.zoomSeg, s.index)
+	}
+	if f.hasStep && len(a.stepTr) < maxStepTraces {
+		k := int(min(s.n, stepKeep))
+		r := stepRaw{step: s.index, t: append([]float64(nil), s.stepT[:k]...),
+			pv: append([]float64(nil), s.stepPV[:k]...), u: append([]int8(nil), s.stepU[:k]...)}
+		a.stepTr = append(a.stepTr, r)
+	}
+}
+
+// keepSpectrum keeps the spectrum of s when its steady part is the longest so far. It
+// must follow s.finish, which left the power spectrum in the workspace.
+func (a *Accumulator) keepSpectrum(s *segState) {
+	if s.sn <= a.bestSpec.sn || s.sn < 16 || a.spec.n == 0 {
+		return
+	}
+	m := int(min(s.sn, int64(len(s.ring))))
+	nb := a.spec.n/2 + 1
+	step := max(1, nb/512)
+	a.bestSpec.sn = s.sn
+	a.bestSpec.freq = a.bestSpec.freq[:0]
+	a.bestSpec.amp = a.bestSpec.amp[:0]
+	for i := 1; i < nb; i += step {
+		p := real(a.spec.coef[i])
+		a.bestSpec.freq = append(a.bestSpec.freq, float64(i)/float64(a.spec.n))
+		a.bestSpec.amp = append(a.bestSpec.amp, 2*math.Sqrt(math.Max(p, 0))/float64(m))
+	}
+}
+
+// zoom returns the last n steady samples of s (ticks, counts, drive).
+func (s *segState) zoom(n int) ZoomTrace {
+	m := int(min(s.sn, int64(len(s.ring)), int64(n)))
+	z := ZoomTrace{Segment: s.index, T: make([]float64, m), PV: make([]float64, m), U: make([]float64, m)}
+	start := s.rpos - m
+	if start < 0 {
+		start += len(s.ring)
+	}
+	for i := 0; i < m; i++ {
+		j := (start + i) % len(s.ring)
+		z.T[i], z.PV[i], z.U[i] = s.ringT[j], s.ring[j], float64(s.ringU[j])
+	}
+	return z
+}
+
+// overview is a min/max envelope of the whole stream in at most cap buckets: when full,
+// neighbouring buckets merge and each bucket covers twice as many samples.
+type overview struct {
+	capN        int
+	width, fill int64
+	t, sp, sum  []float64
+	lo, hi      []float64
+	cnt         []float64
+}
+
+func (o *overview) init(n int) {
+	o.capN, o.width = n, 1
+	o.t = make([]float64, 0, n)
+	o.sp = make([]float64, 0, n)
+	o.sum = make([]float64, 0, n)
+	o.lo = make([]float64, 0, n)
+	o.hi = make([]float64, 0, n)
+	o.cnt = make([]float64, 0, n)
+}
+
+func (o *overview) add(t, sp, pv float64) {
+	if len(o.t) == 0 || o.fill == o.width {
+		if len(o.t) == o.capN {
+			h := o.capN / 2
+			for i := 0; i < h; i++ {
+				j, k := 2*i, 2*i+1
+				o.t[i] = o.t[j]
+				o.sp[i] = o.sp[k]
+				o.sum[i] = o.sum[j] + o.sum[k]
+				o.lo[i] = min(o.lo[j], o.lo[k])
+				o.hi[i] = max(o.hi[j], o.hi[k])
+				o.cnt[i] = o.cnt[j] + o.cnt[k]
+			}
+			o.t, o.sp, o.sum, o.lo, o.hi, o.cnt = o.t[:h], o.sp[:h], o.sum[:h], o.lo[:h], o.hi[:h], o.cnt[:h]
+			o.width *= 2
+		}
+		o.t = append(o.t, t)
+		o.sp = append(o.sp, sp)
+		o.sum = append(o.sum, 0)
+		o.lo = append(o.lo, pv)
+		o.hi = append(o.hi, pv)
+		o.cnt = append(o.cnt, 0)
+		o.fill = 0
+	}
+	i := len(o.t) - 1
+	o.sp[i] = sp
+	o.sum[i] += pv
+	o.cnt[i]++
+	if pv < o.lo[i] {
+		o.lo[i] = pv
+	}
+	if pv > o.hi[i] {
+		o.hi[i] = pv
+	}
+	o.fill++
+}

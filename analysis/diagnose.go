@@ -1,0 +1,167 @@
+package analysis
+
+import (
+	"fmt"
+	"math"
+
+	"github.com/caploop/caploop/telemetry"
+	"github.com/caploop/caploop/telemetry/si"
+)
+
+// Diagnostic codes.
+const (
+	DiagUnreachable     = "unreachable_setpoint"
+	DiagBandTooNarrow   = "band_too_narrow"
+	DiagNoiseChatter    = "noise_chatter"
+	DiagDroopTooFast    = "droop_too_fast"
+	DiagDroppedSamples  = "dropped_samples"
+	DiagJitter          = "jitter"
+	DiagRailSaturation  = "rail_saturation"
+	DiagPeriodBelowADC  = "period_below_conversion"
+	DiagRejectedLines   = "rejected_lines"
+	DiagNoIdentify      = "plant_not_identified"
+	DiagInferredDrive   = "inferred_drive"
+	DiagMissingCodes    = "missing_codes"
+	DiagStuckCodes      = "stuck_codes"
+	DiagSenseDrop       = "sense_drop"
+	DiagNoPeriod        = "no_sample_period"
+	DiagNotSettled      = "not_settled"
+	DiagSegmentsOmitted = "segments_omitted"
+)
+
+// volts formats counts as volts when the scale is known, else as counts.
+func (c conv) fmtV(counts float64) string {
+	if math.IsNaN(c.lsb) {
+		return fmt.Sprintf("%.1f counts", counts)
+	}
+	return si.Format(c.v(counts), "V")
+}
+
+func fmtS(s float64) string { return si.Format(s, "s") }
+
+// diagnose writes the findings as plain sentences with the numbers behind them.
+func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv) []Diagnostic {
+	d := []Diagnostic{}
+	add := func(code, sev, format string, args ...any) {
+		d = append(d, Diagnostic{Code: code, Severity: sev, Message: fmt.Sprintf(format, args...)})
+	}
+	if sum.RejectedLines > 0 {
+		msg := fmt.Sprintf("%d lines could not be read and were skipped", sum.RejectedLines)
+		if len(sum.FirstRejects) > 0 {
+			msg += "; the first: " + sum.FirstRejects[0].Reason
+		}
+		add(DiagRejectedLines, "warning", "%s.", msg)
+	}
+	if sum.SamplePeriodS == nil && a.n > 1 {
+		add(DiagNoPeriod, "warning", "The sample period is unknown (no t on the data lines, no period_us meta line, no host times): times and time constants cannot be given.")
+	}
+	if a.inferred {
+		add(DiagInferredDrive, "info", "The data lines carry no drive u: it was inferred from the %s rule with a deadband of %g counts.", modeName(a.three), a.db)
+	}
+	for i := range figs {
+		f := &figs[i]
+		seg := &sum.Segments[i]
+		if seg.Unreachable {
+			up := f.lastPV < f.sp
+			what, lim := "v_high", "charge"
+			dd := 2
+			if !up {
+				what, lim, dd = "v_low", "discharge", 0
+			}
+			if pf.ok[dd] && !math.IsNaN(pf.fit[dd].VInf) {
+				add(DiagUnreachable, "error", "Segment %d: the setpoint %s is beyond the %s asymptote %s = %s; the loop stays at %s. Lower the load or the buffer drop, or move the setpoint.",
+					i+1, c.fmtV(f.sp), lim, what, c.fmtV(pf.fit[dd].VInf), c.fmtV(f.lastPV))
+			} else {
+				add(DiagUnreachable, "error", "Segment %d: the setpoint %s was never reached; the reading stopped at %s after %d samples of %s.",
+					i+1, c.fmtV(f.sp), c.fmtV(f.lastPV), f.endRun, lim)
+			}
+		} else if !f.settled && i < len(figs)-1 && f.n >= 16 {
+			add(DiagNotSettled, "warning", "Segment %d: the reading did not reach the setpoint %s within the segment (%d samples, last reading %s).",
+				i+1, c.fmtV(f.sp), f.n, c.fmtV(f.lastPV))
+		}
+		if f.jumps > 0 {
+			step := a.stepNear(f.sp, pf)
+			band := 2*f.db + 1
+			msg := fmt.Sprintf("Segment %d: %d band jumps (a charge followed directly by a discharge or the reverse) with a deadband of ±%g counts (%g counts wide)",
+				i+1, f.jumps, f.db, band)
+			if !math.IsNaN(step) {
+				msg += fmt.Sprintf("; one charge step near the setpoint is about %.1f counts", step)
+				noise := 0.0
+				if sum.Plant.NoiseRMSCounts != nil {
+					noise = *sum.Plant.NoiseRMSCounts
+				}
+				need := math.Ceil((step + 3*noise - 1) / 2)
+				if need > f.db {
+					msg += fmt.Sprintf(", so the band needs a deadband of at least %g counts (step plus 3 sigma of noise)", need)
+				}
+			}
+			add(DiagBandTooNarrow, "warning", "%s.", msg)
+		}
+		if f.noiseExits > 2 && float64(f.noiseExits) > 0.1*float64(f.exits) {
+			noise := "unknown"
+			if sum.Plant.NoiseRMSCounts != nil {
+				noise = fmt.Sprintf("%.2f counts rms", *sum.Plant.NoiseRMSCounts)
+			}
+			add(DiagNoiseChatter, "warning", "Segment %d: %d of %d deadband exits went upward out of hold, which the droop cannot do: ADC noise (%s) chatters against the ±%g count band; widen it or filter the reading.",
+				i+1, f.noiseExits, f.exits, noise, f.db)
+		}
+		if f.db > 0 && pf.ok[1] && f.settled {
+			hf := pf.fit[1]
+			droop := (1 - hf.A) * (f.sp - hf.VInf)
+			if droop > 0 && 3*droop > 2*f.db+1 {
+				add(DiagDroopTooFast, "warning", "Segment %d: in hold the level droops about %.1f counts per sample, so it crosses the %g-count band in %.1f samples: the loop recharges almost every sample. Reduce the load, shorten the sample period or widen the band.",
+					i+1, droop, 2*f.db+1, (2*f.db+1)/droop)
+			}
+		}
+	}
+	if sum.Gaps > 0 && a.n > 0 {
+		add(DiagDroppedSamples, "warning", "%d samples are missing (%.2f %% of %d): the link dropped lines or the board skipped periods.",
+			sum.Gaps, 100*float64(sum.Gaps)/float64(sum.Gaps+a.n), sum.Gaps+a.n)
+	}
+	if sum.JitterS != nil && sum.SamplePeriodS != nil && *sum.JitterS > 0.05**sum.SamplePeriodS {
+		add(DiagJitter, "warning", "The sample period jitters by %s rms (%.1f %% of %s): the firmware's timing is uneven, which adds ripple.",
+			fmtS(*sum.JitterS), 100**sum.JitterS/(*sum.SamplePeriodS), fmtS(*sum.SamplePeriodS))
+	}
+	if r := a.railLo + a.railHi; r > 0 && float64(r) > 0.001*float64(a.n) {
+		add(DiagRailSaturation, "warning", "%d readings (%.1f %%) sit at an ADC rail (%d at 0, %d at full scale): the level was clipped, and the fit left them out.",
+			r, 100*float64(r)/float64(a.n), a.railLo, a.railHi)
+	}
+	if sum.SamplePeriodS != nil && *sum.SamplePeriodS < a.opts.ConversionS {
+		add(DiagPeriodBelowADC, "error", "The sample period %s is below the ADC conversion time of about %s (a 10-bit successive-approximation ADC at a 125 kHz ADC clock): the readings cannot be fresh.",
+			fmtS(*sum.SamplePeriodS), fmtS(a.opts.ConversionS))
+	}
+	if a.n > 100 && !pf.ok[2] && !pf.ok[0] {
+		add(DiagNoIdentify, "info", "No time constant could be identified: there is no run of charge or discharge at least %g counts from the setpoint. A setpoint step in the capture gives one.", a.opts.MarginCounts)
+	}
+	if p := sum.Plant; p.SenseDropV != nil {
+		add(DiagSenseDrop, "info", "v_high is %s below the supply: a buffer (an emitter follower drops about 0.65 V) or a load lowers the top of the range.",
+			si.Format(*p.SenseDropV, "V"))
+	}
+	if n := len(sum.Plant.MissingCodes); n > 0 {
+		add(DiagMissingCodes, "warning", "%d ADC codes never occur although the reading swept across them (first: %d): the converter has missing codes.", n, sum.Plant.MissingCodes[0])
+	}
+	if n := len(sum.Plant.StuckCodes); n > 0 {
+		add(DiagStuckCodes, "warning", "%d ADC codes occur far more often than their neighbours away from any setpoint (first: %d): the converter may stick there.", n, sum.Plant.StuckCodes[0])
+	}
+	if sum.SegmentsOmitted > 0 {
+		add(DiagSegmentsOmitted, "info", "%d more segments are not listed (the list is bounded).", sum.SegmentsOmitted)
+	}
+	return d
+}
+
+func modeName(three bool) string {
+	if three {
+		return telemetry.ThreeState.String()
+	}
+	return telemetry.TwoState.String()
+}
+
+// stepNear returns the size of one charge step at a setpoint, in counts:
+// (1 - a) (v_high - sp), NaN without a charge fit.
+func (a *Accumulator) stepNear(sp float64, pf plantFit) float64 {
+	if !pf.ok[2] {
+		return math.NaN()
+	}
+	f := pf.fit[2]
+	return (1 - f.A) * (f.VInf - sp)
+}

@@ -1,0 +1,381 @@
+package analysis
+
+import (
+	"math"
+
+	"github.com/caploop/caploop/telemetry"
+)
+
+// histHalf is the half-width of the per-segment error histograms, in counts; errors
+// beyond it land in the edge bins.
+const histHalf = 1024
+
+// trigLen is the longest limit cycle, in samples, the onset-aligned average follows.
+const trigLen = 512
+
+// stepKeep is the number of samples kept after a setpoint change for the step plot.
+const stepKeep = 256
+
+// segState is the running state of the open segment. Its arrays are cleared lazily
+// (only the touched range) so that a new segment costs little however short it is.
+type segState struct {
+	sp, from   float64
+	hasFrom    bool
+	index      int
+	start, end float64 // ticks
+	n          int64
+	firstSign  int8
+	steady     bool
+	steadyAt   float64
+	db         float64
+	sawHold    bool
+
+	// whole segment
+	minPV, maxPV   float64
+	prevIn         bool
+	prevU          telemetry.Drive
+	entries, exits int64
+	noiseExits     int64
+	t10, t90       float64
+	has10, has90   bool
+	lastSeen       [2*histHalf + 1]int64 // number (1-based) of the last sample in each error bin
+	lsLo, lsHi     int
+	endRun         int64 // samples with the same drive at the end
+	lastPV         float64
+	stepT, stepPV  [stepKeep]float64
+	stepU          [stepKeep]int8
+
+	// steady part
+	sn              int64
+	sumE, sumE2     float64
+	minE, maxE      float64
+	hist            [2*histHalf + 1]uint32
+	hLo, hHi        int
+	duty            [3]int64 // discharge, hold, charge
+	switches, jumps int64
+	onsets          int64
+	firstOn, lastOn float64
+	sprev           telemetry.Drive
+	ring            []float64 // last Window steady readings
+	ringU           []int8
+	ringT           []float64
+	rpos            int
+	trigSum         [trigLen]float64
+	trigCnt         [trigLen]int32
+	trigMax         int
+	trigJ           int // offset since the last charge onset, -1 before the first
+}
+
+func binOf(e float64) int {
+	b := int(math.Round(e)) + histHalf
+	if b < 0 {
+		return 0
+	}
+	if b > 2*histHalf {
+		return 2 * histHalf
+	}
+	return b
+}
+
+// reset prepares s for a new segment.
+func (s *segState) reset(window int) {
+	for i := s.lsLo; i <= s.lsHi && s.n > 0; i++ {
+		s.lastSeen[i] = 0
+	}
+	for i := s.hLo; i <= s.hHi && s.sn > 0; i++ {
+		s.hist[i] = 0
+	}
+	for i := 0; i < s.trigMax; i++ {
+		s.trigSum[i], s.trigCnt[i] = 0, 0
+	}
+	if len(s.ring) != window {
+		s.ring = make([]float64, window)
+		s.ringU = make([]int8, window)
+		s.ringT = make([]float64, window)
+	}
+	ring, ringU, ringT := s.ring, s.ringU, s.ringT
+	s.sp, s.from, s.hasFrom, s.index = 0, 0, false, 0
+	s.start, s.end, s.n, s.firstSign, s.steady, s.steadyAt, s.db, s.sawHold = 0, 0, 0, 0, false, 0, 0, false
+	s.minPV, s.maxPV, s.prevIn, s.prevU = math.Inf(1), math.Inf(-1), false, 0
+	s.entries, s.exits, s.noiseExits = 0, 0, 0
+	s.t10, s.t90, s.has10, s.has90 = 0, 0, false, false
+	s.lsLo, s.lsHi = 2*histHalf, 0
+	s.endRun, s.lastPV = 0, 0
+	s.sn, s.sumE, s.sumE2, s.minE, s.maxE = 0, 0, 0, math.Inf(1), math.Inf(-1)
+	s.hLo, s.hHi = 2*histHalf, 0
+	s.duty = [3]int64{}
+	s.switches, s.jumps, s.onsets, s.firstOn, s.lastOn, s.sprev = 0, 0, 0, 0, 0, 0
+	s.ring, s.ringU, s.ringT, s.rpos = ring, ringU, ringT, 0
+	s.trigMax, s.trigJ = 0, -1
+}
+
+// add feeds one sample of the segment. threeState says band jumps count.
+func (s *segState) add(tick, pv float64, u telemetry.Drive, threeState bool) {
+	e := pv - s.sp
+	s.n++
+	s.end = tick
+	s.lastPV = pv
+	if pv < s.minPV {
+		s.minPV = pv
+	}
+	if pv > s.maxPV {
+		s.maxPV = pv
+	}
+	if s.n <= stepKeep {
+		i := s.n - 1
+		s.stepT[i], s.stepPV[i], s.stepU[i] = tick, pv, int8(u)
+	}
+	if s.hasFrom && s.sp != s.from {
+		p := (pv - s.from) / (s.sp - s.from)
+		if !s.has10 && p >= 0.1 {
+			s.t10, s.has10 = tick, true
+		}
+		if !s.has90 && p >= 0.9 {
+			s.t90, s.has90 = tick, true
+		}
+	}
+	b := binOf(e)
+	s.lastSeen[b] = s.n
+	if b < s.lsLo {
+		s.lsLo = b
+	}
+	if b > s.lsHi {
+		s.lsHi = b
+	}
+	in := math.Abs(e) <= s.db
+	if s.n == 1 {
+		s.firstSign = sign(e)
+	} else {
+		if in && !s.prevIn {
+			s.entries++
+		} else if !in && s.prevIn {
+			s.exits++
+			if e > 0 && s.prevU == telemetry.Hold {
+				s.noiseExits++
+			}
+		}
+	}
+	if !s.steady && (in || (s.n > 1 && sign(e) != s.firstSign)) {
+		s.steady, s.steadyAt = true, tick
+	}
+	if u == s.prevU && s.n > 1 {
+		s.endRun++
+	} else {
+		s.endRun = 1
+	}
+	if s.steady {
+		s.sn++
+		s.sumE += e
+		s.sumE2 += e * e
+		if e < s.minE {
+			s.minE = e
+		}
+		if e > s.maxE {
+			s.maxE = e
+		}
+		s.hist[b]++
+		if b < s.hLo {
+			s.hLo = b
+		}
+		if b > s.hHi {
+			s.hHi = b
+		}
+		s.duty[u+1]++
+		if s.sn > 1 && u != s.sprev {
+			s.switches++
+			if (threeState || s.sawHold) && u == -s.sprev {
+				s.jumps++
+			}
+		}
+		onset := u == telemetry.Charge && (s.sn == 1 || s.sprev != telemetry.Charge)
+		if onset && s.sn > 1 {
+			if s.onsets == 0 {
+				s.firstOn = tick
+			}
+			s.lastOn = tick
+			s.onsets++
+			s.trigJ = 0
+		}
+		if s.trigJ >= 0 && s.trigJ < trigLen {
+			s.trigSum[s.trigJ] += e
+			s.trigCnt[s.trigJ]++
+			s.trigJ++
+			if s.trigJ > s.trigMax {
+				s.trigMax = s.trigJ
+			}
+		}
+		s.ring[s.rpos] = pv
+		s.ringU[s.rpos] = int8(u)
+		s.ringT[s.rpos] = tick
+		s.rpos++
+		if s.rpos == len(s.ring) {
+			s.rpos = 0
+		}
+		s.sprev = u
+	}
+	if u == telemetry.Hold {
+		s.sawHold = true
+	}
+	s.prevIn = in
+	s.prevU = u
+}
+
+func sign(e float64) int8 {
+	switch {
+	case e > 0:
+		return 1
+	case e < 0:
+		return -1
+	}
+	return 0
+}
+
+// window copies the kept steady readings, oldest first, into dst.
+func (s *segState) window(dst []float64) []float64 {
+	m := int(min(s.sn, int64(len(s.ring))))
+	dst = dst[:0]
+	start := s.rpos - m
+	if start < 0 {
+		start += len(s.ring)
+	}
+	for i := 0; i < m; i++ {
+		j := start + i
+		if j >= len(s.ring) {
+			j -= len(s.ring)
+		}
+		dst = append(dst, s.ring[j])
+	}
+	return dst
+}
+
+// quantile returns the error (counts) below which a fraction q of the steady samples lie,
+// from the histogram (1-count bins).
+func (s *segState) quantile(q float64) float64 {
+	if s.sn == 0 {
+		return math.NaN()
+	}
+	want := q * float64(s.sn)
+	var c float64
+	for i := s.hLo; i <= s.hHi; i++ {
+		c += float64(s.hist[i])
+		if c > want {
+			return float64(i - histHalf)
+		}
+	}
+	return float64(s.hHi - histHalf)
+}
+
+// segFig is a finished (or provisional) segment in counts and ticks; NaN where a figure
+// does not apply. The Summary converts it to volts and seconds.
+type segFig struct {
+	index                   int
+	sp, db                  float64
+	start, end, steadyAt    float64
+	n, sn                   int64
+	settled                 bool
+	meanE, rmsE, ppE, robPP float64
+	sigPP                   float64
+	duty                    [3]float64
+	periodSamples           float64 // from the autocorrelation
+	driveTicks              float64 // mean interval between charge onsets
+	freq                    float64 // dominant ripple frequency, cycles per sample
+	switches                int64
+	entries, exits, jumps   int64
+	noiseExits              int64
+	lastU                   telemetry.Drive
+	endRun                  int64
+	lastPV                  float64
+	// step into this segment
+	hasStep                            bool
+	from                               float64
+	rise, settle, overshoot, slewTicks float64
+}
+
+// finish computes the figures of s without changing it (except the workspace sp).
+func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
+	f := segFig{
+		index: s.index, sp: s.sp, db: s.db, start: s.start, end: s.end, steadyAt: math.NaN(),
+		n: s.n, sn: s.sn, settled: s.steady,
+		meanE: math.NaN(), rmsE: math.NaN(), ppE: math.NaN(), robPP: math.NaN(), sigPP: math.NaN(),
+		duty: [3]float64{math.NaN(), math.NaN(), math.NaN()}, periodSamples: math.NaN(),
+		driveTicks: math.NaN(), freq: math.NaN(),
+		switches: s.switches, entries: s.entries, exits: s.exits, jumps: s.jumps, noiseExits: s.noiseExits,
+		lastU: s.prevU, endRun: s.endRun, lastPV: s.lastPV,
+		rise: math.NaN(), settle: math.NaN(), overshoot: math.NaN(), slewTicks: math.NaN(),
+	}
+	if s.steady {
+		f.steadyAt = s.steadyAt
+	}
+	if s.sn > 0 {
+		n := float64(s.sn)
+		f.meanE = s.sumE / n
+		v := s.sumE2/n - f.meanE*f.meanE
+		if v < 0 {
+			v = 0
+		}
+		f.rmsE = math.Sqrt(v)
+		f.ppE = s.maxE - s.minE
+		f.robPP = s.quantile(0.995) - s.quantile(0.005)
+		for i := range f.duty {
+			f.duty[i] = float64(s.duty[i]) / n
+		}
+		if s.onsets >= 8 {
+			// The mean waveform aligned on charge onsets, over offsets that at least half
+			// of the cycles reach.
+			lo, hi := math.Inf(1), math.Inf(-1)
+			need := int32(s.onsets / 2)
+			for j := 0; j < s.trigMax; j++ {
+				if s.trigCnt[j] < need || s.trigCnt[j] == 0 {
+					break
+				}
+				m := s.trigSum[j] / float64(s.trigCnt[j])
+				lo, hi = min(lo, m), max(hi, m)
+			}
+			if hi >= lo {
+				f.sigPP = hi - lo
+			}
+		}
+		if s.onsets >= 2 {
+			f.driveTicks = (s.lastOn - s.firstOn) / float64(s.onsets-1)
+		}
+		buf = s.window(buf)
+		resting := f.duty[1] >= 0.98 || s.switches < 4
+		per, fr, _ := ws.analyse(buf)
+		if !resting {
+			f.periodSamples = per
+		}
+		if f.ppE > 0 {
+			f.freq = fr
+		}
+	}
+	if s.hasFrom && s.sp != s.from {
+		f.hasStep, f.from = true, s.from
+		if s.has10 && s.has90 {
+			f.rise = s.t90 - s.t10
+			if f.rise > 0 {
+				f.slewTicks = 0.8 * (s.sp - s.from) / f.rise
+			}
+		}
+		if s.sp > s.from {
+			f.overshoot = max(0, s.maxPV-s.sp)
+		} else {
+			f.overshoot = max(0, s.sp-s.minPV)
+		}
+		if s.sn > 0 {
+			lo, hi := s.quantile(0.005)-1, s.quantile(0.995)+1
+			lo, hi = min(lo, -s.db-1), max(hi, s.db+1)
+			var last int64
+			for b := s.lsLo; b <= s.lsHi; b++ {
+				e := float64(b - histHalf)
+				if (e < lo || e > hi) && s.lastSeen[b] > last {
+					last = s.lastSeen[b]
+				}
+			}
+			if last < s.n && s.n > 1 {
+				// The sample after the last one outside the envelope.
+				f.settle = float64(last) * (s.end - s.start) / float64(s.n-1)
+			}
+		}
+	}
+	return f, buf
+}

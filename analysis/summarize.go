@@ -1,0 +1,89 @@
+package analysis
+
+import (
+	"errors"
+
+	"github.com/caploop/caploop/telemetry"
+)
+
+// ErrNoSamples is returned by Summarize when the input held no sample at all.
+var ErrNoSamples = errors.New("analysis: no samples in the input")
+
+// batchLen is the number of samples handed from the reading goroutine to the analysing
+// one at a time.
+const batchLen = 8192
+
+type metaAt struct {
+	at int // the meta applies before samples[at]
+	m  telemetry.Meta
+}
+
+type batch struct {
+	samples []telemetry.Sample
+	metas   []metaAt
+}
+
+// Summarize reads sc to its end and returns the Summary of everything it held: the
+// whole-file pass of `caploop summary`. Parsing and analysis run on two goroutines,
+// handing samples over in batches, so that a file costs about the larger of the two,
+// not their sum; memory stays bounded (a few batches in flight).
+//
+// A read error ends the pass: the Summary of what was read is returned with the error.
+// An input without samples returns ErrNoSamples (and the Summary, which has the line
+// counts).
+func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
+	if opts.Source == "" {
+		opts.Source = sc.Name
+	}
+	acc := New(opts)
+	const inFlight = 4
+	full := make(chan *batch, inFlight)
+	free := make(chan *batch, inFlight+2)
+	for range inFlight + 2 {
+		free <- &batch{samples: make([]telemetry.Sample, 0, batchLen)}
+	}
+	done := make(chan struct{})
+	go func() {
+		defer close(done)
+		for b := range full {
+			mi := 0
+			for i := range b.samples {
+				for mi < len(b.metas) && b.metas[mi].at == i {
+					acc.SetMeta(b.metas[mi].m)
+					mi++
+				}
+				acc.Add(b.samples[i])
+			}
+			for ; mi < len(b.metas); mi++ {
+				acc.SetMeta(b.metas[mi].m)
+			}
+			free <- b
+		}
+	}()
+	b := <-free
+	for sc.Scan() {
+		switch sc.Kind() {
+		case telemetry.RecSample:
+			b.samples = append(b.samples, sc.Sample())
+			if len(b.samples) == batchLen {
+				full <- b
+				b = <-free
+				b.samples, b.metas = b.samples[:0], b.metas[:0]
+			}
+		case telemetry.RecMeta:
+			b.metas = append(b.metas, metaAt{at: len(b.samples), m: sc.Meta()})
+		}
+	}
+	full <- b
+	close(full)
+	<-done
+	acc.SetStats(sc.Stats())
+	sum := acc.Summary()
+	if err := sc.Err(); err != nil {
+		return sum, err
+	}
+	if sum.Samples == 0 {
+		return sum, ErrNoSamples
+	}
+	return sum, nil
+}
