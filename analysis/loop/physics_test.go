@@ -60,8 +60,14 @@ func TestSquareWaveRipple(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			if got := hi - lo; relErr(got, want) > 1e-9 {
+			got := hi - lo
+			if relErr(got, want) > 1e-9 {
 				t.Errorf("ripple: got %.15g V, want %.15g V (rel err %.2g)", got, want, relErr(got, want))
+			}
+			if tc.on*2 == tc.cycle {
+				if th := vs * math.Tanh(P/(4*tau)); relErr(got, th) > 1e-9 {
+					t.Errorf("ripple: got %.15g V, want Vs tanh(P/4tau) = %.15g V", got, th)
+				}
 			}
 		})
 	}

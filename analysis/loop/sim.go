@@ -117,7 +117,7 @@ func (s *Sim) Config() Config {
 
 // SetConfig changes the parameters (circuit, ADC, controller, period, jitter, drop
 // rate) of a running simulation and keeps its state: node voltage, sample index,
-// time and random generators. Seed and V0 take effect at the next Reset. On error
+// time and random generators. A new Seed takes effect at the next Reset. On error
 // nothing changes.
 func (s *Sim) SetConfig(cfg Config) error {
 	cfg = cfg.WithDefaults()
