@@ -190,7 +190,8 @@ func (c Circuit) Sense(v float64) float64 {
 	return math.Max(0, v-c.Follower.VBE)
 }
 
-// MaxCode is the largest ADC code, 2^Bits - 1.
+// MaxCode is the largest ADC code, 2^Bits - 1. The ADC helpers use Bits and Vref as
+// given; Sim.Config and Config.WithDefaults return them with defaults filled in.
 func (a ADC) MaxCode() int { return 1<<uint(a.Bits) - 1 }
 
 // scale is counts per volt at the ADC input including reference and gain errors.
