@@ -158,31 +158,37 @@ func compareBlock(c *Change) string {
 	if c.From >= 0 {
 		from = fmt.Sprintf("%.0f", c.From)
 	}
-	fmt.Fprintf(&b, "deadband %s → %.0f at %s", from, c.To, formatSeconds(c.At))
-	fmt.Fprintf(&b, "\n %-13s %-22s %s", "", "before", "after")
+	fmt.Fprintf(&b, "deadband %s → %.0f counts, confirmed at %s", from, c.To, formatSeconds(c.At))
+	if c.After == nil {
+		b.WriteString(" (after: waiting for a segment that starts under the new band)")
+	}
+	fmt.Fprintf(&b, "\n %-13s %-24s %s", "", "before", "after")
 	for i := range before {
 		a := dash
 		if i < len(after) {
 			a = after[i][1]
 		}
-		if before[i][0] == "steady from" || before[i][0] == "setpoint" && c.Before == nil {
+		if before[i][0] == "steady from" {
 			continue
 		}
-		fmt.Fprintf(&b, "\n %-13s %-22s %s", before[i][0], before[i][1], a)
+		fmt.Fprintf(&b, "\n %-13s %-24s %s", before[i][0], before[i][1], a)
 	}
 	return b.String()
 }
 
 func (m FiguresModel) fullView() string {
-	seg := currentSegment(m.sum)
-	left := rowsBlock("current segment", segmentRows(seg))
-	var right string
+	var plant string
 	if m.sum != nil {
-		right = rowsBlock("plant (identified)", plantRows(m.sum.Plant))
+		plant = rowsBlock("plant (identified)", plantRows(m.sum.Plant))
 	}
-	out := sideBySide(left, right, 3)
 	if m.change != nil {
-		out += "\n\n" + compareBlock(m.change)
+		// What the change bought, side by side; the plant beside it when there is room.
+		cmp := compareBlock(m.change)
+		if maxLineWidth(cmp)+3+maxLineWidth(plant) <= m.width {
+			return sideBySide(cmp, plant, 3)
+		}
+		return cmp
 	}
-	return out
+	left := rowsBlock("current segment", segmentRows(currentSegment(m.sum)))
+	return sideBySide(left, plant, 3)
 }

@@ -111,6 +111,8 @@ func fixtureModel(t testing.TB, width, height int) Model {
 	t.Helper()
 	p := newPipeline("bench.cap", 0, nil)
 	p.replay = true
+	p.canSend = true
+	p.sendFn = func(string) error { return nil }
 	m := New(p, Options{Span: 3})
 	mm, _ := m.Update(tea_WindowSize(width, height))
 	m = mm.(Model)

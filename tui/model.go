@@ -147,6 +147,11 @@ func New(src *Pipeline, opts Options) Model {
 	}
 	if src.Replay() {
 		m.mode = ModeReplay
+		for i, v := range m.speeds {
+			if v == src.speed || (v > 0 && src.speed > v) {
+				m.speedIx = i
+			}
+		}
 	}
 	m.keys.SetMode(m.mode, src.Replay(), src.CanSend())
 	m.layout()
@@ -254,11 +259,7 @@ func (m *Model) takeFrame(b mailbox) tea.Cmd {
 			m.volts = b.summary.Board.VrefV != nil && b.summary.Board.ADCBits != nil
 		}
 		if m.change != nil {
-			if seg := currentSegment(b.summary); seg != nil && seg.DeadbandCounts != nil &&
-				*seg.DeadbandCounts == m.change.To && (m.change.Before == nil || seg.StartS > m.change.Before.StartS) {
-				s := *seg
-				m.change.After = &s
-			}
+			m.change.After = afterSegment(b.summary, m.change)
 		}
 	}
 	if b.stats != nil {
@@ -282,6 +283,35 @@ func (m *Model) takeFrame(b mailbox) tea.Cmd {
 		m.charts[i], _ = m.charts[i].Update(snap)
 	}
 	return nil
+}
+
+// afterSegment picks the figures that show what a deadband change bought: among the
+// segments that started after the change (so none of their samples ran under the old
+// band) and have a steady part, the newest with the setpoint of the "before" segment,
+// else the newest one. Nil while there is none yet.
+func afterSegment(s *analysis.Summary, c *Change) *analysis.Segment {
+	var best *analysis.Segment
+	for i := len(s.Segments) - 1; i >= 0; i-- {
+		seg := &s.Segments[i]
+		if c.Before != nil && seg.StartS <= c.Before.StartS {
+			break
+		}
+		if seg.SteadySamples == 0 || seg.DeadbandCounts == nil || *seg.DeadbandCounts != c.To {
+			continue
+		}
+		if best == nil {
+			best = seg
+		}
+		if c.Before != nil && seg.SetpointCounts == c.Before.SetpointCounts {
+			best = seg
+			break
+		}
+	}
+	if best == nil {
+		return nil
+	}
+	out := *best
+	return &out
 }
 
 func (m *Model) event(e Event) {

@@ -76,6 +76,7 @@ type Pipeline struct {
 	name    string
 	canSend bool
 	replay  bool
+	speed   float64 // initial replay speed (0 = as fast as possible)
 	maxPts  int
 
 	mu     sync.Mutex

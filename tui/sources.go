@@ -171,7 +171,7 @@ func NewDemo(sc virtual.Scenario, o SourceOptions) (*Pipeline, error) {
 		cancel()
 		return nil, errors.New("tui: the virtual board did not start within 5 s")
 	}
-	p := NewLive(LiveOptions{SourceOptions: o, Serial: telemetry.SerialConfig{Path: path}, Name: "virtual board (" + sc.Name + ")"})
+	p := NewLive(LiveOptions{SourceOptions: o, Serial: telemetry.SerialConfig{Path: path}, Name: "virtual board"})
 	linkClose := p.closeFn
 	p.closeFn = func() error {
 		err := linkClose()
@@ -200,6 +200,7 @@ func NewReplay(o ReplayOptions) (*Pipeline, error) {
 	name := filepath.Base(o.Path)
 	p := newPipeline(name, o.Retain, o.adviser())
 	p.replay = true
+	p.speed = o.Speed
 	p.ctl = make(chan control, 16)
 	c := newCore(p, o.analyzer(name))
 	go p.runReplay(o, src, c)

@@ -55,9 +55,10 @@ func speedText(s float64) string {
 	return fmt.Sprintf("%gx", s)
 }
 
-// View renders the line.
+// View renders the line; narrow terminals get the short words.
 func (m StatusModel) View() string {
 	st := m.st
+	short := m.width < 100
 	mode := strings.ToUpper(m.mode.String())
 	if m.replay && m.mode != ModePaused {
 		mode = "REPLAY " + speedText(st.Speed)
@@ -66,14 +67,22 @@ func (m StatusModel) View() string {
 	if st.State != "" {
 		parts = append(parts, st.State)
 	}
-	parts = append(parts, fmtRate(st.Rate), fmt.Sprintf("rejected %d", st.Rejected), fmt.Sprintf("gaps %d", st.Gaps))
+	rej, gaps := "rejected", "gaps"
+	if short {
+		rej = "rej"
+	}
+	parts = append(parts, fmtRate(st.Rate), fmt.Sprintf("%s %d", rej, st.Rejected), fmt.Sprintf("%s %d", gaps, st.Gaps))
 	if st.Dropped > 0 {
 		parts = append(parts, fmt.Sprintf("undrawn %d", st.Dropped))
 	}
 	if st.Recording != "" {
 		parts = append(parts, fmt.Sprintf("rec %s %s", st.Recording, fmtBytes(st.RecordBytes)))
 	} else if !m.replay {
-		parts = append(parts, "not recording")
+		if short {
+			parts = append(parts, "no rec")
+		} else {
+			parts = append(parts, "not recording")
+		}
 	}
 	return padRight(strings.Join(parts, " · "), m.width)
 }

@@ -1,0 +1,123 @@
+package main
+
+import (
+	"errors"
+	"fmt"
+	"math"
+	"os"
+	"strings"
+	"time"
+
+	"github.com/spf13/cobra"
+
+	"github.com/caploop/caploop/telemetry"
+	"github.com/caploop/caploop/telemetry/si"
+	"github.com/caploop/caploop/tui"
+)
+
+func init() { commands = append(commands, newLiveCmd) }
+
+// liveFlags are the flags of `caploop live`.
+type liveFlags struct {
+	baud, parity, record string
+	dataBits, stopBits   int
+	span                 time.Duration
+	force                bool
+}
+
+func newLiveCmd() *cobra.Command {
+	var f liveFlags
+	cmd := &cobra.Command{
+		Use:   "live [PORT]",
+		Short: "the bench screen on a board's serial port",
+		Long: `live opens the board's serial port and shows the bench screen: setpoint and measurement
+in volts with the band, the figures of the current steady segment, the advice (deadband
+and R/C pairs) and the diagnostics, the error spread, the ripple spectrum and the last
+step response. Press ? on the screen for the keys; d sends the suggested deadband to the
+board (after a y/n question) and shows the figures before and after it.
+
+Without PORT, live uses the only USB serial device; with several it lists them and
+stops. The screen reconnects by itself after an unplug or a board reset and says so.
+--record writes the same capture as caploop record, marks included.`,
+		Example: `  caploop live
+  caploop live /dev/ttyACM0 --record bench.cap
+  caploop live /dev/ttyUSB0 --baud 57600 --parity even --window 500ms`,
+		Args: cobra.MaximumNArgs(1),
+		RunE: func(cmd *cobra.Command, args []string) error {
+			port := ""
+			if len(args) == 1 {
+				port = args[0]
+			} else {
+				p, err := pickPort()
+				if err != nil {
+					return withCode(2, err)
+				}
+				port = p
+			}
+			baud, err := si.Parse(f.baud)
+			if err != nil || baud <= 0 || baud > math.MaxInt32 || baud != math.Trunc(baud) {
+				return withCode(2, fmt.Errorf("live: --baud %q: want a whole positive number such as 115200 or 1M", f.baud))
+			}
+			if f.record != "" && !f.force {
+				if _, err := os.Stat(f.record); err == nil {
+					return withCode(2, fmt.Errorf("live: %s exists; use --force to overwrite it", f.record))
+				}
+			}
+			cfg := telemetry.SerialConfig{Path: port, Baud: int(baud), DataBits: f.dataBits, Parity: f.parity, StopBits: f.stopBits}
+			p := tui.NewLive(tui.LiveOptions{Serial: cfg, Record: f.record})
+			return runScreen(p, f.span)
+		},
+	}
+	fl := cmd.Flags()
+	fl.StringVar(&f.baud, "baud", "115200", "baud rate (115200, 1M, 250k)")
+	fl.IntVar(&f.dataBits, "data-bits", 8, "data bits: 5, 6, 7 or 8")
+	fl.StringVar(&f.parity, "parity", "none", "parity: none, odd, even, mark or space")
+	fl.IntVar(&f.stopBits, "stop-bits", 1, "stop bits: 1 or 2")
+	fl.StringVar(&f.record, "record", "", "also write a capture file (the format of caploop record)")
+	fl.BoolVar(&f.force, "force", false, "overwrite the --record file if it exists")
+	fl.DurationVar(&f.span, "window", 2*time.Second, "time window of the plot at start (+/- change it)")
+	return cmd
+}
+
+// pickPort returns the only USB serial device, or an error listing the candidates.
+func pickPort() (string, error) {
+	ports, err := telemetry.ListPorts()
+	if err != nil {
+		return "", fmt.Errorf("live: list serial ports: %w", err)
+	}
+	var usb []telemetry.PortInfo
+	for _, p := range ports {
+		if p.USB {
+			usb = append(usb, p)
+		}
+	}
+	if len(usb) == 1 {
+		return usb[0].Path, nil
+	}
+	list := usb
+	if len(list) == 0 {
+		list = ports
+	}
+	if len(list) == 0 {
+		return "", errors.New("live: no serial port found; plug the board in or name the port (caploop live /dev/ttyACM0)")
+	}
+	var b strings.Builder
+	if len(usb) == 0 {
+		b.WriteString("live: no USB serial device; name one of these ports:")
+	} else {
+		fmt.Fprintf(&b, "live: %d USB serial devices; name one:", len(usb))
+	}
+	for _, p := range list {
+		fmt.Fprintf(&b, "\n  %s", p.Path)
+		if id := p.VIDPID(); id != "" {
+			fmt.Fprintf(&b, "  %s", id)
+		}
+		if p.Serial != "" {
+			fmt.Fprintf(&b, "  serial %s", telemetry.SanitizeN([]byte(p.Serial), 40))
+		}
+		if p.Product != "" {
+			fmt.Fprintf(&b, "  %s", telemetry.SanitizeN([]byte(p.Product), 40))
+		}
+	}
+	return "", errors.New(b.String())
+}

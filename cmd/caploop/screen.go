@@ -1,0 +1,29 @@
+package main
+
+import (
+	"errors"
+	"os"
+	"time"
+
+	tea "github.com/charmbracelet/bubbletea"
+	"golang.org/x/term"
+
+	"github.com/caploop/caploop/tui"
+)
+
+// runScreen shows the bench screen on p until the user quits (q, Ctrl-C) or a SIGTERM
+// arrives, then stops the source (flushing any recording) and restores the terminal.
+func runScreen(p *tui.Pipeline, span time.Duration) error {
+	color := os.Getenv("NO_COLOR") == "" && term.IsTerminal(int(os.Stdout.Fd()))
+	m := tui.New(p, tui.Options{Color: color, Span: span.Seconds()})
+	prog := tea.NewProgram(m, tea.WithAltScreen())
+	_, err := prog.Run()
+	cerr := p.Close()
+	if errors.Is(err, tea.ErrInterrupted) {
+		err = nil
+	}
+	if err != nil {
+		return err
+	}
+	return cerr
+}
