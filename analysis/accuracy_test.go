@@ -90,3 +90,161 @@ func deref(p *float64) float64 {
 	}
 	return *p
 }
+
+// truth holds the loop model's own figures over one segment's steady window.
+type truth struct {
+	ripplePP, dutyC, dutyH, dutyD, period float64
+	entries                               int64
+}
+
+// truthOf computes the truth of segment seg from the model's steps: the ripple is the
+// peak-to-peak of the noise-free ADC input voltage, the duty and the limit cycle come
+// from the drives the model chose (period: mean interval between charge onsets), the
+// deadband entries from the model's readings with the definition of Segment.
+func truthOf(r *simRun, seg Segment) truth {
+	var tr truth
+	lo, hi := math.Inf(1), math.Inf(-1)
+	var n, c, h, d, onsets int64
+	var first, last float64
+	db := float64(r.cfg.Controller.Deadband)
+	prevIn, started := false, false
+	prevU := loop.Drive(0)
+	for _, st := range r.steps {
+		if st.T < seg.StartS-1e-9 || st.T >= seg.EndS-1e-9 {
+			continue
+		}
+		in := math.Abs(float64(st.PV-st.SP)) <= db
+		if started && in && !prevIn {
+			tr.entries++
+		}
+		prevIn = in
+		if seg.SteadyStartS != nil && st.T >= *seg.SteadyStartS-1e-9 {
+			lo, hi = math.Min(lo, st.Sense), math.Max(hi, st.Sense)
+			n++
+			switch st.U {
+			case loop.Charge:
+				c++
+				if n > 1 && prevU != loop.Charge {
+					if onsets == 0 {
+						first = st.T
+					}
+					last = st.T
+					onsets++
+				}
+			case loop.Hold:
+				h++
+			default:
+				d++
+			}
+			prevU = st.U
+		}
+		started = true
+	}
+	tr.ripplePP = hi - lo
+	tr.dutyC, tr.dutyH, tr.dutyD = float64(c)/float64(n), float64(h)/float64(n), float64(d)/float64(n)
+	tr.period = (last - first) / float64(onsets-1)
+	if r.cfg.Controller.Kind == loop.TwoState {
+		tr.period = acfPeriod(r, seg) * r.cfg.Period
+	}
+	return tr
+}
+
+// acfPeriod returns the lag, in samples, of the first major peak of the direct
+// autocorrelation sum (v[k]-mean)(v[k+L]-mean) of the model's noise-free ADC input over
+// the steady part: the fundamental period of the true waveform, computed without FFT.
+func acfPeriod(r *simRun, seg Segment) float64 {
+	var v []float64
+	for _, st := range r.steps {
+		if st.T >= *seg.SteadyStartS-1e-9 && st.T < seg.EndS-1e-9 {
+			v = append(v, st.Sense)
+		}
+	}
+	mean := 0.0
+	for _, x := range v {
+		mean += x
+	}
+	mean /= float64(len(v))
+	ac := make([]float64, 66)
+	for L := range ac {
+		for k := 0; k+L < len(v); k++ {
+			ac[L] += (v[k] - mean) * (v[k+L] - mean)
+		}
+	}
+	k := 1
+	for k < len(ac)-1 && ac[k+1] <= ac[k] {
+		k++
+	}
+	peak := 0.0
+	for j := k; j < len(ac); j++ {
+		peak = math.Max(peak, ac[j])
+	}
+	for j := k + 1; j < len(ac)-1; j++ {
+		if ac[j] >= 0.5*peak && ac[j] >= ac[j-1] && ac[j] >= ac[j+1] {
+			return float64(j) + parabola(ac[j-1], ac[j], ac[j+1])
+		}
+	}
+	return math.NaN()
+}
+
+// TestSegmentFigures checks the steady-segment figures against the model's truth.
+func TestSegmentFigures(t *testing.T) {
+	lsb := 5.0 / 1024
+	cases := []struct {
+		name  string
+		kind  loop.Kind
+		db    int
+		noise float64
+		seed  uint64
+		noU   bool
+	}{
+		{"three-state noise-free", loop.ThreeState, 6, 0, 11, false},
+		{"three-state noise-free inferred u", loop.ThreeState, 6, 0, 11, true},
+		{"three-state 1 LSB noise", loop.ThreeState, 6, 1, 12, false},
+		{"three-state 1 LSB noise inferred u", loop.ThreeState, 6, 1, 12, true},
+		{"two-state noise-free", loop.TwoState, 0, 0, 13, false},
+		{"two-state 1 LSB noise", loop.TwoState, 0, 1, 14, false},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			cfg := benchCfg(tc.kind, tc.db, tc.noise, tc.seed)
+			r := simulate(t, cfg, schedule(6000, 300, 600, 800), 18000, tc.noU)
+			if got := len(r.sum.Segments); got != 3 {
+				t.Fatalf("segments: got %d, want 3", got)
+			}
+			if r.sum.InferredDrive != tc.noU {
+				t.Errorf("inferred_drive: got %v, want %v", r.sum.InferredDrive, tc.noU)
+			}
+			for i, seg := range r.sum.Segments {
+				tr := truthOf(r, seg)
+				// Noise-free, the readings' peak-to-peak is the ripple; with noise the
+				// robust peak-to-peak (0.5 to 99.5 % of the readings) is the estimate.
+				ripple := seg.RipplePPV
+				if tc.noise > 0 {
+					ripple = seg.RippleRobustPPV
+				}
+				if ripple == nil || math.Abs(*ripple-tr.ripplePP) > math.Max(0.1*tr.ripplePP, lsb) {
+					t.Errorf("segment %d ripple: got %g V, want %g V within 10 %% or 1 LSB", i, deref(ripple), tr.ripplePP)
+				}
+				for _, d := range []struct {
+					name string
+					got  *float64
+					want float64
+				}{{"charge", seg.DutyCharge, tr.dutyC}, {"hold", seg.DutyHold, tr.dutyH}, {"discharge", seg.DutyDischarge, tr.dutyD}} {
+					if d.got == nil || math.Abs(*d.got-d.want) > 0.02 {
+						t.Errorf("segment %d duty %s: got %g, want %g within 0.02", i, d.name, deref(d.got), d.want)
+					}
+				}
+				if p := seg.LimitCyclePeriodS; p == nil || relErr(*p, tr.period) > 0.05 {
+					t.Errorf("segment %d limit cycle: got %g s, want %g s within 5 %% (drive pattern %g s)", i, deref(p), tr.period, deref(seg.LimitCycleDriveS))
+				}
+				if tc.noise == 0 && seg.DeadbandEntries != tr.entries {
+					t.Errorf("segment %d deadband entries: got %d, want %d", i, seg.DeadbandEntries, tr.entries)
+				}
+				t.Logf("seg %d sp %g: ripple raw %.4g robust %.4g signal %.4g true %.4g; duty c %.3f/%.3f h %.3f/%.3f; period %.4g drive %.4g true %.4g; entries %d/%d exits %d jumps %d noise exits %d freq %.4g",
+					i, seg.SetpointCounts, deref(seg.RipplePPV), deref(seg.RippleRobustPPV), deref(seg.RippleSignalPPV), tr.ripplePP,
+					deref(seg.DutyCharge), tr.dutyC, deref(seg.DutyHold), tr.dutyH, deref(seg.LimitCyclePeriodS), deref(seg.LimitCycleDriveS), tr.period,
+					seg.DeadbandEntries, tr.entries, seg.DeadbandExits, seg.BandJumps, seg.NoiseExits, deref(seg.RippleFreqHz))
+			}
+		})
+	}
+}

@@ -342,7 +342,7 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 		resting := f.duty[1] >= 0.98 || s.switches < 4
 		per, fr, _ := ws.analyse(buf)
 		if !resting {
-			f.periodSamples = per
+			f.periodSamples = limitCycle(per, f.driveTicks, s.ticksPerSample())
 		}
 		if f.ppE > 0 {
 			f.freq = fr
@@ -378,4 +378,33 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 		}
 	}
 	return f, buf
+}
+
+// ticksPerSample is the mean tick step of the segment (1 without board time).
+func (s *segState) ticksPerSample() float64 {
+	if s.n < 2 || s.end <= s.start {
+		return 1
+	}
+	return (s.end - s.start) / float64(s.n-1)
+}
+
+// limitCycle combines the autocorrelation period acf (samples) with the drive pattern's
+// mean interval between charge onsets (ticks): when the autocorrelation peak lies within
+// 10 % of m onset intervals (a pattern with m charge onsets per period, m >= 1), the
+// period is m mean intervals, which averages over the whole steady part instead of the
+// window and is not tied to the lag grid. Without an autocorrelation peak (noise
+// swamping a small ripple) the drive pattern alone gives it.
+func limitCycle(acf, driveTicks, tps float64) float64 {
+	drv := driveTicks / tps
+	switch {
+	case math.IsNaN(drv):
+		return acf
+	case math.IsNaN(acf):
+		return drv
+	}
+	m := math.Round(acf / drv)
+	if m >= 1 && math.Abs(acf-m*drv) <= 0.1*acf {
+		return m * drv
+	}
+	return acf
 }
