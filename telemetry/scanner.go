@@ -42,6 +42,7 @@ type Scanner struct {
 	done     bool
 	kind     RecordKind
 	p        Parser
+	bufSize  int // 0: scanBufSize; tests use small buffers to exercise refills
 }
 
 // NewScanner returns a Scanner that reads from r.
@@ -54,7 +55,11 @@ func (s *Scanner) Scan() bool {
 		return false
 	}
 	if s.buf == nil {
-		s.buf = make([]byte, scanBufSize)
+		size := scanBufSize
+		if s.bufSize > 0 {
+			size = max(s.bufSize, 2*(MaxLineLen+captureSlack+1))
+		}
+		s.buf = make([]byte, size)
 		s.p.Name = s.Name
 	}
 	for {

@@ -1,0 +1,102 @@
+package telemetry
+
+import (
+	"bytes"
+	"math"
+	"reflect"
+	"strings"
+	"testing"
+	"testing/iotest"
+)
+
+// FuzzScanner feeds arbitrary bytes to the Scanner, whole and one byte per read, and
+// checks that it never panics, that both reads give the same records, and that the
+// invariants hold: counts add up, samples are finite and in order, and every text that
+// can reach a screen is sanitised.
+//
+//	go test -run x -fuzz FuzzScanner -fuzztime 30s ./telemetry/
+func FuzzScanner(f *testing.F) {
+	seeds := []string{
+		"t=123456 sp=512 pv=498 u=1\n",
+		"t=1\tsp=2,pv=3, u=-\r\nsp=1 pv=2",
+		"# vref=5.0 adc_bits=10 period_us=1000 mode=three-state deadband=21 supply=5.0 r=47k c=1u load=1e6\n",
+		"# r=4k7 c=4.7µ\n# a comment\n\n",
+		"t,sp,pv,u\n1000,512,498,1\n2000,512,499,-1\n",
+		"sp\tpv\n1\t2\n",
+		"#caploop-capture v1 start=2026-12-01T23:40:00.000000Z\n0.001 < t=1 sp=1 pv=1\n0.002 > set deadband=14\n0.003 ! unplugged\n",
+		"t=4294967295 sp=0 pv=0\nt=3 sp=0 pv=0\n",
+		"sp=1 pv=2 temp=21.5 temp=22\n",
+		"t=1234 sp=51t=1235 sp=512 pv=498 u=1\n",
+		"\x00\x01\x02\xff\xfe\n\x1b[2J\x1b]0;title\x07sp=1 pv=2\n",
+		"sp=NaN pv=Inf\nsp=1e400 pv=-0\nsp=0x1p3 pv=1_0\n",
+		"# vref=\xff\n# \x1b[31m\n",
+		strings.Repeat("a", 3000) + "\nsp=1 pv=1\n",
+		"\r\n\r\r\n,,,\n= = =\n#=\n",
+		"#caploop-capture v1\n1.5 < " + strings.Repeat("z", 1100) + "\n9999999999999.999999999 < sp=1 pv=1\n",
+	}
+	for _, s := range seeds {
+		f.Add([]byte(s))
+	}
+	f.Fuzz(func(t *testing.T, data []byte) {
+		a := fuzzScan(t, bytes.NewReader(data), 0)
+		b := fuzzScan(t, iotest.OneByteReader(bytes.NewReader(data)), 1)
+		if !reflect.DeepEqual(a, b) {
+			t.Fatalf("whole read and byte-by-byte read differ:\n%+v\n%+v", a, b)
+		}
+		if max := int64(bytes.Count(data, []byte{'\n'}) + 1); a.stats.Lines > max {
+			t.Fatalf("%d lines counted in input with at most %d", a.stats.Lines, max)
+		}
+	})
+}
+
+// fuzzScan scans all of r with a buffer of bufSize bytes (0: the default, 1: the
+// smallest the Scanner allows).
+func fuzzScan(t *testing.T, r interface{ Read([]byte) (int, error) }, bufSize int) scanned {
+	sc := NewScanner(r)
+	sc.bufSize = bufSize
+	var got scanned
+	for sc.Scan() {
+		switch sc.Kind() {
+		case RecSample:
+			s := sc.Sample()
+			if math.IsNaN(s.SP) || math.IsInf(s.SP, 0) || math.IsNaN(s.PV) || math.IsInf(s.PV, 0) {
+				t.Fatalf("sample with a non-finite value: %+v", s)
+			}
+			if s.Index != int64(len(got.samples)) {
+				t.Fatalf("sample index %d, want %d", s.Index, len(got.samples))
+			}
+			if n := len(got.samples); n > 0 && s.Line <= got.samples[n-1].Line {
+				t.Fatalf("line numbers not rising: %d after %d", s.Line, got.samples[n-1].Line)
+			}
+			if s.U < Discharge || s.U > Charge {
+				t.Fatalf("drive out of range: %+v", s)
+			}
+			for _, e := range sc.Extras() {
+				if e.Name == "" || math.IsNaN(e.Value) {
+					t.Fatalf("bad extra %+v", e)
+				}
+			}
+			got.samples = append(got.samples, s)
+			got.extras = append(got.extras, append([]Extra(nil), sc.Extras()...))
+		case RecMeta:
+			got.metas = append(got.metas, sc.Meta())
+		case RecEvent:
+			e := sc.Event()
+			if !safeText(e.Text) {
+				t.Fatalf("event text not sanitised: %q", e.Text)
+			}
+			got.events = append(got.events, e)
+		default:
+			t.Fatalf("Scan returned kind %v", sc.Kind())
+		}
+	}
+	if err := sc.Err(); err != nil {
+		t.Fatalf("Err() = %v on an in-memory reader", err)
+	}
+	got.stats = sc.Stats()
+	checkStats(t, got.stats)
+	if got.stats.Samples != int64(len(got.samples)) || got.stats.Events != int64(len(got.events)) || got.stats.Metas != int64(len(got.metas)) {
+		t.Fatalf("stats %+v disagree with %d samples, %d events, %d metas", got.stats, len(got.samples), len(got.events), len(got.metas))
+	}
+	return got
+}
