@@ -13,9 +13,13 @@ type SetpointStep struct {
 	SetpointCounts  int     `json:"setpoint_counts"`
 	ChargeCounts    float64 `json:"charge_step_counts"`
 	DischargeCounts float64 `json:"discharge_step_counts"`
-	// NarrowerJumps: the larger step alone is at least 2*(db-1)+1 counts, so a band one
-	// count narrower than the suggestion is jumped here (not only by noise).
-	NarrowerJumps bool `json:"narrower_band_jumps"`
+	// NarrowerJumps says whether a band one count narrower than the suggestion is jumped
+	// here: "charge step alone" when the charge step is at least 2*(db-1)+1 counts (a
+	// loaded node droops in hold, so it is re-approached from below for ever and jumps
+	// again and again), "discharge step alone" likewise for the discharge step (jumps
+	// when the loop arrives from above), "with noise" when only the step plus the noise
+	// margin reaches it, "" when it holds.
+	NarrowerJumps string `json:"narrower_band_jumps"`
 }
 
 // stepsAt returns the charge and discharge steps of one period at a setpoint, in counts.
@@ -52,7 +56,15 @@ func deadband(ci loop.Circuit, p *plant, period float64) (int, *DeadbandWorking,
 	db := bandFor(w.StepCounts + w.MarginCounts)
 	for i := range steps {
 		s := math.Max(steps[i].ChargeCounts, steps[i].DischargeCounts)
-		steps[i].NarrowerJumps = db >= 1 && s >= float64(2*(db-1)+1)
+		switch edge := float64(2*(db-1) + 1); {
+		case db < 1:
+		case steps[i].ChargeCounts >= edge:
+			steps[i].NarrowerJumps = "charge step alone"
+		case steps[i].DischargeCounts >= edge:
+			steps[i].NarrowerJumps = "discharge step alone"
+		case s+w.MarginCounts >= edge:
+			steps[i].NarrowerJumps = "with noise"
+		}
 	}
 	w.StaticErrorV = float64(db) * p.lsb()
 	if p.g.rippleSaid {

@@ -14,7 +14,7 @@ import (
 const (
 	maxQuick     = 400
 	quickWindow  = 192
-	verifyWindow = 1024
+	verifyWindow = 4096
 	maxSettleLen = 20000
 	pruneFactor  = 1.5 // closed-form bound beyond goal*pruneFactor: rejected without a run
 )
@@ -199,6 +199,10 @@ func (p *plant) score(pr *pair) float64 {
 		set = math.Max(set, 2*p.g.settleS)
 	}
 	mr, ms := math.Log(p.g.rippleV/rip), math.Log(p.g.settleS/set)
+	if pr.db > 0 {
+		// Three-state: the band is the static error; keep a margin on it too.
+		mr = math.Min(mr, math.Log(p.g.staticV/(float64(pr.db)*p.lsb())))
+	}
 	if len(p.failures(pr)) == 0 {
 		return math.Min(mr, ms) - p.penalty(pr)
 	}
@@ -259,8 +263,12 @@ func (p *plant) search(kind loop.Kind, period float64) (*searchResult, error) {
 	}
 	// Order the survivors by how well centred they are in closed form, and run the best.
 	cfScore := func(pr *pair) float64 {
-		rip := math.Max(pr.cfRipple, float64(pr.db+1)*p.lsb()*0.5)
-		return math.Min(math.Log(p.g.rippleV/rip), math.Log(p.g.settleS/math.Max(pr.cfSettle, p.period)))
+		rip := math.Max(pr.cfRipple, 0.5*p.lsb())
+		m := math.Min(math.Log(p.g.rippleV/rip), math.Log(p.g.settleS/math.Max(pr.cfSettle, p.period)))
+		if pr.db > 0 {
+			m = math.Min(m, math.Log(p.g.staticV/(float64(pr.db)*p.lsb())))
+		}
+		return m
 	}
 	sort.SliceStable(pass, func(i, j int) bool { return cfScore(pass[i]) > cfScore(pass[j]) })
 	if len(pass) > maxQuick {

@@ -35,7 +35,7 @@ type Goals struct {
 	RippleV       float64   // allowed ripple p-p at the output, V; 0 = use RipplePct
 	RipplePct     float64   // allowed ripple p-p, % of full scale (Vref); 0 = DefaultRipplePct
 	SettleS       float64   // settling time of a full-scale step, s; 0 = DefaultSettleS
-	StaticErrorV  float64   // allowed static error, V; 0 = no goal
+	StaticErrorV  float64   // allowed static error, V; 0 = the ripple goal (the level may rest anywhere in the band)
 	R             Parts     // resistors on hand; zero = E12 from 100 ohm to 1 Mohm
 	C             Parts     // capacitors on hand; zero = E12 from 10 nF to 100 uF
 	PinCurrentA   float64   // pin current limit, A; 0 = DefaultPinCurrentA
@@ -140,6 +140,12 @@ func (r Request) resolve() (*plant, error) {
 		p.g.settleS = DefaultSettleS
 	}
 	p.g.staticV = g.StaticErrorV
+	if p.g.staticV == 0 {
+		// The output may rest anywhere in the band: a band wider than the ripple budget
+		// lets the level sit further off than the ripple allowed (the band rule of the
+		// trade equates the two: dV -> dV * full-scale / vref counts).
+		p.g.staticV = p.g.rippleV
+	}
 	p.g.pinA = orDefault(g.PinCurrentA, DefaultPinCurrentA)
 	p.g.minPeriod = orDefault(g.MinPeriodS, DefaultMinPeriodS)
 	p.g.sigmaK = orDefault(g.SigmaMultiple, DefaultSigmaMultiple)

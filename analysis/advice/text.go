@@ -99,8 +99,8 @@ func writeBand(b *strings.Builder, db int, w *DeadbandWorking, g *GoalsUsed) {
 	fmt.Fprintf(b, "deadband: %d counts (hold while |pv - sp| <= %d)\n", db, db)
 	for _, s := range w.Steps {
 		mark := ""
-		if s.NarrowerJumps {
-			mark = fmt.Sprintf("  <- a band of %d is jumped here", db-1)
+		if s.NarrowerJumps != "" {
+			mark = fmt.Sprintf("  <- a band of %d is jumped here (%s)", db-1, s.NarrowerJumps)
 		}
 		fmt.Fprintf(b, "  sp %4d: charge step %.2f, discharge step %.2f counts%s\n",
 			s.SetpointCounts, s.ChargeCounts, s.DischargeCounts, mark)

@@ -1,0 +1,349 @@
+package advice
+
+import (
+	"encoding/json"
+	"math"
+	"strings"
+	"testing"
+
+	"github.com/caploop/caploop/analysis/loop"
+)
+
+// exampleRequest is the typical query of `caploop design --supply 5 --vref 5 --bits 10
+// --period 1ms --ripple 100mV --settle 200ms --series E12 --load 1M`: a bench reference
+// for a greenhouse sensor bias.
+func exampleRequest() Request {
+	return Request{
+		SupplyV: 5, VrefV: 5, Bits: 10, PeriodS: 1e-3, Mode: loop.ThreeState, LoadOhm: 1e6,
+		Goals: Goals{RippleV: 0.1, SettleS: 0.2, R: Parts{Series: "E12"}, C: Parts{Series: "E12"}},
+	}
+}
+
+// fresh is an independent closed-loop run of one design: its own setpoint sequence, its own
+// measurement, loop.New directly (not the engine's harness), much longer steady windows.
+type fresh struct {
+	ripplePP  float64       // largest p-p over the steady windows, V
+	settleS   float64       // slower full-scale step, s
+	jumpsAt   map[int]int64 // band jumps per setpoint (three-state)
+	jumpsUpAt map[int]int64 // of which from below the band to above it
+	samples   int64
+	rippleAt  map[int]float64 // p-p per setpoint
+}
+
+func freshRun(t *testing.T, g *GoalsUsed, kind loop.Kind, r, c, cRatio float64, db int, noise float64, seed uint64) fresh {
+	t.Helper()
+	lsb := g.VrefV / math.Ldexp(1, g.ADCBits)
+	tol := math.Max(math.Max(g.RipplePPV, g.StaticErrorV), float64(db+1)*lsb)
+	cfg := loop.Config{
+		Circuit:    loop.Circuit{Supply: g.SupplyV, R: r, C: c * cRatio, Load: g.LoadOhm},
+		ADC:        loop.ADC{Vref: g.VrefV, Bits: g.ADCBits, Noise: noise},
+		Controller: loop.Controller{Kind: kind, Deadband: db},
+		Period:     g.PeriodS,
+		Seed:       seed,
+		V0:         float64(g.StepFromCounts) * lsb,
+	}
+	sim, err := loop.New(cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	const window = 4000
+	settleN := int(3 * g.SettleS / g.PeriodS)
+	out := fresh{jumpsAt: map[int]int64{}, jumpsUpAt: map[int]int64{}, rippleAt: map[int]float64{}}
+	phases := []int{g.StepFromCounts, g.StepToCounts, g.StepFromCounts}
+	for _, sp := range g.SetpointCounts {
+		if sp != g.StepFromCounts && sp != g.StepToCounts {
+			phases = append(phases, sp)
+		}
+	}
+	for i, sp := range phases {
+		n := settleN + window
+		target := float64(sp) * lsb
+		last := -1
+		lo, hi := math.Inf(1), math.Inf(-1)
+		prev := math.NaN()
+		for k := 0; k < n; k++ {
+			st := sim.Next(sp)
+			if math.Abs(st.Sense-target) > tol {
+				last = k
+			}
+			if k >= n-window {
+				lo, hi = math.Min(lo, st.Sense), math.Max(hi, st.Sense)
+			}
+			e := float64(st.PV - sp)
+			if kind == loop.ThreeState && ((prev < float64(-db) && e > float64(db)) || (prev > float64(db) && e < float64(-db))) {
+				out.jumpsAt[sp]++
+				if e > 0 {
+					out.jumpsUpAt[sp]++
+				}
+			}
+			out.samples++
+			prev = e
+		}
+		out.rippleAt[sp] = math.Max(out.rippleAt[sp], hi-lo)
+		out.ripplePP = math.Max(out.ripplePP, hi-lo)
+		if i == 1 || i == 2 {
+			out.settleS = math.Max(out.settleS, float64(last+1)*g.PeriodS)
+		}
+	}
+	return out
+}
+
+func modeOf(g *GoalsUsed) loop.Kind {
+	if g.Mode == "three-state" {
+		return loop.ThreeState
+	}
+	return loop.TwoState
+}
+
+// Every suggested design, run again with other seeds and 1 LSB rms noise, meets the goals
+// it was chosen for, and the predicted figures match that run within 10 %.
+func TestDesignClosedLoop(t *testing.T) {
+	for _, c := range []struct {
+		name string
+		req  Request
+	}{
+		{"three-state with load", exampleRequest()},
+		{"two-state no load", Request{SupplyV: 5, Bits: 10, PeriodS: 1e-3, Mode: loop.TwoState,
+			Goals: Goals{RippleV: 0.1, SettleS: 0.3}}},
+		{"three-state parts list", Request{SupplyV: 3.3, Bits: 12, PeriodS: 500e-6, Mode: loop.ThreeState, LoadOhm: 470e3,
+			Goals: Goals{RipplePct: 1, SettleS: 0.25, C: Parts{List: []float64{100e-9, 470e-9, 1e-6, 2.2e-6}}}}},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			a, err := Design(c.req)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if len(a.Candidates) == 0 || a.Candidates[0].Verdict != "meets goals" {
+				t.Fatalf("no candidate meets the goals: %+v", a.Candidates)
+			}
+			g := a.Goals
+			for i, cd := range a.Candidates {
+				if cd.Verdict != "meets goals" {
+					continue
+				}
+				for _, seed := range []uint64{101, 202, 303} {
+					f := freshRun(t, g, modeOf(g), cd.ROhm, cd.CF, 1, cd.DeadbandCounts, 1, seed)
+					if f.ripplePP > g.RipplePPV {
+						t.Errorf("#%d R=%g C=%g seed %d: ripple %g V > goal %g V", i+1, cd.ROhm, cd.CF, seed, f.ripplePP, g.RipplePPV)
+					}
+					if f.settleS > g.SettleS {
+						t.Errorf("#%d R=%g C=%g seed %d: settle %g s > goal %g s", i+1, cd.ROhm, cd.CF, seed, f.settleS, g.SettleS)
+					}
+					if d := math.Abs(f.ripplePP/cd.PredictedRipplePPV - 1); d > 0.10 {
+						t.Errorf("#%d R=%g C=%g seed %d: ripple fresh %g V vs predicted %g V (%.0f %% off, want <= 10 %%)",
+							i+1, cd.ROhm, cd.CF, seed, f.ripplePP, cd.PredictedRipplePPV, 100*d)
+					}
+					if d := math.Abs(f.settleS/cd.PredictedSettleS - 1); d > 0.10 {
+						t.Errorf("#%d R=%g C=%g seed %d: settle fresh %g s vs predicted %g s (%.0f %% off, want <= 10 %%)",
+							i+1, cd.ROhm, cd.CF, seed, f.settleS, cd.PredictedSettleS, 100*d)
+					}
+				}
+			}
+		})
+	}
+}
+
+// A band one count narrower than suggested shows band jumps where the working says the
+// step alone jumps it (a loaded node is re-approached from below by charge steps), and
+// more jumps overall than the suggested band, which jumps rarely if at all.
+func TestDeadbandNarrowerJumps(t *testing.T) {
+	cases := []struct {
+		name  string
+		noise float64
+	}{{"1 LSB noise", 1}, {"0.3 LSB noise", 0.3}}
+	claims := 0
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			req := exampleRequest()
+			req.Goals.NoiseRMSCount = c.noise
+			a, err := Design(req)
+			if err != nil {
+				t.Fatal(err)
+			}
+			top := a.Candidates[0]
+			db := *a.DeadbandCounts
+			if db != top.DeadbandCounts || db < 2 {
+				t.Fatalf("deadband %d, top candidate's %d; want equal and >= 2", db, top.DeadbandCounts)
+			}
+			seeds := []uint64{7, 8, 9, 10}
+			var narrowTotal, wideTotal, samples int64
+			upNarrow := map[int]int64{}
+			for _, seed := range seeds {
+				narrow := freshRun(t, a.Goals, loop.ThreeState, top.ROhm, top.CF, 1, db-1, c.noise, seed)
+				wide := freshRun(t, a.Goals, loop.ThreeState, top.ROhm, top.CF, 1, db, c.noise, seed)
+				for sp, n := range narrow.jumpsUpAt {
+					upNarrow[sp] += n
+				}
+				for _, n := range narrow.jumpsAt {
+					narrowTotal += n
+				}
+				for _, n := range wide.jumpsAt {
+					wideTotal += n
+				}
+				samples += wide.samples
+			}
+			for _, s := range a.Deadband.Steps {
+				if s.NarrowerJumps == "charge step alone" {
+					claims++
+					if upNarrow[s.SetpointCounts] == 0 {
+						t.Errorf("band %d shows no upward jumps at sp %d, the working says the charge step alone jumps it", db-1, s.SetpointCounts)
+					}
+				}
+			}
+			hasClaim := false
+			for _, s := range a.Deadband.Steps {
+				hasClaim = hasClaim || s.NarrowerJumps != ""
+			}
+			if hasClaim && narrowTotal <= wideTotal {
+				t.Errorf("band %d jumps %d times, suggested band %d jumps %d: want more with the narrower band", db-1, narrowTotal, db, wideTotal)
+			}
+			if rate := float64(wideTotal) / float64(samples); rate > 1e-3 {
+				t.Errorf("suggested band %d jumps %d times in %d samples (rate %g > 1e-3)", db, wideTotal, samples, rate)
+			}
+			t.Logf("db %d: %d jumps in %d samples; db %d: %d jumps; steps %+v", db, wideTotal, samples, db-1, narrowTotal, a.Deadband.Steps)
+		})
+	}
+	if claims == 0 {
+		t.Errorf("no case has a setpoint where the charge step alone jumps the narrower band; the check checked nothing")
+	}
+}
+
+// The worked examples of the trade (DOMAIN primer, common practice).
+func TestWorkedExamples(t *testing.T) {
+	// T = 1 ms, dV = 0.1 V, Vs = 5 V: R*C = 0.05 s (linear form), about 50 kOhm for 1 uF.
+	tau := TauForStep(1e-3, 0.1, 5)
+	if math.Abs(tau-0.05)/0.05 > 0.02 {
+		t.Errorf("TauForStep(1ms, 0.1V, 5V) = %g s, want about 0.05 s", tau)
+	}
+	if r := tau / 1e-6; math.Abs(r-50e3)/50e3 > 0.02 {
+		t.Errorf("R for 1 uF = %g ohm, want about 50 kOhm", r)
+	}
+	// The loop model agrees: R = 50 kOhm, C = 1 uF steps at most about 0.1 V per 1 ms period.
+	ci := loop.Circuit{Supply: 5, R: 50e3, C: 1e-6}
+	if s := ci.StepMax(1e-3); math.Abs(s-0.1)/0.1 > 0.02 {
+		t.Errorf("StepMax = %g V, want about 0.1 V", s)
+	}
+	// Band rule: 0.1 V * 1023 / 5 V = 20.46, rounded up to 21 counts.
+	a, err := Design(Request{SupplyV: 5, VrefV: 5, Bits: 10, PeriodS: 1e-3, Mode: loop.ThreeState,
+		Goals: Goals{RippleV: 0.1, SettleS: 0.2, R: Parts{Series: "E12", Min: 10e3, Max: 100e3}, C: Parts{List: []float64{1e-6}}}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if a.Deadband.FromVoltageBand == nil || *a.Deadband.FromVoltageBand != 21 {
+		t.Errorf("band from 0.1 V = %v, want 21", a.Deadband.FromVoltageBand)
+	}
+	// With only 1 uF on hand the chosen R sits near the 50 kOhm of the rule.
+	if r := a.Candidates[0].ROhm; r < 33e3 || r > 82e3 {
+		t.Errorf("R for 1 uF = %g, want near 50 kOhm", r)
+	}
+	for _, c := range []struct {
+		x    float64
+		want int
+	}{{0.5, 0}, {0.99, 0}, {1, 1}, {2.99, 1}, {3, 2}, {19.52, 10}, {21, 11}} {
+		if got := bandFor(c.x); got != c.want {
+			t.Errorf("bandFor(%g) = %d, want %d", c.x, got, c.want)
+		}
+		if db := bandFor(c.x); !(c.x < float64(2*db+1)) {
+			t.Errorf("bandFor(%g) = %d does not satisfy x < 2 db + 1", c.x, db)
+		}
+	}
+}
+
+// When nothing on hand can meet the goals the advice says which change of circuit would,
+// with figures from the model.
+func TestTopologyWhenNothingMeets(t *testing.T) {
+	// Two-state with 10 mV ripple and 30 ms settling from a 5 V pin: no RC pair can do
+	// both; hold (three-state) or a second stage must.
+	a, err := Design(Request{SupplyV: 5, Bits: 10, PeriodS: 1e-3, Mode: loop.TwoState, LoadOhm: 100e3,
+		Goals: Goals{RippleV: 0.01, SettleS: 0.03}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(a.Candidates) > 0 && a.Candidates[0].Verdict == "meets goals" {
+		t.Fatalf("a pair meets impossible goals: %+v", a.Candidates[0])
+	}
+	if len(a.Topology) == 0 {
+		t.Fatal("no topology advice")
+	}
+	kinds := map[string]bool{}
+	for _, tp := range a.Topology {
+		kinds[strings.Fields(tp.Change)[0]] = true
+		if !(tp.PredictedSettleS > 0) || tp.PredictedRipplePPV < 0 {
+			t.Errorf("topology %q has no model figures: %+v", tp.Change, tp)
+		}
+	}
+	for _, k := range []string{"three-state", "op-amp"} {
+		if !kinds[k] {
+			t.Errorf("topology advice lacks %q: %+v", k, a.Topology)
+		}
+	}
+	var sb strings.Builder
+	if err := a.WriteText(&sb); err != nil {
+		t.Fatal(err)
+	}
+	for _, w := range []string{"both on together", "common ground", "datasheet"} {
+		if !strings.Contains(sb.String(), w) {
+			t.Errorf("text lacks caution %q", w)
+		}
+	}
+}
+
+func TestDesignJSONShape(t *testing.T) {
+	a, err := Design(exampleRequest())
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, err := json.Marshal(a)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var m map[string]any
+	if err := json.Unmarshal(b, &m); err != nil {
+		t.Fatal(err)
+	}
+	if _, ok := m["deadband_counts"].(float64); !ok {
+		t.Errorf("deadband_counts = %v, want a number", m["deadband_counts"])
+	}
+	cs, _ := m["candidates"].([]any)
+	if len(cs) == 0 {
+		t.Fatal("no candidates")
+	}
+	c0 := cs[0].(map[string]any)
+	for _, k := range []string{"r_ohm", "c_f", "predicted_ripple_pp_v", "predicted_settle_s", "pin_current_a", "verdict"} {
+		if _, ok := c0[k]; !ok {
+			t.Errorf("candidate lacks %q", k)
+		}
+	}
+}
+
+func TestDesignBadInput(t *testing.T) {
+	for _, c := range []struct {
+		name string
+		req  Request
+		want string
+	}{
+		{"period under conversion time", Request{PeriodS: 50e-6}, "conversion time"},
+		{"negative load", Request{LoadOhm: -1}, "load"},
+		{"bits", Request{Bits: 40}, "bits"},
+		{"setpoint out of range", Request{Goals: Goals{Setpoints: []float64{5000}}}, "setpoint"},
+		{"unknown series", Request{Goals: Goals{R: Parts{Series: "E7"}}}, "series"},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			_, err := Design(c.req)
+			if err == nil || !strings.Contains(err.Error(), c.want) || !strings.HasPrefix(err.Error(), "advice: ") {
+				t.Errorf("err = %v, want an advice: error about %q", err, c.want)
+			}
+		})
+	}
+}
+
+// BenchmarkDesign is the typical `caploop design` query: every E12 pair over four decades
+// of R and four of C (2401 pairs). Target: under 200 ms per op.
+func BenchmarkDesign(b *testing.B) {
+	req := exampleRequest()
+	for b.Loop() {
+		if _, err := Design(req); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
