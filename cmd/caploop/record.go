@@ -1,0 +1,257 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"os"
+	"os/signal"
+	"syscall"
+	"time"
+
+	"github.com/spf13/cobra"
+	"golang.org/x/term"
+
+	"github.com/caploop/caploop/telemetry"
+	"github.com/caploop/caploop/telemetry/si"
+)
+
+func init() { commands = append(commands, newRecordCmd) }
+
+// recordFlags are the flags of `caploop record`.
+type recordFlags struct {
+	port, out, baud, parity string
+	dataBits, stopBits      int
+	duration                time.Duration
+	exitOnUnplug, wait      bool
+	force, quiet            bool
+}
+
+func newRecordCmd() *cobra.Command {
+	var f recordFlags
+	cmd := &cobra.Command{
+		Use:   "record --port PATH --out FILE",
+		Short: "capture a board's serial telemetry to a file, without a screen",
+		Long: `record reads the board's serial port and writes every line, byte for byte, with the
+time the host received it, to a capture file (plain text; its first line starts with
+#caploop-capture and names the format version). replay and summary read captures.
+
+The capture is flushed and synced to disk at least every second and on every unplug, so
+it is complete and readable after Ctrl-C, a SIGTERM or a pulled cable. The partial line
+the board may be in the middle of when the port opens is dropped and noted in the
+capture as a "partial" event.
+
+When the board is unplugged, record writes an "unplugged" event and waits for the same
+port path to come back (give a stable path, such as a /dev/serial/by-id/ link, to survive
+a different device number); --exit-on-unplug ends the recording instead (exit code 0).
+
+A status line goes to standard error; it never shows the board's own text.`,
+		Example: `  caploop record --port /dev/ttyACM0 --out bench.cap
+  caploop record --port /dev/ttyUSB0 --baud 57600 --out greenhouse.cap --duration 2h
+  caploop record --port /dev/serial/by-id/usb-board-if00 --out rig.cap --exit-on-unplug --force`,
+		Args: cobra.NoArgs,
+		RunE: func(cmd *cobra.Command, args []string) error {
+			return runRecord(cmd.Context(), f, cmd.ErrOrStderr())
+		},
+	}
+	fl := cmd.Flags()
+	fl.StringVar(&f.port, "port", "", "serial port path (caploop ports lists them)")
+	fl.StringVar(&f.out, "out", "", "capture file to write")
+	fl.StringVar(&f.baud, "baud", "115200", "baud rate (115200, 1M, 250k)")
+	fl.IntVar(&f.dataBits, "data-bits", 8, "data bits: 5, 6, 7 or 8")
+	fl.StringVar(&f.parity, "parity", "none", "parity: none, odd, even, mark or space")
+	fl.IntVar(&f.stopBits, "stop-bits", 1, "stop bits: 1 or 2")
+	fl.DurationVar(&f.duration, "duration", 0, "stop after this long (Go duration: 90s, 10m, 2h); 0 = until Ctrl-C")
+	fl.BoolVar(&f.exitOnUnplug, "exit-on-unplug", false, "stop when the board is unplugged instead of waiting for it")
+	fl.BoolVar(&f.wait, "wait", false, "wait for the port to appear instead of failing when it cannot be opened")
+	fl.BoolVar(&f.force, "force", false, "overwrite the capture file if it exists")
+	fl.BoolVar(&f.quiet, "quiet", false, "print only errors and the final summary")
+	_ = cmd.MarkFlagRequired("port")
+	_ = cmd.MarkFlagRequired("out")
+	return cmd
+}
+
+// serialConfig turns the port flags into a telemetry.SerialConfig.
+func (f recordFlags) serialConfig() (telemetry.SerialConfig, error) {
+	baud, err := si.Parse(f.baud)
+	if err != nil || baud <= 0 || baud > math.MaxInt32 || baud != math.Trunc(baud) {
+		return telemetry.SerialConfig{}, fmt.Errorf("record: --baud %q: want a whole positive number such as 115200 or 1M", f.baud)
+	}
+	cfg := telemetry.SerialConfig{Path: f.port, Baud: int(baud), DataBits: f.dataBits, Parity: f.parity, StopBits: f.stopBits}
+	return cfg, nil
+}
+
+func runRecord(ctx context.Context, f recordFlags, stderr io.Writer) error {
+	if ctx == nil {
+		ctx = context.Background()
+	}
+	cfg, err := f.serialConfig()
+	if err != nil {
+		return withCode(2, err)
+	}
+	if f.duration < 0 {
+		return withCode(2, fmt.Errorf("record: --duration %v is negative", f.duration))
+	}
+	flags := os.O_WRONLY | os.O_CREATE | os.O_EXCL
+	if f.force {
+		flags = os.O_WRONLY | os.O_CREATE | os.O_TRUNC
+	}
+	out, err := os.OpenFile(f.out, flags, 0o644)
+	if err != nil {
+		if errors.Is(err, os.ErrExist) {
+			return withCode(2, fmt.Errorf("record: %s exists; choose another --out or add --force", f.out))
+		}
+		return withCode(2, fmt.Errorf("record: %w", err))
+	}
+
+	// Signals first, so a Ctrl-C during the first open is not lost.
+	ctx, stop := signal.NotifyContext(ctx, os.Interrupt, syscall.SIGTERM)
+	defer stop()
+
+	link := telemetry.Dial(cfg, telemetry.LinkOptions{
+		Record:      out,
+		RecordAttrs: []string{"tool=caploop-record"},
+		FailFirst:   !f.wait,
+	})
+	st := newRecordStatus(stderr, f, cfg)
+
+	var deadline <-chan time.Time
+	if f.duration > 0 {
+		timer := time.NewTimer(f.duration)
+		defer timer.Stop()
+		deadline = timer.C
+	}
+	tick := time.NewTicker(time.Second)
+	defer tick.Stop()
+	reason := ""
+	batches := link.Batches()
+loop:
+	for {
+		select {
+		case b, ok := <-batches:
+			if !ok {
+				reason = "stopped"
+				break loop
+			}
+			if st.events(b) && f.exitOnUnplug {
+				reason = "unplugged"
+				break loop
+			}
+		case <-tick.C:
+			st.status(link.Stats())
+		case <-deadline:
+			reason = "duration reached"
+			break loop
+		case <-ctx.Done():
+			reason = "interrupted"
+			break loop
+		}
+	}
+	stop() // a second Ctrl-C from here on ends the process at once
+	closeErr := link.Close()
+	linkErr := link.Err()
+	syncErr := out.Sync()
+	outErr := out.Close()
+	stats := link.Stats()
+	st.endStatus()
+
+	if reason == "stopped" && stats.Opens == 0 && linkErr != nil {
+		// The port could not be opened at all: the file holds only a header.
+		os.Remove(f.out)
+		return withCode(2, fmt.Errorf("record: %w", linkErr))
+	}
+	if err := errors.Join(closeErr, syncErr, outErr); err != nil {
+		return withCode(1, fmt.Errorf("record: capture %s may be incomplete: %w", f.out, err))
+	}
+	fmt.Fprintf(stderr, "%s: recorded %d lines in %s to %s (%d partial dropped, %d unplugs)\n",
+		reason, stats.Lines, time.Since(link.Start()).Round(time.Millisecond), clean(f.out), stats.Partial, stats.Unplugs)
+	return nil
+}
+
+// clean makes a user- or device-supplied string safe to print.
+func clean(s string) string { return telemetry.SanitizeN([]byte(s), 200) }
+
+// recordStatus prints the status of a recording: a line rewritten every second on a
+// terminal; events only otherwise.
+type recordStatus struct {
+	w       io.Writer
+	tty     bool
+	quiet   bool
+	cfg     telemetry.SerialConfig
+	out     string
+	start   time.Time
+	onLine  bool // a status line is on screen and must be ended before other output
+	exitOn  bool
+	lastLen int
+}
+
+func newRecordStatus(w io.Writer, f recordFlags, cfg telemetry.SerialConfig) *recordStatus {
+	tty := false
+	if fd, ok := w.(interface{ Fd() uintptr }); ok {
+		tty = term.IsTerminal(int(fd.Fd()))
+	}
+	return &recordStatus{w: w, tty: tty, quiet: f.quiet, cfg: cfg, out: f.out, start: time.Now(), exitOn: f.exitOnUnplug}
+}
+
+func (s *recordStatus) printf(format string, a ...any) {
+	if s.quiet {
+		return
+	}
+	if s.onLine {
+		fmt.Fprint(s.w, "\n")
+		s.onLine = false
+	}
+	fmt.Fprintf(s.w, format, a...)
+}
+
+// events prints the host events of a batch and reports whether the board was unplugged.
+func (s *recordStatus) events(b []telemetry.Line) (unplugged bool) {
+	for _, ln := range b {
+		switch ln.EventKind() {
+		case telemetry.EventConnected:
+			s.printf("recording %s (%s) to %s; Ctrl-C stops\n", clean(s.cfg.Path), s.cfg, clean(s.out))
+		case telemetry.EventReconnected:
+			s.printf("reconnected\n")
+		case telemetry.EventUnplugged:
+			unplugged = true
+			if s.exitOn {
+				s.printf("unplugged\n")
+			} else {
+				s.printf("unplugged; waiting for the board to come back\n")
+			}
+		case telemetry.EventWaiting:
+			s.printf("waiting: %s\n", telemetry.SanitizeN(ln.Raw[len(telemetry.EventWaiting):], 300))
+		}
+	}
+	return unplugged
+}
+
+// status rewrites the status line on a terminal.
+func (s *recordStatus) status(st telemetry.LinkStats) {
+	if s.quiet || !s.tty {
+		return
+	}
+	state := "connected"
+	if !st.Connected {
+		state = "waiting for the port"
+	}
+	line := fmt.Sprintf("\r%s  %d lines  %d partial  %d unplugs  %s",
+		time.Since(s.start).Round(time.Second), st.Lines, st.Partial, st.Unplugs, state)
+	pad := s.lastLen - len(line)
+	s.lastLen = len(line)
+	if pad > 0 {
+		line += fmt.Sprintf("%*s", pad, "")
+	}
+	fmt.Fprint(s.w, line)
+	s.onLine = true
+}
+
+// endStatus ends the status line so the summary starts on a fresh line.
+func (s *recordStatus) endStatus() {
+	if s.onLine {
+		fmt.Fprint(s.w, "\n")
+		s.onLine = false
+	}
+}
