@@ -95,6 +95,7 @@ type Board struct {
 	nextBurst   float64
 	burstEnd    float64
 	cfgNoise    float64
+	tw          timedWriter
 	out         []byte
 	line        []byte
 }
@@ -185,6 +186,15 @@ func (b *Board) event(kind EventKind, detail string) {
 
 func round6(x float64) float64 { return math.Round(x*1e6) / 1e6 }
 
+// timedWriter is a writer that wants to know the board time of what it is given (the
+// capture writer of the test captures): Run calls at before every sample period and
+// flushes after it, and reports host lines and host events through host.
+type timedWriter interface {
+	io.Writer
+	at(now float64)
+	host(dir telemetry.Direction, text string)
+}
+
 // plugger is a writer that can be unplugged and plugged in again (the pseudo-terminal
 // server). Run calls unplug when the scenario unplugs the board and replug when it comes
 // back; other writers just see silence in between.
@@ -211,6 +221,10 @@ func (b *Board) Run(ctx context.Context, w io.Writer, realtime bool) error {
 	speed := b.Speed
 	if !(speed > 0) {
 		speed = 1
+	}
+	b.tw, _ = w.(timedWriter)
+	if b.tw != nil {
+		b.tw.at(0)
 	}
 	b.boot()
 	start := time.Now()
@@ -244,10 +258,13 @@ func (b *Board) Run(ctx context.Context, w io.Writer, realtime bool) error {
 				return err
 			}
 		}
+		if b.tw != nil {
+			b.tw.at(b.now)
+		}
 		if err := b.tick(w); err != nil {
 			return err
 		}
-		if len(b.out) >= chunk {
+		if len(b.out) >= chunk || b.tw != nil {
 			if err := b.flush(w); err != nil {
 				return err
 			}
@@ -289,8 +306,9 @@ func (b *Board) boot() {
 
 // appendMetaLines appends the board's full description as two meta lines, as firmware
 // with a small print buffer would send it: the ADC and loop first, then the parts.
-func (b *Board) appendMetaLines(dst []byte) []byte {
-	m := b.meta()
+func (b *Board) appendMetaLines(dst []byte) []byte { return appendMetaPair(dst, b.meta()) }
+
+func appendMetaPair(dst []byte, m telemetry.Meta) []byte {
 	first, second := m, m
 	first.Set &= telemetry.FieldVref | telemetry.FieldADCBits | telemetry.FieldPeriod | telemetry.FieldMode | telemetry.FieldDeadband
 	second.Set &^= first.Set
@@ -332,7 +350,11 @@ const eps = 1e-9
 func (b *Board) tick(w io.Writer) error {
 	f := &b.sc.Faults
 	for b.script < len(b.sc.Script) && b.sc.Script[b.script].At <= b.now+eps {
-		b.Send(b.sc.Script[b.script].Line)
+		line := b.sc.Script[b.script].Line
+		b.Send(line)
+		if b.tw != nil {
+			b.tw.host(telemetry.ToBoard, line)
+		}
 		b.script++
 	}
 	b.bursts()
@@ -349,6 +371,9 @@ func (b *Board) tick(w io.Writer) error {
 				}
 			}
 			b.event(EvReplug, "")
+			if b.tw != nil {
+				b.tw.host(telemetry.HostEvent, "reconnected")
+			}
 			b.state, b.until = stateBooting, b.now+bootTime(f)
 		}
 		return nil
@@ -365,6 +390,12 @@ func (b *Board) tick(w io.Writer) error {
 		b.unplugDone = true
 		b.partial()
 		b.event(EvUnplug, "")
+		if b.tw != nil {
+			if err := b.flush(w); err != nil {
+				return err
+			}
+			b.tw.host(telemetry.HostEvent, "unplugged")
+		}
 		if p, ok := w.(plugger); ok {
 			if err := b.flush(w); err != nil {
 				return err

@@ -81,7 +81,8 @@ type Scenario struct {
 	Dwell   float64   // s, see ProfileKind
 
 	// What the boot meta lines claim about the parts: the nominal values from the parts
-	// list, which may differ from the true Circuit. Zero means "say the true value".
+	// list, which may differ from the true Circuit. Zero means "say the true value"; a
+	// negative MetaLoad means "say nothing about the load".
 	MetaR, MetaC, MetaLoad float64
 	HideParts              bool // say nothing about supply, r, c and load
 
@@ -400,7 +401,7 @@ var Keys = []Key{
 	siKey("dwell", "s", "time per step level, per ramp leg, or sine period", func(sc *Scenario) *float64 { return &sc.Dwell }),
 	siKey("meta-r", "Ω", "r the meta lines claim, 0 = the true r", func(sc *Scenario) *float64 { return &sc.MetaR }),
 	siKey("meta-c", "F", "c the meta lines claim, 0 = the true c", func(sc *Scenario) *float64 { return &sc.MetaC }),
-	siKey("meta-load", "Ω", "load the meta lines claim, 0 = the true load", func(sc *Scenario) *float64 { return &sc.MetaLoad }),
+	siKey("meta-load", "Ω", "load the meta lines claim, 0 = the true load, -1 = none said", func(sc *Scenario) *float64 { return &sc.MetaLoad }),
 	{Name: "hide-parts", Help: "true: the meta lines say nothing about supply, r, c and load",
 		set: func(sc *Scenario, v string) error {
 			b, err := strconv.ParseBool(strings.TrimSpace(v))
