@@ -26,6 +26,17 @@ var prefixes = map[string]float64{
 	"k": 1e3, "K": 1e3, "M": 1e6, "G": 1e9,
 }
 
+// scaled returns the decimal number num times mult, read in one rounding step
+// ("2.2" and 1e-9 give the float64 nearest to 2.2e-9, where 2.2*1e-9 would be off by
+// one unit in the last place).
+func scaled(num string, mult float64) (float64, error) {
+	if mult == 1 || strings.ContainsAny(num, "eExXpP_") {
+		v, err := strconv.ParseFloat(num, 64)
+		return v * mult, err
+	}
+	return strconv.ParseFloat(num+"e"+strconv.Itoa(int(math.Round(math.Log10(mult)))), 64)
+}
+
 // Parse reads a number with an optional SI prefix and no unit: "47k", "1u", "4.7µ", "4k7",
 // "1e-6", "-0.5m". A bare "R" or "r" in the middle ("4R7") means a decimal point.
 func Parse(s string) (float64, error) {
@@ -65,24 +76,28 @@ func ParseUnit(s, unit string) (float64, error) {
 			break
 		}
 		rest = p[n:]
-		if !allDigits(rest) || !allDigits(s[:i]) {
+		head := s[:i]
+		if head[0] == '-' || head[0] == '+' {
+			head = head[1:]
+		}
+		if !allDigits(rest) || !allDigits(head) {
 			break
 		}
-		v, err := strconv.ParseFloat(s[:i]+"."+rest, 64)
+		v, err := scaled(s[:i]+"."+rest, mult)
 		if err != nil {
 			break
 		}
-		return check(v*mult, orig)
+		return check(v, orig)
 	}
 	// Number then one prefix.
 	for p, mult := range prefixes {
 		if strings.HasSuffix(s, p) {
 			num := strings.TrimSpace(strings.TrimSuffix(s, p))
-			v, err := strconv.ParseFloat(num, 64)
+			v, err := scaled(num, mult)
 			if err != nil {
 				continue
 			}
-			return check(v*mult, orig)
+			return check(v, orig)
 		}
 	}
 	return 0, fmt.Errorf("%w %q", ErrSyntax, orig)
@@ -182,7 +197,9 @@ func FormatDigits(v float64, unit string, digits int) string {
 	}
 	num := strconv.FormatFloat(v/math.Pow(10, float64(exp)), 'g', digits, 64)
 	if strings.ContainsAny(num, "e") {
-		num = strconv.FormatFloat(v/math.Pow(10, float64(exp)), 'f', -1, 64)
+		// Past the largest or smallest prefix: plain digits, still rounded to digits.
+		r, _ := strconv.ParseFloat(num, 64)
+		num = strconv.FormatFloat(r, 'f', -1, 64)
 	}
 	return num + " " + name + unit
 }
