@@ -3,6 +3,7 @@ package virtual
 import (
 	"bytes"
 	"context"
+	"io"
 	"math"
 	"strconv"
 	"strings"
@@ -449,4 +450,21 @@ func eventsOf(b *Board, k EventKind) []Event {
 		}
 	}
 	return r
+}
+
+// BenchmarkRunFast measures how fast the board writes data lines as fast as possible (the
+// speed of making captures): one op is one data line.
+func BenchmarkRunFast(bm *testing.B) {
+	sc := DefaultScenario()
+	sc.Samples = int64(bm.N)
+	b, err := NewBoard(sc)
+	if err != nil {
+		bm.Fatal(err)
+	}
+	bm.ReportAllocs()
+	bm.ResetTimer()
+	if err := b.Run(context.Background(), io.Discard, false); err != nil {
+		bm.Fatal(err)
+	}
+	bm.ReportMetric(float64(bm.N)/bm.Elapsed().Seconds()/1e6, "Mlines/s")
 }
