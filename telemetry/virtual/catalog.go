@@ -61,7 +61,8 @@ func Captures() []Capture {
 	cs = append(cs, Capture{File: "three-state-chatter.txt", Scenario: sc,
 		Note: "Bench reference at 2.5 V then 1.5 V: three-state, 22 kΩ, 1 µF, no load, deadband 3. " +
 			"One period's step near 2.5 V is about 23 counts, far more than the band of 7, so the " +
-			"loop jumps across it and chatters between charge and discharge like a two-state loop."})
+			"loop jumps across it and chatters between charge and discharge like a two-state loop. " +
+			"At 1.5 V it happens to land inside the band and, with nothing to droop the node, stays."})
 
 	sc = DefaultScenario()
 	sc.Name, sc.Seed = "two-state-ramp", 13

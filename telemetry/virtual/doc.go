@@ -17,4 +17,9 @@
 //	b, err := virtual.NewBoard(sc)
 //	if err != nil { ... }
 //	err = b.Run(ctx, os.Stdout, false) // meta lines, then 2000 data lines
+//
+// The demo and test captures in the repository's testdata directory come from Captures;
+// regenerate them with `go run ./testdata/gen` from the module root (or go generate here).
 package virtual
+
+//go:generate go run ../../testdata/gen -dir ../../testdata
