@@ -64,7 +64,7 @@ func (m AdviceModel) deadbandLine() string {
 	n, ok := m.Suggested()
 	if !ok {
 		if m.err != "" {
-			return "advice: " + m.err
+			return "advice: " + strings.TrimPrefix(m.err, "advice: ")
 		}
 		return "advice: waiting for enough steady data…"
 	}

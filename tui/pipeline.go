@@ -300,6 +300,9 @@ type core struct {
 	rateCount  int64
 	statsExtra func(st *SourceStats)
 	lineStats  func() telemetry.Stats // the parser's counts, for the rejected lines
+
+	connectedAt time.Time // live: last (re)connection
+	asked       bool      // live: "info" sent since it
 }
 
 func newCore(p *Pipeline, newAcc func() analyzer) *core {

@@ -82,6 +82,11 @@ func NewLive(o LiveOptions) *Pipeline {
 	return p
 }
 
+// askMetaAfter is how long after a (re)connection without meta lines the screen asks
+// the board for them with "info": a board that booted before the port was opened has
+// already sent them. A board that does not know "info" ignores it.
+const askMetaAfter = 500 * time.Millisecond
+
 func (p *Pipeline) runLive(link *telemetry.Link, parser *telemetry.Parser, c *core) {
 	defer close(p.closed)
 	start := link.Start()
@@ -92,6 +97,13 @@ func (p *Pipeline) runLive(link *telemetry.Link, parser *telemetry.Parser, c *co
 		case <-p.quit:
 			return
 		case <-tick.C:
+			if c.connectedAt != (time.Time{}) && !c.asked && time.Since(c.connectedAt) > askMetaAfter {
+				c.asked = true
+				m := parser.Meta()
+				if !m.Has(telemetry.FieldVref) || !m.Has(telemetry.FieldADCBits) {
+					link.Send("info")
+				}
+			}
 			c.flush(false)
 		case b, ok := <-link.Batches():
 			if !ok {
@@ -128,6 +140,7 @@ func (c *core) line(parser *telemetry.Parser, ln telemetry.Line, start time.Time
 			c.event(EventMark, strings.TrimSpace(strings.TrimPrefix(text, "mark")))
 		case telemetry.EventConnected, telemetry.EventReconnected:
 			parser.ResetClock()
+			c.connectedAt, c.asked, c.haveN = time.Now(), false, false
 			c.stats.State = "connected"
 			c.event(EventState, kind)
 		case telemetry.EventUnplugged:

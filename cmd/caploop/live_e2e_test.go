@@ -1,0 +1,152 @@
+package main
+
+import (
+	"bufio"
+	"fmt"
+	"os"
+	"os/exec"
+	"path/filepath"
+	"regexp"
+	"strconv"
+	"strings"
+	"testing"
+	"time"
+)
+
+// tmuxScreen drives a program inside a real terminal multiplexer session on a private
+// server socket, so the test sees exactly what a user would.
+type tmuxScreen struct {
+	t      *testing.T
+	socket string
+	name   string
+}
+
+func (s *tmuxScreen) tmux(args ...string) (string, error) {
+	out, err := exec.Command("tmux", append([]string{"-L", s.socket}, args...)...).CombinedOutput()
+	return string(out), err
+}
+
+func (s *tmuxScreen) capture() string {
+	out, _ := s.tmux("capture-pane", "-p", "-t", s.name)
+	return out
+}
+
+func (s *tmuxScreen) keys(k ...string) {
+	s.t.Helper()
+	if out, err := s.tmux(append([]string{"send-keys", "-t", s.name}, k...)...); err != nil {
+		s.t.Fatalf("tmux send-keys %v: %v %s", k, err, out)
+	}
+}
+
+// waitFor polls the screen until re matches, and returns the submatches.
+func (s *tmuxScreen) waitFor(what string, re *regexp.Regexp, timeout time.Duration) []string {
+	s.t.Helper()
+	deadline := time.Now().Add(timeout)
+	var screen string
+	for time.Now().Before(deadline) {
+		screen = s.capture()
+		if m := re.FindStringSubmatch(screen); m != nil {
+			return m
+		}
+		time.Sleep(200 * time.Millisecond)
+	}
+	s.t.Fatalf("%s: %q did not appear within %s; screen:\n%s", what, re, timeout, screen)
+	return nil
+}
+
+func (s *tmuxScreen) alive() bool {
+	_, err := s.tmux("has-session", "-t", s.name)
+	return err == nil
+}
+
+// TestLiveScreenTmux runs `caploop sim --pty` and `caploop live` on its path inside a
+// tmux session, applies the suggested deadband from the screen and checks that the band
+// jumps stop, then sees the virtual board unplugged and plugged in again.
+func TestLiveScreenTmux(t *testing.T) {
+	if testing.Short() {
+		t.Skip("end-to-end screen test takes about 40 s; skipped with -short")
+	}
+	if _, err := exec.LookPath("tmux"); err != nil {
+		if os.Getenv("CI") == "true" {
+			t.Fatalf("tmux is required in CI: %v", err)
+		}
+		t.Skip("tmux not installed; skipping the end-to-end screen test")
+	}
+	dir := t.TempDir()
+	bin := filepath.Join(dir, "caploop")
+	if out, err := exec.Command("go", "build", "-o", bin, ".").CombinedOutput(); err != nil {
+		t.Fatalf("go build: %v\n%s", err, out)
+	}
+
+	// The virtual board: unplugged after 35 s, back 3 s later, behind a stable link.
+	link := filepath.Join(dir, "board")
+	sim := exec.Command(bin, "sim", "--pty", "--link", link, "--unplug-after", "35s", "--replug-after", "3s")
+	stdout, err := sim.StdoutPipe()
+	if err != nil {
+		t.Fatal(err)
+	}
+	var simLog strings.Builder
+	sim.Stderr = &simLog
+	if err := sim.Start(); err != nil {
+		t.Fatalf("start sim: %v", err)
+	}
+	t.Cleanup(func() {
+		sim.Process.Kill()
+		sim.Wait()
+		if t.Failed() {
+			t.Logf("sim log:\n%s", simLog.String())
+		}
+	})
+	path, err := bufio.NewReader(stdout).ReadString('\n')
+	if err != nil {
+		t.Fatalf("sim did not print its device path: %v", err)
+	}
+	path = strings.TrimSpace(path)
+	if path != link {
+		t.Fatalf("sim printed %q, want the link %q", path, link)
+	}
+
+	scr := &tmuxScreen{t: t, socket: fmt.Sprintf("caploop-e2e-%d", os.Getpid()), name: "live"}
+	cmdline := fmt.Sprintf("NO_COLOR=1 %s live %s", bin, path)
+	if out, err := scr.tmux("new-session", "-d", "-s", scr.name, "-x", "120", "-y", "40", cmdline); err != nil {
+		t.Fatalf("tmux new-session: %v %s", err, out)
+	}
+	t.Cleanup(func() { scr.tmux("kill-server") })
+
+	scr.waitFor("live screen", regexp.MustCompile(`LIVE · \S+ · connected`), 10*time.Second)
+	m := scr.waitFor("suggested deadband", regexp.MustCompile(`advice: deadband (\d+) counts \(now (\d+)\) · d sends it`), 20*time.Second)
+	want, _ := strconv.Atoi(m[1])
+	if m[2] != "4" {
+		t.Fatalf("board deadband before the change = %s, want the scenario's 4", m[2])
+	}
+	scr.keys("d")
+	scr.waitFor("confirmation question", regexp.MustCompile(fmt.Sprintf(`send "set deadband=%d" to the board\? y/n`, want)), 5*time.Second)
+	scr.keys("y")
+	scr.waitFor("board confirmation", regexp.MustCompile(fmt.Sprintf(`the board confirmed deadband %d`, want)), 10*time.Second)
+
+	// The figures view compares the segment before the change with one after it.
+	scr.keys("2")
+	jm := scr.waitFor("band jumps before and after", regexp.MustCompile(`band jumps\s+(\d+)\s+(\d+)`), 20*time.Second)
+	before, _ := strconv.Atoi(jm[1])
+	after, _ := strconv.Atoi(jm[2])
+	if before == 0 {
+		t.Errorf("band jumps before the change = 0, want > 0 (the scenario's band is too narrow)")
+	}
+	if after != 0 {
+		t.Errorf("band jumps after deadband %d = %d, want 0", want, after)
+	}
+
+	// Unplug and re-plug.
+	scr.keys("1")
+	scr.waitFor("unplug shown", regexp.MustCompile(`UNPLUGGED, waiting for the board`), 40*time.Second)
+	scr.waitFor("recovery shown", regexp.MustCompile(`LIVE · \S+ · connected · [1-9]\d* S/s`), 15*time.Second)
+
+	scr.keys("q")
+	deadline := time.Now().Add(5 * time.Second)
+	for scr.alive() && time.Now().Before(deadline) {
+		time.Sleep(100 * time.Millisecond)
+	}
+	if scr.alive() {
+		t.Fatalf("the screen did not quit on q; screen:\n%s", scr.capture())
+	}
+}
