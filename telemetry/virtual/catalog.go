@@ -390,6 +390,7 @@ module root with
 
     go run ./testdata/gen
 
+(or ` + "`go generate ./telemetry/virtual`" + `, which runs the same command).
 The generator writes the same bytes every time (a test in telemetry/virtual checks that
 these files match a fresh run). Change a scenario in telemetry/virtual/catalog.go, run the
 command, and commit the files together with the change.
