@@ -12,6 +12,7 @@ import (
 	"syscall"
 	"time"
 
+	"github.com/caploop/caploop/telemetry"
 	"github.com/creack/pty"
 	"golang.org/x/sys/unix"
 	"golang.org/x/term"
@@ -142,21 +143,26 @@ type ptyConn struct {
 }
 
 // openConn opens a pseudo-terminal in raw mode (no echo, no line editing, no signals)
-// with a master that Close can interrupt.
+// and starts serving it.
 func openConn(b *Board, dropped *atomic.Int64) (*ptyConn, error) {
 	m, sl, err := pty.Open()
 	if err != nil {
 		return nil, fmt.Errorf("virtual: open pseudo-terminal: %w", err)
 	}
 	defer sl.Close()
+	defer m.Close()
 	if _, err := term.MakeRaw(int(sl.Fd())); err != nil {
-		m.Close()
 		return nil, fmt.Errorf("virtual: raw mode: %w", err)
 	}
-	// creack/pty leaves the master in blocking mode, where Close does not interrupt a
-	// Read; a non-blocking duplicate goes through the runtime poller instead.
+	return newConn(m, sl.Name(), b, dropped)
+}
+
+// newConn serves the master side m of a pseudo-terminal whose slave is path. It works on
+// a non-blocking duplicate of m: creack/pty leaves the master in blocking mode, where
+// Close does not interrupt a Read or a Write; the duplicate goes through the runtime
+// poller instead. The caller keeps (and closes) m.
+func newConn(m *os.File, path string, b *Board, dropped *atomic.Int64) (*ptyConn, error) {
 	fd, err := unix.Dup(int(m.Fd()))
-	m.Close()
 	if err != nil {
 		return nil, fmt.Errorf("virtual: %w", err)
 	}
@@ -165,7 +171,7 @@ func openConn(b *Board, dropped *atomic.Int64) (*ptyConn, error) {
 		unix.Close(fd)
 		return nil, fmt.Errorf("virtual: %w", err)
 	}
-	c := &ptyConn{master: os.NewFile(uintptr(fd), "/dev/ptmx"), path: sl.Name(), out: make(chan []byte, 256)}
+	c := &ptyConn{master: os.NewFile(uintptr(fd), "/dev/ptmx"), path: path, out: make(chan []byte, 256)}
 	c.wg.Add(2)
 	go c.writer(dropped)
 	go c.reader(b)
@@ -239,3 +245,60 @@ func (c *ptyConn) reader(b *Board) {
 		return // closed
 	}
 }
+
+// ServePTY runs the board in real time on a pseudo-terminal the caller opened with
+// telemetry.OpenPTY (the caller tells its users p.Path()). Host lines written to the
+// slave side are read from the master and answered. Output the terminal cannot take (no
+// program reading) is dropped rather than stalling the board. A scenario unplug closes p
+// and ServePTY returns nil, since a re-plug needs a new pseudo-terminal (Serve does
+// that). ServePTY also returns nil when ctx ends, and closes p either way.
+func (b *Board) ServePTY(ctx context.Context, p *telemetry.PTY) error {
+	defer p.Close()
+	w := &fixedPTY{p: p}
+	c, err := newConn(p.Master(), p.Path(), b, &w.dropped)
+	if err != nil {
+		return err
+	}
+	w.conn = c
+	defer w.unplug()
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	w.cancel = cancel
+	err = b.Run(ctx, w, true)
+	if errors.Is(err, context.Canceled) || errors.Is(err, context.DeadlineExceeded) {
+		return nil
+	}
+	return err
+}
+
+// fixedPTY is the writer of ServePTY: the caller's pseudo-terminal, which can be
+// unplugged but not plugged in again.
+type fixedPTY struct {
+	p       *telemetry.PTY
+	conn    *ptyConn // nil once unplugged
+	cancel  context.CancelFunc
+	dropped atomic.Int64
+}
+
+func (w *fixedPTY) Write(b []byte) (int, error) {
+	if w.conn == nil {
+		return len(b), nil
+	}
+	select {
+	case w.conn.out <- append([]byte(nil), b...):
+	default:
+		w.dropped.Add(int64(len(b)))
+	}
+	return len(b), nil
+}
+
+func (w *fixedPTY) unplug() {
+	if w.conn != nil {
+		w.conn.close()
+		w.conn = nil
+		w.p.Close()
+		w.cancel()
+	}
+}
+
+func (w *fixedPTY) replug() error { return nil }

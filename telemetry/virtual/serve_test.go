@@ -11,6 +11,8 @@ import (
 	"time"
 
 	"go.bug.st/serial"
+
+	"github.com/caploop/caploop/telemetry"
 )
 
 // serveBoard starts sc on a pseudo-terminal behind a link in a temporary directory and
@@ -235,5 +237,45 @@ func TestStreamSend(t *testing.T) {
 	}
 	if err := r.Close(); err != nil {
 		t.Fatal(err)
+	}
+}
+
+// TestServePTY serves a caller's telemetry.PTY: set commands work through it, and a
+// scenario unplug closes it and ends ServePTY.
+func TestServePTY(t *testing.T) {
+	p, err := telemetry.OpenPTY()
+	if err != nil {
+		t.Fatal(err)
+	}
+	sc := DefaultScenario()
+	sc.Faults.UnplugAfter = 1.5
+	b, err := NewBoard(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	b.Speed = 2
+	done := make(chan error, 1)
+	go func() { done <- b.ServePTY(context.Background(), p) }()
+	_, lines := portLines(t, p.Path())
+	for data := 0; data < 50; {
+		if strings.HasPrefix(nextLine(t, lines), "t=") {
+			data++
+		}
+	}
+	b.Send("set deadband=9") // in-process, besides the port
+	for i := 0; nextLine(t, lines) != "# deadband=9"; i++ {
+		if i > 5000 {
+			t.Fatal("no answer")
+		}
+	}
+	for range lines { // the unplug ends the port's lines
+	}
+	select {
+	case err := <-done:
+		if err != nil {
+			t.Errorf("ServePTY: %v, want nil after the unplug", err)
+		}
+	case <-time.After(5 * time.Second):
+		t.Fatal("ServePTY did not return after the unplug")
 	}
 }
