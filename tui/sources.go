@@ -201,12 +201,18 @@ type ReplayOptions struct {
 	Path   string
 	Speed  float64 // 1 = real time, 2, 10; 0 = as fast as possible
 	Paused bool    // start held
+
+	open func() (telemetry.Source, error) // opens the input; nil = telemetry.OpenFile(Path)
 }
 
 // NewReplay opens a capture or plain telemetry file (gzip too) and replays it at the
 // chosen speed, with pause, step and seek from the screen.
 func NewReplay(o ReplayOptions) (*Pipeline, error) {
-	src, err := telemetry.OpenFile(o.Path)
+	if o.open == nil {
+		path := o.Path
+		o.open = func() (telemetry.Source, error) { return telemetry.OpenFile(path) }
+	}
+	src, err := o.open()
 	if err != nil {
 		return nil, err
 	}
@@ -267,7 +273,7 @@ func (p *Pipeline) runReplay(o ReplayOptions, src telemetry.Source, c *core) {
 		case ctl.seek < 0:
 			target := max(c.lastT+ctl.seek, 0)
 			src.Close()
-			s, err := telemetry.OpenFile(o.Path)
+			s, err := o.open()
 			if err != nil {
 				c.p.deliver(nil, nil, func(b *mailbox) { b.err = err })
 				return
