@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"strings"
 	"testing"
+	"time"
 
 	tea "github.com/charmbracelet/bubbletea"
 	"github.com/charmbracelet/x/ansi"
@@ -25,7 +26,8 @@ func confirmChange(t testing.TB, m Model) Model {
 	seg.DutyCharge, seg.DutyHold, seg.DutyDischarge = fp(0.04), fp(0.95), fp(0.01)
 	seg.SwitchingHz, seg.LimitCyclePeriodS = fp(12.5), fp(0.081)
 	sum.Segments = append(sum.Segments, seg)
-	box := mailbox{events: []Event{{T: 2.9, Kind: EventDeadband, Text: "deadband 2→4", Value: 4}}}
+	before := fixtureSummary().Segments[1]
+	box := mailbox{events: []Event{{T: 2.9, Kind: EventDeadband, Text: "deadband 2→4", Value: 4, Segment: &before}}}
 	mm, _ := m.Update(samplesMsg{src: m.src, box: box})
 	mm, _ = mm.(Model).Update(samplesMsg{src: m.src, box: mailbox{summary: &sum}})
 	return mm.(Model)
@@ -103,6 +105,66 @@ func TestViews(t *testing.T) {
 					m = press(t, m, k)
 				}
 				out := m.View()
+				checkGrid(t, out, sz[0], sz[1])
+				golden.RequireEqual(t, []byte(out))
+			})
+		}
+	}
+}
+
+// replayToEnd replays path at full speed through the real pipeline (scanner, analysis,
+// advice) into a screen of the given size and returns it once the file has ended. The
+// rate, which depends on the machine, is zeroed for golden comparisons.
+func replayToEnd(t *testing.T, path string, width, height int) Model {
+	t.Helper()
+	p, err := NewReplay(ReplayOptions{Path: path, Speed: 0})
+	if err != nil {
+		t.Fatalf("NewReplay: %v", err)
+	}
+	t.Cleanup(func() { p.Close() })
+	m := New(p, Options{Span: 2})
+	mm, _ := m.Update(tea_WindowSize(width, height))
+	m = mm.(Model)
+	deadline := time.Now().Add(30 * time.Second)
+	last := time.Time{}
+	for !m.ended {
+		if time.Now().After(deadline) {
+			t.Fatalf("replay of %s did not end in 30 s", path)
+		}
+		msg := p.wait(last)()
+		last = time.Now()
+		switch msg := msg.(type) {
+		case samplesMsg:
+			m.takeFrame(msg.box)
+		case sourceErrMsg:
+			t.Fatalf("replay: %v", msg.err)
+		case sourceDoneMsg:
+			m.ended = true
+		}
+	}
+	m.status.st.Rate = 0
+	return m
+}
+
+// TestCaptureViews replays a fixed capture (testdata/bench-tuned.cap, a copy of the
+// project's tuned.cap: the demo board at deadband 4, then "set deadband=9" and the same
+// setpoints again) through the real pipeline and compares every view at 80x24 and
+// 120x40 with testdata/TestCaptureViews/... (regenerate with -update).
+func TestCaptureViews(t *testing.T) {
+	for _, sz := range [][2]int{{80, 24}, {120, 40}} {
+		m := replayToEnd(t, "testdata/bench-tuned.cap", sz[0], sz[1])
+		if m.change == nil || m.change.To != 9 {
+			t.Errorf("%dx%d: no before/after for the capture's deadband change (change %+v)", sz[0], sz[1], m.change)
+		}
+		for _, v := range []struct {
+			name string
+			keys []string
+		}{
+			{"trace", nil}, {"figures", []string{"2"}}, {"spread", []string{"3"}},
+			{"ripple", []string{"4"}}, {"step", []string{"5"}}, {"help", []string{"?"}},
+		} {
+			t.Run(fmt.Sprintf("%dx%d/%s", sz[0], sz[1], v.name), func(t *testing.T) {
+				out := press(t, m, v.keys...).View()
 				checkGrid(t, out, sz[0], sz[1])
 				golden.RequireEqual(t, []byte(out))
 			})

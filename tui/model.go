@@ -68,10 +68,8 @@ type sentMsg struct {
 
 // pendingChange is a deadband command waiting for the board's meta line.
 type pendingChange struct {
-	id     int
-	to     int
-	from   float64
-	before *analysis.Segment
+	id int
+	to int
 }
 
 // scratch holds buffers reused across frames (the model is copied by value).
@@ -327,12 +325,16 @@ func (m *Model) event(e Event) {
 		m.message = "sent: " + e.Text
 	case EventDeadband:
 		m.marks = append(m.marks, Mark{T: e.T, Label: "db " + strings.TrimPrefix(e.Text, "deadband ")})
+		from := -1.0
+		if e.Segment != nil && e.Segment.DeadbandCounts != nil {
+			from = *e.Segment.DeadbandCounts
+		}
+		m.change = &Change{At: e.T, From: from, To: e.Value, Before: e.Segment}
 		if m.pending != nil && int(math.Round(e.Value)) == m.pending.to {
-			m.change = &Change{At: e.T, From: m.pending.from, To: e.Value, Before: m.pending.before}
 			m.message = fmt.Sprintf("the board confirmed deadband %d; figures before and after on view 2", m.pending.to)
 			m.pending = nil
-		} else if m.pending == nil {
-			m.message = "the board reports " + e.Text
+		} else {
+			m.message = "the board reports " + e.Text + "; figures before and after on view 2"
 		}
 	}
 	// Keep marks bounded: drop those older than the retained window.
@@ -465,16 +467,7 @@ func (m Model) sendDeadband() (tea.Model, tea.Cmd) {
 	m.confirm = 0
 	m.keys.SetConfirming(false)
 	m.nextID++
-	from := -1.0
-	if m.sum != nil && m.sum.Board.DeadbandCounts != nil {
-		from = *m.sum.Board.DeadbandCounts
-	}
-	var before *analysis.Segment
-	if seg := currentSegment(m.sum); seg != nil {
-		s := *seg
-		before = &s
-	}
-	m.pending = &pendingChange{id: m.nextID, to: n, from: from, before: before}
+	m.pending = &pendingChange{id: m.nextID, to: n}
 	cmd := fmt.Sprintf("set deadband=%d", n)
 	m.message = "sent \"" + cmd + "\", waiting for the board…"
 	src, id, timeout := m.src, m.nextID, m.opts.Timeout

@@ -41,6 +41,9 @@ type Event struct {
 	Kind  EventKind
 	Text  string
 	Value float64
+	// Segment, for EventDeadband, is the figures of the segment that ran under the old
+	// band, taken from the accumulator at the moment of the change.
+	Segment *analysis.Segment
 }
 
 // analyzer is the part of analysis.Accumulator the pipeline uses.
@@ -93,9 +96,9 @@ type Pipeline struct {
 	ctl     chan control // replay controls; nil for live sources
 
 	// Advice runs beside the pipeline so it never holds up the analysis.
-	adv      adviser
-	advReq   chan *analysis.Summary
-	advFinal bool
+	adv    adviser
+	advReq chan *analysis.Summary
+	advSeq int64 // samples behind the newest advice delivered (under mu)
 }
 
 func newPipeline(name string, maxPoints int, adv adviser) *Pipeline {
@@ -210,14 +213,27 @@ func (p *Pipeline) adviceLoop() {
 		case <-p.quit:
 			return
 		case s := <-p.advReq:
-			a, err := p.adv(s)
-			es := ""
-			if err != nil {
-				es = telemetry.Sanitize([]byte(err.Error()))
-			}
-			p.deliver(nil, nil, func(b *mailbox) { b.advice, b.adviceErr = a, es })
+			p.deliverAdvice(s)
 		}
 	}
+}
+
+// deliverAdvice computes the advice for s and hands it to the screen, unless advice for
+// a newer summary got there first (the final advice must not be overwritten by a late
+// one for an older summary).
+func (p *Pipeline) deliverAdvice(s *analysis.Summary) {
+	a, err := p.adv(s)
+	es := ""
+	if err != nil {
+		es = telemetry.Sanitize([]byte(err.Error()))
+	}
+	p.deliver(nil, nil, func(b *mailbox) {
+		if s.Samples < p.advSeq {
+			return
+		}
+		p.advSeq = s.Samples
+		b.advice, b.adviceErr = a, es
+	})
 }
 
 // requestAdvice hands the newest summary to the advice goroutine, replacing a waiting one.
@@ -325,6 +341,7 @@ func (c *core) restart() {
 		b.points = b.points[:0]
 		b.events = b.events[:0]
 		b.reset = true
+		c.p.advSeq = 0
 	})
 }
 
@@ -374,12 +391,16 @@ func (c *core) setMeta(m telemetry.Meta) {
 	old := c.meta
 	c.meta = c.meta.Merge(m)
 	c.acc.SetMeta(c.meta)
-	if m.Has(telemetry.FieldDeadband) && c.samples > 0 {
-		txt := "deadband " + ftoa(m.Deadband)
-		if old.Has(telemetry.FieldDeadband) {
-			txt = "deadband " + ftoa(old.Deadband) + "→" + ftoa(m.Deadband)
+	// A deadband change mid-stream (not the first report, not a repeat) is an event
+	// carrying the figures of the segment that ran under the old band.
+	if m.Has(telemetry.FieldDeadband) && c.samples > 0 && old.Has(telemetry.FieldDeadband) && old.Deadband != m.Deadband {
+		ev := Event{T: c.lastT, Kind: EventDeadband, Value: m.Deadband,
+			Text: "deadband " + ftoa(old.Deadband) + "→" + ftoa(m.Deadband)}
+		if seg := currentSegment(c.acc.Summary()); seg != nil {
+			s := *seg
+			ev.Segment = &s
 		}
-		c.evs = append(c.evs, Event{T: c.lastT, Kind: EventDeadband, Text: txt, Value: m.Deadband})
+		c.evs = append(c.evs, ev)
 	}
 }
 
@@ -469,13 +490,7 @@ func (c *core) flush(force bool) {
 func (c *core) finish(err error) {
 	c.flush(true)
 	if c.p.adv != nil {
-		sum := c.acc.Summary()
-		a, aerr := c.p.adv(sum)
-		es := ""
-		if aerr != nil {
-			es = telemetry.Sanitize([]byte(aerr.Error()))
-		}
-		c.p.deliver(nil, nil, func(b *mailbox) { b.advice, b.adviceErr = a, es })
+		c.p.deliverAdvice(c.acc.Summary())
 	}
 	c.p.deliver(nil, nil, func(b *mailbox) {
 		b.err = err
