@@ -254,7 +254,16 @@ func overviewChart(s *analysis.Summary, title string) (chart, bool) {
 	}
 	p.Add(pv)
 	p.Legend.Add("measurement", pv)
+	headroom(p)
 	return chart{kind: "overview", caption: title, w: 26 * vg.Centimeter, h: 9 * vg.Centimeter, grid: [][]*plot.Plot{{p}}}, true
+}
+
+// headroom raises the top of the y axis by a fifth of its range so that the legend,
+// drawn in the top right corner, does not hide the data.
+func headroom(p *plot.Plot) {
+	if r := p.Y.Max - p.Y.Min; r > 0 && finite(r) {
+		p.Y.Max += 0.2 * r
+	}
 }
 
 // driveTicks label the drive axis.
@@ -263,6 +272,7 @@ var driveTicks = plot.ConstantTicks{{Value: -1, Label: "discharge"}, {Value: 0, 
 // zoomChart is a short full-rate window of one segment's steady part: the measurement
 // with the setpoint and the band above, the drive below.
 func zoomChart(s *analysis.Summary, z analysis.ZoomTrace) (chart, bool) {
+	z = trimZoom(z)
 	if len(z.T) < 2 || len(z.PV) < 2 {
 		return chart{}, false
 	}
@@ -270,6 +280,9 @@ func zoomChart(s *analysis.Summary, z analysis.ZoomTrace) (chart, bool) {
 	scale, unit := timeScale(z.T[len(z.T)-1] - t0)
 	fx := func(t float64) float64 { return (t - t0) * scale }
 	title := fmt.Sprintf("Segment %d, steady ripple", z.Segment+1)
+	if len(chargeOnsets(z.U)) > 0 {
+		title = fmt.Sprintf("Segment %d, %d limit cycles", z.Segment+1, zoomCycles)
+	}
 	var sp, db float64 = math.NaN(), math.NaN()
 	hasBand := false
 	if z.Segment >= 0 && z.Segment < len(s.Segments) {
@@ -303,6 +316,7 @@ func zoomChart(s *analysis.Summary, z analysis.ZoomTrace) (chart, bool) {
 	}
 	top.Add(pv)
 	top.Legend.Add("measurement", pv)
+	headroom(top)
 	grid := [][]*plot.Plot{{top}}
 	h := 8 * vg.Centimeter
 	if u := line(xys(z.T, z.U, fx), colDrive, vg.Points(1)); u != nil {
@@ -317,6 +331,75 @@ func zoomChart(s *analysis.Summary, z analysis.ZoomTrace) (chart, bool) {
 		top.X.Label.Text = xlabel
 	}
 	return chart{kind: "zoom", caption: title, w: 18 * vg.Centimeter, h: h, grid: grid}, true
+}
+
+// zoomCycles is how many limit cycles a zoom shows.
+const zoomCycles = 3
+
+// chargeOnsets returns the indices where the drive turns to charge.
+func chargeOnsets(u []float64) []int {
+	var on []int
+	for i := 1; i < len(u); i++ {
+		if u[i] > 0.5 && u[i-1] <= 0.5 {
+			on = append(on, i)
+		}
+	}
+	return on
+}
+
+// trimZoom cuts a zoom window to zoomCycles limit cycles, from one charge onset to the
+// one zoomCycles later, keeping at least 20 samples. Without the drive, or with too few
+// onsets, the window is left as it is.
+func trimZoom(z analysis.ZoomTrace) analysis.ZoomTrace {
+	n := min(len(z.T), len(z.PV), len(z.U))
+	on := chargeOnsets(z.U[:n])
+	if len(on) <= zoomCycles {
+		return z
+	}
+	from := on[0]
+	to := min(max(on[zoomCycles]+1, from+20), n)
+	z.T, z.PV, z.U = z.T[from:to], z.PV[from:to], z.U[from:to]
+	return z
+}
+
+// zoomsBySetpoint picks, for each distinct setpoint, the zoom of the segment with the
+// most steady samples, in the order the setpoints first appear; repeated visits to one
+// setpoint would only repeat the picture.
+func zoomsBySetpoint(s *analysis.Summary) []analysis.ZoomTrace {
+	best := map[float64]int{}
+	var order []float64
+	steady := func(z analysis.ZoomTrace) int64 {
+		if z.Segment >= 0 && z.Segment < len(s.Segments) {
+			return s.Segments[z.Segment].SteadySamples
+		}
+		return -1
+	}
+	sp := func(z analysis.ZoomTrace) float64 {
+		if z.Segment >= 0 && z.Segment < len(s.Segments) {
+			return s.Segments[z.Segment].SetpointCounts
+		}
+		return math.NaN()
+	}
+	var out []analysis.ZoomTrace
+	for i, z := range s.Traces.Zoom {
+		k := sp(z)
+		if math.IsNaN(k) {
+			out = append(out, z) // no segment to group it with: keep it
+			continue
+		}
+		j, ok := best[k]
+		if !ok {
+			best[k] = i
+			order = append(order, k)
+		} else if steady(z) > steady(s.Traces.Zoom[j]) {
+			best[k] = i
+		}
+	}
+	for _, k := range order {
+		out = append(out, s.Traces.Zoom[best[k]])
+	}
+	sort.SliceStable(out, func(a, b int) bool { return out[a].Segment < out[b].Segment })
+	return out
 }
 
 // histogramChart is the distribution of the error pv - sp over the steady parts.
@@ -403,10 +486,10 @@ func stepChart(s *analysis.Summary, st analysis.StepTrace) (chart, bool) {
 	t0 := st.T[0]
 	scale, unit := timeScale(st.T[len(st.T)-1] - t0)
 	fx := func(t float64) float64 { return (t - t0) * scale }
-	title := fmt.Sprintf("Step %d", st.Step+1)
-	if st.Step >= 0 && st.Step < len(s.Steps) {
-		f := s.Steps[st.Step]
-		title += ": " + levelText(f.FromV, f.FromCounts) + " to " + levelText(f.ToV, f.ToCounts)
+	title := "Step"
+	if k := matchStep(s, st); k >= 0 {
+		f := s.Steps[k]
+		title = fmt.Sprintf("Step %d: %s to %s", k+1, levelText(f.FromV, f.FromCounts), levelText(f.ToV, f.ToCounts))
 	}
 	p := newPlot(title, fmt.Sprintf("time (%s) from %s", unit, si.Format(t0, "s")), "level ("+levelUnit(s.Traces)+")")
 	pts := xys(st.T, st.PV, fx)
@@ -420,7 +503,28 @@ func stepChart(s *analysis.Summary, st analysis.StepTrace) (chart, bool) {
 		p.Add(fit)
 		p.Legend.Add("fitted exponential", fit)
 	}
+	headroom(p)
 	return chart{kind: "step", caption: title, w: 13 * vg.Centimeter, h: 8 * vg.Centimeter, grid: [][]*plot.Plot{{p}}}, true
+}
+
+// matchStep returns the index in s.Steps of the step a trace shows: the step whose time
+// is nearest the trace's start, within a tenth of the trace's span (or one sample period).
+// It returns -1 when none is near.
+func matchStep(s *analysis.Summary, st analysis.StepTrace) int {
+	if len(st.T) == 0 {
+		return -1
+	}
+	tol := math.Abs(st.T[len(st.T)-1]-st.T[0]) / 10
+	if s.SamplePeriodS != nil {
+		tol = math.Max(tol, *s.SamplePeriodS)
+	}
+	best, bestD := -1, math.Inf(1)
+	for i, f := range s.Steps {
+		if d := math.Abs(f.AtS - st.T[0]); d <= tol && d < bestD {
+			best, bestD = i, d
+		}
+	}
+	return best
 }
 
 // steadyZoom returns the zoom trace of the segment with the most steady samples.
@@ -476,6 +580,9 @@ func rippleChart(docs []Doc) (chart, bool) {
 			}
 			k = 1 / q
 		}
+		if on := chargeOnsets(z.U); len(on) > 0 && on[0] < min(len(z.T), len(z.PV))-2 {
+			z.T, z.PV = z.T[on[0]:], z.PV[on[0]:]
+		}
 		pts := xys(z.T, z.PV, nil)
 		if len(pts) < 2 {
 			continue
@@ -498,7 +605,7 @@ func rippleChart(docs []Doc) (chart, bool) {
 	}
 	scale, tunit := timeScale(span)
 	title := "Steady ripple of each capture, mean removed"
-	p := newPlot(title, "time ("+tunit+") from the window start", "ripple ("+unit+")")
+	p := newPlot(title, "time ("+tunit+") from a charge onset", "ripple ("+unit+")")
 	for i, sr := range all {
 		for j := range sr.pts {
 			sr.pts[j].X *= scale
@@ -508,5 +615,6 @@ func rippleChart(docs []Doc) (chart, bool) {
 			p.Legend.Add(sr.name, l)
 		}
 	}
+	headroom(p)
 	return chart{kind: "ripple", caption: title, w: 18 * vg.Centimeter, h: 9 * vg.Centimeter, grid: [][]*plot.Plot{{p}}}, true
 }

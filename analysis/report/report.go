@@ -149,9 +149,13 @@ func docCharts(s *analysis.Summary, opts Options) (charts []chart, missing []str
 		missing = append(missing, "too few samples for the overview plot")
 	}
 	nz := 0
-	for _, z := range s.Traces.Zoom {
+	zooms := zoomsBySetpoint(s)
+	if n := len(s.Traces.Zoom) - len(zooms); n > 0 {
+		missing = append(missing, fmt.Sprintf("%d zooms of segments at a setpoint already shown are left out", n))
+	}
+	for _, z := range zooms {
 		if nz == opts.MaxZooms {
-			missing = append(missing, fmt.Sprintf("%d more segment zooms not drawn", len(s.Traces.Zoom)-nz))
+			missing = append(missing, fmt.Sprintf("%d more segment zooms not drawn", len(zooms)-nz))
 			break
 		}
 		if c, ok := zoomChart(s, z); ok {
@@ -206,7 +210,7 @@ h1 { font-size: 1.5em; margin-bottom: 0.2em; }
 h2 { font-size: 1.25em; border-bottom: 2px solid #1f5fa8; padding-bottom: 0.2em; margin-top: 2em; }
 .note { color: #555; margin-top: 0; }
 .plots { display: flex; flex-wrap: wrap; gap: 1em; }
-figure.plot { margin: 0; flex: 0 1 640px; min-width: 320px; }
+figure.plot { margin: 0; flex: 0 1 600px; min-width: 320px; }
 figure.plot.wide { flex-basis: 100%; max-width: 100%; }
 figure.plot svg { width: 100%; height: auto; display: block; background: #fff; }
 .tables { display: flex; flex-wrap: wrap; gap: 1.5em; align-items: flex-start; }

@@ -5,6 +5,7 @@ import (
 	"encoding/xml"
 	"errors"
 	"flag"
+	"fmt"
 	"image/png"
 	"os"
 	"path/filepath"
@@ -276,6 +277,86 @@ func TestNiceTicks(t *testing.T) {
 			}
 			if strings.Join(got, " ") != strings.Join(tc.want, " ") {
 				t.Errorf("labels: got %v, want %v", got, tc.want)
+			}
+		})
+	}
+}
+
+func TestTrimZoom(t *testing.T) {
+	// A drive that charges every 10 samples from sample 3 on.
+	mk := func(n, every int) analysis.ZoomTrace {
+		z := analysis.ZoomTrace{}
+		for i := 0; i < n; i++ {
+			u := 0.0
+			if i >= 3 && (i-3)%every == 0 {
+				u = 1
+			}
+			z.T = append(z.T, float64(i)*1e-3)
+			z.PV = append(z.PV, float64(i))
+			z.U = append(z.U, u)
+		}
+		return z
+	}
+	tests := []struct {
+		name      string
+		z         analysis.ZoomTrace
+		wantFirst float64 // first PV kept (= index)
+		wantLen   int
+	}{
+		{"three cycles from the first onset", mk(200, 10), 3, 31},
+		{"short cycles: at least 20 samples", mk(200, 2), 3, 20},
+		{"too few onsets: unchanged", mk(25, 10), 0, 25},
+		{"no drive: unchanged", analysis.ZoomTrace{T: []float64{0, 1, 2}, PV: []float64{0, 1, 2}}, 0, 3},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			got := trimZoom(tc.z)
+			if len(got.T) != tc.wantLen || len(got.PV) != tc.wantLen {
+				t.Fatalf("length: got %d/%d, want %d", len(got.T), len(got.PV), tc.wantLen)
+			}
+			if got.PV[0] != tc.wantFirst {
+				t.Errorf("first sample: got %v, want %v", got.PV[0], tc.wantFirst)
+			}
+		})
+	}
+}
+
+func TestZoomsBySetpoint(t *testing.T) {
+	s := &analysis.Summary{
+		Segments: []analysis.Segment{
+			{SetpointCounts: 246, SteadySamples: 100},
+			{SetpointCounts: 410, SteadySamples: 100},
+			{SetpointCounts: 246, SteadySamples: 300},
+			{SetpointCounts: 410, SteadySamples: 50},
+		},
+		Traces: &analysis.Traces{Zoom: []analysis.ZoomTrace{{Segment: 0}, {Segment: 1}, {Segment: 2}, {Segment: 3}, {Segment: 9}}},
+	}
+	var got []int
+	for _, z := range zoomsBySetpoint(s) {
+		got = append(got, z.Segment)
+	}
+	// 246 counts: segment 2 has the most steady samples; 410: segment 1; 9 has no segment.
+	if want := []int{1, 2, 9}; fmt.Sprint(got) != fmt.Sprint(want) {
+		t.Errorf("zooms: got segments %v, want %v", got, want)
+	}
+}
+
+func TestMatchStep(t *testing.T) {
+	s := &analysis.Summary{SamplePeriodS: ptr(1e-3), Steps: []analysis.StepFigures{{AtS: 3}, {AtS: 6}, {AtS: 9}}}
+	tests := []struct {
+		name string
+		t0   float64
+		want int
+	}{
+		{"at the second step", 6, 1},
+		{"one sample after the third", 9.001, 2},
+		{"between steps", 4.5, -1},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			st := analysis.StepTrace{T: []float64{tc.t0, tc.t0 + 0.5}}
+			if got := matchStep(s, st); got != tc.want {
+				t.Errorf("got %d, want %d", got, tc.want)
 			}
 		})
 	}

@@ -1,0 +1,235 @@
+package main
+
+import (
+	"bufio"
+	"compress/gzip"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+	"time"
+
+	"github.com/schollz/progressbar/v3"
+	"github.com/spf13/pflag"
+	"golang.org/x/term"
+
+	"github.com/caploop/caploop/analysis/report"
+	"github.com/caploop/caploop/telemetry"
+)
+
+// reportFlags are the flags of `caploop summary` that draw pictures (--report, --plot)
+// and silence the progress bar (--quiet).
+type reportFlags struct {
+	report string // --report out.html: the self-contained HTML report
+	plot   string // --plot out.svg or out.png: one overview picture
+	quiet  bool   // --quiet: no progress bar
+}
+
+// register adds the flags to fs.
+func (f *reportFlags) register(fs *pflag.FlagSet) {
+	fs.StringVar(&f.report, "report", "", "write a self-contained HTML report with plots and tables to this file")
+	fs.StringVar(&f.plot, "plot", "", "write one overview picture to this file (.svg or .png)")
+	fs.BoolVarP(&f.quiet, "quiet", "q", false, "no progress bar on standard error")
+}
+
+// plotFormat returns "svg" or "png" from the --plot file name.
+func (f *reportFlags) plotFormat() (string, error) {
+	switch ext := strings.ToLower(filepath.Ext(f.plot)); ext {
+	case ".svg":
+		return "svg", nil
+	case ".png":
+		return "png", nil
+	default:
+		return "", fmt.Errorf("--plot %s: the picture must end in .svg or .png", f.plot)
+	}
+}
+
+// check validates the flags before any file is read (exit code 2 on a bad flag).
+func (f *reportFlags) check() error {
+	if f.plot != "" {
+		if _, err := f.plotFormat(); err != nil {
+			return withCode(2, err)
+		}
+	}
+	return nil
+}
+
+// wanted reports whether a report or a picture is asked for.
+func (f *reportFlags) wanted() bool { return f.report != "" || f.plot != "" }
+
+// write writes the HTML report and the picture asked for. note goes under the report's
+// title (e.g. the command line). A failure to write is exit code 2.
+func (f *reportFlags) write(docs []report.Doc, note string) error {
+	docs = shortNames(docs)
+	if f.report != "" {
+		err := writeFileAtomic(f.report, func(w io.Writer) error {
+			return report.WriteHTML(w, docs, report.Options{Note: note})
+		})
+		if err != nil {
+			return withCode(2, err)
+		}
+	}
+	if f.plot != "" {
+		format, err := f.plotFormat()
+		if err != nil {
+			return withCode(2, err)
+		}
+		err = writeFileAtomic(f.plot, func(w io.Writer) error { return report.WritePicture(w, docs, format) })
+		if err != nil {
+			return withCode(2, err)
+		}
+	}
+	return nil
+}
+
+// shortNames names each doc by its file's base name when the base names are distinct
+// (they head the columns of the comparison), and keeps the paths otherwise.
+func shortNames(docs []report.Doc) []report.Doc {
+	out := make([]report.Doc, len(docs))
+	seen := map[string]bool{}
+	for i, d := range docs {
+		out[i] = d
+		out[i].Name = filepath.Base(d.Name)
+		if seen[out[i].Name] {
+			return docs
+		}
+		seen[out[i].Name] = true
+	}
+	return out
+}
+
+// writeFileAtomic writes path through a temporary file in the same folder, renamed into
+// place only when fn succeeded, so a failed run never leaves half a report.
+func writeFileAtomic(path string, fn func(w io.Writer) error) error {
+	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".*")
+	if err != nil {
+		return fmt.Errorf("write %s: %w", path, err)
+	}
+	defer os.Remove(tmp.Name())
+	if err := fn(tmp); err != nil {
+		tmp.Close()
+		return fmt.Errorf("write %s: %w", path, err)
+	}
+	if err := tmp.Close(); err != nil {
+		return fmt.Errorf("write %s: %w", path, err)
+	}
+	if err := os.Chmod(tmp.Name(), 0o644); err != nil {
+		return fmt.Errorf("write %s: %w", path, err)
+	}
+	if err := os.Rename(tmp.Name(), path); err != nil {
+		return fmt.Errorf("write %s: %w", path, err)
+	}
+	return nil
+}
+
+// isTerminal reports whether w is a terminal.
+func isTerminal(w io.Writer) bool {
+	f, ok := w.(*os.File)
+	return ok && term.IsTerminal(int(f.Fd()))
+}
+
+// openWithProgress opens a telemetry file for the summary. When stderr is a terminal and
+// quiet is false, a progress bar on stderr follows the bytes read of the file (of the
+// compressed file for a .gz capture, so the bar reaches 100 % at its end); otherwise it is
+// telemetry.OpenFile. The bar is cleared when the source is closed.
+func openWithProgress(path string, stderr io.Writer, quiet bool) (telemetry.Source, error) {
+	if quiet || path == "-" || !isTerminal(stderr) {
+		return telemetry.OpenFile(path)
+	}
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, fmt.Errorf("telemetry: %w", err)
+	}
+	fi, err := f.Stat()
+	if err != nil || fi.IsDir() || !fi.Mode().IsRegular() {
+		// Not a plain file (a directory, a fifo): no size to show; let OpenFile decide.
+		f.Close()
+		return telemetry.OpenFile(path)
+	}
+	bar := newProgressBar(stderr, fi.Size(), filepath.Base(path))
+	return newProgressSource(path, f, bar)
+}
+
+// newProgressBar makes the byte progress bar used by openWithProgress.
+func newProgressBar(w io.Writer, size int64, name string) *progressbar.ProgressBar {
+	return progressbar.NewOptions64(size,
+		progressbar.OptionSetWriter(w),
+		progressbar.OptionSetDescription(telemetry.SanitizeN([]byte(name), 40)),
+		progressbar.OptionShowBytes(true),
+		progressbar.OptionShowTotalBytes(true),
+		progressbar.OptionSetWidth(30),
+		progressbar.OptionThrottle(100*time.Millisecond),
+		progressbar.OptionSetPredictTime(true),
+		progressbar.OptionClearOnFinish(),
+		progressbar.OptionSetRenderBlankState(true),
+	)
+}
+
+// progressSource reads a plain or gzip file and counts the file's bytes on a bar.
+type progressSource struct {
+	name string
+	r    io.Reader
+	gz   *gzip.Reader
+	f    *os.File
+	bar  *progressbar.ProgressBar
+}
+
+// countingReader adds the bytes read to a bar.
+type countingReader struct {
+	r   io.Reader
+	bar *progressbar.ProgressBar
+}
+
+func (c *countingReader) Read(p []byte) (int, error) {
+	n, err := c.r.Read(p)
+	if n > 0 {
+		_ = c.bar.Add64(int64(n)) // a bar that cannot draw must not stop the summary
+	}
+	return n, err
+}
+
+func newProgressSource(name string, f *os.File, bar *progressbar.ProgressBar) (*progressSource, error) {
+	br := bufio.NewReaderSize(&countingReader{r: f, bar: bar}, 64<<10)
+	s := &progressSource{name: name, r: br, f: f, bar: bar}
+	head, err := br.Peek(2)
+	if err != nil && !errors.Is(err, io.EOF) {
+		f.Close()
+		return nil, fmt.Errorf("telemetry: read %s: %w", name, err)
+	}
+	// The gzip magic number (RFC 1952, section 2.3.1: ID1 = 31, ID2 = 139).
+	if len(head) == 2 && head[0] == 0x1f && head[1] == 0x8b {
+		gz, err := gzip.NewReader(br)
+		if err != nil {
+			f.Close()
+			return nil, fmt.Errorf("telemetry: %s: bad gzip data: %w", name, err)
+		}
+		s.gz, s.r = gz, gz
+	}
+	return s, nil
+}
+
+func (s *progressSource) Read(p []byte) (int, error) {
+	n, err := s.r.Read(p)
+	if err != nil && !errors.Is(err, io.EOF) && s.gz != nil {
+		err = fmt.Errorf("telemetry: %s: bad gzip data: %w", s.name, err)
+	}
+	return n, err
+}
+
+// Name returns the file name.
+func (s *progressSource) Name() string { return s.name }
+
+// Close finishes and clears the bar and closes the file.
+func (s *progressSource) Close() error {
+	_ = s.bar.Finish()
+	var err error
+	if s.gz != nil {
+		err = s.gz.Close()
+	}
+	if cerr := s.f.Close(); err == nil {
+		err = cerr
+	}
+	return err
+}
