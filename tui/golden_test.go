@@ -115,9 +115,9 @@ func TestViews(t *testing.T) {
 // replayToEnd replays path at full speed through the real pipeline (scanner, analysis,
 // advice) into a screen of the given size and returns it once the file has ended. The
 // rate, which depends on the machine, is zeroed for golden comparisons.
-func replayToEnd(t *testing.T, path string, width, height int) Model {
+func replayToEnd(t *testing.T, path string, width, height int, withAdvice bool) Model {
 	t.Helper()
-	p, err := NewReplay(ReplayOptions{Path: path, Speed: 0})
+	p, err := NewReplay(ReplayOptions{Path: path, Speed: 0, SourceOptions: SourceOptions{NoAdvice: !withAdvice}})
 	if err != nil {
 		t.Fatalf("NewReplay: %v", err)
 	}
@@ -149,10 +149,13 @@ func replayToEnd(t *testing.T, path string, width, height int) Model {
 // TestCaptureViews replays a fixed capture (testdata/bench-tuned.cap, a copy of the
 // project's tuned.cap: the demo board at deadband 4, then "set deadband=9" and the same
 // setpoints again) through the real pipeline and compares every view at 80x24 and
-// 120x40 with testdata/TestCaptureViews/... (regenerate with -update).
+// 120x40 with testdata/TestCaptureViews/... (regenerate with -update after a change of
+// the analysis figures). The advice engine is left out here so that its tuning does not
+// churn these files; TestViews covers the advice block and TestCaptureAdvice the engine
+// on this capture.
 func TestCaptureViews(t *testing.T) {
 	for _, sz := range [][2]int{{80, 24}, {120, 40}} {
-		m := replayToEnd(t, "testdata/bench-tuned.cap", sz[0], sz[1])
+		m := replayToEnd(t, "testdata/bench-tuned.cap", sz[0], sz[1], false)
 		if m.change == nil || m.change.To != 9 {
 			t.Errorf("%dx%d: no before/after for the capture's deadband change (change %+v)", sz[0], sz[1], m.change)
 		}
@@ -169,5 +172,22 @@ func TestCaptureViews(t *testing.T) {
 				golden.RequireEqual(t, []byte(out))
 			})
 		}
+	}
+}
+
+// TestCaptureAdvice checks the advice the screen shows at the end of the fixed capture:
+// the capture's scenario note says a deadband of 9 makes the demo board settle
+// (testdata/README.md, tuned.cap), and the screen must offer it.
+func TestCaptureAdvice(t *testing.T) {
+	m := replayToEnd(t, "testdata/bench-tuned.cap", 120, 40, true)
+	n, ok := m.advice.Suggested()
+	if !ok {
+		t.Fatalf("no suggested deadband at the end of the capture (advice error %q)", m.advice.err)
+	}
+	if n != 9 {
+		t.Errorf("suggested deadband = %d, want 9", n)
+	}
+	if out := m.View(); !strings.Contains(out, "advice: deadband 9 counts (now 9)") {
+		t.Errorf("trace view does not show the advice line; screen:\n%s", out)
 	}
 }
