@@ -55,7 +55,11 @@ func (b *Board) Serve(ctx context.Context, opt ServeOptions) error {
 	}
 	s := &ptyServer{board: b, link: link}
 	defer func() {
-		s.unplug()
+		if s.conn != nil {
+			os.Remove(s.link)
+			s.conn.finish()
+			s.conn = nil
+		}
 		if tmpDir != "" {
 			os.RemoveAll(tmpDir)
 		}
@@ -138,6 +142,7 @@ type ptyConn struct {
 	master *os.File
 	path   string // slave device
 	out    chan []byte
+	wdone  chan struct{} // closed when the writer has finished
 	wg     sync.WaitGroup
 	once   sync.Once
 }
@@ -171,17 +176,34 @@ func newConn(m *os.File, path string, b *Board, dropped *atomic.Int64) (*ptyConn
 		unix.Close(fd)
 		return nil, fmt.Errorf("virtual: %w", err)
 	}
-	c := &ptyConn{master: os.NewFile(uintptr(fd), "/dev/ptmx"), path: path, out: make(chan []byte, 256)}
+	c := &ptyConn{master: os.NewFile(uintptr(fd), "/dev/ptmx"), path: path, out: make(chan []byte, 256), wdone: make(chan struct{})}
 	c.wg.Add(2)
 	go c.writer(dropped)
 	go c.reader(b)
 	return c, nil
 }
 
+// close closes the pseudo-terminal at once, dropping output not yet written: an unplug.
 func (c *ptyConn) close() {
 	c.once.Do(func() {
 		c.master.Close()
 		close(c.out)
+		c.wg.Wait()
+	})
+}
+
+// finish writes the output still queued (for at most a second, if a program is reading)
+// and then closes the pseudo-terminal: the end of a run.
+func (c *ptyConn) finish() {
+	c.once.Do(func() {
+		close(c.out)
+		select {
+		case <-c.wdone:
+		case <-time.After(time.Second):
+		}
+		// Give the reader a moment to take the last bytes before the hang-up.
+		time.Sleep(50 * time.Millisecond)
+		c.master.Close()
 		c.wg.Wait()
 	})
 }
@@ -204,6 +226,7 @@ func (c *ptyConn) hungUp() bool {
 
 func (c *ptyConn) writer(dropped *atomic.Int64) {
 	defer c.wg.Done()
+	defer close(c.wdone)
 	broken := false
 	for chunk := range c.out {
 		if broken || c.hungUp() {

@@ -279,3 +279,45 @@ func TestServePTY(t *testing.T) {
 		t.Fatal("ServePTY did not return after the unplug")
 	}
 }
+
+// TestServeBytesExact: through the pseudo-terminal a reader gets exactly the bytes the
+// board writes, garbage included (raw mode: no signal characters, no CR/LF translation,
+// no erase), up to the end of a limited run.
+func TestServeBytesExact(t *testing.T) {
+	sc := DefaultScenario()
+	sc.Samples = 600
+	sc.Faults.GarbageEvery = 0.05
+	want, _ := runBoard(t, sc)
+
+	b, err := NewBoard(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	b.Speed = 3
+	link := filepath.Join(t.TempDir(), "board")
+	ready := make(chan string, 1)
+	done := make(chan error, 1)
+	go func() {
+		done <- b.Serve(context.Background(), ServeOptions{Link: link, Ready: func(p string) { ready <- p }})
+	}()
+	p, err := serial.Open(<-ready, &serial.Mode{BaudRate: 115200})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer p.Close()
+	var got []byte
+	buf := make([]byte, 4096)
+	for {
+		n, err := p.Read(buf)
+		got = append(got, buf[:n]...)
+		if err != nil || n == 0 {
+			break // the end of the run hangs the terminal up
+		}
+	}
+	if err := <-done; err != nil {
+		t.Fatal(err)
+	}
+	if len(got) < len(want)/2 || !strings.HasSuffix(want, string(got)) {
+		t.Errorf("read %d bytes; want a tail of the %d bytes of a fast run of the same scenario (the part before the port was opened is dropped)", len(got), len(want))
+	}
+}
