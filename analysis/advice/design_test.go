@@ -3,6 +3,7 @@ package advice
 import (
 	"encoding/json"
 	"math"
+	"sort"
 	"strings"
 	"testing"
 
@@ -30,23 +31,33 @@ type fresh struct {
 	rippleAt  map[int]float64 // p-p per setpoint
 }
 
-func freshRun(t *testing.T, g *GoalsUsed, kind loop.Kind, r, c, cRatio float64, db int, noise float64, seed uint64) fresh {
+func freshRun(t *testing.T, g *GoalsUsed, window int, kind loop.Kind, r, c, cRatio float64, db int, noise float64, seed uint64) fresh {
 	t.Helper()
 	lsb := g.VrefV / math.Ldexp(1, g.ADCBits)
 	tol := math.Max(math.Max(g.RipplePPV, g.StaticErrorV), float64(db+1)*lsb)
+	rRatio := g.RRatio
+	if rRatio == 0 {
+		rRatio = 1
+	}
+	ci := loop.Circuit{Supply: g.SupplyV, R: r * rRatio, C: c * cRatio, Load: g.LoadOhm, Leak: g.LeakOhm}
+	v0 := float64(g.StepFromCounts) * lsb
+	if g.FollowerVBEV > 0 {
+		// The follower the engine assumes: emitter resistor 10 kOhm, beta 100.
+		ci.Follower = loop.Follower{VBE: g.FollowerVBEV, Beta: 100, RE: 10e3}
+		v0 += g.FollowerVBEV
+	}
 	cfg := loop.Config{
-		Circuit:    loop.Circuit{Supply: g.SupplyV, R: r, C: c * cRatio, Load: g.LoadOhm},
+		Circuit:    ci,
 		ADC:        loop.ADC{Vref: g.VrefV, Bits: g.ADCBits, Noise: noise},
 		Controller: loop.Controller{Kind: kind, Deadband: db},
 		Period:     g.PeriodS,
 		Seed:       seed,
-		V0:         float64(g.StepFromCounts) * lsb,
+		V0:         v0,
 	}
 	sim, err := loop.New(cfg)
 	if err != nil {
 		t.Fatal(err)
 	}
-	const window = 4000
 	settleN := int(3 * g.SettleS / g.PeriodS)
 	out := fresh{jumpsAt: map[int]int64{}, jumpsUpAt: map[int]int64{}, rippleAt: map[int]float64{}}
 	phases := []int{g.StepFromCounts, g.StepToCounts, g.StepFromCounts}
@@ -58,16 +69,14 @@ func freshRun(t *testing.T, g *GoalsUsed, kind loop.Kind, r, c, cRatio float64, 
 	for i, sp := range phases {
 		n := settleN + window
 		target := float64(sp) * lsb
-		last := -1
-		lo, hi := math.Inf(1), math.Inf(-1)
+		var outs []bool
+		var win []float64
 		prev := math.NaN()
 		for k := 0; k < n; k++ {
 			st := sim.Next(sp)
-			if math.Abs(st.Sense-target) > tol {
-				last = k
-			}
+			outs = append(outs, math.Abs(st.Sense-target) > tol)
 			if k >= n-window {
-				lo, hi = math.Min(lo, st.Sense), math.Max(hi, st.Sense)
+				win = append(win, st.Sense)
 			}
 			e := float64(st.PV - sp)
 			if kind == loop.ThreeState && ((prev < float64(-db) && e > float64(db)) || (prev > float64(db) && e < float64(-db))) {
@@ -79,13 +88,43 @@ func freshRun(t *testing.T, g *GoalsUsed, kind loop.Kind, r, c, cRatio float64, 
 			out.samples++
 			prev = e
 		}
-		out.rippleAt[sp] = math.Max(out.rippleAt[sp], hi-lo)
-		out.ripplePP = math.Max(out.ripplePP, hi-lo)
+		pp := trimmedPP(win)
+		out.rippleAt[sp] = math.Max(out.rippleAt[sp], pp)
+		out.ripplePP = math.Max(out.ripplePP, pp)
 		if i == 1 || i == 2 {
-			out.settleS = math.Max(out.settleS, float64(last+1)*g.PeriodS)
+			// Settled: the first sample inside the band after which no more than 0.5 %
+			// of the steady window's samples fall outside it (the advice's definition),
+			// found here by a forward search.
+			m := int(RippleTail * float64(window))
+			at := n
+			for k := 0; k < n; k++ {
+				if outs[k] || (k > 0 && !outs[k-1]) {
+					continue
+				}
+				c := 0
+				for _, o := range outs[k:] {
+					if o {
+						c++
+					}
+				}
+				if c <= m {
+					at = k
+					break
+				}
+			}
+			out.settleS = math.Max(out.settleS, float64(at)*g.PeriodS)
 		}
 	}
 	return out
+}
+
+// trimmedPP is the ripple p-p as the advice defines it, computed independently (by
+// sorting): the spread between the 0.5 % and 99.5 % points.
+func trimmedPP(v []float64) float64 {
+	s := append([]float64(nil), v...)
+	sort.Float64s(s)
+	cut := int(math.Floor(RippleTail * float64(len(s))))
+	return s[len(s)-1-cut] - s[cut]
 }
 
 func modeOf(g *GoalsUsed) loop.Kind {
@@ -122,7 +161,7 @@ func TestDesignClosedLoop(t *testing.T) {
 					continue
 				}
 				for _, seed := range []uint64{101, 202, 303} {
-					f := freshRun(t, g, modeOf(g), cd.ROhm, cd.CF, 1, cd.DeadbandCounts, 1, seed)
+					f := freshRun(t, g, 4000, modeOf(g), cd.ROhm, cd.CF, 1, cd.DeadbandCounts, 1, seed)
 					if f.ripplePP > g.RipplePPV {
 						t.Errorf("#%d R=%g C=%g seed %d: ripple %g V > goal %g V", i+1, cd.ROhm, cd.CF, seed, f.ripplePP, g.RipplePPV)
 					}
@@ -169,8 +208,8 @@ func TestDeadbandNarrowerJumps(t *testing.T) {
 			var narrowTotal, wideTotal, samples int64
 			upNarrow := map[int]int64{}
 			for _, seed := range seeds {
-				narrow := freshRun(t, a.Goals, loop.ThreeState, top.ROhm, top.CF, 1, db-1, c.noise, seed)
-				wide := freshRun(t, a.Goals, loop.ThreeState, top.ROhm, top.CF, 1, db, c.noise, seed)
+				narrow := freshRun(t, a.Goals, 4000, loop.ThreeState, top.ROhm, top.CF, 1, db-1, c.noise, seed)
+				wide := freshRun(t, a.Goals, 4000, loop.ThreeState, top.ROhm, top.CF, 1, db, c.noise, seed)
 				for sp, n := range narrow.jumpsUpAt {
 					upNarrow[sp] += n
 				}

@@ -30,6 +30,9 @@ const (
 	DefaultTop = 5
 )
 
+// maxSetpoints is how many used setpoints the engine simulates at most.
+const maxSetpoints = 5
+
 // Goals are what the user wants from the loop. The zero value means the defaults above.
 type Goals struct {
 	RippleV       float64   // allowed ripple p-p at the output, V; 0 = use RipplePct
@@ -60,7 +63,8 @@ type Request struct {
 	CRatio        float64   // real / marked capacitance (measured), 0 = 1
 	RRatio        float64   // real / marked resistance (measured), 0 = 1
 	Goals         Goals
-	noiseMeasured bool // the noise came from the capture
+	noiseMeasured bool    // the noise came from the capture
+	ignoredCRatio float64 // an identified C ratio outside the plausible range
 }
 
 // goals is Goals with every default resolved, in volts and seconds.
@@ -84,6 +88,8 @@ type plant struct {
 	lo, hi               int   // full-scale step ends, counts
 	g                    goals
 	rParts, cParts       Parts
+	verifyWin            int // steady window of the checking runs, samples
+	nSeeds               int // seeds of the checking runs
 }
 
 func (r Request) resolve() (*plant, error) {
@@ -196,6 +202,15 @@ func (r Request) resolve() (*plant, error) {
 		}
 	}
 	sort.Ints(p.sps)
+	if len(p.sps) > maxSetpoints {
+		// A ramp or a sine uses hundreds of setpoints: keep the ends and evenly spaced
+		// ones between (by rank), enough to see how the step changes over the range.
+		var keep []int
+		for i := 0; i < maxSetpoints; i++ {
+			keep = append(keep, p.sps[i*(len(p.sps)-1)/(maxSetpoints-1)])
+		}
+		p.sps = keep
+	}
 	p.lo, p.hi = p.sps[0], p.sps[len(p.sps)-1]
 	if p.hi-p.lo < 2 {
 		// One setpoint: the full-scale step runs from 10 % of full scale to it (or from it
@@ -209,6 +224,7 @@ func (r Request) resolve() (*plant, error) {
 		}
 	}
 	p.rParts, p.cParts = g.R, g.C
+	p.verifyWin, p.nSeeds = verifyWindow, 3
 	return p, nil
 }
 

@@ -32,9 +32,13 @@ func (a *Advice) WriteText(w io.Writer) error {
 	}
 	if a.Current != nil {
 		c := a.Current
-		fmt.Fprintf(&b, "\npresent circuit (model with the identified plant): R %s, C %s (effective %s), tau %s: ripple %s p-p, settling %s, %s\n",
-			si.Format(c.ROhm, "Ω"), si.Format(c.CF, "F"), si.FormatDigits(c.EffectiveCF, "F", 3), si.FormatDigits(c.TauS, "s", 3),
-			fmtV(c.PredictedRipplePPV), settleText(c), c.Verdict)
+		band := ""
+		if g != nil && g.Mode == "three-state" {
+			band = fmt.Sprintf(" at band %d", c.DeadbandCounts)
+		}
+		fmt.Fprintf(&b, "\npresent circuit%s (model with the identified plant): R %s, C %s (effective %s), tau %s: ripple %s p-p, settling %s, %d band jumps, %s\n",
+			band, si.Format(c.ROhm, "Ω"), si.Format(c.CF, "F"), si.FormatDigits(c.EffectiveCF, "F", 3), si.FormatDigits(c.TauS, "s", 3),
+			fmtV(c.PredictedRipplePPV), settleText(c), c.BandJumps, c.Verdict)
 	}
 	if a.DeadbandCounts != nil && a.Deadband != nil && g != nil {
 		b.WriteString("\n")

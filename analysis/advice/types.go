@@ -37,7 +37,10 @@ type GoalsUsed struct {
 	SetpointCounts []int   `json:"setpoints_counts"`
 	StepFromCounts int     `json:"full_scale_step_from_counts"`
 	StepToCounts   int     `json:"full_scale_step_to_counts"`
-	CRatio         float64 `json:"c_ratio"` // real / marked capacitance used in the design
+	CRatio         float64 `json:"c_ratio"`        // real / marked capacitance used in the design
+	RRatio         float64 `json:"r_ratio"`        // real / marked resistance used in the design
+	LeakOhm        float64 `json:"leak_ohm"`       // capacitor leakage from the hold droop, 0 = none
+	FollowerVBEV   float64 `json:"follower_vbe_v"` // follower drop between node and ADC, 0 = none
 	RParts         string  `json:"r_parts"`
 	CParts         string  `json:"c_parts"`
 }
@@ -80,11 +83,12 @@ type Candidate struct {
 	Trades             string  `json:"trades"`  // what it trades away
 
 	// Added fields.
-	TauS         float64 `json:"tau_s"`          // charge time constant with the real C and the load
-	EffectiveCF  float64 `json:"effective_c_f"`  // the capacitance designed with (marked C times the measured ratio)
-	StaticErrorV float64 `json:"static_error_v"` // largest mean error over the steady parts, model
-	BandJumps    int64   `json:"band_jumps"`     // band jumps in the checking runs (three-state)
-	Settled      bool    `json:"settled"`        // both full-scale steps settled within the run
+	TauS          float64 `json:"tau_s"`                 // charge time constant with the real C and the load
+	EffectiveCF   float64 `json:"effective_c_f"`         // the capacitance designed with (marked C times the measured ratio)
+	StaticErrorV  float64 `json:"static_error_v"`        // largest mean error over the steady parts, model
+	BandJumps     int64   `json:"band_jumps"`            // band jumps in the checking runs (three-state)
+	Settled       bool    `json:"settled"`               // both full-scale steps settled within the run
+	WindowSamples int     `json:"steady_window_samples"` // samples per setpoint the ripple is measured over
 }
 
 // PeriodAdvice says whether another sample period would serve the goal better.
