@@ -8,6 +8,7 @@ import (
 	"os/signal"
 	"strings"
 	"syscall"
+	"time"
 
 	"github.com/spf13/cobra"
 
@@ -21,6 +22,7 @@ func newSimCmd() *cobra.Command {
 	var (
 		scenarioFile, out, link string
 		fast, usePTY, verbose   bool
+		capture                 bool
 		speed                   float64
 	)
 	def := virtual.DefaultScenario()
@@ -44,7 +46,8 @@ data line t= n= sp= pv= u= per sample period) and obeys host lines:
 Settings changed with set are lost when the board resets, as on real firmware.
 
 Output goes to standard output in real time, to a file (--out), as fast as possible
-(--fast, with --samples or --duration), or to a pseudo-terminal (--pty): sim then prints
+(--fast, with --samples or --duration), as a caploop capture instead of plain telemetry
+(--capture: host lines of "at" appear as sent records), or to a pseudo-terminal (--pty): sim then prints
 one line, the device path, and serves until killed. The path is a symbolic link that
 follows the board across an unplug and re-plug, so caploop live and caploop record can
 keep reading it.
@@ -73,6 +76,7 @@ Values take SI prefixes and units (47k, 4k7, 1u, 100mV, 1ms). Keys:
   caploop sim --pty --link /tmp/board0 --unplug-after 5s --replug-after 2s
   caploop sim --fast --duration 10s --out bench.txt --r 22k --c 2.2u --deadband 9
   caploop sim --fast --samples 5000 --mode two-state --profile sine --sp 1,4 --dwell 2s
+  caploop sim --fast --duration 6s --capture --at "3s set deadband=9" --out tuned.cap
   caploop sim --scenario bench.scn --noise 1.5 --garbage-every 1s --reset-after 3s`,
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
@@ -103,6 +107,8 @@ Values take SI prefixes and units (47k, 4k7, 1u, 100mV, 1ms). Keys:
 			switch {
 			case usePTY && (fast || out != ""):
 				return withCode(2, errors.New("sim: --pty serves in real time; drop --fast and --out"))
+			case usePTY && capture:
+				return withCode(2, errors.New("sim: --capture writes a file or standard output, not a pseudo-terminal"))
 			case fast && sc.Samples == 0 && sc.Duration == 0:
 				return withCode(2, errors.New("sim: --fast needs --samples or --duration"))
 			case speed < 0:
@@ -142,9 +148,19 @@ Values take SI prefixes and units (47k, 4k7, 1u, 100mV, 1ms). Keys:
 				defer f.Close()
 				w = f
 			}
+			var co *virtual.CaptureOutput
+			if capture {
+				if co, err = virtual.NewCaptureOutput(w, time.Now(), "virtual:"+sc.Name); err != nil {
+					return withCode(2, fmt.Errorf("sim: %w", err))
+				}
+				w = co
+			}
 			err = b.Run(ctx, w, !fast)
 			if errors.Is(err, context.Canceled) {
 				err = nil
+			}
+			if co != nil {
+				err = errors.Join(err, co.Flush())
 			}
 			if err != nil {
 				return withCode(2, fmt.Errorf("sim: %w", err))
@@ -161,6 +177,7 @@ Values take SI prefixes and units (47k, 4k7, 1u, 100mV, 1ms). Keys:
 	fl.StringVar(&scenarioFile, "scenario", "", "scenario file (key = value lines, see above)")
 	fl.StringVarP(&out, "out", "o", "", "write to this file instead of standard output")
 	fl.BoolVar(&fast, "fast", false, "write as fast as possible instead of in real time")
+	fl.BoolVar(&capture, "capture", false, "write a caploop capture (host time, direction, line; host times from the board clock) instead of plain telemetry")
 	fl.BoolVar(&usePTY, "pty", false, "serve a pseudo-terminal and print its stable path")
 	fl.StringVar(&link, "link", "", "with --pty: the stable path (a symbolic link) to create (default: a new temporary directory)")
 	fl.Float64Var(&speed, "speed", 1, "real-time factor (2 = twice as fast)")

@@ -13,6 +13,8 @@ import (
 	"time"
 
 	"go.bug.st/serial"
+
+	"github.com/caploop/caploop/telemetry"
 )
 
 // runSim runs `caploop` in-process with args and returns standard output and the error.
@@ -204,5 +206,39 @@ func TestSimPTY(t *testing.T) {
 	}
 	if l := next(); !strings.HasPrefix(l, "t=") {
 		t.Errorf("line after the answer %q, want a data line", l)
+	}
+}
+
+// TestSimCapture: --capture writes a caploop capture that the Scanner reads back, with the
+// host line as a sent record.
+func TestSimCapture(t *testing.T) {
+	var out lockedBuf
+	if err := runSim(t, context.Background(), &out, "sim", "--fast", "--duration", "0.2s", "--capture", "--at", "0.1s set deadband=9"); err != nil {
+		t.Fatal(err)
+	}
+	s := telemetry.NewScanner(strings.NewReader(out.String()))
+	var samples int64
+	var sent []string
+	for s.Scan() {
+		switch s.Kind() {
+		case telemetry.RecSample:
+			samples++
+		case telemetry.RecEvent:
+			if e := s.Event(); e.Dir == telemetry.ToBoard {
+				sent = append(sent, e.Text)
+			}
+		}
+	}
+	if err := s.Err(); err != nil {
+		t.Fatal(err)
+	}
+	if capt, _ := s.Capture(); !capt {
+		t.Error("output not read as a capture")
+	}
+	if samples != 200 || len(sent) != 1 || sent[0] != "set deadband=9" {
+		t.Errorf("%d samples, sent %q; want 200 and [set deadband=9]", samples, sent)
+	}
+	if st := s.Stats(); st.Rejected != 0 || s.Meta().Deadband != 9 {
+		t.Errorf("%d rejected lines, deadband %g; want 0 and 9", st.Rejected, s.Meta().Deadband)
 	}
 }

@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"io"
 	"math"
 	"os"
 	"path/filepath"
@@ -289,27 +290,42 @@ func truth(c Capture, b *Board) Truth {
 	return t
 }
 
-// captureWriter turns a board's output into capture records with board-derived host times.
-type captureWriter struct {
+// CaptureOutput turns a board's output into a caploop capture (see telemetry.CaptureWriter):
+// every line the board writes becomes a '<' record, host lines of the scenario's script
+// become '>' records and unplug and re-plug become '!' records ("unplugged",
+// "reconnected"). Host times are the board time of each sample plus HostLatency, so a
+// capture made as fast as possible has the times it would have had in real time. Pass it
+// to Board.Run and call Flush after Run returns.
+type CaptureOutput struct {
 	cw   *telemetry.CaptureWriter
 	now  float64
 	line []byte // bytes of a line not yet ended
 	err  error
 }
 
-func (w *captureWriter) at(now float64) { w.now = now }
+// NewCaptureOutput writes the capture header (start time and source=...) to w.
+func NewCaptureOutput(w io.Writer, start time.Time, source string) (*CaptureOutput, error) {
+	cw, err := telemetry.NewCaptureWriter(w, start, "source="+source)
+	if err != nil {
+		return nil, err
+	}
+	return &CaptureOutput{cw: cw}, nil
+}
 
-func (w *captureWriter) stamp() time.Duration {
+func (w *CaptureOutput) at(now float64) { w.now = now }
+
+func (w *CaptureOutput) stamp() time.Duration {
 	return time.Duration(math.Round((w.now+HostLatency)*1e6)) * time.Microsecond
 }
 
-func (w *captureWriter) host(dir telemetry.Direction, text string) {
+func (w *CaptureOutput) host(dir telemetry.Direction, text string) {
 	if w.err == nil {
 		w.err = w.cw.Write(w.stamp(), dir, []byte(text))
 	}
 }
 
-func (w *captureWriter) Write(p []byte) (int, error) {
+// Write records every complete line of p; a line without its end waits for the rest.
+func (w *CaptureOutput) Write(p []byte) (int, error) {
 	n := len(p)
 	for len(p) > 0 && w.err == nil {
 		i := bytes.IndexByte(p, '\n')
@@ -325,6 +341,18 @@ func (w *captureWriter) Write(p []byte) (int, error) {
 	return n, w.err
 }
 
+// Flush records a last line without its end, if any, and flushes the capture.
+func (w *CaptureOutput) Flush() error {
+	if w.err == nil && len(w.line) > 0 {
+		w.err = w.cw.Write(w.stamp(), telemetry.FromBoard, w.line)
+		w.line = w.line[:0]
+	}
+	if w.err != nil {
+		return w.err
+	}
+	return w.cw.Flush()
+}
+
 // WriteCapture runs the scenario of c as fast as possible and writes its file and its
 // truth sidecar (the file name with .truth.json in place of the extension) into dir.
 func WriteCapture(dir string, c Capture) error {
@@ -334,18 +362,14 @@ func WriteCapture(dir string, c Capture) error {
 	}
 	var out bytes.Buffer
 	if strings.HasSuffix(c.File, ".cap") {
-		cw, err := telemetry.NewCaptureWriter(&out, CaptureStart, "source=virtual:"+c.Scenario.Name)
+		w, err := NewCaptureOutput(&out, CaptureStart, "virtual:"+c.Scenario.Name)
 		if err != nil {
 			return err
 		}
-		w := &captureWriter{cw: cw}
 		if err := b.Run(context.Background(), w, false); err != nil {
 			return fmt.Errorf("virtual: %s: %w", c.File, err)
 		}
-		if w.err != nil {
-			return w.err
-		}
-		if err := cw.Flush(); err != nil {
+		if err := w.Flush(); err != nil {
 			return err
 		}
 	} else if err := b.Run(context.Background(), &out, false); err != nil {
