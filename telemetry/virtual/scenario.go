@@ -497,6 +497,7 @@ type ScenarioError struct {
 	Err  error
 }
 
+// Error returns "file:line: reason".
 func (e *ScenarioError) Error() string { return fmt.Sprintf("%s:%d: %v", e.Name, e.Line, e.Err) }
 
 // Unwrap returns the reason.
