@@ -157,7 +157,7 @@ func BenchmarkLivePTY(b *testing.B) {
 		if err := <-werr; err != nil {
 			b.Fatalf("write to the pseudo-terminal: %v", err)
 		}
-		if d := m.status.st.Dropped; d != 0 {
+		if d := m.status.st.Lost; d != 0 {
 			b.Fatalf("%d lines dropped before the analysis", d)
 		}
 		p.Close()

@@ -322,7 +322,11 @@ func (m *Model) event(e Event) {
 	case EventNote:
 		m.marks = append(m.marks, Mark{T: e.T, Label: cut(e.Text, 16)})
 	case EventSent:
-		m.message = "sent: " + e.Text
+		if e.Text == "info" {
+			m.message = "asked the board for its settings (info)"
+		} else {
+			m.message = "sent: " + e.Text
+		}
 	case EventDeadband:
 		m.marks = append(m.marks, Mark{T: e.T, Label: "db " + strings.TrimPrefix(e.Text, "deadband ")})
 		from := -1.0

@@ -76,7 +76,7 @@ func NewLive(o LiveOptions) *Pipeline {
 				st.RecordBytes = fi.Size()
 			}
 		}
-		st.Dropped = link.Stats().Dropped
+		st.Lost = link.Stats().Dropped
 	}
 	go p.runLive(link, &parser, c)
 	return p

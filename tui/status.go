@@ -16,6 +16,7 @@ type SourceStats struct {
 	Rejected    int64   // rejected lines
 	Gaps        int64   // missing samples seen from t or n
 	Dropped     int64   // points not delivered to the display (the analysis has them all)
+	Lost        int64   // lines the link could not hand over in time (recorded, not analysed)
 	Recording   string  // capture path, "" when not recording
 	RecordBytes int64   // capture size so far
 	Speed       float64 // replay speed, 0 = as fast as possible
@@ -74,6 +75,9 @@ func (m StatusModel) View() string {
 	parts = append(parts, fmtRate(st.Rate), fmt.Sprintf("%s %d", rej, st.Rejected), fmt.Sprintf("%s %d", gaps, st.Gaps))
 	if st.Dropped > 0 {
 		parts = append(parts, fmt.Sprintf("undrawn %d", st.Dropped))
+	}
+	if st.Lost > 0 {
+		parts = append(parts, fmt.Sprintf("LOST %d", st.Lost))
 	}
 	if st.Recording != "" {
 		parts = append(parts, fmt.Sprintf("rec %s %s", st.Recording, fmtBytes(st.RecordBytes)))

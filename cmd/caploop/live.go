@@ -85,6 +85,12 @@ func pickPort() (string, error) {
 	if err != nil {
 		return "", fmt.Errorf("live: list serial ports: %w", err)
 	}
+	return pickFrom(ports)
+}
+
+// pickFrom picks the only USB serial device of ports, or lists the candidates (the USB
+// ones with their ids, else every port) in the error.
+func pickFrom(ports []telemetry.PortInfo) (string, error) {
 	var usb []telemetry.PortInfo
 	for _, p := range ports {
 		if p.USB {

@@ -150,3 +150,60 @@ func TestLiveScreenTmux(t *testing.T) {
 		t.Fatalf("the screen did not quit on q; screen:\n%s", scr.capture())
 	}
 }
+
+// TestReplayScreenQuits runs `caploop replay` in tmux and ends it with Ctrl-C and with
+// SIGTERM: each time the program exits with status 0 and the terminal is back on its
+// normal screen, with no trace of the bench screen.
+func TestReplayScreenQuits(t *testing.T) {
+	if testing.Short() {
+		t.Skip("end-to-end screen test; skipped with -short")
+	}
+	if _, err := exec.LookPath("tmux"); err != nil {
+		if os.Getenv("CI") == "true" {
+			t.Fatalf("tmux is required in CI: %v", err)
+		}
+		t.Skip("tmux not installed; skipping the end-to-end screen test")
+	}
+	dir := t.TempDir()
+	bin := filepath.Join(dir, "caploop")
+	if out, err := exec.Command("go", "build", "-o", bin, ".").CombinedOutput(); err != nil {
+		t.Fatalf("go build: %v\n%s", err, out)
+	}
+	capture, err := filepath.Abs("../../testdata/tuned.cap")
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, how := range []string{"ctrl-c", "sigterm", "q"} {
+		t.Run(how, func(t *testing.T) {
+			scr := &tmuxScreen{t: t, socket: fmt.Sprintf("caploop-quit-%d-%s", os.Getpid(), how), name: "replay"}
+			shell := fmt.Sprintf("NO_COLOR=1 %s replay %s --speed 2; echo exit=$?; sleep 30", bin, capture)
+			if out, err := scr.tmux("new-session", "-d", "-s", scr.name, "-x", "80", "-y", "24", "sh", "-c", shell); err != nil {
+				t.Fatalf("tmux new-session: %v %s", err, out)
+			}
+			t.Cleanup(func() { scr.tmux("kill-server") })
+			scr.waitFor("replay screen", regexp.MustCompile(`REPLAY 2x · tuned\.cap`), 10*time.Second)
+			switch how {
+			case "ctrl-c":
+				scr.keys("C-c")
+			case "q":
+				scr.keys("q")
+			case "sigterm":
+				shPID, err := scr.tmux("display-message", "-p", "-t", scr.name, "#{pane_pid}")
+				if err != nil {
+					t.Fatalf("pane pid: %v", err)
+				}
+				kids, err := os.ReadFile(fmt.Sprintf("/proc/%s/task/%s/children", strings.TrimSpace(shPID), strings.TrimSpace(shPID)))
+				if err != nil || len(strings.Fields(string(kids))) != 1 {
+					t.Fatalf("caploop process under the pane's shell: %q %v", kids, err)
+				}
+				if out, err := exec.Command("kill", "-TERM", strings.Fields(string(kids))[0]).CombinedOutput(); err != nil {
+					t.Fatalf("kill: %v %s", err, out)
+				}
+			}
+			scr.waitFor("exit status", regexp.MustCompile(`exit=0`), 5*time.Second)
+			if s := scr.capture(); strings.Contains(s, "REPLAY") || strings.Contains(s, "[1 trace]") {
+				t.Errorf("the bench screen is still on the terminal after exit:\n%s", s)
+			}
+		})
+	}
+}

@@ -52,10 +52,11 @@ ahead, ? shows every key. Marks and sent commands of a capture appear on the plo
 
 // parseSpeed reads --speed: a positive factor ("2", "10x") or "max" (0).
 func parseSpeed(s string) (float64, error) {
-	t := strings.TrimSuffix(strings.ToLower(strings.TrimSpace(s)), "x")
+	t := strings.ToLower(strings.TrimSpace(s))
 	if t == "max" {
 		return 0, nil
 	}
+	t = strings.TrimSuffix(t, "x")
 	v, err := strconv.ParseFloat(t, 64)
 	if err != nil || v <= 0 || v > 1e6 {
 		return 0, fmt.Errorf("replay: --speed %q: want a positive factor such as 1, 2, 10, or max", s)
