@@ -224,6 +224,7 @@ tr.warning td { background: #fff6d6; }
 tr.error td { background: #fde2de; }
 tr.better td { background: #e3f4e3; }
 tr.group th { background: #dde7f5; }
+tr.note td { color: #555; font-style: italic; }
 ul.missing { color: #666; font-size: 0.9em; }
 </style>
 </head>
@@ -265,7 +266,7 @@ ul.missing { color: #666; font-size: 0.9em; }
 <tbody>
 {{- $n := span .}}
 {{- range .Rows}}
-{{if eq .Class "group"}}<tr class="group"><th colspan="{{$n}}">{{index .Cells 0}}</th></tr>{{else}}<tr{{if .Class}} class="{{.Class}}"{{end}}>{{range .Cells}}<td>{{.}}</td>{{end}}</tr>{{end}}
+{{if eq .Class "group"}}<tr class="group"><th colspan="{{$n}}">{{index .Cells 0}}</th></tr>{{else if eq .Class "note"}}<tr class="note"><td colspan="{{$n}}">{{index .Cells 0}}</td></tr>{{else}}<tr{{if .Class}} class="{{.Class}}"{{end}}>{{range .Cells}}<td>{{.}}</td>{{end}}</tr>{{end}}
 {{- end}}
 </tbody>
 </table>

@@ -361,3 +361,36 @@ func TestMatchStep(t *testing.T) {
 		})
 	}
 }
+
+func TestTablesBounded(t *testing.T) {
+	s := fixtureSummary()
+	s.Segments = nil
+	s.Steps = nil
+	for i := 0; i < 500; i++ {
+		s.Segments = append(s.Segments, analysis.Segment{SetpointCounts: float64(100 + i)})
+		s.Steps = append(s.Steps, analysis.StepFigures{AtS: float64(i)})
+	}
+	s.SegmentsOmitted = 7
+	d := Doc{Name: "ramp", Summary: s}
+	tests := []struct {
+		name     string
+		table    Table
+		rows     int
+		lastNote string
+	}{
+		{"segments", segmentsTable(s, ""), maxRows + 2, "7 more segments seen but not kept by the analysis (the list is bounded)"},
+		{"steps", stepsTable(s, ""), maxRows + 1, "460 more steps not shown here (caploop summary --json lists them)"},
+		{"compare", CompareTable([]Doc{d, d}), 0, "488 more setpoints not compared here"},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			if tc.rows > 0 && len(tc.table.Rows) != tc.rows {
+				t.Errorf("rows: got %d, want %d", len(tc.table.Rows), tc.rows)
+			}
+			last := tc.table.Rows[len(tc.table.Rows)-1]
+			if last.Class != "note" || last.Cells[0] != tc.lastNote {
+				t.Errorf("last row: got %q %q, want note %q", last.Class, last.Cells, tc.lastNote)
+			}
+		})
+	}
+}

@@ -28,6 +28,16 @@ type Row struct {
 
 func (t *Table) add(cells ...string) { t.Rows = append(t.Rows, Row{Cells: cells}) }
 
+// note adds a row that spans the table, for a remark such as rows left out.
+func (t *Table) note(text string) { t.Rows = append(t.Rows, Row{Cells: []string{text}, Class: "note"}) }
+
+// maxRows bounds the segment and step tables; a ramp can make thousands of segments,
+// which the JSON output lists in full.
+const maxRows = 40
+
+// maxCompareSetpoints bounds the setpoint groups of the comparison table.
+const maxCompareSetpoints = 12
+
 // DocTables returns the tables of one capture, in page order: capture, board, plant,
 // segments, steps, diagnostics, rejected lines and, when the doc has advice, the advice
 // tables. prefix makes the table ids unique when the page holds several captures.
@@ -149,6 +159,10 @@ func segmentsTable(s *analysis.Summary, prefix string) Table {
 		"duty charge / hold / discharge", "limit-cycle period", "switching", "deadband", "band entries / exits", "band jumps", "reachable",
 	}}
 	for i, g := range s.Segments {
+		if i == maxRows {
+			t.note(fmt.Sprintf("%d more segments not shown here (caploop summary --json lists them)", len(s.Segments)-i))
+			break
+		}
 		span := si.Format(g.StartS, "s") + " – " + si.Format(g.EndS, "s")
 		duty := fmtPct(g.DutyCharge) + " / " + fmtPct(g.DutyHold) + " / " + fmtPct(g.DutyDischarge)
 		r := Row{Cells: []string{
@@ -166,7 +180,10 @@ func segmentsTable(s *analysis.Summary, prefix string) Table {
 		t.Rows = append(t.Rows, r)
 	}
 	if len(s.Segments) == 0 {
-		t.add(append([]string{"no segment found"}, make([]string, len(t.Head)-1)...)...)
+		t.note("no segment found")
+	}
+	if s.SegmentsOmitted > 0 {
+		t.note(fmt.Sprintf("%d more segments seen but not kept by the analysis (the list is bounded)", s.SegmentsOmitted))
 	}
 	return t
 }
@@ -181,6 +198,10 @@ func levelText(v *float64, counts float64) string {
 func stepsTable(s *analysis.Summary, prefix string) Table {
 	t := Table{ID: prefix + "steps", Caption: "Steps", Head: []string{"#", "at", "from", "to", "rise (10–90 %)", "settle", "overshoot", "slew"}}
 	for i, st := range s.Steps {
+		if i == maxRows {
+			t.note(fmt.Sprintf("%d more steps not shown here (caploop summary --json lists them)", len(s.Steps)-i))
+			break
+		}
 		t.add(strconv.Itoa(i+1), si.Format(st.AtS, "s"), levelText(st.FromV, st.FromCounts), levelText(st.ToV, st.ToCounts),
 			fmtSI(st.RiseS, "s"), fmtSI(st.SettleS, "s"), fmtSI(st.OvershootV, "V"), fmtSI(st.SlewVPerS, "V/s"))
 	}
@@ -420,6 +441,11 @@ func CompareTable(docs []Doc) Table {
 			}
 		}
 	}
+	more := ""
+	if len(sps) > maxCompareSetpoints {
+		more = fmt.Sprintf("%d more setpoints not compared here", len(sps)-maxCompareSetpoints)
+		sps = sps[:maxCompareSetpoints]
+	}
 	for _, sp := range sps {
 		segs := make([]*analysis.Segment, len(docs))
 		var label string
@@ -457,6 +483,9 @@ func CompareTable(docs []Doc) Table {
 			}
 			row(f.label, unit, vals)
 		}
+	}
+	if more != "" {
+		t.note(more)
 	}
 	return t
 }
