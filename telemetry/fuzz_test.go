@@ -100,3 +100,34 @@ func fuzzScan(t *testing.T, r interface{ Read([]byte) (int, error) }, bufSize in
 	}
 	return got
 }
+
+// FuzzParseLine checks that the fast path for the canonical data line layout agrees with
+// the general parser on every line: same kind, same sample, same error.
+//
+//	go test -run x -fuzz FuzzParseLine -fuzztime 30s ./telemetry/
+func FuzzParseLine(f *testing.F) {
+	for _, s := range []string{
+		"t=123456 sp=512 pv=498 u=1", "t=1 n=2 sp=3 pv=4", "sp=1 pv=2", "sp=1 pv=2 u=-1", "sp=1 pv=2 u=+",
+		"t=4294967295 sp=0 pv=0 u=-", "t=12345678901234567890 sp=1 pv=1", "sp=1234567890123456 pv=1",
+		"sp=1 pv=2 u=2", "sp=1 pv=2 u=", "sp=1 pv=2 ", "sp=1  pv=2", "t= sp=1 pv=2", "sp=1 pv=-2",
+		"sp=1.5 pv=2", "n=1 t=2 sp=3 pv=4", "sp=1 pv=2 u=1 x=3", "sp=1 pv=2u=1", "t=1sp=2 pv=3", "sp=01 pv=002",
+	} {
+		f.Add([]byte(s))
+	}
+	f.Fuzz(func(t *testing.T, line []byte) {
+		if bytes.IndexByte(line, '\n') >= 0 {
+			return
+		}
+		var fast, slow Parser
+		slow.noFast = true
+		for range 2 { // twice, so the clock unwrapping state is compared too
+			a, b := fast.Parse(line, 7, true), slow.Parse(line, 7, true)
+			if a.Kind != b.Kind || a.Sample != b.Sample || len(a.Extras) != len(b.Extras) {
+				t.Fatalf("line %q: fast path gives %v %+v %v, general parser %v %+v %v", line, a.Kind, a.Sample, a.Extras, b.Kind, b.Sample, b.Extras)
+			}
+			if (a.Err == nil) != (b.Err == nil) || (a.Err != nil && *a.Err != *b.Err) {
+				t.Fatalf("line %q: fast path error %v, general parser %v", line, a.Err, b.Err)
+			}
+		}
+	})
+}

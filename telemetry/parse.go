@@ -2,7 +2,9 @@ package telemetry
 
 import (
 	"bytes"
+	"encoding/binary"
 	"math"
+	"math/bits"
 	"strconv"
 	"strings"
 	"time"
@@ -140,6 +142,8 @@ type Parser struct {
 	tPrev  uint32
 	tWraps int64
 	tSeen  bool
+
+	noFast bool // tests: always take the general data line path
 
 	errKind   error
 	errField  string
@@ -306,6 +310,9 @@ func isKeyByte(c byte) bool { return isKeyStart(c) || isDigit(c) || c == '.' }
 
 // parseBoard reads a line the board sent.
 func (p *Parser) parseBoard(line []byte, host int64, hasHost bool) RecordKind {
+	if len(line) > 0 && (line[0] == 't' || line[0] == 's') && !p.noFast && p.fastLine(line) {
+		return p.accept(host, hasHost)
+	}
 	i := 0
 	for i < len(line) && isSep(line[i]) {
 		i++
@@ -330,7 +337,10 @@ var fieldNames = [...]string{colExtra: "", colT: "t", colN: "n", colSP: "sp", co
 
 // parseKV reads a key=value data line from line[i:]. It is the hot path.
 func (p *Parser) parseKV(line []byte, i int, host int64, hasHost bool) RecordKind {
-	var s Sample
+	// Fill p.sample in place: Sample is valid only for RecSample, so a rejected line
+	// may leave it half written.
+	s := &p.sample
+	*s = Sample{}
 	var seen uint8
 	p.extras = p.extras[:0]
 	n := len(line)
@@ -375,11 +385,11 @@ func (p *Parser) parseKV(line []byte, i int, host int64, hasHost bool) RecordKin
 		var ok bool
 		switch key {
 		case colT:
-			var v uint64
-			v, i, ok = parseUint(line, i)
-			if !ok {
+			v, j := digits(line, i)
+			if j == i || j-i > 18 || (j < n && line[j] != ' ' && !isSep(line[j])) {
 				return p.rejectValue(ErrBadNumber, "t", line)
 			}
+			i = j
 			s.T = p.unwrap(v)
 		case colN:
 			var v uint64
@@ -389,13 +399,16 @@ func (p *Parser) parseKV(line []byte, i int, host int64, hasHost bool) RecordKin
 			}
 			s.N = int64(v)
 		case colSP:
-			s.SP, i, ok = parseNum(line, i)
-			if !ok {
+			// Whole counts are the common case: read them here, the rest in parseNum.
+			if v, j := digits(line, i); j > i && j-i <= 15 && (j == n || line[j] == ' ') {
+				s.SP, i = float64(v), j
+			} else if s.SP, i, ok = parseNum(line, i); !ok {
 				return p.rejectValue(ErrBadNumber, "sp", line)
 			}
 		case colPV:
-			s.PV, i, ok = parseNum(line, i)
-			if !ok {
+			if v, j := digits(line, i); j > i && j-i <= 15 && (j == n || line[j] == ' ') {
+				s.PV, i = float64(v), j
+			} else if s.PV, i, ok = parseNum(line, i); !ok {
 				return p.rejectValue(ErrBadNumber, "pv", line)
 			}
 		case colU:
@@ -450,10 +463,12 @@ func (p *Parser) parseKV(line []byte, i int, host int64, hasHost bool) RecordKin
 		return p.reject(ErrMissingField, field, line)
 	}
 	s.Flags = SampleFlags(seen>>colT&1)*HasT | SampleFlags(seen>>colN&1)*HasN | SampleFlags(seen>>colU&1)*HasU
-	return p.accept(s, host, hasHost)
+	return p.accept(host, hasHost)
 }
 
-func (p *Parser) accept(s Sample, host int64, hasHost bool) RecordKind {
+// accept completes p.sample and counts it.
+func (p *Parser) accept(host int64, hasHost bool) RecordKind {
+	s := &p.sample
 	if hasHost {
 		s.Host = host
 		s.Flags |= HasHost
@@ -461,9 +476,74 @@ func (p *Parser) accept(s Sample, host int64, hasHost bool) RecordKind {
 	s.Line = p.line
 	s.Index = p.index
 	p.index++
-	p.sample = s
 	p.stats.Samples++
 	return RecSample
+}
+
+// fastLine reads the canonical data line layout, the one AppendData writes and most
+// firmware prints: "t=<digits> n=<digits> sp=<digits> pv=<digits> u=<drive>" with t, n
+// and u optional, single spaces and whole counts. It fills p.sample and reports true, or
+// reports false without changing any state, and parseKV then reads the line (and finds
+// the error, if any). For every line it accepts, parseKV gives the same sample.
+func (p *Parser) fastLine(line []byte) bool {
+	n := len(line)
+	var flags SampleFlags
+	var t, seq uint64
+	i := 0
+	if n > 2 && line[0] == 't' && line[1] == '=' {
+		v, j := digits8(line, 2)
+		if j == 2 || j-2 > 18 || j >= n || line[j] != ' ' {
+			return false
+		}
+		t, flags, i = v, HasT, j+1
+	}
+	if i+2 < n && line[i] == 'n' && line[i+1] == '=' {
+		v, j := digits8(line, i+2)
+		if j == i+2 || j-i-2 > 18 || j >= n || line[j] != ' ' {
+			return false
+		}
+		seq, i = v, j+1
+		flags |= HasN
+	}
+	if i+3 >= n || line[i] != 's' || line[i+1] != 'p' || line[i+2] != '=' {
+		return false
+	}
+	sp, j := digits(line, i+3)
+	if j == i+3 || j-i-3 > 15 || j >= n || line[j] != ' ' {
+		return false
+	}
+	i = j + 1
+	if i+3 >= n || line[i] != 'p' || line[i+1] != 'v' || line[i+2] != '=' {
+		return false
+	}
+	pv, j := digits(line, i+3)
+	if j == i+3 || j-i-3 > 15 {
+		return false
+	}
+	u := Hold
+	if j < n {
+		if j+3 >= n || line[j] != ' ' || line[j+1] != 'u' || line[j+2] != '=' {
+			return false
+		}
+		switch string(line[j+3:]) {
+		case "1", "+", "+1":
+			u = Charge
+		case "0":
+			u = Hold
+		case "-1", "-":
+			u = Discharge
+		default:
+			return false
+		}
+		flags |= HasU
+	}
+	s := &p.sample
+	*s = Sample{SP: float64(sp), PV: float64(pv), U: u, N: int64(seq), Flags: flags}
+	if flags&HasT != 0 {
+		s.T = p.unwrap(t)
+	}
+	p.extras = p.extras[:0]
+	return true
 }
 
 // rejectValue rejects a line whose value for field could not be read, and counts it as
@@ -578,6 +658,63 @@ func parseNumSlow(b []byte, start int) (float64, int, bool) {
 		return 0, end, false
 	}
 	return v, end, true
+}
+
+// digits reads decimal digits at b[i:] and returns their value (wrapping past 19
+// digits; callers check the count) and the index after them. It is small enough to be
+// inlined; digits8 is the better choice for long numbers.
+func digits(b []byte, i int) (uint64, int) {
+	var v uint64
+	for ; i < len(b); i++ {
+		c := b[i] - '0'
+		if c > 9 {
+			break
+		}
+		v = v*10 + uint64(c)
+	}
+	return v, i
+}
+
+// digits8 is digits that tests and converts eight bytes at a time (SWAR) when the
+// slice's capacity allows the load; bytes past len(b) are loaded but never counted.
+func digits8(b []byte, i int) (uint64, int) {
+	var v uint64
+	if e := b[:cap(b)]; i >= 0 && i+8 <= len(e) {
+		x := binary.LittleEndian.Uint64(e[i:])
+		// A byte is a digit when its high nibble is 3 and adding 6 keeps it so. Carries
+		// only move up, to later bytes, so the first non-digit is found exactly.
+		const hi, zeros, six = 0xF0F0F0F0F0F0F0F0, 0x3030303030303030, 0x0606060606060606
+		nd := (x&hi ^ zeros) | ((x+six)&hi ^ zeros)
+		k := 8
+		if nd != 0 {
+			k = bits.TrailingZeros64(nd) >> 3
+		}
+		k = min(k, len(b)-i)
+		if k <= 0 {
+			return 0, i
+		}
+		v = swar8((x - zeros) << (64 - 8*uint(k)))
+		i += k
+		if k < 8 {
+			return v, i
+		}
+	}
+	for ; i < len(b); i++ {
+		c := b[i] - '0'
+		if c > 9 {
+			break
+		}
+		v = v*10 + uint64(c)
+	}
+	return v, i
+}
+
+// swar8 converts eight digit values 0..9, the first in the lowest byte, to their
+// number: pairs, then quadruples, then the whole (each step multiplies and shifts).
+func swar8(d uint64) uint64 {
+	d = (d * (10<<8 + 1)) >> 8
+	d = ((d & 0x00FF00FF00FF00FF) * (100<<16 + 1)) >> 16
+	return ((d & 0x0000FFFF0000FFFF) * (10000<<32 + 1)) >> 32
 }
 
 // parseUint reads an unsigned decimal integer below 2^63 at b[i:] ending at a separator
@@ -698,7 +835,8 @@ func (p *Parser) parseRow(line []byte, i int, host int64, hasHost bool) RecordKi
 	if p.cols == nil {
 		return p.reject(ErrNoHeader, "", line)
 	}
-	var s Sample
+	s := &p.sample
+	*s = Sample{}
 	p.extras = p.extras[:0]
 	n := len(line)
 	for _, c := range p.cols {
@@ -752,7 +890,7 @@ func (p *Parser) parseRow(line []byte, i int, host int64, hasHost bool) RecordKi
 	if i < n {
 		return p.reject(ErrFieldCount, "", line)
 	}
-	return p.accept(s, host, hasHost)
+	return p.accept(host, hasHost)
 }
 
 // parseHash reads a '#' line from line[i:]: a meta line when its first word is
