@@ -124,8 +124,21 @@ func requestFromSummary(s *analysis.Summary, g Goals) (Request, *present, error)
 	var cur *present
 	if b.ROhm != nil && b.CF != nil && *b.ROhm > 0 && *b.CF > 0 {
 		cur = &present{r: *b.ROhm, c: *b.CF, db: -1}
-		if pl.EffectiveCF != nil && *pl.EffectiveCF > 0 {
-			req.CRatio = *pl.EffectiveCF / *b.CF
+		// The real C from the identified charge tau: tau = C * (R || load). The summary's
+		// own effective C comes from tau and R alone, which blames the load on the part.
+		var ceff float64
+		switch {
+		case pl.TauChargeS != nil && *pl.TauChargeS > 0:
+			rp := *b.ROhm
+			if req.LoadOhm > 0 {
+				rp = rp * req.LoadOhm / (rp + req.LoadOhm)
+			}
+			ceff = *pl.TauChargeS / rp
+		case pl.EffectiveCF != nil && *pl.EffectiveCF > 0:
+			ceff = *pl.EffectiveCF
+		}
+		if ceff > 0 {
+			req.CRatio = ceff / *b.CF
 			if req.CRatio < minCRatio || req.CRatio > maxCRatio {
 				req.ignoredCRatio, req.CRatio = req.CRatio, 0
 			}
@@ -441,9 +454,9 @@ func (p *plant) notes(a *Advice, sr *searchResult) []string {
 	if a.Goals.NoiseMeasured {
 		src = "measured"
 	}
-	n = append(n, fmt.Sprintf("figures are from the loop model (ADC noise %.2f counts rms, %s), not from formulas: %d pairs tried, %d pruned by closed forms, %d run in closed loop, best checked again with two more seeds",
-		p.g.noise, src, sr.tried, sr.tried-sr.simmed, sr.simmed))
-	n = append(n, fmt.Sprintf("settling is timed on a step from %d to %d counts and back, to within %s of the setpoint; ripple is the largest p-p over the steady parts at counts %v",
+	n = append(n, fmt.Sprintf("figures are from the loop model (ADC noise %.2f counts rms, %s), not from formulas: %d pairs tried, %d pruned by closed forms, %d run in closed loop, the best run again over %d samples per setpoint with %d other seeds (figures: their mean; verdict: the worst seed)",
+		p.g.noise, src, sr.tried, sr.tried-sr.simmed, sr.simmed, p.verifyWin, p.nSeeds))
+	n = append(n, fmt.Sprintf("settling is timed on a step from %d to %d counts and back, to within %s of the setpoint; ripple p-p is the spread of the output between its 0.5 %% and 99.5 %% points over the steady part at each setpoint (counts %v), the largest of them",
 		p.lo, p.hi, fmtV(a.Goals.SettleTolV), p.sps))
 	if p.kind == loop.TwoState && a.DeadbandCounts != nil {
 		n = append(n, "the deadband applies if you switch to three-state (hold)")
