@@ -65,6 +65,12 @@ func (m ChartModel) View() string {
 		return RenderSpectrum(tr.SpecFreq, tr.SpecAmp, m.width, m.height, m.color)
 	}
 	if tr == nil || len(tr.StepTraces) == 0 {
+		if m.sum != nil && len(m.sum.Steps) > 0 {
+			f := m.sum.Steps[len(m.sum.Steps)-1]
+			return fitBlock(wrapLines([]string{fmt.Sprintf("last step at %s: %s → %s  rise %s  settle %s  overshoot %s",
+				formatSeconds(f.AtS), fmtSI(f.FromV, "V"), fmtSI(f.ToV, "V"), fmtSI(f.RiseS, "s"), fmtSI(f.SettleS, "s"), fmtSI(f.OvershootV, "V")),
+				"(the analysis kept no waveform of this step to draw)"}, m.width), m.width, m.height)
+		}
 		return fitBlock("last step: no setpoint step seen yet", m.width, m.height)
 	}
 	st := tr.StepTraces[len(tr.StepTraces)-1]
