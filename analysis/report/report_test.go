@@ -394,3 +394,39 @@ func TestTablesBounded(t *testing.T) {
 		})
 	}
 }
+
+func TestCompareUnits(t *testing.T) {
+	seg := func(sp float64, volts bool) analysis.Segment {
+		g := analysis.Segment{SetpointCounts: sp, MeanErrorCounts: ptr(-1.5)}
+		if volts {
+			g.MeanErrorV = ptr(-0.0073)
+		}
+		return g
+	}
+	doc := func(name string, segs ...analysis.Segment) Doc {
+		return Doc{Name: name, Summary: &analysis.Summary{Segments: segs}}
+	}
+	tests := []struct {
+		name string
+		docs []Doc
+		want string // the mean error cell of the first capture
+	}{
+		{"volts in both", []Doc{doc("a", seg(100, true)), doc("b", seg(100, true))}, "-7.3 mV"},
+		{"setpoint only in the first: still volts", []Doc{doc("a", seg(100, true)), doc("b", seg(200, true))}, "-7.3 mV"},
+		{"volts missing in one: counts", []Doc{doc("a", seg(100, true)), doc("b", seg(100, false))}, "-1.5 counts"},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			tb := CompareTable(tc.docs)
+			for _, r := range tb.Rows {
+				if r.Cells[0] == "mean error" {
+					if r.Cells[1] != tc.want {
+						t.Errorf("mean error: got %q, want %q", r.Cells[1], tc.want)
+					}
+					return
+				}
+			}
+			t.Errorf("no mean error row")
+		})
+	}
+}

@@ -340,15 +340,14 @@ var segmentFigures = []segFigure{
 	{"band jumps", "", func(g *analysis.Segment) *float64 { return i64(g.BandJumps) }, nil},
 }
 
-// allOrNone reports whether the values are all present or all missing.
-func allOrNone(vals []*float64) bool {
-	n := 0
-	for _, v := range vals {
-		if v != nil {
-			n++
+// allPresent reports whether every capture that has the segment has the value.
+func allPresent(segs []*analysis.Segment, vals []*float64) bool {
+	for i, g := range segs {
+		if g != nil && vals[i] == nil {
+			return false
 		}
 	}
-	return n == 0 || n == len(vals)
+	return true
 }
 
 func fmtUnit(p *float64, unit string) string {
@@ -473,7 +472,7 @@ func CompareTable(docs []Doc) Table {
 					vals[i] = f.get(g)
 				}
 			}
-			if f.counts != nil && !allOrNone(vals) {
+			if f.counts != nil && !allPresent(segs, vals) {
 				unit = "counts"
 				for i, g := range segs {
 					if g != nil {
