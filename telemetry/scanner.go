@@ -126,7 +126,17 @@ func (s *Scanner) limit() int {
 // handle parses one line and reports whether Scan should return: for a record, or for a
 // rejected line in Strict mode (then it also ends the scan).
 func (s *Scanner) handle(line []byte, cut bool) bool {
-	k := s.p.parse(line, 0, false, cut)
+	p := &s.p
+	// The common case first: a data line in the canonical layout, past the first line
+	// (which may be a capture header), outside a capture.
+	if n := len(line); !cut && n > 0 && n <= MaxLineLen && line[n-1] != '\r' && (line[0] == 't' || line[0] == 's') &&
+		p.line > 0 && !p.capture && !p.noFast && p.fastLine(line) {
+		p.line++
+		p.stats.Lines++
+		s.kind = p.accept(0, false)
+		return true
+	}
+	k := p.parse(line, 0, false, cut)
 	switch k {
 	case RecNone:
 		return false
