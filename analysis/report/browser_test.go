@@ -126,6 +126,10 @@ func TestBrowserRendersReport(t *testing.T) {
 	a.Summary.FirstRejects = fixtureSummary().FirstRejects
 	a.Summary.RejectedLines = 3
 	docs := []Doc{a, synth(benchAfter)}
+	// A capture from the module's testdata through the real analysis, when present.
+	if m, _ := filepath.Glob(filepath.Join("..", "..", "testdata", "tuned.cap")); len(m) == 1 {
+		docs = append(docs, summarizeCapture(t, m[0]))
+	}
 	var page bytes.Buffer
 	if err := WriteHTML(&page, docs, Options{Title: "bench reference: before and after", Note: "browser test"}); err != nil {
 		t.Fatal(err)

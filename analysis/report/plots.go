@@ -603,6 +603,17 @@ func rippleChart(docs []Doc) (chart, bool) {
 	if len(all) < 2 {
 		return chart{}, false
 	}
+	// Cut every series to the shortest window so that they cover the same time.
+	for _, sr := range all {
+		span = math.Min(span, sr.pts[len(sr.pts)-1].X)
+	}
+	for i := range all {
+		n := len(all[i].pts)
+		for n > 2 && all[i].pts[n-1].X > span {
+			n--
+		}
+		all[i].pts = all[i].pts[:n]
+	}
 	scale, tunit := timeScale(span)
 	title := "Steady ripple of each capture, mean removed"
 	p := newPlot(title, "time ("+tunit+") from a charge onset", "ripple ("+unit+")")
