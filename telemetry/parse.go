@@ -119,8 +119,34 @@ type column struct {
 // the unwrapping of the board clock t across 2^32 and the line and sample counters.
 // The zero value is ready to use. Parse does not allocate for data lines.
 //
+// The protocol, one record per line, "\n" or "\r\n" terminated, at most MaxLineLen bytes:
+//
+//	# vref=5 adc_bits=10 period_us=1000 mode=three-state deadband=21 supply=5 r=47k c=1u load=1M
+//	t=123456 sp=512 pv=498 u=1
+//
+// A meta line is '#' and then key=value words (separated by spaces, tabs or commas).
+// Known keys: vref (V), adc_bits, period_us (µs), mode (two-state or three-state),
+// deadband (counts, half-width), supply (V), r (Ω), c (F), load (Ω); values take SI
+// prefixes and units (47k, 4k7, 1u, 4.7µ, 3300mV). Unknown keys are ignored; a bad value
+// rejects the whole line. A meta line may come again at any time: its fields apply from
+// there on. A '#' line whose first word is not key=value is a comment.
+//
+// A data line is key=value pairs separated by spaces, tabs or commas, in any order:
+// t (board time, µs, unsigned; a 32-bit clock that wraps is unwrapped), n (sequence
+// number, unsigned), sp and pv (counts, any decimal number), u (drive: 1, 0, -1, or +,
+// 0, -). sp and pv are required. Other keys (a letter or '_' then letters, digits, '_'
+// or '.') are kept as extra channels; keys are case-sensitive.
+//
+// A header line of column names without '=' ("t,sp,pv,u", "sp pv u", with n and extra
+// names too; sp and pv required) makes later lines that start with a number rows of a
+// numeric table (CSV or TSV: "1000,512,498,1").
+//
 // The first line decides capture mode: a line starting with CaptureMagic makes every
-// later line a capture record whose host time replaces the one given to Parse.
+// later line a capture record whose host time replaces the one given to Parse; board
+// lines ('<') are read as above, '>' and '!' lines become Events.
+//
+// Anything else is rejected with a reason (a *ParseError wrapping one of the Err*
+// sentinels), counted in Stats, and never fatal to the Parser.
 type Parser struct {
 	// Name is the source name used in errors (a file name, a port path).
 	Name string
@@ -192,6 +218,7 @@ func (p *Parser) Capture() (bool, time.Time) { return p.capture, p.captureStart 
 func (p *Parser) ResetClock() { p.tSeen, p.tWraps = false, 0 }
 
 // LastError returns the last rejected line as a *ParseError, or nil if none was rejected.
+// Call it before the next Parse: its text is taken from the line, which the caller may reuse.
 func (p *Parser) LastError() *ParseError {
 	if p.errKind == nil {
 		return nil
@@ -290,7 +317,7 @@ func (p *Parser) parseCapture(line []byte) RecordKind {
 
 // clockBreak reports whether a host event says the board may have restarted.
 func clockBreak(text []byte) bool {
-	for _, w := range [...]string{"unplug", "replug", "reconnect", "reset", "reopen"} {
+	for _, w := range [...]string{"unplug", "replug", "connected", "reset", "reopen"} {
 		if bytes.Contains(text, []byte(w)) {
 			return true
 		}

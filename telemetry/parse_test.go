@@ -166,8 +166,9 @@ func TestScannerLines(t *testing.T) {
 		},
 		{
 			name:  "meta prefixes and units",
-			in:    "#r=4k7 c=4.7µ supply=3300mV mode=two-state\n",
-			metas: []Meta{{R: 4700, C: 4.7e-6, Supply: 3.3, Mode: TwoState, Set: FieldR | FieldC | FieldSupply | FieldMode}},
+			in:    "#r=4k7 c=4.7µ supply=3300mV mode=two-state load=1M,vref=5V period_us=1k\n",
+			metas: []Meta{{R: 4700, C: 4.7e-6, Supply: 3.3, Mode: TwoState, Load: 1e6, Vref: 5, Period: 1e-3,
+				Set: FieldR | FieldC | FieldSupply | FieldMode | FieldLoad | FieldVref | FieldPeriod}},
 		},
 		{
 			name: "meta repeats mid-stream",
