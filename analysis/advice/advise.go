@@ -450,6 +450,11 @@ func (p *plant) notes(a *Advice, sr *searchResult) []string {
 	if p.rRatio != 1 {
 		n = append(n, fmt.Sprintf("resistors are taken as %.2f x marked (measured)", p.rRatio))
 	}
+	if tau := TauForStep(p.period, p.g.rippleV, p.supply); !math.IsNaN(tau) {
+		n = append(n, fmt.Sprintf("rule of the trade: one period's largest step is the ripple budget when R*C = T * Vs / dV = %s x %s / %s = %s (exact form -T / ln(1 - dV/Vs) = %s), e.g. %s with 1 µF; the table refines this with the loop model",
+			si.Format(p.period, "s"), fmtV(p.supply), fmtV(p.g.rippleV), si.FormatDigits(p.period*p.supply/p.g.rippleV, "s", 3),
+			si.FormatDigits(tau, "s", 3), si.FormatDigits(p.period*p.supply/p.g.rippleV/1e-6, "Ω", 3)))
+	}
 	src := "assumed"
 	if a.Goals.NoiseMeasured {
 		src = "measured"

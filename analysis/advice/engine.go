@@ -12,7 +12,7 @@ import (
 // Search limits: the closed forms prune every pair first; at most maxQuick survivors get
 // a short closed-loop run, and the best are checked again with a longer run and two seeds.
 const (
-	maxQuick     = 400
+	maxQuick     = 160
 	quickWindow  = 192
 	verifyWindow = 2048 // design; FromSummary runs 4x longer (no 200 ms budget there)
 	maxSettleLen = 20000
@@ -101,7 +101,11 @@ func (p *plant) plan(pr *pair, period float64, window int) runPlan {
 	if tau := pr.ci.Tau(loop.Hold); !math.IsInf(tau, 1) && pr.db > 0 {
 		v := math.Max(p.nodeV(p.sps[0]), p.lsb()) // the slowest droop: the lowest setpoint
 		cyc := float64(2*pr.db+1) * p.lsb() * tau / (v * period)
-		window = max(window, min(int(3*cyc), 8*window))
+		grow := 8 // the checking runs see several corrections; the short runs lean on cfRipple
+		if window <= quickWindow {
+			grow = 2
+		}
+		window = max(window, min(int(3*cyc), grow*window))
 	}
 	return runPlan{settleLen: n, window: window}
 }

@@ -29,7 +29,9 @@ func TestDesignCommand(t *testing.T) {
 			t.Fatal(err)
 		}
 		for _, w := range []string{"deadband:", "trade rule: a 100 mV band is 100 mV x 1023 / 5 V = 20.46 -> 21 counts",
-			"R and C, best first", "meets goals", "sample period:", "cautions:"} {
+			"R and C, best first", "meets goals", "sample period:", "cautions:",
+			// The trade's worked example (common practice): 1 ms, 0.1 V, 5 V -> R*C = 0.05 s, about 50 kOhm for 1 uF.
+			"1 ms x 5 V / 100 mV = 50 ms", "50 kΩ with 1 µF"} {
 			if !strings.Contains(out, w) {
 				t.Errorf("output lacks %q:\n%s", w, out)
 			}
