@@ -165,8 +165,8 @@ func TestScannerLines(t *testing.T) {
 				Set: FieldVref | FieldADCBits | FieldPeriod | FieldMode | FieldDeadband | FieldSupply | FieldR | FieldC | FieldLoad}},
 		},
 		{
-			name:  "meta prefixes and units",
-			in:    "#r=4k7 c=4.7µ supply=3300mV mode=two-state load=1M,vref=5V period_us=1k\n",
+			name: "meta prefixes and units",
+			in:   "#r=4k7 c=4.7µ supply=3300mV mode=two-state load=1M,vref=5V period_us=1k\n",
 			metas: []Meta{{R: 4700, C: 4.7e-6, Supply: 3.3, Mode: TwoState, Load: 1e6, Vref: 5, Period: 1e-3,
 				Set: FieldR | FieldC | FieldSupply | FieldMode | FieldLoad | FieldVref | FieldPeriod}},
 		},
