@@ -9,6 +9,7 @@ import (
 	"strings"
 
 	"gonum.org/v1/plot"
+	"gonum.org/v1/plot/font"
 	"gonum.org/v1/plot/plotter"
 	"gonum.org/v1/plot/vg"
 	"gonum.org/v1/plot/vg/draw"
@@ -85,6 +86,10 @@ func (c chart) svg() (string, error) {
 // newPlot makes a plot with the house style: title, axis labels, grid, legend on top.
 func newPlot(title, x, y string) *plot.Plot {
 	p := plot.New()
+	for _, f := range []*font.Font{&p.Title.TextStyle.Font, &p.X.Label.TextStyle.Font, &p.Y.Label.TextStyle.Font,
+		&p.X.Tick.Label.Font, &p.Y.Tick.Label.Font, &p.Legend.TextStyle.Font} {
+		f.Variant = "Sans"
+	}
 	p.Title.Text = title
 	p.Title.TextStyle.Font.Size = vg.Points(11)
 	p.X.Label.Text = x
