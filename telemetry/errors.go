@@ -24,6 +24,49 @@ var (
 	ErrCutShort     = errors.New("telemetry: line cut short by a read error")
 )
 
+// reasons lists the sentinels in the order of Stats.ByReason.
+var reasons = [numReasons]error{
+	ErrBadNumber, ErrBadDrive, ErrFieldCount, ErrMissingField, ErrTooLong, ErrBinary, ErrBadMeta,
+	ErrDuplicateKey, ErrSyntax, ErrBadKey, ErrNoHeader, ErrTooManyKeys, ErrBadCapture, ErrCutShort,
+}
+
+const numReasons = 14
+
+func reasonIndex(err error) int {
+	for i, r := range reasons {
+		if r == err {
+			return i
+		}
+	}
+	return -1
+}
+
+// RejectCount is the number of rejected lines for one reason.
+type RejectCount struct {
+	Err   error // one of the Err* sentinels
+	Count int64
+}
+
+// Rejects returns the number of rejected lines whose reason is err (an Err* sentinel).
+func (st Stats) Rejects(err error) int64 {
+	if i := reasonIndex(err); i >= 0 {
+		return st.ByReason[i]
+	}
+	return 0
+}
+
+// RejectReasons returns the reasons with at least one rejected line, with their counts,
+// in a fixed order.
+func (st Stats) RejectReasons() []RejectCount {
+	var out []RejectCount
+	for i, c := range st.ByReason {
+		if c > 0 {
+			out = append(out, RejectCount{reasons[i], c})
+		}
+	}
+	return out
+}
+
 // ParseError is a rejected line: the file name, the 1-based line number, the field at
 // fault (empty when the whole line is), the line as sanitised text (cut to about 80
 // bytes) and the sentinel error that says why.

@@ -84,6 +84,9 @@ type Stats struct {
 	Blank                                              int64 // empty lines
 	Headers                                            int64 // column header lines and the capture header line
 
+	// ByReason counts the rejected lines by reason; read it with Rejects or RejectReasons.
+	ByReason [numReasons]int64
+
 	// FirstRejects holds the first MaxRejectsKept rejected lines, in order.
 	FirstRejects []*ParseError
 }
@@ -1023,6 +1026,9 @@ func (p *Parser) reject(err error, field string, line []byte) RecordKind {
 		err, field = ErrBinary, ""
 	}
 	p.stats.Rejected++
+	if i := reasonIndex(err); i >= 0 {
+		p.stats.ByReason[i]++
+	}
 	p.errKind, p.errField, p.errText, p.errLineNo = err, field, line, p.line
 	if len(p.stats.FirstRejects) < MaxRejectsKept {
 		p.stats.FirstRejects = append(p.stats.FirstRejects, p.LastError())

@@ -49,6 +49,16 @@ func checkStats(t testing.TB, st Stats) {
 	if sum != st.Lines {
 		t.Errorf("stats do not add up: %+v (sum %d, lines %d)", st, sum, st.Lines)
 	}
+	var byReason int64
+	for _, rc := range st.RejectReasons() {
+		byReason += rc.Count
+		if st.Rejects(rc.Err) != rc.Count {
+			t.Errorf("Rejects(%v) = %d, RejectReasons says %d", rc.Err, st.Rejects(rc.Err), rc.Count)
+		}
+	}
+	if byReason != st.Rejected {
+		t.Errorf("rejects by reason add up to %d, want %d", byReason, st.Rejected)
+	}
 	if st.Partial > st.Rejected {
 		t.Errorf("partial %d > rejected %d", st.Partial, st.Rejected)
 	}
