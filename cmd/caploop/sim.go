@@ -22,7 +22,7 @@ func newSimCmd() *cobra.Command {
 	var (
 		scenarioFile, out, link string
 		fast, usePTY, verbose   bool
-		capture                 bool
+		capture, waitOpen       bool
 		speed                   float64
 	)
 	def := virtual.DefaultScenario()
@@ -134,8 +134,9 @@ Values take SI prefixes and units (47k, 4k7, 1u, 100mV, 1ms). Keys:
 
 			if usePTY {
 				err := b.Serve(ctx, virtual.ServeOptions{
-					Link:  link,
-					Ready: func(path string) { fmt.Fprintln(cmd.OutOrStdout(), path) },
+					Link:     link,
+					Ready:    func(path string) { fmt.Fprintln(cmd.OutOrStdout(), path) },
+					WaitOpen: waitOpen,
 				})
 				return withCode(2, err)
 			}
@@ -180,6 +181,7 @@ Values take SI prefixes and units (47k, 4k7, 1u, 100mV, 1ms). Keys:
 	fl.BoolVar(&capture, "capture", false, "write a caploop capture (host time, direction, line; host times from the board clock) instead of plain telemetry")
 	fl.BoolVar(&usePTY, "pty", false, "serve a pseudo-terminal and print its stable path")
 	fl.StringVar(&link, "link", "", "with --pty: the stable path (a symbolic link) to create (default: a new temporary directory)")
+	fl.BoolVar(&waitOpen, "wait-open", false, "with --pty: boot only when a program first opens the device, so it sees the boot lines")
 	fl.Float64Var(&speed, "speed", 1, "real-time factor (2 = twice as fast)")
 	fl.BoolVarP(&verbose, "verbose", "v", false, "log boots, answers and faults on standard error")
 	for _, k := range virtual.Keys {

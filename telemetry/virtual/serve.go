@@ -26,6 +26,10 @@ type ServeOptions struct {
 	Link string
 	// Ready, when set, is called once with the device path as soon as it can be opened.
 	Ready func(path string)
+	// WaitOpen holds the board in reset until a program first opens the device, as
+	// boards that reset when the port opens do: the first reader sees the boot banner
+	// and every line after it.
+	WaitOpen bool
 }
 
 // Serve runs the board in real time on a pseudo-terminal, as if it were on USB: any
@@ -69,6 +73,20 @@ func (b *Board) Serve(ctx context.Context, opt ServeOptions) error {
 	}
 	if opt.Ready != nil {
 		opt.Ready(link)
+	}
+	if opt.WaitOpen {
+		t := time.NewTicker(2 * time.Millisecond)
+		for s.conn.hungUp() {
+			select {
+			case <-ctx.Done():
+				t.Stop()
+				return nil
+			case <-t.C:
+			}
+		}
+		t.Stop()
+		// Let the program finish setting the port up before the first byte.
+		time.Sleep(20 * time.Millisecond)
 	}
 	err := b.Run(ctx, s, true)
 	if errors.Is(err, context.Canceled) || errors.Is(err, context.DeadlineExceeded) {
