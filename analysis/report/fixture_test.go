@@ -56,7 +56,8 @@ func fixtureAdvice() *advice.Advice {
 	return &advice.Advice{
 		DeadbandCounts: &db,
 		Deadband: &advice.DeadbandWorking{StepCounts: 4.1, NoiseRMSCounts: 0.62, SigmaMultiple: 3, MarginCounts: 1.86,
-			StaticErrorV: 0.0146, FromVoltageBand: &from, Rule: "step < 2·db + 1 with a 3σ noise margin", VerifiedJumps: 0},
+			StaticErrorV: 0.0146, FromVoltageBand: &from, Rule: "step < 2·db + 1 with a 3σ noise margin", VerifiedJumps: 0,
+			Steps: []advice.SetpointStep{{SetpointCounts: 246, ChargeCounts: 4.1, DischargeCounts: 1.3}}},
 		Candidates: []advice.Candidate{
 			{ROhm: 47e3, CF: 2.2e-6, Series: "E12", DeadbandCounts: 3, PredictedRipplePPV: 0.0098, PredictedSettleS: 0.41,
 				PinCurrentA: 1.06e-4, VInfSagV: 0.42, Verdict: "meets goals", Trades: "slower settling"},
@@ -65,8 +66,12 @@ func fixtureAdvice() *advice.Advice {
 		},
 		SamplePeriod: &advice.PeriodAdvice{CurrentS: 1e-3, SuggestedS: 5e-4, FloorS: 1.04e-4, Reason: "halves the per-sample step"},
 		Topology:     []advice.TopologyAdvice{{Change: "add a follower buffer", PredictedRipplePPV: 0.005, PredictedSettleS: 0.3, Reason: "the load sags V∞"}},
-		Cautions:     []string{"keep pin current inside the datasheet limit"},
-		Notes:        []string{"tau measured 8 % below R·C: the capacitor loses capacitance under bias"},
+		Current: &advice.Candidate{ROhm: 47e3, CF: 1e-6, Series: "as fitted", DeadbandCounts: 2, PredictedRipplePPV: 0.0244,
+			PredictedSettleS: 0.19, PinCurrentA: 1.06e-4, VInfSagV: 0.42, Verdict: "ripple too high", Trades: ""},
+		Goals: &advice.GoalsUsed{Mode: "three-state", SupplyV: 5, VrefV: 5, ADCBits: 10, PeriodS: 1e-3, LoadOhm: 5.1e5,
+			RipplePPV: 0.02, SettleS: 0.5, PinCurrentA: 0.02, NoiseRMSCounts: 0.62, NoiseMeasured: true, SigmaMultiple: 3, CRatio: 0.92},
+		Cautions: []string{"keep pin current inside the datasheet limit"},
+		Notes:    []string{"tau measured 8 % below R·C: the capacitor loses capacitance under bias"},
 	}
 }
 

@@ -223,6 +223,7 @@ td { font-variant-numeric: tabular-nums; }
 tr.warning td { background: #fff6d6; }
 tr.error td { background: #fde2de; }
 tr.better td { background: #e3f4e3; }
+tr.current td { background: #eef3fa; font-weight: 600; }
 tr.group th { background: #dde7f5; }
 tr.note td { color: #555; font-style: italic; }
 ul.missing { color: #666; font-size: 0.9em; }

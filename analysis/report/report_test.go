@@ -57,7 +57,7 @@ func TestTablesGolden(t *testing.T) {
 			golden(t, buf.Bytes())
 		})
 	}
-	want := "capture board plant segments steps diagnostics rejects advice-deadband advice-parts advice-period advice-topology advice-notes compare"
+	want := "capture board plant segments steps diagnostics rejects advice-goals advice-deadband advice-parts advice-period advice-topology advice-notes compare"
 	if got := strings.Join(ids, " "); got != want {
 		t.Errorf("tables:\ngot  %s\nwant %s", got, want)
 	}

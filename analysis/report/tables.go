@@ -237,6 +237,35 @@ func rejectsTable(s *analysis.Summary, prefix string) Table {
 // notes. Empty parts are left out.
 func AdviceTables(a *advice.Advice, prefix string) []Table {
 	var ts []Table
+	if g := a.Goals; g != nil {
+		t := Table{ID: prefix + "advice-goals", Caption: "Advice: goals and assumptions", Head: []string{"goal or assumption", "value"}}
+		t.add("controller", clean(g.Mode))
+		t.add("supply", si.Format(g.SupplyV, "V"))
+		t.add("sample period", si.Format(g.PeriodS, "s"))
+		if g.LoadOhm > 0 {
+			t.add("load", si.Format(g.LoadOhm, "Ω"))
+		} else {
+			t.add("load", "none")
+		}
+		t.add("ripple p-p at most", si.Format(g.RipplePPV, "V"))
+		t.add("settling at most", si.Format(g.SettleS, "s"))
+		if g.StaticErrorV > 0 {
+			t.add("static error at most", si.Format(g.StaticErrorV, "V"))
+		}
+		t.add("pin current at most", si.Format(g.PinCurrentA, "A"))
+		noise := fmtNum(g.NoiseRMSCounts) + " counts rms"
+		if g.NoiseMeasured {
+			noise += " (measured)"
+		} else {
+			noise += " (assumed)"
+		}
+		t.add("ADC noise", noise)
+		t.add("noise margin", fmtNum(g.SigmaMultiple)+" σ")
+		if g.CRatio > 0 && g.CRatio != 1 {
+			t.add("real / marked capacitance", fmtNum(g.CRatio))
+		}
+		ts = append(ts, t)
+	}
 	if a.DeadbandCounts != nil || a.Deadband != nil {
 		t := Table{ID: prefix + "advice-deadband", Caption: "Advice: deadband", Head: []string{"figure", "value"}}
 		if a.DeadbandCounts != nil {
@@ -250,18 +279,30 @@ func AdviceTables(a *advice.Advice, prefix string) []Table {
 			if w.FromVoltageBand != nil {
 				t.add("from the ripple goal", strconv.Itoa(*w.FromVoltageBand)+" counts")
 			}
+			for _, st := range w.Steps {
+				t.add(fmt.Sprintf("one period's step at %d counts", st.SetpointCounts),
+					"charge "+fmtNum(st.ChargeCounts)+", discharge "+fmtNum(st.DischargeCounts)+" counts")
+			}
 			t.add("rule", clean(w.Rule))
 			t.add("band jumps in the checking simulation", strconv.FormatInt(w.VerifiedJumps, 10))
 		}
 		ts = append(ts, t)
 	}
-	if len(a.Candidates) > 0 {
+	if len(a.Candidates) > 0 || a.Current != nil {
 		t := Table{ID: prefix + "advice-parts", Caption: "Advice: R and C (each checked by simulating the loop)", Head: []string{
-			"R", "C", "series", "deadband", "ripple p-p", "settle", "pin current", "V∞ sag", "verdict", "trades"}}
-		for _, c := range a.Candidates {
-			r := Row{Cells: []string{si.Format(c.ROhm, "Ω"), si.Format(c.CF, "F"), clean(c.Series), strconv.Itoa(c.DeadbandCounts) + " counts",
+			"", "R", "C", "series", "deadband", "ripple p-p", "settle", "pin current", "V∞ sag", "verdict", "trades"}}
+		row := func(kind string, c advice.Candidate) Row {
+			return Row{Cells: []string{kind, si.Format(c.ROhm, "Ω"), si.Format(c.CF, "F"), clean(c.Series), strconv.Itoa(c.DeadbandCounts) + " counts",
 				si.Format(c.PredictedRipplePPV, "V"), si.Format(c.PredictedSettleS, "s"), si.Format(c.PinCurrentA, "A"),
 				si.Format(c.VInfSagV, "V"), clean(c.Verdict), clean(c.Trades)}}
+		}
+		if a.Current != nil {
+			r := row("present parts", *a.Current)
+			r.Class = "current"
+			t.Rows = append(t.Rows, r)
+		}
+		for i, c := range a.Candidates {
+			r := row("#"+strconv.Itoa(i+1), c)
 			if c.Verdict == "meets goals" {
 				r.Class = "better"
 			}
