@@ -314,7 +314,7 @@ func (p *plant) periodAdvice(ref *pair) (*PeriodAdvice, error) {
 		seen[t] = true
 		q := &pair{r: ref.r, c: ref.c, ci: ref.ci}
 		p.closedForm(q, p.kind, t)
-		if err := p.check(q, p.kind, t, quickWindow, []uint64{p.g.seed + 4}); err != nil {
+		if err := p.check(q, p.kind, t, 2*quickWindow, []uint64{p.g.seed + 4}); err != nil {
 			return nil, err
 		}
 		tries = append(tries, try{t, q, len(p.failures(q)) == 0})
@@ -392,7 +392,8 @@ func (p *plant) topology(sr *searchResult) ([]TopologyAdvice, error) {
 	var base *pair
 	for _, pr := range sr.shown {
 		f := p.failures(pr)
-		if len(f) == 1 && f[0] == "ripple too high" {
+		if contains(f, "ripple too high") && !contains(f, "too slow") && !contains(f, "pin current too high") &&
+			!contains(f, "cannot reach the top setpoint") {
 			base = pr
 			break
 		}
@@ -404,6 +405,7 @@ func (p *plant) topology(sr *searchResult) ([]TopologyAdvice, error) {
 			q := *base
 			plan := p.plan(&q, p.period, p.verifyWin)
 			plan.tau2 = r2 * c2
+			plan.settleLen = min(plan.settleLen+int(math.Ceil(5*plan.tau2/p.period)), maxSettleLen)
 			if err := p.checkPlan(&q, p.kind, p.period, plan, []uint64{p.g.seed + 5}); err != nil {
 				return nil, err
 			}

@@ -92,6 +92,9 @@ func (a *Advice) WriteText(w io.Writer) error {
 }
 
 func settleText(c *Candidate) string {
+	if !c.Settled && strings.Contains(c.Verdict, "ripple") && !strings.Contains(c.Verdict, "slow") {
+		return "never (ripple)"
+	}
 	if !c.Settled {
 		return "> " + si.FormatDigits(c.PredictedSettleS, "s", 3)
 	}
