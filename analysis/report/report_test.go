@@ -80,6 +80,10 @@ func TestWriteHTML(t *testing.T) {
 			[]string{"capture", "segments", "diagnostics"}},
 		{"before and after", two, map[string]int{"overview": 2, "zoom": 6, "histogram": 2, "spectrum": 2, "step": 4, "ripple": 1},
 			[]string{"compare", "c1-capture", "c2-segments"}},
+		{"counts only (no vref)", []Doc{inCounts(synth(benchBefore))}, map[string]int{"overview": 1, "zoom": 3, "histogram": 1, "spectrum": 1, "step": 2},
+			[]string{"capture", "segments"}},
+		{"volts and counts compared", []Doc{synth(benchBefore), inCounts(synth(benchAfter))}, map[string]int{"overview": 2, "ripple": 1},
+			[]string{"compare"}},
 		{"no waveforms", []Doc{{Name: "bare", Summary: fixtureSummary(), Advice: fixtureAdvice()}},
 			map[string]int{"overview": 0, "zoom": 0}, []string{"capture", "advice-parts"}},
 	}
@@ -119,6 +123,40 @@ func TestWriteHTML(t *testing.T) {
 			}
 		})
 	}
+}
+
+// inCounts turns a synthetic doc into one whose board never said vref: traces in counts,
+// no volts anywhere.
+func inCounts(d Doc) Doc {
+	s := d.Summary
+	q, _ := lsb(s)
+	scale := func(v []float64) {
+		for i := range v {
+			v[i] /= q
+		}
+	}
+	tr := s.Traces
+	for _, v := range [][]float64{tr.SP, tr.PV, tr.PVMin, tr.PVMax} {
+		scale(v)
+	}
+	for _, z := range tr.Zoom {
+		scale(z.PV)
+	}
+	for _, st := range tr.StepTraces {
+		scale(st.PV)
+		scale(st.Fitted)
+	}
+	tr.Volts = false
+	s.Board.VrefV = nil
+	for i := range s.Segments {
+		g := &s.Segments[i]
+		g.SetpointV, g.MeanErrorV, g.RipplePPV, g.RippleRMSV = nil, nil, nil, nil
+	}
+	for i := range s.Steps {
+		s.Steps[i].FromV, s.Steps[i].ToV = nil, nil
+	}
+	d.Name += " (counts)"
+	return d
 }
 
 func TestWriteHTMLNoDocs(t *testing.T) {
