@@ -164,6 +164,8 @@ type Parser struct {
 	event  Event
 	names  map[string]string
 	cols   []column
+	// spareCols is the other header buffer; see parseHeader.
+	spareCols []column
 
 	capture      bool
 	captureStart time.Time
@@ -682,6 +684,9 @@ func parseNumSlow(b []byte, start int) (float64, int, bool) {
 		return 0, end, false
 	}
 	tok := b[start:end]
+	if !decimalSyntax(tok) {
+		return 0, end, false // refused here: a strconv error would allocate
+	}
 	// strconv copies the text into any error it returns, so the string need not outlive tok.
 	v, err := strconv.ParseFloat(unsafe.String(&tok[0], len(tok)), 64)
 	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
@@ -747,6 +752,41 @@ func swar8(d uint64) uint64 {
 	return ((d & 0x0000FFFF0000FFFF) * (10000<<32 + 1)) >> 32
 }
 
+// decimalSyntax reports whether b is [+-]digits[.digits][(e|E)[+-]digits], with at least
+// one digit before the exponent: the numbers the protocol allows.
+func decimalSyntax(b []byte) bool {
+	i := 0
+	if i < len(b) && (b[i] == '+' || b[i] == '-') {
+		i++
+	}
+	d := 0
+	for ; i < len(b) && isDigit(b[i]); i++ {
+		d++
+	}
+	if i < len(b) && b[i] == '.' {
+		for i++; i < len(b) && isDigit(b[i]); i++ {
+			d++
+		}
+	}
+	if d == 0 {
+		return false
+	}
+	if i < len(b) && (b[i] == 'e' || b[i] == 'E') {
+		i++
+		if i < len(b) && (b[i] == '+' || b[i] == '-') {
+			i++
+		}
+		e := i
+		for i < len(b) && isDigit(b[i]) {
+			i++
+		}
+		if i == e {
+			return false
+		}
+	}
+	return i == len(b)
+}
+
 // parseUint reads an unsigned decimal integer below 2^63 at b[i:] ending at a separator
 // or the end of b.
 func parseUint(b []byte, i int) (uint64, int, bool) {
@@ -797,7 +837,7 @@ func parseDrive(b []byte, i int) (Drive, int, bool) {
 
 // parseHeader reads a column header line ("t,sp,pv,u") starting at line[i:].
 func (p *Parser) parseHeader(line []byte, i int) RecordKind {
-	var cols []column
+	cols := p.spareCols[:0] // two buffers take turns: no allocation once warm
 	var seen uint8
 	known := false
 	n := len(line)
@@ -855,7 +895,7 @@ func (p *Parser) parseHeader(line []byte, i int) RecordKind {
 		}
 		return p.reject(ErrMissingField, field, line)
 	}
-	p.cols = cols
+	p.cols, p.spareCols = cols, p.cols
 	p.stats.Headers++
 	return RecNone
 }
@@ -927,14 +967,23 @@ func (p *Parser) parseRow(line []byte, i int, host int64, hasHost bool) RecordKi
 // key=value, else a comment.
 func (p *Parser) parseHash(line []byte, i int) RecordKind {
 	rest := line[i:]
-	words := bytes.FieldsFunc(rest, func(r rune) bool { return r == ' ' || r == '\t' || r == ',' })
-	if len(words) == 0 || bytes.IndexByte(words[0], '=') <= 0 {
+	// The first word decides; comments are told apart without allocating.
+	w0 := i
+	for w0 < len(line) && isSep(line[w0]) {
+		w0++
+	}
+	w1 := w0
+	for w1 < len(line) && !isSep(line[w1]) {
+		w1++
+	}
+	if bytes.IndexByte(line[w0:w1], '=') <= 0 {
 		if !printableText(line) {
 			return p.reject(ErrBinary, "", line)
 		}
 		p.stats.Comments++
 		return RecNone
 	}
+	words := bytes.FieldsFunc(rest, func(r rune) bool { return r == ' ' || r == '\t' || r == ',' })
 	var m Meta
 	for _, w := range words {
 		k, v, ok := bytes.Cut(w, []byte{'='})

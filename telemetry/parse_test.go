@@ -212,6 +212,15 @@ func TestScannerLines(t *testing.T) {
 			},
 		},
 		{
+			name: "number syntax outside the protocol",
+			in:   "sp=0x1p3 pv=1\nsp=1_000 pv=1\nsp=inf pv=1\nsp=1e pv=1\nsp=--1 pv=1\nsp=1e400 pv=1\nsp=. pv=1\nsp=1.5e-3 pv=-2E+2\n",
+			rejects: []rej{
+				{1, "sp", ErrBadNumber}, {2, "sp", ErrBadNumber}, {3, "sp", ErrBadNumber}, {4, "sp", ErrBadNumber},
+				{5, "sp", ErrBadNumber}, {6, "sp", ErrBadNumber}, {7, "sp", ErrBadNumber},
+			},
+			samples: []Sample{{Line: 8, SP: 1.5e-3, PV: -200}},
+		},
+		{
 			name:    "duplicate key",
 			in:      "sp=1 sp=2 pv=3\nsp=1 pv=2 x=1 x=2\n",
 			rejects: []rej{{1, "sp", ErrDuplicateKey}, {2, "x", ErrDuplicateKey}},

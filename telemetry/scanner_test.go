@@ -163,7 +163,9 @@ func TestScannerHugeLineBoundedMemory(t *testing.T) {
 
 func TestScannerNoAllocs(t *testing.T) {
 	block := benchBlock(1000)
-	block = append(block, "sp=1 pv=2 temp=20.5\n"...)
+	for range 20 { // the other kinds of lines must not allocate either
+		block = append(block, "sp=1 pv=2 temp=20.5\n# a comment about the bench reference\n\nt,sp,pv\n1,2,3.5\nsp=1.5 pv=x\n"...)
+	}
 	sc := NewScanner(&repeatReader{block: block})
 	for range 5000 { // warm up: buffer, interned names
 		sc.Scan()
@@ -175,6 +177,16 @@ func TestScannerNoAllocs(t *testing.T) {
 	})
 	if allocs != 0 {
 		t.Errorf("Scan allocates %v times per line, want 0", allocs)
+	}
+	// AllocsPerRun rounds down; count every allocation over 20000 lines too.
+	var before, after runtime.MemStats
+	runtime.ReadMemStats(&before)
+	for range 20000 {
+		sc.Scan()
+	}
+	runtime.ReadMemStats(&after)
+	if n := after.Mallocs - before.Mallocs; n != 0 {
+		t.Errorf("20000 scans allocated %d times, want 0", n)
 	}
 }
 
