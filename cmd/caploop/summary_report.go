@@ -159,6 +159,7 @@ func newProgressBar(w io.Writer, size int64, name string) *progressbar.ProgressB
 		progressbar.OptionSetDescription(telemetry.SanitizeN([]byte(name), 40)),
 		progressbar.OptionShowBytes(true),
 		progressbar.OptionShowTotalBytes(true),
+		progressbar.OptionShowCount(),
 		progressbar.OptionSetWidth(30),
 		progressbar.OptionThrottle(100*time.Millisecond),
 		progressbar.OptionSetPredictTime(true),
