@@ -386,3 +386,35 @@ func BenchmarkDesign(b *testing.B) {
 		}
 	}
 }
+
+// The sample period advice never goes below the ADC conversion time, and suggests a
+// shorter period when the present one is what keeps the ripple too high.
+func TestSamplePeriodAdvice(t *testing.T) {
+	for _, c := range []struct {
+		name      string
+		req       Request
+		wantLower bool
+	}{
+		{"ripple limited at 4 ms", Request{SupplyV: 5, Bits: 10, PeriodS: 4e-3, Mode: loop.TwoState,
+			Goals: Goals{RippleV: 0.05, SettleS: 0.3, C: Parts{List: []float64{1e-6}}, R: Parts{List: []float64{47e3}}}}, true},
+		{"already near the floor", Request{SupplyV: 5, Bits: 10, PeriodS: 120e-6, Mode: loop.ThreeState,
+			Goals: Goals{RippleV: 0.1, SettleS: 0.2}}, false},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			a, err := Design(c.req)
+			if err != nil {
+				t.Fatal(err)
+			}
+			pa := a.SamplePeriod
+			if pa == nil {
+				t.Fatal("no sample period advice")
+			}
+			if pa.SuggestedS < pa.FloorS || pa.FloorS != DefaultMinPeriodS {
+				t.Errorf("suggested %g s below the floor %g s", pa.SuggestedS, pa.FloorS)
+			}
+			if c.wantLower && !(pa.SuggestedS < pa.CurrentS) {
+				t.Errorf("suggested %g s, want shorter than %g s: %s", pa.SuggestedS, pa.CurrentS, pa.Reason)
+			}
+		})
+	}
+}
