@@ -8,6 +8,7 @@ import (
 	"sync"
 
 	"github.com/creack/pty"
+	"golang.org/x/sys/unix"
 	"golang.org/x/term"
 )
 
@@ -43,14 +44,39 @@ func OpenPTY() (*PTY, error) {
 		s.Close()
 		return nil, fmt.Errorf("telemetry: raw mode on %s: %w", s.Name(), err)
 	}
-	return &PTY{master: m, slave: s, path: s.Name()}, nil
+	// pty.Open used the master's Fd, which leaves it in blocking mode: no deadlines, and a
+	// Read in progress would not end on Close. A non-blocking duplicate goes through the
+	// runtime's poller instead.
+	m2, err := pollable(m)
+	if err != nil {
+		m.Close()
+		s.Close()
+		return nil, fmt.Errorf("telemetry: pseudo-terminal master: %w", err)
+	}
+	return &PTY{master: m2, slave: s, path: s.Name()}, nil
+}
+
+// pollable returns a non-blocking duplicate of f that supports deadlines, and closes f.
+func pollable(f *os.File) (*os.File, error) {
+	fd, err := unix.Dup(int(f.Fd()))
+	if err != nil {
+		return nil, err
+	}
+	f.Close()
+	if err := unix.SetNonblock(fd, true); err != nil {
+		unix.Close(fd)
+		return nil, err
+	}
+	unix.CloseOnExec(fd)
+	return os.NewFile(uintptr(fd), "/dev/ptmx"), nil
 }
 
 // Path returns the slave device path, the "port" caploop opens.
 func (p *PTY) Path() string { return p.path }
 
 // Master returns the board side of the pair: write telemetry lines to it, read the
-// commands the host sends from it.
+// commands the host sends from it. It supports deadlines, and Close ends a Read or Write
+// blocked on it.
 func (p *PTY) Master() *os.File { return p.master }
 
 // Symlink makes link a symbolic link to the slave path, replacing any existing link
