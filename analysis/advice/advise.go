@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"strings"
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/loop"
@@ -216,6 +217,7 @@ func (p *plant) advise(cur *present, noiseMeasured bool) (*Advice, error) {
 		a.DeadbandCounts, a.Deadband = &db, w
 	}
 	p.fillGoals(a, noiseMeasured)
+	a.Goals.SettleTolV = p.tolFor(0)
 	if ref != nil {
 		a.Goals.SettleTolV = p.tolFor(ref.db)
 		pa, err := p.periodAdvice(ref)
@@ -426,9 +428,13 @@ func (p *plant) cautions(a *Advice) []string {
 	for _, c := range a.Candidates {
 		maxI = math.Max(maxI, c.PinCurrentA)
 	}
+	upTo := ""
+	if maxI > 0 {
+		upTo = fmt.Sprintf(" (up to %s in this table)", fmtA(maxI))
+	}
 	c := []string{
-		fmt.Sprintf("pin current: the first instant of a charge or discharge draws Vs / R (up to %s in this table); keep it inside the part's datasheet limit (about 20 mA per pin in normal use on classic 8-bit parts, from memory)",
-			fmtA(maxI)),
+		fmt.Sprintf("pin current: the first instant of a charge or discharge draws Vs / R%s; keep it inside the part's datasheet limit (about 20 mA per pin in normal use on classic 8-bit parts, from memory)",
+			upTo),
 	}
 	if p.kind == loop.ThreeState || len(a.Topology) > 0 {
 		c = append(c, "three-state with a high-side and a low-side switch: never turn both on together; give each path its own series resistor so that a firmware slip cannot short the supply")
@@ -465,6 +471,15 @@ func (p *plant) notes(a *Advice, sr *searchResult) []string {
 		p.g.noise, src, sr.tried, sr.tried-sr.simmed, sr.simmed, p.verifyWin, p.nSeeds))
 	n = append(n, fmt.Sprintf("settling is timed on a step from %d to %d counts and back, to within %s of the setpoint; ripple p-p is the spread of the output between its 0.5 %% and 99.5 %% points over the steady part at each setpoint (counts %v), the largest of them",
 		p.lo, p.hi, fmtV(a.Goals.SettleTolV), p.sps))
+	if len(a.Candidates) == 0 {
+		var rs []string
+		for _, k := range []string{"pin current too high", "cannot reach the top setpoint", "too slow", "ripple too high", "static error too high"} {
+			if sr.reasons[k] > 0 {
+				rs = append(rs, fmt.Sprintf("%d %s", sr.reasons[k], k))
+			}
+		}
+		n = append(n, fmt.Sprintf("no pair comes near the goals; of %d pairs (a pair may fail several ways): %s", sr.tried, strings.Join(rs, ", ")))
+	}
 	if p.kind == loop.TwoState && a.DeadbandCounts != nil {
 		n = append(n, "the deadband applies if you switch to three-state (hold)")
 	}

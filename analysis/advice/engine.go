@@ -252,11 +252,12 @@ func (p *plant) penalty(pr *pair) float64 {
 
 // searchResult is the outcome of one search over the parts.
 type searchResult struct {
-	shown   []*pair // verified, best first
-	tried   int     // pairs considered
-	simmed  int     // pairs run in closed loop
-	meeting int     // pairs meeting the goals in the short run
-	best    *pair   // best pair overall (may miss goals)
+	shown   []*pair        // verified, best first
+	tried   int            // pairs considered
+	simmed  int            // pairs run in closed loop
+	meeting int            // pairs meeting the goals in the short run
+	best    *pair          // best pair overall (may miss goals)
+	reasons map[string]int // closed-form failures by reason, over every pair
 }
 
 // search tries every R and C pair on hand.
@@ -276,6 +277,12 @@ func (p *plant) search(kind loop.Kind, period float64) (*searchResult, error) {
 			pr := &pair{r: r, c: c, ci: p.circuit(r, c)}
 			p.closedForm(pr, kind, period)
 			out.tried++
+			for _, f := range pr.fail {
+				if out.reasons == nil {
+					out.reasons = map[string]int{}
+				}
+				out.reasons[f]++
+			}
 			if len(pr.fail) == 0 {
 				pass = append(pass, pr)
 			} else if !contains(pr.fail, "pin current too high") && !contains(pr.fail, "cannot reach the top setpoint") {
@@ -293,6 +300,18 @@ func (p *plant) search(kind loop.Kind, period float64) (*searchResult, error) {
 		return m
 	}
 	sort.SliceStable(pass, func(i, j int) bool { return cfScore(pass[i]) > cfScore(pass[j]) })
+	// Fine series hold hundreds of pairs with the same R*C; keep at most a few per 2 %
+	// band of R*C so that the short runs cover different time constants.
+	perTau := map[int]int{}
+	kept := pass[:0]
+	for _, pr := range pass {
+		b := int(math.Floor(math.Log(pr.r*pr.c) / math.Log(1.02)))
+		if perTau[b] < 3 {
+			perTau[b]++
+			kept = append(kept, pr)
+		}
+	}
+	pass = kept
 	if len(pass) > maxQuick {
 		pass = pass[:maxQuick]
 	}
