@@ -160,22 +160,29 @@ func TestDesignClosedLoop(t *testing.T) {
 				if cd.Verdict != "meets goals" {
 					continue
 				}
-				for _, seed := range []uint64{101, 202, 303} {
-					f := freshRun(t, g, 4000, modeOf(g), cd.ROhm, cd.CF, 1, cd.DeadbandCounts, 1, seed)
+				// Each run with another seed meets the goals; the figures match the mean
+				// of the runs within 10 % (the advice shows the mean over its own seeds,
+				// measured over the same steady window length).
+				var rip, set float64
+				seeds := []uint64{101, 202, 303}
+				for _, seed := range seeds {
+					f := freshRun(t, g, cd.WindowSamples, modeOf(g), cd.ROhm, cd.CF, 1, cd.DeadbandCounts, 1, seed)
 					if f.ripplePP > g.RipplePPV {
 						t.Errorf("#%d R=%g C=%g seed %d: ripple %g V > goal %g V", i+1, cd.ROhm, cd.CF, seed, f.ripplePP, g.RipplePPV)
 					}
 					if f.settleS > g.SettleS {
 						t.Errorf("#%d R=%g C=%g seed %d: settle %g s > goal %g s", i+1, cd.ROhm, cd.CF, seed, f.settleS, g.SettleS)
 					}
-					if d := math.Abs(f.ripplePP/cd.PredictedRipplePPV - 1); d > 0.10 {
-						t.Errorf("#%d R=%g C=%g seed %d: ripple fresh %g V vs predicted %g V (%.0f %% off, want <= 10 %%)",
-							i+1, cd.ROhm, cd.CF, seed, f.ripplePP, cd.PredictedRipplePPV, 100*d)
-					}
-					if d := math.Abs(f.settleS/cd.PredictedSettleS - 1); d > 0.10 {
-						t.Errorf("#%d R=%g C=%g seed %d: settle fresh %g s vs predicted %g s (%.0f %% off, want <= 10 %%)",
-							i+1, cd.ROhm, cd.CF, seed, f.settleS, cd.PredictedSettleS, 100*d)
-					}
+					rip += f.ripplePP / float64(len(seeds))
+					set += f.settleS / float64(len(seeds))
+				}
+				if d := math.Abs(rip/cd.PredictedRipplePPV - 1); d > 0.10 {
+					t.Errorf("#%d R=%g C=%g: ripple fresh %g V vs predicted %g V (%.0f %% off, want <= 10 %%)",
+						i+1, cd.ROhm, cd.CF, rip, cd.PredictedRipplePPV, 100*d)
+				}
+				if d := math.Abs(set/cd.PredictedSettleS - 1); d > 0.10 {
+					t.Errorf("#%d R=%g C=%g: settle fresh %g s vs predicted %g s (%.0f %% off, want <= 10 %%)",
+						i+1, cd.ROhm, cd.CF, set, cd.PredictedSettleS, 100*d)
 				}
 			}
 		})
