@@ -140,6 +140,10 @@ loop:
 				break loop
 			}
 		case <-tick.C:
+			if link.Err() != nil {
+				reason = "capture write failed"
+				break loop
+			}
 			st.status(link.Stats())
 		case <-deadline:
 			reason = "duration reached"

@@ -225,6 +225,12 @@ func TestRecordCommand(t *testing.T) {
 			events: "connected partial unplugged",
 		},
 		{
+			name:   "--duration",
+			args:   []string{"--duration", "3s"},
+			stop:   func(t *testing.T, cmd *exec.Cmd, p *telemetry.PTY) {},
+			events: "connected partial",
+		},
+		{
 			// SIGKILL gives no chance to flush: what the periodic flush wrote must be there.
 			name:   "SIGKILL",
 			stop:   func(t *testing.T, cmd *exec.Cmd, p *telemetry.PTY) { cmd.Process.Kill() },
