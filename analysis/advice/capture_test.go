@@ -138,3 +138,31 @@ func TestCapturesNarrowerBand(t *testing.T) {
 		t.Log("no capture has a setpoint where the charge step alone jumps the narrower band")
 	}
 }
+
+// On each capture, every suggested pair that the advice says meets the goals still meets
+// them in runs with other seeds and at least 1 LSB rms of noise (the measured noise when
+// it is larger).
+func TestCapturesSuggestionsMeetGoals(t *testing.T) {
+	for _, f := range captures(t) {
+		t.Run(filepath.Base(f), func(t *testing.T) {
+			a, err := FromSummary(summarize(t, f), Goals{})
+			if err != nil {
+				t.Fatal(err)
+			}
+			g := a.Goals
+			noise := math.Max(g.NoiseRMSCounts, 1)
+			for _, c := range a.Candidates {
+				if c.Verdict != "meets goals" {
+					continue
+				}
+				for _, seed := range []uint64{501, 502} {
+					fr := freshRun(t, g, c.WindowSamples, modeOf(g), c.ROhm, c.CF, g.CRatio, c.DeadbandCounts, noise, seed)
+					if fr.ripplePP > g.RipplePPV || fr.settleS > g.SettleS {
+						t.Errorf("R=%g C=%g band %d seed %d noise %.2f: ripple %.4g V (goal %.4g), settle %.4g s (goal %.4g)",
+							c.ROhm, c.CF, c.DeadbandCounts, seed, noise, fr.ripplePP, g.RipplePPV, fr.settleS, g.SettleS)
+					}
+				}
+			}
+		})
+	}
+}
