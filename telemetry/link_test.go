@@ -5,6 +5,7 @@ import (
 	"bytes"
 	"fmt"
 	"io"
+	"os"
 	"path/filepath"
 	"strings"
 	"sync"
@@ -410,4 +411,95 @@ func TestLinkWaitsForPort(t *testing.T) {
 	if n != 1 {
 		t.Errorf("waiting events = %d, want 1 (repeats of the same reason are not reported)", n)
 	}
+}
+
+// TestLinkRecordPath records to a file the Link creates, syncs and closes; the Scanner
+// reads it back as a capture.
+func TestLinkRecordPath(t *testing.T) {
+	p, err := OpenPTY()
+	if err != nil {
+		t.Fatalf("OpenPTY: %v", err)
+	}
+	defer p.Close()
+	path := filepath.Join(t.TempDir(), "run.cap")
+	l := Dial(SerialConfig{Path: p.Path(), Baud: 9600}, LinkOptions{RecordPath: path, RecordAttrs: []string{"note=greenhouse-bias"}})
+	w := watch(l)
+	w.waitFor(t, "connected", func(ls []Line) bool { return countEvents(ls, EventConnected) == 1 })
+	go io.WriteString(p.Master(), "# vref=5 adc_bits=10 period_us=1000\n"+dataLine(1)+"\n"+dataLine(2)+"\n")
+	w.waitFor(t, "two lines", func(ls []Line) bool { return len(boardLines(ls)) == 2 })
+	if err := l.Close(); err != nil {
+		t.Fatalf("Close: %v", err)
+	}
+	src, err := OpenFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer src.Close()
+	sc := NewScanner(src)
+	var samples, events int
+	for sc.Scan() {
+		switch sc.Kind() {
+		case RecSample:
+			samples++
+			if !sc.Sample().Has(HasHost) {
+				t.Error("replayed sample without host time")
+			}
+		case RecEvent:
+			events++
+		}
+	}
+	if err := sc.Err(); err != nil {
+		t.Fatal(err)
+	}
+	// The meta line was the partial first line after the open: dropped.
+	if samples != 2 || events != 2 {
+		t.Errorf("replay: %d samples, %d events; want 2 and 2 (connected, partial)", samples, events)
+	}
+	head, _ := os.ReadFile(path)
+	first := strings.SplitN(string(head), "\n", 2)[0]
+	for _, want := range []string{"source=" + p.Path(), "baud=9600", "framing=8N1", "note=greenhouse-bias"} {
+		if !strings.Contains(first, want) {
+			t.Errorf("header %q lacks %q", first, want)
+		}
+	}
+}
+
+// BenchmarkLinkPTY measures lines per second through a real pseudo-terminal and a Link
+// (read, split, time-stamp, record to memory, deliver in batches).
+func BenchmarkLinkPTY(b *testing.B) {
+	p, err := OpenPTY()
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer p.Close()
+	var rec bytes.Buffer
+	l := Dial(SerialConfig{Path: p.Path()}, LinkOptions{Record: &rec})
+	defer l.Close()
+	for l.Stats().Opens == 0 {
+		time.Sleep(time.Millisecond)
+	}
+	var chunk strings.Builder
+	for k := 0; k < 1000; k++ {
+		chunk.WriteString(dataLine(k) + "\n")
+	}
+	b.SetBytes(int64(chunk.Len() / 1000))
+	b.ResetTimer()
+	go func() {
+		io.WriteString(p.Master(), "\n")
+		for sent := 0; sent < b.N; sent += 1000 {
+			if _, err := io.WriteString(p.Master(), chunk.String()); err != nil {
+				return
+			}
+		}
+	}()
+	got := 0
+	for got < b.N {
+		for _, ln := range <-l.Batches() {
+			if ln.Dir == FromBoard {
+				got++
+			}
+		}
+	}
+	b.StopTimer()
+	b.ReportMetric(float64(got)/b.Elapsed().Seconds(), "lines/s")
 }
