@@ -7,9 +7,12 @@
 // batches and summary snapshots in a mailbox; the screen's Model collects them with a
 // re-armed command at most about 30 times a second and redraws from that snapshot.
 //
-//	p := tui.NewReplay(tui.ReplayOptions{Path: "bench.cap", Speed: 1})
-//	m := tui.New(p, tui.Options{})
-//	_, err := tea.NewProgram(m, tea.WithAltScreen()).Run()
+//	p, err := tui.NewReplay(tui.ReplayOptions{Path: "bench.cap", Speed: 1})
+//	if err != nil {
+//		return err
+//	}
+//	defer p.Close()
+//	_, err = tea.NewProgram(tui.New(p, tui.Options{}), tea.WithAltScreen()).Run()
 //
 // Rendering functions (RenderPlot, the chart views) are pure: data and size in, string out,
 // and are covered by golden tests at 80x24 and 120x40.

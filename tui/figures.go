@@ -16,6 +16,9 @@ type Change struct {
 	From, To float64 // deadband half-width, counts (From < 0: not known)
 	Before   *analysis.Segment
 	After    *analysis.Segment
+	// CutS is the start of the segment that was running at the change, in the analysis
+	// clock: only segments that start later ran wholly under the new band.
+	CutS float64
 }
 
 // FiguresModel shows the analysis figures of the current steady segment and the plant,
@@ -113,7 +116,7 @@ func segmentRows(seg *analysis.Segment) [][2]string {
 	}
 	return [][2]string{
 		{"setpoint", fmtSPV(seg)},
-		{"steady from", fmtSI(seg.SteadyStartS, "s") + fmt.Sprintf(" (%d samples)", seg.SteadySamples)},
+		{"steady", fmt.Sprintf("%d samples from %s", seg.SteadySamples, fmtSI(seg.SteadyStartS, "s"))},
 		{"ripple p-p", fmtSI(seg.RipplePPV, "V") + " (" + fmtCounts(seg.RipplePPCounts) + " counts)"},
 		{"ripple rms", fmtSI(seg.RippleRMSV, "V")},
 		{"mean error", fmtSI(seg.MeanErrorV, "V") + " (" + fmtCounts(seg.MeanErrorCounts) + " counts)"},
@@ -167,9 +170,6 @@ func compareBlock(c *Change) string {
 		a := dash
 		if i < len(after) {
 			a = after[i][1]
-		}
-		if before[i][0] == "steady from" {
-			continue
 		}
 		fmt.Fprintf(&b, "\n %-13s %-24s %s", before[i][0], before[i][1], a)
 	}

@@ -27,7 +27,7 @@ func confirmChange(t testing.TB, m Model) Model {
 	seg.SwitchingHz, seg.LimitCyclePeriodS = fp(12.5), fp(0.081)
 	sum.Segments = append(sum.Segments, seg)
 	before := fixtureSummary().Segments[1]
-	box := mailbox{events: []Event{{T: 2.9, Kind: EventDeadband, Text: "deadband 2→4", Value: 4, Segment: &before}}}
+	box := mailbox{events: []Event{{T: 2.9, Kind: EventDeadband, Text: "deadband 2→4", Value: 4, Segment: &before, SegStartS: before.StartS}}}
 	mm, _ := m.Update(samplesMsg{src: m.src, box: box})
 	mm, _ = mm.(Model).Update(samplesMsg{src: m.src, box: mailbox{summary: &sum}})
 	return mm.(Model)

@@ -291,7 +291,7 @@ func afterSegment(s *analysis.Summary, c *Change) *analysis.Segment {
 	var best *analysis.Segment
 	for i := len(s.Segments) - 1; i >= 0; i-- {
 		seg := &s.Segments[i]
-		if c.Before != nil && seg.StartS <= c.Before.StartS {
+		if seg.StartS <= c.CutS {
 			break
 		}
 		if seg.SteadySamples == 0 || seg.DeadbandCounts == nil || *seg.DeadbandCounts != c.To {
@@ -333,7 +333,7 @@ func (m *Model) event(e Event) {
 		if e.Segment != nil && e.Segment.DeadbandCounts != nil {
 			from = *e.Segment.DeadbandCounts
 		}
-		m.change = &Change{At: e.T, From: from, To: e.Value, Before: e.Segment}
+		m.change = &Change{At: e.T, From: from, To: e.Value, Before: e.Segment, CutS: e.SegStartS}
 		if m.pending != nil && int(math.Round(e.Value)) == m.pending.to {
 			m.message = fmt.Sprintf("the board confirmed deadband %d; figures before and after on view 2", m.pending.to)
 			m.pending = nil

@@ -42,8 +42,11 @@ type Event struct {
 	Text  string
 	Value float64
 	// Segment, for EventDeadband, is the figures of the segment that ran under the old
-	// band, taken from the accumulator at the moment of the change.
-	Segment *analysis.Segment
+	// band, taken from the accumulator at the moment of the change (the running segment,
+	// or the one before it when the running one has no steady part yet); SegStartS is
+	// the start of the running segment, in the accumulator's clock.
+	Segment   *analysis.Segment
+	SegStartS float64
 }
 
 // analyzer is the part of analysis.Accumulator the pipeline uses.
@@ -396,9 +399,13 @@ func (c *core) setMeta(m telemetry.Meta) {
 	if m.Has(telemetry.FieldDeadband) && c.samples > 0 && old.Has(telemetry.FieldDeadband) && old.Deadband != m.Deadband {
 		ev := Event{T: c.lastT, Kind: EventDeadband, Value: m.Deadband,
 			Text: "deadband " + ftoa(old.Deadband) + "→" + ftoa(m.Deadband)}
-		if seg := currentSegment(c.acc.Summary()); seg != nil {
+		sum := c.acc.Summary()
+		if seg := currentSegment(sum); seg != nil {
 			s := *seg
 			ev.Segment = &s
+		}
+		if n := len(sum.Segments); n > 0 {
+			ev.SegStartS = sum.Segments[n-1].StartS
 		}
 		c.evs = append(c.evs, ev)
 	}

@@ -41,11 +41,13 @@ func (s *tmuxScreen) keys(k ...string) {
 // waitFor polls the screen until re matches, and returns the submatches.
 func (s *tmuxScreen) waitFor(what string, re *regexp.Regexp, timeout time.Duration) []string {
 	s.t.Helper()
-	deadline := time.Now().Add(timeout)
+	start := time.Now()
+	deadline := start.Add(timeout)
 	var screen string
 	for time.Now().Before(deadline) {
 		screen = s.capture()
 		if m := re.FindStringSubmatch(screen); m != nil {
+			s.t.Logf("%s: after %s", what, time.Since(start).Round(100*time.Millisecond))
 			return m
 		}
 		time.Sleep(200 * time.Millisecond)
@@ -78,9 +80,9 @@ func TestLiveScreenTmux(t *testing.T) {
 		t.Fatalf("go build: %v\n%s", err, out)
 	}
 
-	// The virtual board: unplugged after 35 s, back 3 s later, behind a stable link.
+	// The virtual board: unplugged after 25 s, back 3 s later, behind a stable link.
 	link := filepath.Join(dir, "board")
-	sim := exec.Command(bin, "sim", "--pty", "--link", link, "--unplug-after", "35s", "--replug-after", "3s")
+	sim := exec.Command(bin, "sim", "--pty", "--link", link, "--unplug-after", "25s", "--replug-after", "3s")
 	stdout, err := sim.StdoutPipe()
 	if err != nil {
 		t.Fatal(err)
@@ -126,9 +128,22 @@ func TestLiveScreenTmux(t *testing.T) {
 
 	// The figures view compares the segment before the change with one after it.
 	scr.keys("2")
-	jm := scr.waitFor("band jumps before and after", regexp.MustCompile(`band jumps\s+(\d+)\s+(\d+)`), 20*time.Second)
-	before, _ := strconv.Atoi(jm[1])
-	after, _ := strconv.Atoi(jm[2])
+	// Wait until the "after" segment has at least 1500 steady samples (1.5 s).
+	cmpRE := regexp.MustCompile(`steady\s+\d+ samples from \S+ \S+\s+(\d+) samples from[\s\S]*band jumps\s+(\d+)\s+(\d+)`)
+	var before, after int
+	for deadline := time.Now().Add(25 * time.Second); ; {
+		jm := scr.waitFor("band jumps before and after", cmpRE, time.Until(deadline))
+		n, _ := strconv.Atoi(jm[1])
+		before, _ = strconv.Atoi(jm[2])
+		after, _ = strconv.Atoi(jm[3])
+		if n >= 1500 {
+			break
+		}
+		if time.Now().After(deadline) {
+			t.Fatalf("the segment after the change did not reach 1500 steady samples; screen:\n%s", scr.capture())
+		}
+		time.Sleep(300 * time.Millisecond)
+	}
 	if before == 0 {
 		t.Errorf("band jumps before the change = 0, want > 0 (the scenario's band is too narrow)")
 	}
@@ -138,7 +153,7 @@ func TestLiveScreenTmux(t *testing.T) {
 
 	// Unplug and re-plug.
 	scr.keys("1")
-	scr.waitFor("unplug shown", regexp.MustCompile(`UNPLUGGED, waiting for the board`), 40*time.Second)
+	scr.waitFor("unplug shown", regexp.MustCompile(`UNPLUGGED, waiting for the board`), 25*time.Second)
 	scr.waitFor("recovery shown", regexp.MustCompile(`LIVE · \S+ · connected · [1-9]\d* S/s`), 15*time.Second)
 
 	scr.keys("q")
