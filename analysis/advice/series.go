@@ -101,7 +101,7 @@ func Values(series string, lo, hi float64) ([]float64, error) {
 		return nil, fmt.Errorf("advice: unknown series %q (want one of %s)", series, strings.Join(SeriesNames, ", "))
 	}
 	if !(lo > 0) || !(hi >= lo) {
-		return nil, fmt.Errorf("advice: bad value range [%g, %g]", lo, hi)
+		return nil, fmt.Errorf("advice: empty or bad value range: min %g, max %g (want 0 < min <= max)", lo, hi)
 	}
 	var out []float64
 	for e := math.Floor(math.Log10(lo)) - 1; e <= math.Ceil(math.Log10(hi)); e++ {

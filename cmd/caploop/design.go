@@ -17,6 +17,7 @@ func init() { commands = append(commands, newDesignCmd) }
 // designFlags are the flags of `caploop design`, as typed (engineering notation).
 type designFlags struct {
 	supply, vref, period, ripple, settle, static, load, pin, minPeriod string
+	rMin, rMax, cMin, cMax                                             string
 	bits                                                               int
 	mode, rParts, cParts, series, setpoints                            string
 	noise, sigma                                                       float64
@@ -65,11 +66,15 @@ Ripple may be given in volts (100mV) or as a percentage of full scale (2%).`,
 	fl.StringVar(&f.mode, "mode", "three-state", "controller: two-state or three-state")
 	fl.StringVar(&f.ripple, "ripple", "", "allowed ripple p-p, volts (100mV) or % of full scale (2%); default 2%")
 	fl.StringVar(&f.settle, "settle", "", "settling time of a full-scale step (default 500ms)")
-	fl.StringVar(&f.static, "static-error", "", "allowed static error, volts (default: no goal)")
+	fl.StringVar(&f.static, "static-error", "", "allowed static error, volts (default: the ripple goal; the level may rest anywhere in the band)")
 	fl.StringVar(&f.load, "load", "", "resistive load on the capacitor node (default: none)")
 	fl.StringVar(&f.series, "series", "E12", "preferred-number series for R and C: E6, E12, E24, E96")
 	fl.StringVar(&f.rParts, "r", "", `resistors on hand: a series or a list ("10k 22k 47k")`)
 	fl.StringVar(&f.cParts, "c", "", `capacitors on hand: a series or a list ("100n 470n 1u 2.2u")`)
+	fl.StringVar(&f.rMin, "r-min", "100", "smallest resistor of the series to try")
+	fl.StringVar(&f.rMax, "r-max", "1M", "largest resistor of the series to try")
+	fl.StringVar(&f.cMin, "c-min", "10n", "smallest capacitor of the series to try")
+	fl.StringVar(&f.cMax, "c-max", "100u", "largest capacitor of the series to try")
 	fl.StringVar(&f.pin, "pin-current", "20mA", "pin current limit (about 20 mA on classic parts, from memory)")
 	fl.StringVar(&f.minPeriod, "min-period", "104us", "ADC conversion time, the floor of the sample period")
 	fl.StringVar(&f.setpoints, "setpoints", "", "used setpoints in counts, comma separated (default 10, 50, 90 % of full scale)")
@@ -123,7 +128,11 @@ func (f designFlags) request() (advice.Request, error) {
 	if advice.Series(f.series) == nil {
 		return req, fmt.Errorf("design: --series: unknown series %q (want E6, E12, E24 or E96)", f.series)
 	}
-	g.R.Series, g.C.Series = strings.ToUpper(f.series), strings.ToUpper(f.series)
+	g.R = advice.Parts{Series: strings.ToUpper(f.series), Min: parse("r-min", f.rMin, "Ω"), Max: parse("r-max", f.rMax, "Ω")}
+	g.C = advice.Parts{Series: strings.ToUpper(f.series), Min: parse("c-min", f.cMin, "F"), Max: parse("c-max", f.cMax, "F")}
+	if err != nil {
+		return req, err
+	}
 	if f.rParts != "" {
 		if g.R, err = advice.ParseParts(f.rParts, "Ω"); err != nil {
 			return req, fmt.Errorf("design: --r: %w", err)
