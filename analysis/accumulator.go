@@ -14,7 +14,8 @@ type Options struct {
 	// counted in SegmentsOmitted and StepsOmitted.
 	MaxSegments int
 	// Window is the number of steady readings per segment kept for the autocorrelation
-	// and the spectrum (0 = 4096).
+	// and the spectrum (0 = 1024: limit cycles up to 512 samples show in the
+	// autocorrelation; longer ones come from the drive pattern).
 	Window int
 	// MarginCounts is how far, in counts, a reading must be from the controller's switching
 	// threshold for its sample pair to enter the plant fit (0 = 5): readings near a
@@ -33,7 +34,7 @@ func (o Options) withDefaults() Options {
 		o.MaxSegments = 4096
 	}
 	if o.Window <= 0 {
-		o.Window = 4096
+		o.Window = 1024
 	}
 	if o.MarginCounts <= 0 {
 		o.MarginCounts = 5
@@ -229,9 +230,8 @@ func (a *Accumulator) Add(s telemetry.Sample) {
 	a.n++
 	a.last = tick
 	a.seg.db = a.db
-	a.seg.add(tick, s.PV, u, a.three)
-	if a.seg.steady {
-		a.steadyHist[binOf(e)]++
+	if b := a.seg.add(tick, s.PV, u, a.three); b >= 0 {
+		a.steadyHist[b]++
 	}
 
 	// ADC code histogram and rails.

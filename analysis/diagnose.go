@@ -3,6 +3,7 @@ package analysis
 import (
 	"fmt"
 	"math"
+	"strings"
 
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/si"
@@ -58,59 +59,92 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 	if a.inferred {
 		add(DiagInferredDrive, "info", "The data lines carry no drive u: it was inferred from the %s rule with a deadband of %g counts.", modeName(a.three), a.db)
 	}
+	// Segments with the same setpoint (a repeating profile) share one sentence each.
+	type group struct {
+		sp, db, lastPV                   float64
+		segs                             []int
+		jumps, noiseExits, exits, endRun int64
+		unreachable, unsettled, up       bool
+		droopChecked                     bool
+	}
+	var groups []*group
+	bySP := map[float64]*group{}
 	for i := range figs {
 		f := &figs[i]
-		seg := &sum.Segments[i]
-		if seg.Unreachable {
-			up := f.lastPV < f.sp
-			what, lim := "v_high", "charge"
-			dd := 2
-			if !up {
+		g := bySP[f.sp]
+		if g == nil {
+			g = &group{sp: f.sp, db: f.db}
+			bySP[f.sp] = g
+			groups = append(groups, g)
+		}
+		g.segs = append(g.segs, i+1)
+		g.jumps += f.jumps
+		g.noiseExits += f.noiseExits
+		g.exits += f.exits
+		if f.db > g.db {
+			g.db = f.db
+		}
+		if sum.Segments[i].Unreachable {
+			g.unreachable, g.lastPV, g.endRun, g.up = true, f.lastPV, f.endRun, f.lastPV < f.sp
+		} else if !f.settled && i < len(figs)-1 && f.n >= 16 {
+			g.unsettled, g.lastPV = true, f.lastPV
+		}
+		if f.settled {
+			g.droopChecked = true
+		}
+	}
+	where := func(g *group) string {
+		return fmt.Sprintf("Setpoint %s (%s)", c.fmtV(g.sp), segList(g.segs))
+	}
+	for _, g := range groups {
+		if g.unreachable {
+			what, lim, dd := "v_high", "charge", 2
+			if !g.up {
 				what, lim, dd = "v_low", "discharge", 0
 			}
 			if pf.ok[dd] && !math.IsNaN(pf.fit[dd].VInf) {
-				add(DiagUnreachable, "error", "Segment %d: the setpoint %s is beyond the %s asymptote %s = %s; the loop stays at %s. Lower the load or the buffer drop, or move the setpoint.",
-					i+1, c.fmtV(f.sp), lim, what, c.fmtV(pf.fit[dd].VInf), c.fmtV(f.lastPV))
+				add(DiagUnreachable, "error", "%s: beyond the %s asymptote %s = %s, the loop stays at %s. Lower the load or the buffer drop, or move the setpoint.",
+					where(g), lim, what, c.fmtV(pf.fit[dd].VInf), c.fmtV(g.lastPV))
 			} else {
-				add(DiagUnreachable, "error", "Segment %d: the setpoint %s was never reached; the reading stopped at %s after %d samples of %s.",
-					i+1, c.fmtV(f.sp), c.fmtV(f.lastPV), f.endRun, lim)
+				add(DiagUnreachable, "error", "%s: never reached; the reading stopped at %s after %d samples of %s.",
+					where(g), c.fmtV(g.lastPV), g.endRun, lim)
 			}
-		} else if !f.settled && i < len(figs)-1 && f.n >= 16 {
-			add(DiagNotSettled, "warning", "Segment %d: the reading did not reach the setpoint %s within the segment (%d samples, last reading %s).",
-				i+1, c.fmtV(f.sp), f.n, c.fmtV(f.lastPV))
+		} else if g.unsettled {
+			add(DiagNotSettled, "warning", "%s: the reading did not reach the setpoint within the segment (last reading %s).",
+				where(g), c.fmtV(g.lastPV))
 		}
-		if f.jumps > 0 {
-			step := a.stepNear(f.sp, pf)
-			band := 2*f.db + 1
-			msg := fmt.Sprintf("Segment %d: %d band jumps (a charge followed directly by a discharge or the reverse) with a deadband of ±%g counts (%g counts wide)",
-				i+1, f.jumps, f.db, band)
+		if g.jumps > 0 {
+			step := a.stepNear(g.sp, pf)
+			band := 2*g.db + 1
+			msg := fmt.Sprintf("%s: %d band jumps (a charge followed directly by a discharge or the reverse) with a deadband of ±%g counts (%g counts wide)",
+				where(g), g.jumps, g.db, band)
 			if !math.IsNaN(step) {
 				msg += fmt.Sprintf("; one charge step near the setpoint is about %.1f counts", step)
 				noise := 0.0
 				if sum.Plant.NoiseRMSCounts != nil {
 					noise = *sum.Plant.NoiseRMSCounts
 				}
-				need := math.Ceil((step + 3*noise - 1) / 2)
-				if need > f.db {
+				need := math.Floor((step+3*noise-1)/2) + 1
+				if need > g.db {
 					msg += fmt.Sprintf(", so the band needs a deadband of at least %g counts (step plus 3 sigma of noise)", need)
 				}
 			}
 			add(DiagBandTooNarrow, "warning", "%s.", msg)
 		}
-		if f.noiseExits > 2 && float64(f.noiseExits) > 0.1*float64(f.exits) {
+		if g.noiseExits > 2 && float64(g.noiseExits) > 0.1*float64(g.exits) {
 			noise := "unknown"
 			if sum.Plant.NoiseRMSCounts != nil {
 				noise = fmt.Sprintf("%.2f counts rms", *sum.Plant.NoiseRMSCounts)
 			}
-			add(DiagNoiseChatter, "warning", "Segment %d: %d of %d deadband exits went upward out of hold, which the droop cannot do: ADC noise (%s) chatters against the ±%g count band; widen it or filter the reading.",
-				i+1, f.noiseExits, f.exits, noise, f.db)
+			add(DiagNoiseChatter, "warning", "%s: %d of %d deadband exits went upward out of hold, which the droop cannot do: ADC noise (%s) chatters against the ±%g count band; widen it or filter the reading.",
+				where(g), g.noiseExits, g.exits, noise, g.db)
 		}
-		if f.db > 0 && pf.ok[1] && f.settled {
+		if g.db > 0 && pf.ok[1] && g.droopChecked {
 			hf := pf.fit[1]
-			droop := (1 - hf.A) * (f.sp - hf.VInf)
-			if droop > 0 && 3*droop > 2*f.db+1 {
-				add(DiagDroopTooFast, "warning", "Segment %d: in hold the level droops about %.1f counts per sample, so it crosses the %g-count band in %.1f samples: the loop recharges almost every sample. Reduce the load, shorten the sample period or widen the band.",
-					i+1, droop, 2*f.db+1, (2*f.db+1)/droop)
+			droop := (1 - hf.A) * (g.sp - hf.VInf)
+			if droop > 0 && 3*droop > 2*g.db+1 {
+				add(DiagDroopTooFast, "warning", "%s: in hold the level droops about %.1f counts per sample, so it crosses the %g-count band in %.1f samples: the loop recharges almost every sample. Reduce the load, shorten the sample period or widen the band.",
+					where(g), droop, 2*g.db+1, (2*g.db+1)/droop)
 			}
 		}
 	}
@@ -164,4 +198,24 @@ func (a *Accumulator) stepNear(sp float64, pf plantFit) float64 {
 	}
 	f := pf.fit[2]
 	return (1 - f.A) * (f.VInf - sp)
+}
+
+// segList writes segment numbers as "segment 3" or "segments 1, 4, 7".
+func segList(v []int) string {
+	if len(v) == 1 {
+		return fmt.Sprintf("segment %d", v[0])
+	}
+	var b strings.Builder
+	b.WriteString("segments ")
+	for i, n := range v {
+		if i > 0 {
+			b.WriteString(", ")
+		}
+		if i == 8 {
+			fmt.Fprintf(&b, "... (%d in all)", len(v))
+			break
+		}
+		fmt.Fprint(&b, n)
+	}
+	return b.String()
 }

@@ -66,15 +66,16 @@ type segState struct {
 	trigJ           int // offset since the last charge onset, -1 before the first
 }
 
+// binOf returns the histogram bin of error e: round(e) + histHalf, clamped.
 func binOf(e float64) int {
-	b := int(math.Round(e)) + histHalf
-	if b < 0 {
+	x := e + histHalf + 0.5
+	if !(x >= 0) { // also NaN
 		return 0
 	}
-	if b > 2*histHalf {
+	if x >= 2*histHalf {
 		return 2 * histHalf
 	}
-	return b
+	return int(x) // x >= 0: truncation is floor
 }
 
 // reset prepares s for a new segment.
@@ -109,8 +110,9 @@ func (s *segState) reset(window int) {
 	s.trigMax, s.trigJ = 0, -1
 }
 
-// add feeds one sample of the segment. threeState says band jumps count.
-func (s *segState) add(tick, pv float64, u telemetry.Drive, threeState bool) {
+// add feeds one sample of the segment. threeState says band jumps count. It returns the
+// error bin of a steady sample, -1 before the steady part.
+func (s *segState) add(tick, pv float64, u telemetry.Drive, threeState bool) int {
 	e := pv - s.sp
 	s.n++
 	s.end = tick
@@ -218,6 +220,10 @@ func (s *segState) add(tick, pv float64, u telemetry.Drive, threeState bool) {
 	}
 	s.prevIn = in
 	s.prevU = u
+	if !s.steady {
+		return -1
+	}
+	return b
 }
 
 func sign(e float64) int8 {
@@ -340,9 +346,9 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 		}
 		buf = s.window(buf)
 		resting := f.duty[1] >= 0.98 || s.switches < 4
-		per, fr, _ := ws.analyse(buf)
+		per, fr, peakR := ws.analyse(buf)
 		if !resting {
-			f.periodSamples = limitCycle(per, f.driveTicks, s.ticksPerSample())
+			f.periodSamples = limitCycle(per, peakR, f.driveTicks, s.ticksPerSample())
 		}
 		if f.ppE > 0 {
 			f.freq = fr
@@ -392,9 +398,10 @@ func (s *segState) ticksPerSample() float64 {
 // mean interval between charge onsets (ticks): when the autocorrelation peak lies within
 // 10 % of m onset intervals (a pattern with m charge onsets per period, m >= 1), the
 // period is m mean intervals, which averages over the whole steady part instead of the
-// window and is not tied to the lag grid. Without an autocorrelation peak (noise
-// swamping a small ripple) the drive pattern alone gives it.
-func limitCycle(acf, driveTicks, tps float64) float64 {
+// window and is not tied to the lag grid. Without an autocorrelation peak, or with a
+// weak one (below 0.5 of lag 0: noise swamping a small ripple) that disagrees with the
+// drive pattern, the drive pattern gives it.
+func limitCycle(acf, peakR, driveTicks, tps float64) float64 {
 	drv := driveTicks / tps
 	switch {
 	case math.IsNaN(drv):
@@ -405,6 +412,9 @@ func limitCycle(acf, driveTicks, tps float64) float64 {
 	m := math.Round(acf / drv)
 	if m >= 1 && math.Abs(acf-m*drv) <= 0.1*acf {
 		return m * drv
+	}
+	if peakR < 0.5 {
+		return drv
 	}
 	return acf
 }

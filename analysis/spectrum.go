@@ -29,7 +29,7 @@ type spectral struct {
 // The autocorrelation is the inverse FFT of |FFT(w)|^2 with w zero-padded to twice its
 // length (so it is linear, not circular), divided by acf[0]. A peak is "major" when it
 // follows the first minimum, reaches at least 0.5 of the largest value beyond that
-// minimum, and is above 0.2.
+// minimum, and is above 0.1.
 func (sp *spectral) analyse(w []float64) (period, freq, peakR float64) {
 	period, freq = math.NaN(), math.NaN()
 	m := len(w)
@@ -101,7 +101,7 @@ func (sp *spectral) analyse(w []float64) (period, freq, peakR float64) {
 			maxBeyond = r[j]
 		}
 	}
-	thr := math.Max(0.5*maxBeyond, 0.2*r0)
+	thr := math.Max(0.5*maxBeyond, 0.1*r0)
 	for j := k + 1; j < len(r)-1; j++ {
 		if r[j] >= thr && r[j] >= r[j-1] && r[j] >= r[j+1] {
 			period = float64(j) + parabola(r[j-1], r[j], r[j+1])
