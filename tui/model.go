@@ -356,6 +356,18 @@ func cut(s string, n int) string {
 }
 
 func (m Model) key(msg tea.KeyMsg) (tea.Model, tea.Cmd) {
+	// Keys typed quickly (or sent by a script) arrive as one message with several runes:
+	// outside the note prompt, take them one at a time.
+	if msg.Type == tea.KeyRunes && len(msg.Runes) > 1 && !msg.Paste && !m.noting {
+		var cmds []tea.Cmd
+		var mm tea.Model = m
+		for _, r := range msg.Runes {
+			var cmd tea.Cmd
+			mm, cmd = mm.(Model).key(tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune{r}})
+			cmds = append(cmds, cmd)
+		}
+		return mm, tea.Batch(cmds...)
+	}
 	if m.noting {
 		switch msg.Type {
 		case tea.KeyEnter:

@@ -205,3 +205,19 @@ func TestMarkRecorded(t *testing.T) {
 		t.Errorf("marks on the plot = %+v, want the last to be \"fan on\"", m.marks)
 	}
 }
+
+// TestKeysInOneMessage checks that several keys read in one chunk (fast typing, scripts)
+// act one by one: "++" zooms in twice, "mfan" opens the note prompt and types "fan".
+func TestKeysInOneMessage(t *testing.T) {
+	m := fixtureModel(t, 80, 24)
+	mm, _ := m.Update(tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("++")})
+	m = mm.(Model)
+	if m.span != 0.75 {
+		t.Errorf("span after \"++\" = %g s, want 0.75 s (3 s halved twice)", m.span)
+	}
+	mm, _ = m.Update(tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("mfan")})
+	m = mm.(Model)
+	if !m.noting || string(m.note) != "fan" {
+		t.Errorf("after \"mfan\": noting %v, note %q; want true, \"fan\"", m.noting, string(m.note))
+	}
+}
