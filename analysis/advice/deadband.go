@@ -13,13 +13,16 @@ type SetpointStep struct {
 	SetpointCounts  int     `json:"setpoint_counts"`
 	ChargeCounts    float64 `json:"charge_step_counts"`
 	DischargeCounts float64 `json:"discharge_step_counts"`
-	// NarrowerJumps says whether a band one count narrower than the suggestion is jumped
-	// here: "charge step alone" when the charge step is at least 2*(db-1)+1 counts (a
-	// loaded node droops in hold, so it is re-approached from below for ever and jumps
-	// again and again), "discharge step alone" likewise for the discharge step (jumps
-	// when the loop arrives from above), "with noise" when only the step plus the noise
-	// margin reaches it, "" when it holds.
+	// NarrowerJumps says whether and how a band one count narrower than the suggestion
+	// (db-1) is jumped here: "charge step alone" or "discharge step alone" when that step is
+	// at least 2*(db-1)+1 counts, "charge step with noise" or "discharge step with noise"
+	// when only the step plus the noise margin reaches it, "" when the narrower band holds.
 	NarrowerJumps string `json:"narrower_band_jumps"`
+	// Recurring: the jumps come back again and again, not only on arrival at the
+	// setpoint: the jumping step is a charge and the held node droops (load, leak or
+	// follower), so it is re-approached from below for ever. Otherwise the band is jumped
+	// when the loop arrives from that side after a setpoint change, or by noise.
+	Recurring bool `json:"recurring"`
 }
 
 // stepsAt returns the charge and discharge steps of one period at a setpoint, in counts.
@@ -54,17 +57,27 @@ func deadband(ci loop.Circuit, p *plant, period float64) (int, *DeadbandWorking,
 		w.StepCounts = math.Max(w.StepCounts, math.Max(up, down))
 	}
 	db := bandFor(w.StepCounts + w.MarginCounts)
+	droop := !math.IsInf(ci.Tau(loop.Hold), 1) && ci.VInf(loop.Hold) < p.nodeV(p.lo)
 	for i := range steps {
-		s := math.Max(steps[i].ChargeCounts, steps[i].DischargeCounts)
-		switch edge := float64(2*(db-1) + 1); {
-		case db < 1:
-		case steps[i].ChargeCounts >= edge:
-			steps[i].NarrowerJumps = "charge step alone"
-		case steps[i].DischargeCounts >= edge:
-			steps[i].NarrowerJumps = "discharge step alone"
-		case s+w.MarginCounts >= edge:
-			steps[i].NarrowerJumps = "with noise"
+		edge := float64(2*(db-1) + 1)
+		if db < 1 {
+			continue
 		}
+		up, down := steps[i].ChargeCounts, steps[i].DischargeCounts
+		dir, st := "charge", up
+		if down > up {
+			dir, st = "discharge", down
+		}
+		switch {
+		case up >= edge:
+			dir, st = "charge", up
+			steps[i].NarrowerJumps = "charge step alone"
+		case down >= edge:
+			steps[i].NarrowerJumps = "discharge step alone"
+		case st+w.MarginCounts >= edge:
+			steps[i].NarrowerJumps = dir + " step with noise"
+		}
+		steps[i].Recurring = steps[i].NarrowerJumps != "" && dir == "charge" && droop
 	}
 	w.StaticErrorV = float64(db) * p.lsb()
 	if p.g.rippleSaid {

@@ -189,9 +189,9 @@ func TestDesignClosedLoop(t *testing.T) {
 	}
 }
 
-// A band one count narrower than suggested shows band jumps where the working says the
-// step alone jumps it (a loaded node is re-approached from below by charge steps), and
-// more jumps overall than the suggested band, which jumps rarely if at all.
+// A band one count narrower than suggested shows band jumps where the working says they
+// recur (a loaded node is re-approached from below by charge steps), and more jumps
+// overall than the suggested band, which jumps rarely if at all.
 func TestDeadbandNarrowerJumps(t *testing.T) {
 	cases := []struct {
 		name  string
@@ -229,10 +229,10 @@ func TestDeadbandNarrowerJumps(t *testing.T) {
 				samples += wide.samples
 			}
 			for _, s := range a.Deadband.Steps {
-				if s.NarrowerJumps == "charge step alone" {
+				if s.Recurring {
 					claims++
 					if upNarrow[s.SetpointCounts] == 0 {
-						t.Errorf("band %d shows no upward jumps at sp %d, the working says the charge step alone jumps it", db-1, s.SetpointCounts)
+						t.Errorf("band %d shows no upward jumps at sp %d, the working says the %s jumps it again and again", db-1, s.SetpointCounts, s.NarrowerJumps)
 					}
 				}
 			}
@@ -250,7 +250,7 @@ func TestDeadbandNarrowerJumps(t *testing.T) {
 		})
 	}
 	if claims == 0 {
-		t.Errorf("no case has a setpoint where the charge step alone jumps the narrower band; the check checked nothing")
+		t.Errorf("no case has a setpoint where the narrower band is jumped again and again; the check checked nothing")
 	}
 }
 

@@ -107,7 +107,11 @@ func writeBand(b *strings.Builder, db int, w *DeadbandWorking, g *GoalsUsed) {
 	for _, s := range w.Steps {
 		mark := ""
 		if s.NarrowerJumps != "" {
-			mark = fmt.Sprintf("  <- a band of %d is jumped here (%s)", db-1, s.NarrowerJumps)
+			when := "on arrival"
+			if s.Recurring {
+				when = "again and again as the hold droops"
+			}
+			mark = fmt.Sprintf("  <- a band of %d is jumped here (%s, %s)", db-1, s.NarrowerJumps, when)
 		}
 		fmt.Fprintf(b, "  sp %4d: charge step %.2f, discharge step %.2f counts%s\n",
 			s.SetpointCounts, s.ChargeCounts, s.DischargeCounts, mark)
