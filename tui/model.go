@@ -321,6 +321,8 @@ func (m *Model) event(e Event) {
 		m.message = "link: " + e.Text
 	case EventNote:
 		m.marks = append(m.marks, Mark{T: e.T, Label: cut(e.Text, 16)})
+	case EventInfo:
+		m.message = e.Text
 	case EventSent:
 		if e.Text == "info" {
 			m.message = "asked the board for its settings (info)"

@@ -32,6 +32,7 @@ const (
 	EventNote                      // any other host note from a capture
 	EventReset                     // the source restarted from the beginning (replay seek back)
 	EventDeadband                  // the board confirmed a deadband (Value, counts)
+	EventInfo                      // a notice for the message line only
 )
 
 // Event is something that happened at a moment of the source: shown on the plot or in

@@ -77,6 +77,9 @@ func NewLive(o LiveOptions) *Pipeline {
 			}
 		}
 		st.Lost = link.Stats().Dropped
+		if err := link.Err(); err != nil && rec != "" {
+			st.Recording = "FAILED " + telemetry.SanitizeN([]byte(err.Error()), 60)
+		}
 	}
 	go p.runLive(link, &parser, c)
 	return p
@@ -150,6 +153,7 @@ func (c *core) line(parser *telemetry.Parser, ln telemetry.Line, start time.Time
 			if c.stats.State != "UNPLUGGED, waiting for the board" {
 				c.stats.State = "waiting for the port"
 			}
+			c.event(EventInfo, telemetry.SanitizeN(ln.Raw, 200))
 		case telemetry.EventPartial:
 		default:
 			c.event(EventNote, text)
