@@ -507,10 +507,13 @@ func (m *Model) togglePause() {
 		return
 	}
 	if m.src.Replay() {
+		// The playback holds; the plot keeps following it so steps show.
 		m.src.control(control{pause: 1})
+	} else {
+		// The board keeps sending and the analysis keeps every sample; the plot freezes.
+		m.end = m.latest()
+		m.follow = false
 	}
-	m.end = m.latest()
-	m.follow = false
 	m.setMode(ModePaused)
 }
 
