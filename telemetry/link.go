@@ -268,6 +268,7 @@ func (l *Link) run() {
 	buf := make([]byte, 4096)
 	first := true
 	lastWait := ""
+	backoff := l.opt.Poll
 	for !l.isDone() {
 		p, err := openPort(l.cfg)
 		if err != nil {
@@ -312,7 +313,8 @@ func (l *Link) run() {
 		}
 		first = false
 
-		err = l.readLoop(p, buf)
+		var got int64
+		got, err = l.readLoop(p, buf)
 
 		l.portMu.Lock()
 		l.port = nil
@@ -329,15 +331,23 @@ func (l *Link) run() {
 		l.mu.Unlock()
 		l.event(EventUnplugged)
 		l.flushRecord() // the capture is complete up to the unplug
-		if !l.sleep(l.opt.Poll) {
+		// A port that opens but fails before giving a single byte would otherwise make
+		// an unplugged/reconnected pair every poll: back off up to 5 s while that lasts.
+		if got == 0 {
+			backoff = min(2*backoff, max(5*time.Second, l.opt.Poll))
+		} else {
+			backoff = l.opt.Poll
+		}
+		if !l.sleep(backoff) {
 			return
 		}
 	}
 }
 
 // readLoop reads the open port until it fails, splitting lines and dropping the partial
-// first one.
-func (l *Link) readLoop(p io.Reader, buf []byte) error {
+// first one. It returns the number of bytes read and the error that ended it.
+func (l *Link) readLoop(p io.Reader, buf []byte) (int64, error) {
+	var total int64
 	dropping := true // before the first newline after open
 	skipped := 0     // bytes of the partial first line
 	var lastSkipped byte
@@ -347,6 +357,7 @@ func (l *Link) readLoop(p io.Reader, buf []byte) error {
 	for {
 		n, err := p.Read(buf)
 		now := time.Now()
+		total += int64(n)
 		data := buf[:n]
 		lines = lines[:0]
 		for len(data) > 0 {
@@ -399,10 +410,10 @@ func (l *Link) readLoop(p io.Reader, buf []byte) error {
 			l.deliver(lines)
 		}
 		if err != nil {
-			return err
+			return total, err
 		}
 		if n == 0 && l.isDone() {
-			return io.EOF
+			return total, io.EOF
 		}
 	}
 }
