@@ -17,8 +17,9 @@ type Options struct {
 	// and the spectrum (0 = 1024: limit cycles up to 512 samples show in the
 	// autocorrelation; longer ones come from the drive pattern).
 	Window int
-	// MarginCounts is how far, in counts, a reading must be from the controller's switching
-	// threshold for its sample pair to enter the plant fit (0 = 5): readings near a
+	// MarginCounts is the extra room, in counts, beyond one expected step and 4 sigma of
+	// noise, that the reading before a sample pair must keep from the controller's
+	// switching threshold for the pair to enter the plant fit (0 = 2): readings near a
 	// threshold chose their drive partly by noise, which biases the fit.
 	MarginCounts float64
 	// TraceBuckets is the length of the overview trace (0 = 1024).
@@ -37,7 +38,7 @@ func (o Options) withDefaults() Options {
 		o.Window = 1024
 	}
 	if o.MarginCounts <= 0 {
-		o.MarginCounts = 5
+		o.MarginCounts = 2
 	}
 	if o.TraceBuckets <= 0 {
 		o.TraceBuckets = 1024
@@ -62,10 +63,10 @@ const (
 type memo struct {
 	pv     float64
 	u      telemetry.Drive
-	forced bool // the drive was far from the switching threshold
-	ok     bool // a usable reading (not at a rail)
-	steady bool // in the steady part of its segment
-	next   bool // the following sample came without a gap
+	sp, db float64 // the setpoint and deadband the drive was chosen with
+	ok     bool    // a usable reading (not at a rail)
+	steady bool    // in the steady part of its segment
+	next   bool    // the following sample came without a gap
 }
 
 // balance holds the sums of the hold droop estimate over steady sample pairs: the sum
@@ -90,10 +91,14 @@ type balance struct {
 //	a = sum (z - zbar)(y - ybar) / sum (z - zbar)(x - xbar),   z = V[k-1], x = V[k], y = V[k+1]
 //
 // which is consistent because the ADC noise of V[k-1] is independent of the noise in
-// V[k] and V[k+1]. A pair enters only when the reading V[k] was at least MarginCounts
-// beyond the controller's switching threshold (so the drive did not depend on the noise:
-// otherwise selecting "charge" selects negative noise), no reading is at an ADC rail, and
-// no sample is missing between them.
+// V[k] and V[k+1]. The selection of pairs must not look at the noise of V[k] or
+// V[k+1] either: selecting "charge" selects negative noise in the reading that chose it.
+// So a pair enters only when V[k-1] was so far from the controller's switching
+// threshold that V[k] could not reach it: the range V[k] can take from V[k-1] under
+// the drive chosen after V[k-1] (from the fit so far, or from the running mean step
+// before there is one), widened by 4 sigma of the running noise estimate and
+// MarginCounts, stays below the threshold (above it for discharge). No reading may be
+// at an ADC rail, and no sample missing.
 //
 // The hold droop cannot be fitted the same way: inside the band the readings span a few
 // counts, every hold decision selects its reading (so the noise of the regressor is
@@ -133,7 +138,13 @@ type Accumulator struct {
 	buf      []float64
 	bestSpec specKeep
 
-	fits       [3]ivSums // discharge, (unused), charge
+	fits       [3]ivSums  // discharge, (unused), charge
+	noiseEMA   float64    // running mean of squared second differences, counts^2
+	guard      float64    // 4 sigma of noise plus MarginCounts
+	stepEMA    [3]float64 // running mean of |pv[k+1] - pv[k]| per drive, counts
+	stepA      [3]float64
+	stepV      [3]float64
+	stepOK     [3]bool
 	bal        balance
 	p1, p2     memo
 	codes      []uint32
@@ -165,7 +176,9 @@ func New(opts Options) *Accumulator {
 	a := &Accumulator{opts: opts.withDefaults(), seg: new(segState)}
 	a.seg.reset(a.opts.Window)
 	a.ov.init(a.opts.TraceBuckets)
-	a.db = 0
+	a.noiseEMA = 6 // 1 count rms until the data say otherwise
+	a.stepEMA = [3]float64{16, 16, 16}
+	a.refreshGuard()
 	return a
 }
 
@@ -257,30 +270,78 @@ func (a *Accumulator) Add(s telemetry.Sample) {
 	// Plant fit: pair (p1 -> this) with instrument p2.
 	a.p1.next = contiguous
 	if ok && a.p1.ok && contiguous {
-		if a.p1.forced && a.p1.u != telemetry.Hold && a.p2.ok && a.p2.next {
-			a.fits[a.p1.u+1].add(a.p2.pv, a.p1.pv, pv)
+		p1, p2 := &a.p1, &a.p2
+		d1 := int(p1.u) + 1
+		a.stepEMA[d1] += (math.Abs(pv-p1.pv) - a.stepEMA[d1]) * (1.0 / 256)
+		if p2.ok && p2.next {
+			if p1.u == p2.u {
+				// Noise from second differences inside runs of one drive, where the
+				// exponential's own curvature is far below a count.
+				d2 := pv - 2*p1.pv + p2.pv
+				a.noiseEMA += (d2*d2 - a.noiseEMA) * (1.0 / 256)
+			}
+			lo, hi := a.reach(int(p2.u)+1, p2.pv)
+			switch p1.u {
+			case telemetry.Charge:
+				if hi+a.guard < p1.sp-p1.db {
+					a.fits[2].add(p2.pv, p1.pv, pv)
+				}
+			case telemetry.Discharge:
+				if lo-a.guard > p1.sp+p1.db {
+					a.fits[0].add(p2.pv, p1.pv, pv)
+				}
+			}
 		}
-		if a.p1.steady {
-			d := a.p1.u + 1
-			a.bal.delta += pv - a.p1.pv
-			a.bal.s[d] += a.p1.pv
+		if p1.steady {
+			d := p1.u + 1
+			a.bal.delta += pv - p1.pv
+			a.bal.s[d] += p1.pv
 			a.bal.n[d]++
 		}
 	}
 	a.p2 = a.p1
-	m := a.opts.MarginCounts
-	var forced bool
-	switch u {
-	case telemetry.Charge:
-		forced = e < -a.db-m
-	case telemetry.Discharge:
-		forced = e > a.db+m
-	default:
-		forced = math.Abs(e) < a.db-m
+	a.p1 = memo{pv: pv, u: u, ok: ok, steady: a.seg.steady, sp: s.SP, db: a.db}
+	if a.n&63 == 0 {
+		a.refreshGuard()
 	}
-	a.p1 = memo{pv: pv, u: u, forced: forced, ok: ok, steady: a.seg.steady}
 
 	a.ov.add(tick, s.SP, pv)
+}
+
+// reach returns the range [lo, hi] the next reading can take, in counts, one period
+// after reading v under drive index d (0 discharge, 1 hold, 2 charge), noise aside:
+// with a fit, v + (1 - a)(VInf - v) within 10 % of the step plus half a count; without
+// one (and for hold) from v towards the drive's direction by up to twice the running
+// mean of |pv[k+1] - pv[k]| under that drive.
+func (a *Accumulator) reach(d int, v float64) (lo, hi float64) {
+	if d != 1 && a.stepOK[d] {
+		step := (1 - a.stepA[d]) * (a.stepV[d] - v)
+		slack := 0.1*math.Abs(step) + 0.5
+		return v + step - slack, v + step + slack
+	}
+	s := 2*a.stepEMA[d] + 0.5
+	switch d {
+	case 2:
+		return v, v + s
+	case 0:
+		return v - s, v
+	}
+	return v - s, v + 0.5
+}
+
+// refreshGuard updates the selection margin from the noise estimate and the step model
+// from the fits (every 64 samples, so its cost per sample is small).
+func (a *Accumulator) refreshGuard() {
+	// A second difference of white noise has variance 6 sigma^2.
+	a.guard = 4*math.Sqrt(a.noiseEMA/6) + a.opts.MarginCounts
+	for _, d := range []int{0, 2} {
+		if a.fits[d].n < 8 {
+			continue
+		}
+		if f, ok := a.fits[d].free(); ok && f.A > 0 && f.A < 1 && !math.IsNaN(f.VInf) && f.SeA < 0.2*(1-f.A) {
+			a.stepA[d], a.stepV[d], a.stepOK[d] = f.A, f.VInf, true
+		}
+	}
 }
 
 func (a *Accumulator) growCodes(code int) {

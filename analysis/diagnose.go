@@ -165,7 +165,7 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 			fmtS(*sum.SamplePeriodS), fmtS(a.opts.ConversionS))
 	}
 	if a.n > 100 && !pf.ok[2] && !pf.ok[0] {
-		add(DiagNoIdentify, "info", "No time constant could be identified: there is no run of charge or discharge at least %g counts from the setpoint. A setpoint step in the capture gives one.", a.opts.MarginCounts)
+		add(DiagNoIdentify, "info", "No time constant could be identified: there is no run of charge or discharge far enough from the setpoint (one step plus %.0f counts of noise margin). A setpoint step in the capture gives one.", a.guard)
 	}
 	if p := sum.Plant; p.SenseDropV != nil {
 		add(DiagSenseDrop, "info", "v_high is %s below the supply: a buffer (an emitter follower drops about 0.65 V) or a load lowers the top of the range.",
