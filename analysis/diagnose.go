@@ -96,6 +96,23 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 	where := func(g *group) string {
 		return fmt.Sprintf("Setpoint %s (%s)", c.fmtV(g.sp), segList(g.segs))
 	}
+	// Per setpoint sentences: at most perCode of each code, then one sentence for the rest
+	// (a ramp or a sine setpoint makes hundreds of setpoints).
+	const perCode = 3
+	seen := map[string]int{}
+	more := map[string]int{}
+	var order []string
+	addG := func(code, sev, format string, args ...any) {
+		seen[code]++
+		if seen[code] > perCode {
+			if more[code] == 0 {
+				order = append(order, code+"\x00"+sev)
+			}
+			more[code]++
+			return
+		}
+		add(code, sev, format, args...)
+	}
 	for _, g := range groups {
 		if g.unreachable {
 			what, lim, dd := "v_high", "charge", 2
@@ -103,14 +120,14 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 				what, lim, dd = "v_low", "discharge", 0
 			}
 			if pf.ok[dd] && !math.IsNaN(pf.fit[dd].VInf) {
-				add(DiagUnreachable, "error", "%s: beyond the %s asymptote %s = %s, the loop stays at %s. Lower the load or the buffer drop, or move the setpoint.",
+				addG(DiagUnreachable, "error", "%s: beyond the %s asymptote %s = %s, the loop stays at %s. Lower the load or the buffer drop, or move the setpoint.",
 					where(g), lim, what, c.fmtV(pf.fit[dd].VInf), c.fmtV(g.lastPV))
 			} else {
-				add(DiagUnreachable, "error", "%s: never reached; the reading stopped at %s after %d samples of %s.",
+				addG(DiagUnreachable, "error", "%s: never reached; the reading stopped at %s after %d samples of %s.",
 					where(g), c.fmtV(g.lastPV), g.endRun, lim)
 			}
 		} else if g.unsettled {
-			add(DiagNotSettled, "warning", "%s: the reading did not reach the setpoint within the segment (last reading %s).",
+			addG(DiagNotSettled, "warning", "%s: the reading did not reach the setpoint within the segment (last reading %s).",
 				where(g), c.fmtV(g.lastPV))
 		}
 		if g.jumps > 0 {
@@ -129,24 +146,28 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 					msg += fmt.Sprintf(", so the band needs a deadband of at least %g counts (step plus 3 sigma of noise)", need)
 				}
 			}
-			add(DiagBandTooNarrow, "warning", "%s.", msg)
+			addG(DiagBandTooNarrow, "warning", "%s.", msg)
 		}
 		if g.noiseExits > 2 && float64(g.noiseExits) > 0.1*float64(g.exits) {
 			noise := "unknown"
 			if sum.Plant.NoiseRMSCounts != nil {
 				noise = fmt.Sprintf("%.2f counts rms", *sum.Plant.NoiseRMSCounts)
 			}
-			add(DiagNoiseChatter, "warning", "%s: %d of %d deadband exits went upward out of hold, which the droop cannot do: ADC noise (%s) chatters against the ±%g count band; widen it or filter the reading.",
+			addG(DiagNoiseChatter, "warning", "%s: %d of %d deadband exits went upward out of hold, which the droop cannot do: ADC noise (%s) chatters against the ±%g count band; widen it or filter the reading.",
 				where(g), g.noiseExits, g.exits, noise, g.db)
 		}
 		if g.db > 0 && pf.ok[1] && g.droopChecked {
 			hf := pf.fit[1]
 			droop := (1 - hf.A) * (g.sp - hf.VInf)
 			if droop > 0 && 3*droop > 2*g.db+1 {
-				add(DiagDroopTooFast, "warning", "%s: in hold the level droops about %.1f counts per sample, so it crosses the %g-count band in %.1f samples: the loop recharges almost every sample. Reduce the load, shorten the sample period or widen the band.",
+				addG(DiagDroopTooFast, "warning", "%s: in hold the level droops about %.1f counts per sample, so it crosses the %g-count band in %.1f samples: the loop recharges almost every sample. Reduce the load, shorten the sample period or widen the band.",
 					where(g), droop, 2*g.db+1, (2*g.db+1)/droop)
 			}
 		}
+	}
+	for _, k := range order {
+		code, sev, _ := strings.Cut(k, "\x00")
+		add(code, sev, "The same (%s) at %d more setpoints.", strings.ReplaceAll(code, "_", " "), more[code])
 	}
 	if sum.Gaps > 0 && a.n > 0 {
 		add(DiagDroppedSamples, "warning", "%d samples are missing (%.2f %% of %d): the link dropped lines or the board skipped periods.",
