@@ -72,26 +72,17 @@ type pendingChange struct {
 	to int
 }
 
-// scratch holds buffers reused across frames (the model is copied by value).
-type scratch struct{ pts []Point }
-
 // Model is the bench screen: the root bubbletea model that owns the small models and
 // the retained window of points.
 type Model struct {
-	src   *Pipeline
-	opts  Options
-	keys  KeyMap
-	help  help.Model
-	mode  Mode
-	view  View
-	full  bool // full help shown
-	ring  *Ring
-	marks []Mark
-	buf   *scratch
-
-	span   float64 // seconds shown
-	end    float64 // right edge when not following
-	follow bool
+	src  *Pipeline
+	opts Options
+	keys KeyMap
+	help help.Model
+	mode Mode
+	view View
+	full bool // full help shown
+	plot PlotModel
 
 	width, height int
 
@@ -101,7 +92,6 @@ type Model struct {
 	charts  [3]ChartModel
 
 	sum     *analysis.Summary
-	volts   bool
 	confirm int // deadband waiting for y/n; 0 = none
 	noting  bool
 	note    []rune
@@ -131,10 +121,7 @@ func New(src *Pipeline, opts Options) Model {
 		opts:    opts,
 		keys:    DefaultKeyMap(),
 		help:    help.New(),
-		ring:    NewRing(opts.Retain),
-		buf:     &scratch{},
-		span:    opts.Span,
-		follow:  true,
+		plot:    NewPlot(opts.Retain, opts.Span, opts.Color),
 		width:   80,
 		height:  24,
 		figures: NewFigures(),
@@ -160,7 +147,7 @@ func New(src *Pipeline, opts Options) Model {
 func (m Model) Init() tea.Cmd { return m.src.wait(time.Time{}) }
 
 // Ring returns the retained window (for tests and benchmarks).
-func (m Model) Ring() *Ring { return m.ring }
+func (m Model) Ring() *Ring { return m.plot.ring }
 
 func (m *Model) layout() {
 	m.help.Width = m.width
@@ -170,6 +157,7 @@ func (m *Model) layout() {
 	if m.height >= 36 {
 		advH = 5
 	}
+	m.plot.SetSize(m.width, bodyH-figH-advH)
 	if m.view == ViewTrace {
 		m.figures.SetSize(m.width, figH, true)
 		m.advice.SetSize(m.width, advH, true)
@@ -239,23 +227,17 @@ func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
 // takeFrame applies one mailbox to the model.
 func (m *Model) takeFrame(b mailbox) tea.Cmd {
 	if b.reset {
-		m.ring.Reset()
-		m.marks = m.marks[:0]
 		m.change, m.pending = nil, nil
 	}
-	for _, p := range b.points {
-		m.ring.Push(p)
-	}
+	var marks []Mark
 	for _, e := range b.events {
-		m.event(e)
+		if mk, ok := m.event(e); ok {
+			marks = append(marks, mk)
+		}
 	}
+	m.plot, _ = m.plot.Update(pointsMsg{points: b.points, marks: marks, reset: b.reset})
 	if b.summary != nil {
 		m.sum = b.summary
-		if b.summary.Traces != nil {
-			m.volts = b.summary.Traces.Volts
-		} else {
-			m.volts = b.summary.Board.VrefV != nil && b.summary.Board.ADCBits != nil
-		}
 		if m.change != nil {
 			m.change.After = afterSegment(b.summary, m.change)
 		}
@@ -274,6 +256,7 @@ func (m *Model) takeFrame(b mailbox) tea.Cmd {
 		m.message = "source: " + telemetry.Sanitize([]byte(b.err.Error()))
 	}
 	snap := snapshotMsg{summary: b.summary, advice: b.advice, adviceErr: b.adviceErr, stats: b.stats, change: m.change}
+	m.plot, _ = m.plot.Update(snap)
 	m.figures, _ = m.figures.Update(snap)
 	m.advice, _ = m.advice.Update(snap)
 	m.status, _ = m.status.Update(snap)
@@ -312,15 +295,16 @@ func afterSegment(s *analysis.Summary, c *Change) *analysis.Segment {
 	return &out
 }
 
-func (m *Model) event(e Event) {
+// event applies one source event and returns the mark it puts on the plot, if any.
+func (m *Model) event(e Event) (Mark, bool) {
 	switch e.Kind {
 	case EventMark:
-		m.marks = append(m.marks, Mark{T: e.T, Label: cut(e.Text, 20)})
+		return Mark{T: e.T, Label: cut(e.Text, 20)}, true
 	case EventState:
-		m.marks = append(m.marks, Mark{T: e.T, Label: cut(e.Text, 12)})
 		m.message = "link: " + e.Text
+		return Mark{T: e.T, Label: cut(e.Text, 12)}, true
 	case EventNote:
-		m.marks = append(m.marks, Mark{T: e.T, Label: cut(e.Text, 16)})
+		return Mark{T: e.T, Label: cut(e.Text, 16)}, true
 	case EventInfo:
 		m.message = e.Text
 	case EventSent:
@@ -330,7 +314,6 @@ func (m *Model) event(e Event) {
 			m.message = "sent: " + e.Text
 		}
 	case EventDeadband:
-		m.marks = append(m.marks, Mark{T: e.T, Label: "db " + strings.TrimPrefix(e.Text, "deadband ")})
 		from := -1.0
 		if e.Segment != nil && e.Segment.DeadbandCounts != nil {
 			from = *e.Segment.DeadbandCounts
@@ -342,11 +325,9 @@ func (m *Model) event(e Event) {
 		} else {
 			m.message = "the board reports " + e.Text + "; figures before and after on view 2"
 		}
+		return Mark{T: e.T, Label: "db " + strings.TrimPrefix(e.Text, "deadband ")}, true
 	}
-	// Keep marks bounded: drop those older than the retained window.
-	if len(m.marks) > 256 {
-		m.marks = append(m.marks[:0], m.marks[len(m.marks)-128:]...)
-	}
+	return Mark{}, false
 }
 
 func cut(s string, n int) string {
@@ -379,8 +360,8 @@ func (m Model) key(msg tea.KeyMsg) (tea.Model, tea.Cmd) {
 				note = "mark"
 			}
 			m.note = nil
-			t := m.latest()
-			m.marks = append(m.marks, Mark{T: t, Label: cut(note, 20)})
+			t := m.plot.Latest()
+			m.plot, _ = m.plot.Update(pointsMsg{marks: []Mark{{T: t, Label: cut(note, 20)}}})
 			m.message = "marked " + formatSeconds(t) + ": " + note
 			src := m.src
 			return m, func() tea.Msg {
@@ -428,15 +409,15 @@ func (m Model) key(msg tea.KeyMsg) (tea.Model, tea.Cmd) {
 	case key.Matches(msg, k.Pause):
 		m.togglePause()
 	case key.Matches(msg, k.ZoomIn):
-		m.zoom(0.5)
+		m.plot.Zoom(0.5)
 	case key.Matches(msg, k.ZoomOut):
-		m.zoom(2)
+		m.plot.Zoom(2)
 	case key.Matches(msg, k.Back):
-		m.scroll(-0.25)
+		m.plot.Scroll(-0.25, m.mode == ModePaused)
 	case key.Matches(msg, k.Forward):
-		m.scroll(0.25)
+		m.plot.Scroll(0.25, m.mode == ModePaused)
 	case key.Matches(msg, k.Latest):
-		m.follow = true
+		m.plot.Follow()
 	case key.Matches(msg, k.NextView):
 		m.view = (m.view + 1) % numViews
 		m.layout()
@@ -469,13 +450,13 @@ func (m Model) key(msg tea.KeyMsg) (tea.Model, tea.Cmd) {
 	case key.Matches(msg, k.Slower):
 		m.setSpeed(-1)
 	case key.Matches(msg, k.StepOnce):
-		m.src.control(control{step: m.span / 10})
+		m.src.control(control{step: m.plot.Span() / 10})
 	case key.Matches(msg, k.SeekBack):
 		m.src.control(control{seek: -10})
-		m.follow = true
+		m.plot.Follow()
 	case key.Matches(msg, k.SeekAhead):
 		m.src.control(control{seek: 10})
-		m.follow = true
+		m.plot.Follow()
 	}
 	return m, nil
 }
@@ -503,7 +484,7 @@ func (m *Model) togglePause() {
 		} else {
 			m.setMode(ModeLive)
 		}
-		m.follow = true
+		m.plot.Follow()
 		return
 	}
 	if m.src.Replay() {
@@ -511,8 +492,7 @@ func (m *Model) togglePause() {
 		m.src.control(control{pause: 1})
 	} else {
 		// The board keeps sending and the analysis keeps every sample; the plot freezes.
-		m.end = m.latest()
-		m.follow = false
+		m.plot.Freeze()
 	}
 	m.setMode(ModePaused)
 }
@@ -520,57 +500,6 @@ func (m *Model) togglePause() {
 func (m *Model) setSpeed(d int) {
 	m.speedIx = min(max(m.speedIx+d, 0), len(m.speeds)-1)
 	m.src.control(control{speed: m.speeds[m.speedIx], setSpeed: true})
-}
-
-func (m Model) latest() float64 {
-	if p, ok := m.ring.Last(); ok {
-		return p.T
-	}
-	return 0
-}
-
-func (m Model) oldest() float64 {
-	if m.ring.Len() == 0 {
-		return 0
-	}
-	return m.ring.At(0).T
-}
-
-func (m *Model) zoom(f float64) {
-	s := m.span * f
-	lo := 0.005
-	hi := math.Max(m.latest()-m.oldest(), 1)
-	m.span = math.Min(math.Max(s, lo), math.Max(hi, lo))
-}
-
-func (m *Model) scroll(frac float64) {
-	if m.follow {
-		m.end = m.latest()
-	}
-	m.end += frac * m.span
-	if m.end >= m.latest() {
-		m.end = m.latest()
-		if m.mode != ModePaused {
-			m.follow = true
-		}
-		return
-	}
-	m.follow = false
-	if m.end < m.oldest()+m.span {
-		m.end = m.oldest() + m.span
-	}
-}
-
-// window returns the span on screen.
-func (m Model) window() (from, to float64) {
-	to = m.end
-	if m.follow {
-		to = m.latest()
-	}
-	if to < m.span {
-		to = math.Max(to, m.span)
-	}
-	return to - m.span, to
 }
 
 // View draws the screen: header, body of the current view, message, status, help.
@@ -587,9 +516,7 @@ func (m Model) View() string {
 	} else {
 		switch m.view {
 		case ViewTrace:
-			figH, advH := m.figures.height, m.advice.height
-			plotH := bodyH - figH - advH
-			body = m.plotView(w, plotH) + "\n" + m.figures.View() + "\n" + m.advice.View()
+			body = m.plot.View() + "\n" + m.figures.View() + "\n" + m.advice.View()
 		case ViewFigures:
 			body = m.figures.View() + "\n" + m.advice.View()
 		default:
@@ -617,7 +544,7 @@ func (m Model) header() string {
 		tabs = append(tabs, name)
 	}
 	left := "caploop  " + strings.Join(tabs, " ")
-	right := "window " + formatSeconds(m.span)
+	right := "window " + formatSeconds(m.plot.Span())
 	if m.ended {
 		right = "ended · " + right
 	}
@@ -626,64 +553,4 @@ func (m Model) header() string {
 		return padRight(left, m.width)
 	}
 	return left + strings.Repeat(" ", gap) + right
-}
-
-// plotView decimates the visible part of the ring to at most two points per column
-// (the column's lowest and highest pv), then draws it with RenderPlot.
-func (m Model) plotView(w, h int) string {
-	from, to := m.window()
-	cols := max(plotColumns(w), 1)
-	pts := decimate(m.ring, from, to, cols, m.buf.pts[:0])
-	m.buf.pts = pts
-	var marks []Mark
-	for _, mk := range m.marks {
-		if mk.T >= from && mk.T < to {
-			marks = append(marks, mk)
-		}
-	}
-	return RenderPlot(Window{From: from, To: to, Points: pts, Marks: marks, Volts: m.volts, Color: m.opts.Color}, w, h)
-}
-
-// decimate appends to dst the points of r in [from, to), keeping for each of cols equal
-// time columns only its lowest-pv and highest-pv points (in time order), so the plot of
-// the result equals the plot of all points while the work per frame stays bounded.
-func decimate(r *Ring, from, to float64, cols int, dst []Point) []Point {
-	i := r.Search(from)
-	n := r.Len()
-	span := to - from
-	cur := -1
-	var lo, hi Point
-	var loI, hiI int
-	emit := func() {
-		if cur < 0 {
-			return
-		}
-		if loI == hiI {
-			dst = append(dst, lo)
-		} else if loI < hiI {
-			dst = append(dst, lo, hi)
-		} else {
-			dst = append(dst, hi, lo)
-		}
-	}
-	for ; i < n; i++ {
-		p := r.At(i)
-		if p.T >= to {
-			break
-		}
-		c := int((p.T - from) / span * float64(cols))
-		if c != cur {
-			emit()
-			cur, lo, hi, loI, hiI = c, p, p, i, i
-			continue
-		}
-		if p.PV < lo.PV {
-			lo, loI = p, i
-		}
-		if p.PV >= hi.PV {
-			hi, hiI = p, i
-		}
-	}
-	emit()
-	return dst
 }

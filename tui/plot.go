@@ -5,8 +5,194 @@ import (
 	"math"
 	"strings"
 
+	tea "github.com/charmbracelet/bubbletea"
 	"github.com/guptarohit/asciigraph"
 )
+
+// pointsMsg carries new points and marks to the plot; reset empties it first.
+type pointsMsg struct {
+	points []Point
+	marks  []Mark
+	reset  bool
+}
+
+// maxMarks bounds the marks kept; older ones go first.
+const maxMarks = 256
+
+// PlotModel is the trace plot: the ring of retained points, the marks, and the time
+// window on screen with its zoom, scroll and freeze.
+type PlotModel struct {
+	ring   *Ring
+	marks  []Mark
+	buf    *[]Point // reused across frames (the model is copied by value)
+	span   float64  // seconds shown
+	end    float64  // right edge when not following the newest point
+	follow bool
+	volts  bool
+	color  bool
+	width  int
+	height int
+}
+
+// NewPlot returns a plot that retains retain points and shows span seconds.
+func NewPlot(retain int, span float64, color bool) PlotModel {
+	return PlotModel{ring: NewRing(retain), buf: new([]Point), span: span, follow: true, color: color}
+}
+
+// SetSize sets the plot size in cells.
+func (m *PlotModel) SetSize(width, height int) { m.width, m.height = width, height }
+
+// Span returns the seconds shown.
+func (m PlotModel) Span() float64 { return m.span }
+
+// Update takes new points and marks, and the units from summary snapshots.
+func (m PlotModel) Update(msg tea.Msg) (PlotModel, tea.Cmd) {
+	switch msg := msg.(type) {
+	case pointsMsg:
+		if msg.reset {
+			m.ring.Reset()
+			m.marks = m.marks[:0]
+		}
+		for _, p := range msg.points {
+			m.ring.Push(p)
+		}
+		m.marks = append(m.marks, msg.marks...)
+		if len(m.marks) > maxMarks {
+			m.marks = append(m.marks[:0:0], m.marks[len(m.marks)-maxMarks/2:]...)
+		}
+	case snapshotMsg:
+		if s := msg.summary; s != nil {
+			if s.Traces != nil {
+				m.volts = s.Traces.Volts
+			} else {
+				m.volts = s.Board.VrefV != nil && s.Board.ADCBits != nil
+			}
+		}
+	}
+	return m, nil
+}
+
+// Latest returns the time of the newest point (0 when empty).
+func (m PlotModel) Latest() float64 {
+	if p, ok := m.ring.Last(); ok {
+		return p.T
+	}
+	return 0
+}
+
+// Oldest returns the time of the oldest retained point (0 when empty).
+func (m PlotModel) Oldest() float64 {
+	if m.ring.Len() == 0 {
+		return 0
+	}
+	return m.ring.At(0).T
+}
+
+// Zoom multiplies the span by f, between 5 ms and the retained duration.
+func (m *PlotModel) Zoom(f float64) {
+	lo := 0.005
+	hi := math.Max(m.Latest()-m.Oldest(), 1)
+	m.span = math.Min(math.Max(m.span*f, lo), math.Max(hi, lo))
+}
+
+// Scroll moves the window by frac spans (negative: back in time). Reaching the newest
+// point follows it again unless held.
+func (m *PlotModel) Scroll(frac float64, held bool) {
+	if m.follow {
+		m.end = m.Latest()
+	}
+	m.end += frac * m.span
+	if m.end >= m.Latest() {
+		m.end = m.Latest()
+		if !held {
+			m.follow = true
+		}
+		return
+	}
+	m.follow = false
+	if m.end < m.Oldest()+m.span {
+		m.end = m.Oldest() + m.span
+	}
+}
+
+// Freeze stops following: the window stays where it is while points keep arriving.
+func (m *PlotModel) Freeze() {
+	m.end = m.Latest()
+	m.follow = false
+}
+
+// Follow makes the window follow the newest point.
+func (m *PlotModel) Follow() { m.follow = true }
+
+// Window returns the time span on screen.
+func (m PlotModel) Window() (from, to float64) {
+	to = m.end
+	if m.follow {
+		to = m.Latest()
+	}
+	to = math.Max(to, m.span)
+	return to - m.span, to
+}
+
+// View decimates the visible part of the ring to at most two points per column (the
+// column's lowest and highest pv), then draws it with RenderPlot.
+func (m PlotModel) View() string {
+	from, to := m.Window()
+	cols := max(plotColumns(m.width), 1)
+	pts := decimate(m.ring, from, to, cols, (*m.buf)[:0])
+	*m.buf = pts
+	var marks []Mark
+	for _, mk := range m.marks {
+		if mk.T >= from && mk.T < to {
+			marks = append(marks, mk)
+		}
+	}
+	return RenderPlot(Window{From: from, To: to, Points: pts, Marks: marks, Volts: m.volts, Color: m.color}, m.width, m.height)
+}
+
+// decimate appends to dst the points of r in [from, to), keeping for each of cols equal
+// time columns only its lowest-pv and highest-pv points (in time order), so the plot of
+// the result equals the plot of all points while the work per frame stays bounded.
+func decimate(r *Ring, from, to float64, cols int, dst []Point) []Point {
+	i := r.Search(from)
+	n := r.Len()
+	span := to - from
+	cur := -1
+	var lo, hi Point
+	var loI, hiI int
+	emit := func() {
+		if cur < 0 {
+			return
+		}
+		if loI == hiI {
+			dst = append(dst, lo)
+		} else if loI < hiI {
+			dst = append(dst, lo, hi)
+		} else {
+			dst = append(dst, hi, lo)
+		}
+	}
+	for ; i < n; i++ {
+		p := r.At(i)
+		if p.T >= to {
+			break
+		}
+		c := int((p.T - from) / span * float64(cols))
+		if c != cur {
+			emit()
+			cur, lo, hi, loI, hiI = c, p, p, i, i
+			continue
+		}
+		if p.PV < lo.PV {
+			lo, loI = p, i
+		}
+		if p.PV >= hi.PV {
+			hi, hiI = p, i
+		}
+	}
+	emit()
+	return dst
+}
 
 // Mark is a moment shown on the plot as a dotted vertical line with a short label.
 type Mark struct {

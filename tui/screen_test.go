@@ -39,7 +39,7 @@ func TestColor(t *testing.T) {
 	}{{"no colour", false}, {"colour", true}} {
 		t.Run(tc.name, func(t *testing.T) {
 			m := fixtureModel(t, 80, 24)
-			m.opts.Color = tc.color
+			m.opts.Color, m.plot.color = tc.color, tc.color
 			got := strings.Contains(m.View(), "\x1b[")
 			if got != tc.color {
 				t.Errorf("escape sequences in the screen = %v, want %v", got, tc.color)
@@ -80,13 +80,13 @@ func TestUntrustedText(t *testing.T) {
 		t.Errorf("rejected lines = %d, want 1", got)
 	}
 	found := false
-	for _, mk := range m.marks {
+	for _, mk := range m.plot.marks {
 		if strings.Contains(mk.Label, "red") {
 			found = true
 		}
 	}
 	if !found {
-		t.Errorf("the capture's mark is not on the plot; marks %+v", m.marks)
+		t.Errorf("the capture's mark is not on the plot; marks %+v", m.plot.marks)
 	}
 }
 
@@ -144,10 +144,10 @@ func TestReplayControls(t *testing.T) {
 		t.Errorf("speed = %g, want 0 (max)", m.status.st.Speed)
 	}
 	m = press(t, m, "[", "[", "[", ",") // real time, then 10 s back: the start
-	waitUntil("restart", func() bool { return m.status.st.State != "ended" && m.ring.Len() < n })
+	waitUntil("restart", func() bool { return m.status.st.State != "ended" && m.plot.ring.Len() < n })
 	m = press(t, m, "]", "]", "]") // max speed to the end
 	waitUntil("end again", func() bool { return m.status.st.State == "ended" && m.status.st.Samples == n })
-	if got := m.ring.Len(); got != n {
+	if got := m.plot.ring.Len(); got != n {
 		t.Errorf("points after seeking back and replaying = %d, want %d (no duplicates)", got, n)
 	}
 }
@@ -201,8 +201,8 @@ func TestMarkRecorded(t *testing.T) {
 	if !found {
 		t.Errorf("capture %s has no \"! mark fan on\" record", rec)
 	}
-	if len(m.marks) == 0 || m.marks[len(m.marks)-1].Label != "fan on" {
-		t.Errorf("marks on the plot = %+v, want the last to be \"fan on\"", m.marks)
+	if len(m.plot.marks) == 0 || m.plot.marks[len(m.plot.marks)-1].Label != "fan on" {
+		t.Errorf("marks on the plot = %+v, want the last to be \"fan on\"", m.plot.marks)
 	}
 }
 
@@ -212,8 +212,8 @@ func TestKeysInOneMessage(t *testing.T) {
 	m := fixtureModel(t, 80, 24)
 	mm, _ := m.Update(tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("++")})
 	m = mm.(Model)
-	if m.span != 0.75 {
-		t.Errorf("span after \"++\" = %g s, want 0.75 s (3 s halved twice)", m.span)
+	if m.plot.span != 0.75 {
+		t.Errorf("span after \"++\" = %g s, want 0.75 s (3 s halved twice)", m.plot.span)
 	}
 	mm, _ = m.Update(tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("mfan")})
 	m = mm.(Model)
