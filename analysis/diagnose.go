@@ -59,7 +59,7 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 	if a.inferred {
 		add(DiagInferredDrive, "info", "The data lines carry no drive u: it was inferred from the %s rule with a deadband of %g counts.", modeName(a.three), a.db)
 	}
-	// Segments with the same setpoint (a repeating profile) share one sentence each.
+	// Segments with the same setpoint and band (a repeating profile) share one sentence each.
 	type group struct {
 		sp, db, lastPV                   float64
 		segs                             []int
@@ -68,22 +68,20 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 		droopChecked                     bool
 	}
 	var groups []*group
-	bySP := map[float64]*group{}
+	bySP := map[[2]float64]*group{}
 	for i := range figs {
 		f := &figs[i]
-		g := bySP[f.sp]
+		key := [2]float64{f.sp, f.db}
+		g := bySP[key]
 		if g == nil {
 			g = &group{sp: f.sp, db: f.db}
-			bySP[f.sp] = g
+			bySP[key] = g
 			groups = append(groups, g)
 		}
 		g.segs = append(g.segs, i+1)
 		g.jumps += f.jumps
 		g.noiseExits += f.noiseExits
 		g.exits += f.exits
-		if f.db > g.db {
-			g.db = f.db
-		}
 		if sum.Segments[i].Unreachable {
 			g.unreachable, g.lastPV, g.endRun, g.up = true, f.lastPV, f.endRun, f.lastPV < f.sp
 		} else if !f.settled && i < len(figs)-1 && f.n >= 16 {
