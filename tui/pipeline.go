@@ -321,6 +321,8 @@ type core struct {
 	statsExtra func(st *SourceStats)
 	lineStats  func() telemetry.Stats // the parser's counts, for the rejected lines
 
+	sumSamples int64 // samples at the last summary
+
 	connectedAt time.Time // live: last (re)connection
 	asked       bool      // live: "info" sent since it
 }
@@ -339,6 +341,7 @@ func (c *core) restart() {
 	c.meta = telemetry.Meta{}
 	c.haveT0, c.haveN = false, false
 	c.lastT, c.samples, c.rejected, c.gaps = 0, 0, 0, 0
+	c.sumSamples = -1
 	c.pts = c.pts[:0]
 	c.evs = c.evs[:0]
 	c.p.deliver(nil, nil, func(b *mailbox) {
@@ -445,7 +448,10 @@ func (c *core) sample(s telemetry.Sample) float64 {
 func (c *core) flush(force bool) {
 	now := c.now()
 	var sum *analysis.Summary
-	if force || now.Sub(c.lastSum) >= summaryInterval {
+	// A new summary only when samples came in since the last one (or at the end): a held
+	// or ended source costs nothing.
+	if force || (now.Sub(c.lastSum) >= summaryInterval && c.samples != c.sumSamples) {
+		c.sumSamples = c.samples
 		if c.lineStats != nil {
 			ls := c.lineStats()
 			c.rejected = ls.Rejected
