@@ -1,0 +1,27 @@
+// Package analysis measures a switched-RC analog output loop from its telemetry in one
+// streaming pass: segments of one setpoint and their steady figures (mean error, ripple,
+// duty, limit-cycle period, deadband entries and band jumps), the response to each
+// setpoint step, the real circuit behind it (tau for charge, discharge and hold, the
+// charge and discharge levels, ADC noise), and diagnostics in plain sentences.
+//
+// One Accumulator serves the live screen and the headless summary, so a figure on the
+// screen and in `caploop summary` is the same number:
+//
+//	acc := analysis.New(analysis.Options{})
+//	acc.SetMeta(meta)            // after each meta line
+//	acc.Add(sample)              // for each data line, O(1) amortised
+//	sum := acc.Summary()         // at any time, cost independent of the samples seen
+//
+// or, for a whole file,
+//
+//	sc := telemetry.NewScanner(f)
+//	sum, err := analysis.Summarize(sc, analysis.Options{})
+//
+// Memory is bounded whatever the stream's length: running sums, fixed histograms, a
+// window of the last steady readings per segment for the autocorrelation and spectrum,
+// and lists bounded by Options.MaxSegments. Volts and seconds come from the meta lines
+// (vref, adc_bits, period_us) and the board time t; without them figures stay in counts
+// and samples, and the volt and second fields are null.
+//
+// The package does no I/O and never reads the clock.
+package analysis
