@@ -174,6 +174,18 @@ func TestMarkRecorded(t *testing.T) {
 		last = time.Now()
 	}
 	fmt.Fprintf(pt.Master(), "# vref=5 adc_bits=10 period_us=1000\nt=0 sp=400 pv=401 u=0\nt=1000 sp=400 pv=399 u=0\n")
+	for deadline := time.Now().Add(5 * time.Second); m.status.st.Samples < 2 || m.status.st.RecordBytes == 0; {
+		if time.Now().After(deadline) {
+			t.Fatalf("samples %d, capture size %d after 5 s", m.status.st.Samples, m.status.st.RecordBytes)
+		}
+		if msg, ok := p.wait(last)().(samplesMsg); ok {
+			m.takeFrame(msg.box)
+		}
+		last = time.Now()
+	}
+	if line := m.status.View(); !strings.Contains(line, "rec marks.cap ") {
+		t.Errorf("status line %q does not show the recording", line)
+	}
 	m = press(t, m, "m", "f", "a", "n", " ", "o", "n")
 	mm, cmd := m.Update(tea.KeyMsg{Type: tea.KeyEnter})
 	m = mm.(Model)
