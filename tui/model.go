@@ -154,8 +154,11 @@ func (m *Model) layout() {
 	m.status.SetWidth(m.width)
 	bodyH := m.height - 4
 	figH, advH := 4, 2
-	if m.height >= 36 {
+	switch {
+	case m.height >= 36:
 		advH = 5
+	case m.height < 22:
+		figH, advH = 2, 1 // keep the plot readable on small terminals
 	}
 	m.plot.SetSize(m.width, bodyH-figH-advH)
 	if m.view == ViewTrace {
