@@ -5,7 +5,8 @@
 // Data flows one way. A Pipeline goroutine reads lines from its source, parses them,
 // feeds every sample to the analysis accumulator (never dropping one) and leaves display
 // batches and summary snapshots in a mailbox; the screen's Model collects them with a
-// re-armed command at most about 30 times a second and redraws from that snapshot.
+// re-armed command at most about 30 times a second and redraws from that snapshot. The
+// advice, which simulates candidate designs, runs in a goroutine of its own.
 //
 //	p, err := tui.NewReplay(tui.ReplayOptions{Path: "bench.cap", Speed: 1})
 //	if err != nil {
@@ -14,6 +15,21 @@
 //	defer p.Close()
 //	_, err = tea.NewProgram(tui.New(p, tui.Options{}), tea.WithAltScreen()).Run()
 //
-// Rendering functions (RenderPlot, the chart views) are pure: data and size in, string out,
-// and are covered by golden tests at 80x24 and 120x40.
+// The views, chosen with tab or 1 to 5:
+//
+//	trace    setpoint, band and measurement over the time window, the compact figures,
+//	         the suggested deadband and the diagnostics
+//	figures  every figure of the current steady segment and of the identified plant, or
+//	         the figures before and after a deadband change side by side; the full advice
+//	spread   histogram of the error over steady parts
+//	ripple   ripple spectrum of the longest steady part
+//	step     the last step response with the fitted exponential
+//
+// The keys are in KeyMap (DefaultKeyMap); ? shows them all. On a live source, d sends
+// "set deadband=N" with the suggested N after a y/n question and m marks the moment with
+// a note (kept in the capture when recording).
+//
+// Rendering functions (RenderPlot, RenderHistogram, RenderSpectrum, RenderStep) are
+// pure: data and size in, string out, and are covered by golden tests at 80x24 and
+// 120x40 (go test ./tui -update regenerates testdata/).
 package tui
