@@ -14,8 +14,9 @@ type Options struct {
 	// counted in SegmentsOmitted and StepsOmitted.
 	MaxSegments int
 	// Window is the number of steady readings per segment kept for the autocorrelation
-	// and the spectrum (0 = 1024: limit cycles up to 512 samples show in the
-	// autocorrelation; longer ones come from the drive pattern).
+	// and the spectrum (0 = 512: limit cycles up to 256 samples show in the
+	// autocorrelation, longer ones come from the drive pattern; a larger window costs
+	// more at each segment's end, two FFTs of twice its length).
 	Window int
 	// MarginCounts is the extra room, in counts, beyond one expected step and 4 sigma of
 	// noise, that the reading before a sample pair must keep from the controller's
@@ -35,7 +36,7 @@ func (o Options) withDefaults() Options {
 		o.MaxSegments = 4096
 	}
 	if o.Window <= 0 {
-		o.Window = 1024
+		o.Window = 512
 	}
 	if o.MarginCounts <= 0 {
 		o.MarginCounts = 2
@@ -146,7 +147,8 @@ type Accumulator struct {
 	stepV      [3]float64
 	stepOK     [3]bool
 	bal        balance
-	p1, p2     memo
+	mem        [2]memo // the previous sample (mem[cur]) and the one before
+	cur        int
 	codes      []uint32
 	maxCode    int
 	railLo     int64
@@ -223,7 +225,7 @@ func (a *Accumulator) infer(e float64) telemetry.Drive {
 
 // Add feeds one sample.
 func (a *Accumulator) Add(s telemetry.Sample) {
-	tick, contiguous := a.clk.tick(s)
+	tick, contiguous := a.clk.tick(&s)
 	u := s.U
 	e := s.PV - s.SP
 	if !s.Has(telemetry.HasU) {
@@ -268,9 +270,9 @@ func (a *Accumulator) Add(s telemetry.Sample) {
 	}
 
 	// Plant fit: pair (p1 -> this) with instrument p2.
-	a.p1.next = contiguous
-	if ok && a.p1.ok && contiguous {
-		p1, p2 := &a.p1, &a.p2
+	p1, p2 := &a.mem[a.cur], &a.mem[a.cur^1]
+	p1.next = contiguous
+	if ok && p1.ok && contiguous {
 		d1 := int(p1.u) + 1
 		a.stepEMA[d1] += (math.Abs(pv-p1.pv) - a.stepEMA[d1]) * (1.0 / 256)
 		if p2.ok && p2.next {
@@ -299,8 +301,9 @@ func (a *Accumulator) Add(s telemetry.Sample) {
 			a.bal.n[d]++
 		}
 	}
-	a.p2 = a.p1
-	a.p1 = memo{pv: pv, u: u, ok: ok, steady: a.seg.steady, sp: s.SP, db: a.db}
+	// The new sample becomes p1, the old p1 becomes p2: flip the pair, overwrite p2.
+	p2.pv, p2.u, p2.ok, p2.next, p2.steady, p2.sp, p2.db = pv, u, ok, false, a.seg.steady, s.SP, a.db
+	a.cur ^= 1
 	if a.n&63 == 0 {
 		a.refreshGuard()
 	}

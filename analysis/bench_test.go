@@ -59,3 +59,34 @@ func BenchmarkSummary(b *testing.B) {
 		acc.Summary()
 	}
 }
+
+// BenchmarkAccumulatorSteady measures Add alone: one setpoint, so no segment ever closes
+// (the per-sample cost without the end-of-segment spectra). It replays one batch of 8192
+// samples (the size Summarize hands over) with the times moved on, so the samples come
+// from the cache as they do in Summarize.
+func BenchmarkAccumulatorSteady(b *testing.B) {
+	const n = batchLen
+	var samples []telemetry.Sample
+	cfg := benchCfg(loop.ThreeState, 6, 1, 1)
+	err := loop.Run(cfg, func(int64) int { return 600 }, n, func(st loop.Step) {
+		samples = append(samples, telemetry.Sample{
+			Index: st.K, T: int64(st.T*1e6 + 0.5), N: st.K, SP: float64(st.SP), PV: float64(st.PV),
+			U: telemetry.Drive(st.U), Flags: telemetry.HasT | telemetry.HasN | telemetry.HasU,
+		})
+	})
+	if err != nil {
+		b.Fatal(err)
+	}
+	acc := New(Options{})
+	acc.SetMeta(metaOf(cfg))
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		s := samples[i%n]
+		round := int64(i / n)
+		s.Index += round * n
+		s.N += round * n
+		s.T += round * n * 1000
+		acc.Add(s)
+	}
+}

@@ -41,7 +41,7 @@ type clock struct {
 }
 
 // tick returns the tick of s and whether s follows the previous sample without a gap.
-func (c *clock) tick(s telemetry.Sample) (float64, bool) {
+func (c *clock) tick(s *telemetry.Sample) (float64, bool) {
 	if s.Has(telemetry.HasHost) {
 		if !c.hasH {
 			c.h0, c.hasH = s.Host, true
