@@ -72,7 +72,7 @@ func DefaultKeyMap() KeyMap {
 		Spread:    key.NewBinding(key.WithKeys("3"), key.WithHelp("3", "error spread")),
 		Ripple:    key.NewBinding(key.WithKeys("4"), key.WithHelp("4", "ripple spectrum")),
 		Step:      key.NewBinding(key.WithKeys("5"), key.WithHelp("5", "last step")),
-		Apply:     key.NewBinding(key.WithKeys("d"), key.WithHelp("d", "send suggested deadband")),
+		Apply:     key.NewBinding(key.WithKeys("d"), key.WithHelp("d", "send deadband")),
 		Mark:      key.NewBinding(key.WithKeys("m"), key.WithHelp("m", "mark moment")),
 		Faster:    key.NewBinding(key.WithKeys("]"), key.WithHelp("[/]", "replay speed")),
 		Slower:    key.NewBinding(key.WithKeys("["), key.WithHelp("[", "slower")),
@@ -109,7 +109,7 @@ func (k KeyMap) ShortHelp() []key.Binding {
 	if k.Confirm.Enabled() {
 		return []key.Binding{k.Confirm, k.Cancel}
 	}
-	return []key.Binding{k.Help, k.Pause, k.ZoomIn, k.Back, k.NextView, k.Apply, k.Mark, k.Faster, k.Quit}
+	return []key.Binding{k.Help, k.Apply, k.Pause, k.NextView, k.ZoomIn, k.Back, k.Faster, k.Mark, k.Quit}
 }
 
 // FullHelp is the full key list in columns.
