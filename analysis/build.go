@@ -263,7 +263,7 @@ func (a *Accumulator) holdFit(pf plantFit, c float64) (fitResult, bool) {
 }
 
 // codeFaults reads the code histogram: a missing code has no hits while both neighbours
-// have at least 4 (the reading swept across it); a stuck code has at least 50 hits and
+// have at least 16 (the reading swept across it many times); a stuck code has at least 50 hits and
 // 8 times the mean of its four nearest neighbours, none of which is within 3 counts of
 // a setpoint seen (where a settled loop sits on purpose).
 func (a *Accumulator) codeFaults() (missing, stuck []int) {
@@ -278,7 +278,7 @@ func (a *Accumulator) codeFaults() (missing, stuck []int) {
 		return a.seg.n > 0 && math.Abs(float64(code)-a.seg.sp) <= 3+a.seg.db
 	}
 	for i := 2; i+2 < len(h); i++ {
-		if h[i] == 0 && h[i-1] >= 4 && h[i+1] >= 4 && len(missing) < 64 {
+		if h[i] == 0 && h[i-1] >= 16 && h[i+1] >= 16 && len(missing) < 64 {
 			missing = append(missing, i)
 		}
 		nb := float64(h[i-2]+h[i-1]+h[i+1]+h[i+2]) / 4

@@ -71,7 +71,7 @@ func TestDiagnostics(t *testing.T) {
 		{"missing code in a sweep", func(a *Accumulator) {
 			a.SetMeta(meta10)
 			k := 0
-			for range 5 {
+			for range 20 {
 				for c := 0; c < 1024; c++ {
 					pv := float64(c)
 					if c == 500 {
@@ -107,7 +107,7 @@ func TestMissingCodeFound(t *testing.T) {
 	a := New(Options{})
 	a.SetMeta(meta10)
 	k := 0
-	for range 5 {
+	for range 20 {
 		for c := 0; c < 1024; c++ {
 			if c == 700 {
 				continue

@@ -12,6 +12,9 @@ import (
 	"github.com/caploop/caploop/telemetry/si"
 )
 
+// textRows is the most segments and steps the text lists (JSON lists them all).
+const textRows = 40
+
 // noFigure is printed where a figure does not apply.
 const noFigure = "-"
 
@@ -135,6 +138,11 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 	tw = tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 	fmt.Fprintln(tw, "  #\tsetpoint\tfrom\tto\tsteady\tmean err\tripple p-p\trobust\trms\tcharge\thold\tdisch\tcycle\tswitch\tin\tout\tjumps\t")
 	for i, g := range s.Segments {
+		if i == textRows && len(s.Segments) > textRows+5 {
+			tw.Flush()
+			fmt.Fprintf(w, "  ... %d more segments (the setpoint changes often; --json lists them all)\n", len(s.Segments)-textRows)
+			break
+		}
 		sp := fmtCountsV(g.SetpointCounts, g.SetpointV)
 		if g.Unreachable {
 			sp += " !"
@@ -161,6 +169,11 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 		tw = tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 		fmt.Fprintln(tw, "  #\tat\tfrom\tto\trise 10-90 %\tsettle\tovershoot\tslew\t")
 		for i, st := range s.Steps {
+			if i == textRows && len(s.Steps) > textRows+5 {
+				tw.Flush()
+				fmt.Fprintf(w, "  ... %d more steps (--json lists them all)\n", len(s.Steps)-textRows)
+				break
+			}
 			fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n", i+1, si.FormatDigits(st.AtS, "s", 4),
 				fmtCountsV(st.FromCounts, st.FromV), fmtCountsV(st.ToCounts, st.ToV),
 				fv(st.RiseS, "s"), fv(st.SettleS, "s"), fv(st.OvershootV, "V"), fv(st.SlewVPerS, "V/s"))
