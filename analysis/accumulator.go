@@ -241,6 +241,10 @@ func (a *Accumulator) Add(s telemetry.Sample) {
 		from := a.seg.sp
 		a.closeSegment()
 		a.openSegment(s.SP, tick, true, from)
+	} else if a.db != a.seg.db {
+		// A new band on the same setpoint (tuning): a new segment, but no step.
+		a.closeSegment()
+		a.openSegment(s.SP, tick, false, 0)
 	}
 	a.n++
 	a.last = tick

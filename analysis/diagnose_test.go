@@ -210,3 +210,41 @@ func TestSummaryRepeatable(t *testing.T) {
 		t.Errorf("tau differs: %v and %v", deref(a.Plant.TauChargeS), deref(b.Plant.TauChargeS))
 	}
 }
+
+// TestDeadbandChangeSplits checks that a new band on the same setpoint starts a new
+// segment without a step, and that band jumps stop once the band is wide enough (the
+// step near 300 counts is about 15 counts: a band of ±4 is jumped, ±9 is not).
+func TestDeadbandChangeSplits(t *testing.T) {
+	cfg := benchCfg(loop.ThreeState, 4, 0.5, 31)
+	sim, err := loop.New(cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	a := New(Options{})
+	m := metaOf(cfg)
+	a.SetMeta(m)
+	for k := range 8000 {
+		if k == 4000 {
+			sim.SetDeadband(9)
+			m.Deadband = 9
+			a.SetMeta(m)
+		}
+		st := sim.Next(300)
+		a.Add(telemetry.Sample{Index: st.K, T: int64(st.T*1e6 + 0.5), SP: float64(st.SP), PV: float64(st.PV),
+			U: telemetry.Drive(st.U), Flags: telemetry.HasT | telemetry.HasU})
+	}
+	s := a.Summary()
+	if len(s.Segments) != 2 || len(s.Steps) != 0 {
+		t.Fatalf("got %d segments and %d steps, want 2 and 0", len(s.Segments), len(s.Steps))
+	}
+	before, after := s.Segments[0], s.Segments[1]
+	if deref(before.DeadbandCounts) != 4 || deref(after.DeadbandCounts) != 9 {
+		t.Errorf("bands: got %v and %v, want 4 and 9", deref(before.DeadbandCounts), deref(after.DeadbandCounts))
+	}
+	if math.Abs(after.StartS-4) > 1e-9 {
+		t.Errorf("second segment starts at %g s, want 4 s", after.StartS)
+	}
+	if before.BandJumps == 0 || after.BandJumps != 0 {
+		t.Errorf("band jumps: got %d before and %d after, want some and none", before.BandJumps, after.BandJumps)
+	}
+}

@@ -74,6 +74,8 @@ type Plant struct {
 }
 
 // Segment holds the figures of one run of samples with one setpoint, over its steady part.
+// A change of the deadband on the same setpoint (tuning on the bench) also starts a new
+// segment, without a step, so that each segment ran under one band.
 type Segment struct {
 	SetpointCounts    float64  `json:"setpoint_counts"`
 	SetpointV         *float64 `json:"setpoint_v"`
