@@ -352,6 +352,10 @@ func (c *core) restart() {
 	})
 }
 
+// maxClockJump is the largest forward jump of board time, in seconds, taken as real
+// (a dropout) when there is no host clock to check it against.
+const maxClockJump = 60
+
 // seconds returns the sample's time on the screen's clock. With both board time t and
 // host time, it follows t (precise) anchored to the host clock, and re-anchors when they
 // drift apart by more than a second (board reset, reconnect); with one of them it uses
@@ -375,7 +379,9 @@ func (c *core) seconds(s telemetry.Sample) float64 {
 			c.t0, c.haveT0 = s.T, true
 		}
 		t = float64(s.T-c.t0) / 1e6
-		if t < c.lastT-1 { // the board restarted its clock: continue from here
+		// Without host times a board reset shows only as a jump of t: back, or (read as
+		// a wrap of the 32-bit clock) far ahead. Continue the screen's clock from here.
+		if t < c.lastT-1 || t > c.lastT+maxClockJump {
 			c.t0 = s.T - int64(c.lastT*1e6)
 			t = c.lastT
 		}

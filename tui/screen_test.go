@@ -233,3 +233,43 @@ func TestKeysInOneMessage(t *testing.T) {
 		t.Errorf("after \"mfan\": noting %v, note %q; want true, \"fan\"", m.noting, string(m.note))
 	}
 }
+
+// TestReplayBoardReset replays, in real time, a plain file whose board clock restarts
+// (a reset: t goes back, which the parser reads as a wrap of the 32-bit clock, 71 min
+// ahead). The replay must not sit through the false gap, and the plot's clock goes on.
+func TestReplayBoardReset(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "reset.txt")
+	var b strings.Builder
+	b.WriteString("# vref=5 adc_bits=10 period_us=1000 mode=three-state deadband=4\n")
+	for run := 0; run < 2; run++ {
+		for k := 0; k < 200; k++ {
+			fmt.Fprintf(&b, "t=%d sp=400 pv=%d u=0\n", 5000+k*1000, 399+k%3)
+		}
+	}
+	if err := os.WriteFile(path, []byte(b.String()), 0o600); err != nil {
+		t.Fatal(err)
+	}
+	p, err := NewReplay(ReplayOptions{Path: path, Speed: 1, SourceOptions: SourceOptions{NoAdvice: true}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer p.Close()
+	m := New(p, Options{})
+	start := time.Now()
+	last := time.Time{}
+	for !m.ended {
+		if time.Since(start) > 5*time.Second {
+			t.Fatalf("replay of 0.4 s of data still running after 5 s: %+v", m.status.st)
+		}
+		if msg, ok := p.wait(last)().(samplesMsg); ok {
+			m.takeFrame(msg.box)
+		}
+		last = time.Now()
+	}
+	if got := m.plot.Latest(); got > 1 {
+		t.Errorf("last point at %.3f s on the screen's clock, want under 1 s (the reset is no gap)", got)
+	}
+	if got := m.plot.ring.Len(); got != 400 {
+		t.Errorf("points = %d, want 400", got)
+	}
+}

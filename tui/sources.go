@@ -325,7 +325,11 @@ func (p *Pipeline) runReplay(o ReplayOptions, src telemetry.Source, c *core) {
 		}
 		switch sc.Kind() {
 		case telemetry.RecSample:
+			prev := c.lastT
 			t := c.sample(sc.Sample())
+			if t-prev > 1 {
+				paced = false // a gap in the stream: do not sit through it
+			}
 			switch {
 			case seekTo >= 0:
 				if t >= seekTo {
