@@ -148,6 +148,7 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 	var ssr, dof float64
 	if pf.ok[2] {
 		f := pf.fit[2]
+		p.TauChargeSamples, p.VHighCounts = ptr(tauOf(f.A, 1)), ptr(f.VInf)
 		p.TauChargeS = ptr(tauOf(f.A, T))
 		r := tauCI(f, T)
 		p.TauChargeCIS = ci(r[0], r[1])
@@ -159,6 +160,7 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 	}
 	if pf.ok[0] {
 		f := pf.fit[0]
+		p.TauDischargeSamples, p.VLowCounts = ptr(tauOf(f.A, 1)), ptr(f.VInf)
 		p.TauDischargeS = ptr(tauOf(f.A, T))
 		r := tauCI(f, T)
 		p.TauDischargeCIS = ci(r[0], r[1])
@@ -174,6 +176,7 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 		q := 1.959963984540054
 		if f.A < 1 && 1-f.A > q*f.SeA {
 			p.TauHoldS = ptr(tauOf(f.A, T))
+			p.TauHoldSamples = ptr(tauOf(f.A, 1))
 			r := tauCI(f, T)
 			p.TauHoldCIS = ci(r[0], r[1])
 		}
@@ -322,6 +325,7 @@ func (a *Accumulator) segment(f *segFig, pf plantFit, c conv) Segment {
 		s.DeadbandCounts = ptr(f.db)
 	}
 	s.LimitCyclePeriodS = ptr(f.periodSamples * c.period)
+	s.LimitCyclePeriodSamples = ptr(f.periodSamples)
 	s.LimitCycleDriveS = ptr(c.ds(f.driveTicks))
 	if f.sn > 1 {
 		s.SwitchingHz = ptr(float64(f.switches) / (float64(f.sn) * c.period))

@@ -67,6 +67,14 @@ type Plant struct {
 	LoadOhm         *float64    `json:"load_ohm"`        // from v_high, supply and R
 	SenseDropV      *float64    `json:"sense_drop_v"`    // supply - v_high when it looks like a buffer drop
 
+	// The same figures in samples and counts, which need neither the sample period nor
+	// the ADC scale (null only when there is no fit).
+	TauChargeSamples    *float64 `json:"tau_charge_samples"`
+	TauDischargeSamples *float64 `json:"tau_discharge_samples"`
+	TauHoldSamples      *float64 `json:"tau_hold_samples"`
+	VHighCounts         *float64 `json:"v_high_counts"`
+	VLowCounts          *float64 `json:"v_low_counts"`
+
 	// ChargePairs, DischargePairs and HoldPairs count the sample pairs each fit used.
 	ChargePairs    int64 `json:"charge_pairs"`
 	DischargePairs int64 `json:"discharge_pairs"`
@@ -112,6 +120,9 @@ type Segment struct {
 	// NoiseExits counts deadband exits on the side the hold droop cannot reach (upward
 	// when the hold droops downward): exits caused by noise, not by droop.
 	NoiseExits int64 `json:"noise_exits"`
+	// LimitCyclePeriodSamples is the limit-cycle period in samples (known without the
+	// sample period).
+	LimitCyclePeriodSamples *float64 `json:"limit_cycle_period_samples"`
 	// Settled says the steady part was reached (the error changed sign or entered the band).
 	Settled bool `json:"settled"`
 }

@@ -25,6 +25,28 @@ func fv(p *float64, unit string) string {
 	return si.FormatDigits(*p, unit, 3)
 }
 
+// fvc shows volts when known, else counts, else noFigure.
+func fvc(v, counts *float64) string {
+	switch {
+	case v != nil:
+		return si.FormatDigits(*v, "V", 3)
+	case counts != nil:
+		return fmt.Sprintf("%.4g counts", *counts)
+	}
+	return noFigure
+}
+
+// fss shows seconds when known, else samples, else noFigure.
+func fss(sec, samples *float64) string {
+	switch {
+	case sec != nil:
+		return si.FormatDigits(*sec, "s", 3)
+	case samples != nil:
+		return fmt.Sprintf("%.3g samples", *samples)
+	}
+	return noFigure
+}
+
 func ff(p *float64, format string) string {
 	if p == nil {
 		return noFigure
@@ -108,11 +130,11 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 	p := s.Plant
 	fmt.Fprintln(w, "\nplant (identified from the data)")
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
-	fmt.Fprintf(tw, "  tau charge\t%s\t%s\t%d pairs\n", fv(p.TauChargeS, "s"), fci(p.TauChargeCIS, "s"), p.ChargePairs)
-	fmt.Fprintf(tw, "  tau discharge\t%s\t%s\t%d pairs\n", fv(p.TauDischargeS, "s"), fci(p.TauDischargeCIS, "s"), p.DischargePairs)
-	fmt.Fprintf(tw, "  tau hold\t%s\t%s\t%d pairs\n", fv(p.TauHoldS, "s"), fci(p.TauHoldCIS, "s"), p.HoldPairs)
-	fmt.Fprintf(tw, "  v_high\t%s\t%s\t\n", fv(p.VHighV, "V"), fci(p.VHighCIV, "V"))
-	fmt.Fprintf(tw, "  v_low\t%s\t%s\t\n", fv(p.VLowV, "V"), fci(p.VLowCIV, "V"))
+	fmt.Fprintf(tw, "  tau charge\t%s\t%s\t%d pairs\n", fss(p.TauChargeS, p.TauChargeSamples), fci(p.TauChargeCIS, "s"), p.ChargePairs)
+	fmt.Fprintf(tw, "  tau discharge\t%s\t%s\t%d pairs\n", fss(p.TauDischargeS, p.TauDischargeSamples), fci(p.TauDischargeCIS, "s"), p.DischargePairs)
+	fmt.Fprintf(tw, "  tau hold\t%s\t%s\t%d pairs\n", fss(p.TauHoldS, p.TauHoldSamples), fci(p.TauHoldCIS, "s"), p.HoldPairs)
+	fmt.Fprintf(tw, "  v_high\t%s\t%s\t\n", fvc(p.VHighV, p.VHighCounts), fci(p.VHighCIV, "V"))
+	fmt.Fprintf(tw, "  v_low\t%s\t%s\t\n", fvc(p.VLowV, p.VLowCounts), fci(p.VLowCIV, "V"))
 	fmt.Fprintf(tw, "  ADC noise\t%s counts rms\t\t\n", ff(p.NoiseRMSCounts, "%.2f"))
 	if p.EffectiveROhm != nil {
 		fmt.Fprintf(tw, "  effective R\t%s\t(tau / C)\t\n", fv(p.EffectiveROhm, "Ω"))
@@ -149,9 +171,9 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 		}
 		fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%d\t%d\t%d\t\n", i+1, sp,
 			si.FormatDigits(g.StartS, "s", 4), si.FormatDigits(g.EndS, "s", 4), g.SteadySamples,
-			fv(g.MeanErrorV, "V"), fv(g.RipplePPV, "V"), fv(g.RippleRobustPPV, "V"), fv(g.RippleRMSV, "V"),
+			fvc(g.MeanErrorV, g.MeanErrorCounts), fvc(g.RipplePPV, g.RipplePPCounts), fv(g.RippleRobustPPV, "V"), fvc(g.RippleRMSV, g.RippleRMSCounts),
 			ff(g.DutyCharge, "%.3f"), ff(g.DutyHold, "%.3f"), ff(g.DutyDischarge, "%.3f"),
-			fv(g.LimitCyclePeriodS, "s"), fv(g.SwitchingHz, "Hz"), g.DeadbandEntries, g.DeadbandExits, g.BandJumps)
+			fss(g.LimitCyclePeriodS, g.LimitCyclePeriodSamples), fv(g.SwitchingHz, "Hz"), g.DeadbandEntries, g.DeadbandExits, g.BandJumps)
 	}
 	tw.Flush()
 	if s.SegmentsOmitted > 0 {
