@@ -1,6 +1,7 @@
 package analysis
 
 import (
+	"bytes"
 	"testing"
 
 	"github.com/caploop/caploop/analysis/loop"
@@ -88,5 +89,27 @@ func BenchmarkAccumulatorSteady(b *testing.B) {
 		s.N += round * n
 		s.T += round * n * 1000
 		acc.Add(s)
+	}
+}
+
+// BenchmarkSummarize measures the whole-file pass (parse and analysis on two goroutines)
+// over 1 Mi lines of telemetry held in memory; ns/op is per line.
+func BenchmarkSummarize(b *testing.B) {
+	samples := benchSamples(b, 1<<20)
+	m := metaOf(benchCfg(loop.ThreeState, 6, 1, 1))
+	buf := telemetry.AppendMeta(nil, m)
+	buf = append(buf, '\n')
+	for _, s := range samples {
+		buf = telemetry.AppendData(buf, s)
+		buf = append(buf, '\n')
+	}
+	b.SetBytes(int64(len(buf)) / int64(len(samples)))
+	b.ReportAllocs()
+	b.ResetTimer()
+	for done := 0; done < b.N; done += len(samples) {
+		sc := telemetry.NewScanner(bytes.NewReader(buf))
+		if _, err := Summarize(sc, Options{}); err != nil {
+			b.Fatal(err)
+		}
 	}
 }
