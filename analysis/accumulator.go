@@ -224,8 +224,11 @@ func (a *Accumulator) infer(e float64) telemetry.Drive {
 }
 
 // Add feeds one sample.
-func (a *Accumulator) Add(s telemetry.Sample) {
-	tick, contiguous := a.clk.tick(&s)
+func (a *Accumulator) Add(s telemetry.Sample) { a.add(&s) }
+
+// add is Add without the copy of the sample (Summarize feeds its batches through it).
+func (a *Accumulator) add(s *telemetry.Sample) {
+	tick, contiguous := a.clk.tick(s)
 	u := s.U
 	e := s.PV - s.SP
 	if !s.Has(telemetry.HasU) {

@@ -52,7 +52,7 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 					acc.SetMeta(b.metas[mi].m)
 					mi++
 				}
-				acc.Add(b.samples[i])
+				acc.add(&b.samples[i])
 			}
 			for ; mi < len(b.metas); mi++ {
 				acc.SetMeta(b.metas[mi].m)
