@@ -30,8 +30,9 @@ func (r *repeatReader) Read(p []byte) (int, error) {
 	return n, nil
 }
 
-// benchBlock returns lines like "t=123456 sp=512 pv=498 u=1" (about 27 to 32 bytes),
-// a period of 1000 µs, pv walking around the setpoint and u following it.
+// benchBlock returns lines like "t=3000001000 sp=512 pv=498 u=1" (31 or 32 bytes with
+// the newline): a board clock well into its 32-bit range, a period of 1000 µs, pv walking
+// around the setpoint and u following it.
 func benchBlock(lines int) []byte {
 	var b []byte
 	for k := 0; k < lines; k++ {
@@ -44,7 +45,7 @@ func benchBlock(lines int) []byte {
 			u = 0
 		}
 		b = append(b, "t="...)
-		b = strconv.AppendInt(b, int64(1000000+1000*k), 10)
+		b = strconv.AppendInt(b, int64(3000000000+1000*k), 10)
 		b = append(b, " sp=512 pv="...)
 		b = strconv.AppendInt(b, int64(pv), 10)
 		b = append(b, " u="...)

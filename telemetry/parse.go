@@ -521,48 +521,46 @@ func (p *Parser) fastLine(line []byte) bool {
 	n := len(line)
 	var flags SampleFlags
 	var t, seq uint64
-	i := 0
+	i := 3 // after "sp="
 	if n > 2 && line[0] == 't' && line[1] == '=' {
 		v, j := digits8(line, 2)
-		if j == 2 || j-2 > 18 || j >= n || line[j] != ' ' {
+		if j == 2 || j-2 > 18 {
 			return false
 		}
-		t, flags, i = v, HasT, j+1
-	}
-	if i+2 < n && line[i] == 'n' && line[i+1] == '=' {
-		v, j := digits8(line, i+2)
-		if j == i+2 || j-i-2 > 18 || j >= n || line[j] != ' ' {
+		t, flags = v, HasT
+		w := tag4(line, j)
+		if w&0xFFFFFF == tagN {
+			v, k := digits8(line, j+3)
+			if k == j+3 || k-j-3 > 18 {
+				return false
+			}
+			seq, flags, j = v, flags|HasN, k
+			w = tag4(line, j)
+		}
+		if w != tagSP {
 			return false
 		}
-		seq, i = v, j+1
-		flags |= HasN
-	}
-	if i+3 >= n || line[i] != 's' || line[i+1] != 'p' || line[i+2] != '=' {
+		i = j + 4
+	} else if n < 3 || line[0] != 's' || line[1] != 'p' || line[2] != '=' {
 		return false
 	}
-	sp, j := digits(line, i+3)
-	if j == i+3 || j-i-3 > 15 || j >= n || line[j] != ' ' {
+	sp, j := digits(line, i) // short numbers: the inlined loop beats digits8's call
+	if j == i || j-i > 15 || tag4(line, j) != tagPV {
 		return false
 	}
-	i = j + 1
-	if i+3 >= n || line[i] != 'p' || line[i+1] != 'v' || line[i+2] != '=' {
-		return false
-	}
-	pv, j := digits(line, i+3)
-	if j == i+3 || j-i-3 > 15 {
+	i = j + 4
+	pv, j := digits(line, i)
+	if j == i || j-i > 15 {
 		return false
 	}
 	u := Hold
 	if j < n {
-		if j+3 >= n || line[j] != ' ' || line[j+1] != 'u' || line[j+2] != '=' {
-			return false
-		}
-		switch string(line[j+3:]) {
-		case "1", "+", "+1":
+		switch string(line[j:]) {
+		case " u=1", " u=+", " u=+1":
 			u = Charge
-		case "0":
+		case " u=0":
 			u = Hold
-		case "-1", "-":
+		case " u=-1", " u=-":
 			u = Discharge
 		default:
 			return false
@@ -570,12 +568,29 @@ func (p *Parser) fastLine(line []byte) bool {
 		flags |= HasU
 	}
 	s := &p.sample
-	*s = Sample{SP: float64(sp), PV: float64(pv), U: u, N: int64(seq), Flags: flags}
+	s.T, s.N, s.Host = 0, int64(seq), 0
+	s.SP, s.PV, s.U, s.Flags = float64(sp), float64(pv), u, flags
 	if flags&HasT != 0 {
 		s.T = p.unwrap(t)
 	}
 	p.extras = p.extras[:0]
 	return true
+}
+
+// Little-endian words of the separators and keys fastLine expects.
+const (
+	tagN  = ' ' | 'n'<<8 | '='<<16
+	tagSP = ' ' | 's'<<8 | 'p'<<16 | '='<<24
+	tagPV = ' ' | 'p'<<8 | 'v'<<16 | '='<<24
+)
+
+// tag4 returns the four bytes at b[i:] as a little-endian word, or 0 when there are
+// fewer than four.
+func tag4(b []byte, i int) uint32 {
+	if i < 0 || i+4 > len(b) {
+		return 0
+	}
+	return binary.LittleEndian.Uint32(b[i:])
 }
 
 // rejectValue rejects a line whose value for field could not be read, and counts it as
