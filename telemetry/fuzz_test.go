@@ -33,15 +33,20 @@ func FuzzScanner(f *testing.F) {
 		strings.Repeat("a", 3000) + "\nsp=1 pv=1\n",
 		"\r\n\r\r\n,,,\n= = =\n#=\n",
 		"#caploop-capture v1\n1.5 < " + strings.Repeat("z", 1100) + "\n9999999999999.999999999 < sp=1 pv=1\n",
+		"x\nt=1 sp=2 pv=3 u=1\r\nt=2 n=5 sp=2 pv=3 u=-1\nsp=1 pv=2 u=+1\nsp=1 pv=2 u=11\nsp=1 pv=2\r\r\n",
 	}
 	for _, s := range seeds {
 		f.Add([]byte(s))
 	}
 	f.Fuzz(func(t *testing.T, data []byte) {
-		a := fuzzScan(t, bytes.NewReader(data), 0)
-		b := fuzzScan(t, iotest.OneByteReader(bytes.NewReader(data)), 1)
+		a := fuzzScan(t, bytes.NewReader(data), 0, false)
+		b := fuzzScan(t, iotest.OneByteReader(bytes.NewReader(data)), 1, false)
 		if !reflect.DeepEqual(a, b) {
 			t.Fatalf("whole read and byte-by-byte read differ:\n%+v\n%+v", a, b)
+		}
+		c := fuzzScan(t, bytes.NewReader(data), 0, true)
+		if !reflect.DeepEqual(a, c) {
+			t.Fatalf("fast path and general parser differ:\n%+v\n%+v", a, c)
 		}
 		if max := int64(bytes.Count(data, []byte{'\n'}) + 1); a.stats.Lines > max {
 			t.Fatalf("%d lines counted in input with at most %d", a.stats.Lines, max)
@@ -50,10 +55,11 @@ func FuzzScanner(f *testing.F) {
 }
 
 // fuzzScan scans all of r with a buffer of bufSize bytes (0: the default, 1: the
-// smallest the Scanner allows).
-func fuzzScan(t *testing.T, r interface{ Read([]byte) (int, error) }, bufSize int) scanned {
+// smallest the Scanner allows), with or without the fast path.
+func fuzzScan(t *testing.T, r interface{ Read([]byte) (int, error) }, bufSize int, noFast bool) scanned {
 	sc := NewScanner(r)
 	sc.bufSize = bufSize
+	sc.p.noFast = noFast
 	var got scanned
 	for sc.Scan() {
 		switch sc.Kind() {

@@ -342,8 +342,10 @@ func isKeyByte(c byte) bool { return isKeyStart(c) || isDigit(c) || c == '.' }
 
 // parseBoard reads a line the board sent.
 func (p *Parser) parseBoard(line []byte, host int64, hasHost bool) RecordKind {
-	if len(line) > 0 && (line[0] == 't' || line[0] == 's') && !p.noFast && p.fastLine(line) {
-		return p.accept(host, hasHost)
+	if len(line) > 0 && (line[0] == 't' || line[0] == 's') && !p.noFast {
+		if _, ok := p.fastLine(line, false); ok {
+			return p.accept(host, hasHost)
+		}
 	}
 	i := 0
 	for i < len(line) && isSep(line[i]) {
@@ -514,58 +516,83 @@ func (p *Parser) accept(host int64, hasHost bool) RecordKind {
 
 // fastLine reads the canonical data line layout, the one AppendData writes and most
 // firmware prints: "t=<digits> n=<digits> sp=<digits> pv=<digits> u=<drive>" with t, n
-// and u optional, single spaces and whole counts. It fills p.sample and reports true, or
-// reports false without changing any state, and parseKV then reads the line (and finds
-// the error, if any). For every line it accepts, parseKV gives the same sample.
-func (p *Parser) fastLine(line []byte) bool {
-	n := len(line)
+// and u optional, single spaces and whole counts. With needNL false, b is exactly one
+// line; with needNL true, b is the rest of the read buffer and the line must end in "\n"
+// or "\r\n" within it. On success it fills p.sample and returns the index after the line
+// (and its terminator) and true; otherwise it returns false without changing any state,
+// and parseKV then reads the line (and finds the error, if any). For every line it
+// accepts, parseKV gives the same sample.
+func (p *Parser) fastLine(b []byte, needNL bool) (int, bool) {
+	n := len(b)
 	var flags SampleFlags
 	var t, seq uint64
 	i := 3 // after "sp="
-	if n > 2 && line[0] == 't' && line[1] == '=' {
-		v, j := digits8(line, 2)
+	if n > 2 && b[0] == 't' && b[1] == '=' {
+		v, j := digits8(b, 2)
 		if j == 2 || j-2 > 18 {
-			return false
+			return 0, false
 		}
 		t, flags = v, HasT
-		w := tag4(line, j)
+		w := tag4(b, j)
 		if w&0xFFFFFF == tagN {
-			v, k := digits8(line, j+3)
+			v, k := digits8(b, j+3)
 			if k == j+3 || k-j-3 > 18 {
-				return false
+				return 0, false
 			}
 			seq, flags, j = v, flags|HasN, k
-			w = tag4(line, j)
+			w = tag4(b, j)
 		}
 		if w != tagSP {
-			return false
+			return 0, false
 		}
 		i = j + 4
-	} else if n < 3 || line[0] != 's' || line[1] != 'p' || line[2] != '=' {
-		return false
+	} else if n < 3 || b[0] != 's' || b[1] != 'p' || b[2] != '=' {
+		return 0, false
 	}
-	sp, j := digits(line, i) // short numbers: the inlined loop beats digits8's call
-	if j == i || j-i > 15 || tag4(line, j) != tagPV {
-		return false
+	sp, j := digits(b, i) // short numbers: the inlined loop beats digits8's call
+	if j == i || j-i > 15 || tag4(b, j) != tagPV {
+		return 0, false
 	}
 	i = j + 4
-	pv, j := digits(line, i)
+	pv, j := digits(b, i)
 	if j == i || j-i > 15 {
-		return false
+		return 0, false
 	}
 	u := Hold
-	if j < n {
-		switch string(line[j:]) {
-		case " u=1", " u=+", " u=+1":
+	if j < n && b[j] == ' ' {
+		if j+3 >= n || b[j+1] != 'u' || b[j+2] != '=' {
+			return 0, false
+		}
+		j += 4
+		switch b[j-1] {
+		case '1':
 			u = Charge
-		case " u=0":
-			u = Hold
-		case " u=-1", " u=-":
-			u = Discharge
+		case '0':
+		case '+', '-':
+			u = Charge
+			if b[j-1] == '-' {
+				u = Discharge
+			}
+			if j < n && b[j] == '1' {
+				j++
+			}
 		default:
-			return false
+			return 0, false
 		}
 		flags |= HasU
+	}
+	// The line must end here.
+	switch {
+	case !needNL:
+		if j != n {
+			return 0, false
+		}
+	case j < n && b[j] == '\n':
+		j++
+	case j+1 < n && b[j] == '\r' && b[j+1] == '\n':
+		j += 2
+	default:
+		return 0, false
 	}
 	s := &p.sample
 	s.T, s.N, s.Host = 0, int64(seq), 0
@@ -574,7 +601,7 @@ func (p *Parser) fastLine(line []byte) bool {
 		s.T = p.unwrap(t)
 	}
 	p.extras = p.extras[:0]
-	return true
+	return j, true
 }
 
 // Little-endian words of the separators and keys fastLine expects.

@@ -63,6 +63,29 @@ func (s *Scanner) Scan() bool {
 		s.p.Name = s.Name
 	}
 	for {
+		// The hot path: a line in the canonical data layout, whole in the buffer, past
+		// the first line (which may be a capture header), outside a capture. It is
+		// parsed straight from the buffer, its end found on the way.
+		if !s.skipping && s.start < s.end {
+			b := s.buf[s.start:s.end]
+			p := &s.p
+			if (b[0] == 't' || b[0] == 's') && p.line > 0 && !p.capture && !p.noFast {
+				if next, ok := p.fastLine(b, true); ok {
+					s.start += next
+					p.line++
+					p.stats.Lines++
+					s.kind = p.accept(0, false)
+					return true
+				}
+			}
+			if i := bytes.IndexByte(b, '\n'); i >= 0 && i <= MaxLineLen {
+				s.start += i + 1
+				if s.handle(b[:i], false) {
+					return s.kind != RecRejected
+				}
+				continue
+			}
+		}
 		if s.start < s.end {
 			b := s.buf[s.start:s.end]
 			i := bytes.IndexByte(b, '\n')
@@ -126,17 +149,7 @@ func (s *Scanner) limit() int {
 // handle parses one line and reports whether Scan should return: for a record, or for a
 // rejected line in Strict mode (then it also ends the scan).
 func (s *Scanner) handle(line []byte, cut bool) bool {
-	p := &s.p
-	// The common case first: a data line in the canonical layout, past the first line
-	// (which may be a capture header), outside a capture.
-	if n := len(line); !cut && n > 0 && n <= MaxLineLen && line[n-1] != '\r' && (line[0] == 't' || line[0] == 's') &&
-		p.line > 0 && !p.capture && !p.noFast && p.fastLine(line) {
-		p.line++
-		p.stats.Lines++
-		s.kind = p.accept(0, false)
-		return true
-	}
-	k := p.parse(line, 0, false, cut)
+	k := s.p.parse(line, 0, false, cut)
 	switch k {
 	case RecNone:
 		return false
