@@ -2,6 +2,7 @@ package telemetry
 
 import (
 	"errors"
+	"fmt"
 	"math"
 	"reflect"
 	"strings"
@@ -432,5 +433,21 @@ func TestParserParse(t *testing.T) {
 	line := []byte("sp=1 pv=2 temp=21 hum=40")
 	if n := testing.AllocsPerRun(100, func() { p.Parse(line, 0, false) }); n != 0 {
 		t.Errorf("Parse of a data line with extras allocates %v times, want 0", n)
+	}
+}
+
+func TestExtraNamesBounded(t *testing.T) {
+	var b strings.Builder
+	for k := range maxExtraNames + 44 {
+		fmt.Fprintf(&b, "sp=1 pv=2 ch%d=%d\n", k, k)
+	}
+	got := scanAll(t, b.String())
+	if len(got.samples) != maxExtraNames || got.stats.Rejects(ErrTooManyKeys) != 44 {
+		t.Errorf("%d samples, %d rejected for too many keys; want %d and 44",
+			len(got.samples), got.stats.Rejects(ErrTooManyKeys), maxExtraNames)
+	}
+	// Names already known keep working.
+	if got := scanAll(t, b.String()+"sp=1 pv=2 ch7=3\n"); got.extras[len(got.extras)-1][0] != (Extra{"ch7", 3}) {
+		t.Errorf("known name after the table filled: %v", got.extras[len(got.extras)-1])
 	}
 }

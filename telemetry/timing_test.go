@@ -1,7 +1,9 @@
 package telemetry
 
 import (
+	"fmt"
 	"math"
+	"strings"
 	"testing"
 )
 
@@ -133,4 +135,24 @@ func TestTimingResultRepeatable(t *testing.T) {
 	if got := tm.Result(); got.Intervals != 19 || got.PeriodS != 1e-3 {
 		t.Errorf("after more samples: %+v, want 19 intervals of 1 ms", got)
 	}
+}
+
+func ExampleTiming() {
+	// A board that samples about every 1000 µs with some jitter and loses two lines:
+	// differences 1005, 990, 1005, 3000, 1005 µs. Median 1005 µs; without the gap the
+	// differences have a population standard deviation of sqrt(168.75/4) = 6.5 µs.
+	in := "t=0 sp=512 pv=500\nt=1005 sp=512 pv=501\nt=1995 sp=512 pv=502\n" +
+		"t=3000 sp=512 pv=503\nt=6000 sp=512 pv=504\nt=7005 sp=512 pv=505\n"
+	sc := NewScanner(strings.NewReader(in))
+	var tm Timing
+	for sc.Scan() {
+		if sc.Kind() == RecSample {
+			tm.Add(sc.Sample())
+		}
+	}
+	r := tm.Result()
+	fmt.Printf("period %.0f µs from %s, jitter %.1f µs rms, %.0f µs peak to peak, %d samples missing\n",
+		r.PeriodS*1e6, r.From, r.JitterS*1e6, r.JitterPPS*1e6, r.Gaps)
+	// Output:
+	// period 1005 µs from t, jitter 6.5 µs rms, 15 µs peak to peak, 2 samples missing
 }
