@@ -1,6 +1,7 @@
 package telemetry
 
 import (
+	"bytes"
 	"fmt"
 	"io"
 	"os"
@@ -134,6 +135,30 @@ func BenchmarkScannerMixed(b *testing.B) {
 		block = fmt.Appendf(block, "t=%d sp=512 pv=%d u=%d temp=21.%d\n", 1000*k+500, 490+k%23, k%3-1, k%10)
 	}
 	sc := NewScanner(&repeatReader{block: block})
+	b.ReportAllocs()
+	b.ResetTimer()
+	for i := 0; i < b.N; i++ {
+		if !sc.Scan() {
+			b.Fatalf("scan stopped: %v", sc.Err())
+		}
+	}
+	ns := float64(b.Elapsed().Nanoseconds()) / float64(b.N)
+	b.ReportMetric(ns, "ns/line")
+	b.ReportMetric(1e9/ns, "lines/s")
+}
+
+// BenchmarkScannerCapture scans a capture: each board line behind its host time.
+func BenchmarkScannerCapture(b *testing.B) {
+	data := []byte("#caploop-capture v1 start=2026-12-01T23:40:00.000000Z\n")
+	var block []byte
+	for k, line := range bytes.Split(benchBlock(4096), []byte{'\n'}) {
+		if len(line) == 0 {
+			continue
+		}
+		block = fmt.Appendf(block, "%d.%06d < %s\n", k/1000, k%1000*1000, line)
+	}
+	sc := NewScanner(io.MultiReader(bytes.NewReader(data), &repeatReader{block: block}))
+	b.SetBytes(int64(len(block) / 4096))
 	b.ReportAllocs()
 	b.ResetTimer()
 	for i := 0; i < b.N; i++ {

@@ -25,7 +25,7 @@ const MaxRejectsKept = 10
 // cannot grow memory without bound.
 const maxExtraNames = 256
 
-// captureSlack is the room a capture record prefix ("123456.123456 < ") may take on top
+// captureSlack is the room a capture record prefix ("123456.123456 < ", at most 22 bytes) may take on top
 // of MaxLineLen.
 const captureSlack = 40
 
@@ -274,35 +274,37 @@ func (p *Parser) parseCaptureHeader(line []byte) RecordKind {
 	return RecNone
 }
 
+// capturePrefix reads the "<seconds>.<fraction> <dir>" that starts a capture record and
+// returns the host time in ns, the direction and the index after them (at the space
+// before the raw line, or at the end).
+func capturePrefix(line []byte) (host int64, dir Direction, end int, ok bool) {
+	n := len(line)
+	sec, i := digits(line, 0)
+	if i == 0 || i > 9 || i >= n || line[i] != '.' { // 9 digits: 31 years, and no int64 overflow
+		return 0, 0, 0, false
+	}
+	frac, j := digits8(line, i+1)
+	nf := j - i - 1
+	if nf == 0 || nf > 9 || j+1 >= n || line[j] != ' ' {
+		return 0, 0, 0, false
+	}
+	return int64(sec)*1e9 + int64(frac)*int64(pow10u[9-nf]), Direction(line[j+1]), j + 2, true
+}
+
+var pow10u = [...]uint64{1, 10, 100, 1000, 10000, 100000, 1000000, 10000000, 100000000, 1000000000}
+
 // parseCapture reads "<seconds>.<fraction> <dir> <raw>".
 func (p *Parser) parseCapture(line []byte) RecordKind {
 	if len(line) == 0 {
 		p.stats.Blank++
 		return RecNone
 	}
-	i, n := 0, len(line)
-	var sec, frac int64
-	for i < n && line[i] >= '0' && line[i] <= '9' && i < 12 {
-		sec = sec*10 + int64(line[i]-'0')
-		i++
-	}
-	if i == 0 || i >= n || line[i] != '.' {
+	host, dir, i, ok := capturePrefix(line)
+	n := len(line)
+	if !ok || (i < n && line[i] != ' ') {
 		return p.reject(ErrBadCapture, "", line)
 	}
-	i++
-	f0 := i
-	scale := int64(1e9)
-	for i < n && line[i] >= '0' && line[i] <= '9' && i-f0 < 9 {
-		scale /= 10
-		frac += int64(line[i]-'0') * scale
-		i++
-	}
-	if i == f0 || i+1 >= n || line[i] != ' ' || (i+2 < n && line[i+2] != ' ') {
-		return p.reject(ErrBadCapture, "", line)
-	}
-	host := sec*1e9 + frac
-	dir := Direction(line[i+1])
-	raw := line[min(i+3, n):]
+	raw := line[min(i+1, n):]
 	if len(raw) > MaxLineLen {
 		return p.reject(ErrTooLong, "", raw[:MaxLineLen])
 	}

@@ -327,6 +327,24 @@ func TestScannerLines(t *testing.T) {
 			rejects: []rej{{3, "", ErrBinary}, {4, "", ErrBadCapture}, {5, "", ErrBadCapture}},
 		},
 		{
+			name: "capture time prefixes",
+			in: "#caploop-capture v1\n" +
+				"123456789.999999999 < sp=1 pv=2\r\n" +
+				"1234567890.5 < sp=1 pv=2\n" +
+				"1.1234567891 < sp=1 pv=2\n" +
+				"1. < sp=1 pv=2\n" +
+				".5 < sp=1 pv=2\n" +
+				"1.5 <sp=1 pv=2\n" +
+				"1.5 <\n" +
+				"2.25 < t=7 sp=1 pv=2 u=1 extra=3\n",
+			samples: []Sample{
+				{Line: 2, Host: 123456789999999999, SP: 1, PV: 2, Flags: HasHost},
+				{Line: 9, Index: 1, T: 7, Host: 2250000000, SP: 1, PV: 2, U: Charge, Flags: HasT | HasU | HasHost},
+			},
+			extras:  [][]Extra{nil, {{"extra", 3}}},
+			rejects: []rej{{3, "", ErrBadCapture}, {4, "", ErrBadCapture}, {5, "", ErrBadCapture}, {6, "", ErrBadCapture}, {7, "", ErrBadCapture}},
+		},
+		{
 			name:    "capture header only counts on the first line",
 			in:      "sp=1 pv=2\n#caploop-capture v1\n",
 			samples: []Sample{{Line: 1, SP: 1, PV: 2}},

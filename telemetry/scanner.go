@@ -77,6 +77,17 @@ func (s *Scanner) Scan() bool {
 					s.kind = p.accept(0, false)
 					return true
 				}
+			} else if p.capture && !p.noFast {
+				// The same inside a capture: a board line behind its host time.
+				if host, dir, k, ok := capturePrefix(b); ok && dir == FromBoard && k+1 < len(b) && b[k] == ' ' {
+					if next, ok := p.fastLine(b[k+1:], true); ok {
+						s.start += k + 1 + next
+						p.line++
+						p.stats.Lines++
+						s.kind = p.accept(host, true)
+						return true
+					}
+				}
 			}
 			if i := bytes.IndexByte(b, '\n'); i >= 0 && i <= MaxLineLen {
 				s.start += i + 1
