@@ -192,16 +192,6 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 	if p.TauChargeS != nil {
 		tau = *p.TauChargeS
 	}
-	if m.Has(telemetry.FieldC) && m.C > 0 && !math.IsNaN(tau) {
-		p.EffectiveROhm = ptr(tau / m.C)
-	}
-	if m.Has(telemetry.FieldR) && m.R > 0 && !math.IsNaN(tau) {
-		r := m.R
-		if m.Has(telemetry.FieldLoad) && m.Load > 0 {
-			r = r * m.Load / (r + m.Load)
-		}
-		p.EffectiveCF = ptr(tau / r)
-	}
 	if m.Has(telemetry.FieldSupply) && p.VHighV != nil {
 		vs, vh := m.Supply, *p.VHighV
 		drop := vs - vh
@@ -229,6 +219,29 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 				p.SenseDropV = ptr(drop)
 			}
 		}
+	}
+	// The load in parallel with C: the meta lines' or, failing that, the identified one.
+	rl := math.NaN()
+	switch {
+	case m.Has(telemetry.FieldLoad) && m.Load > 0:
+		rl = m.Load
+	case p.LoadOhm != nil:
+		rl = *p.LoadOhm
+	}
+	if m.Has(telemetry.FieldC) && m.C > 0 && !math.IsNaN(tau) {
+		// tau = C (R || R_L), so R = 1 / (C/tau - 1/R_L); without a load, tau / C.
+		r := tau / m.C
+		if !math.IsNaN(rl) && m.C/tau > 1/rl {
+			r = 1 / (m.C/tau - 1/rl)
+		}
+		p.EffectiveROhm = ptr(r)
+	}
+	if m.Has(telemetry.FieldR) && m.R > 0 && !math.IsNaN(tau) {
+		r := m.R
+		if !math.IsNaN(rl) {
+			r = r * rl / (r + rl)
+		}
+		p.EffectiveCF = ptr(tau / r)
 	}
 	return p
 }

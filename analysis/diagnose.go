@@ -66,6 +66,7 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 		jumps, noiseExits, exits, endRun int64
 		unreachable, unsettled, up       bool
 		droopChecked                     bool
+		meanE                            float64 // lowest steady mean error, counts
 	}
 	var groups []*group
 	bySP := map[[2]float64]*group{}
@@ -74,7 +75,7 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 		key := [2]float64{f.sp, f.db}
 		g := bySP[key]
 		if g == nil {
-			g = &group{sp: f.sp, db: f.db}
+			g = &group{sp: f.sp, db: f.db, meanE: math.Inf(1)}
 			bySP[key] = g
 			groups = append(groups, g)
 		}
@@ -89,6 +90,9 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 		}
 		if f.settled {
 			g.droopChecked = true
+			if !math.IsNaN(f.meanE) && f.meanE < g.meanE {
+				g.meanE = f.meanE
+			}
 		}
 	}
 	where := func(g *group) string {
@@ -157,9 +161,14 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 		if g.db > 0 && pf.ok[1] && g.droopChecked {
 			hf := pf.fit[1]
 			droop := (1 - hf.A) * (g.sp - hf.VInf)
-			if droop > 0 && 3*droop > 2*g.db+1 {
-				addG(DiagDroopTooFast, "warning", "%s: in hold the level droops about %.1f counts per sample, so it crosses the %g-count band in %.1f samples: the loop recharges almost every sample. Reduce the load, shorten the sample period or widen the band.",
-					where(g), droop, 2*g.db+1, (2*g.db+1)/droop)
+			band := 2*g.db + 1
+			if droop > 0 && (5*droop > band || g.meanE < -g.db) {
+				msg := fmt.Sprintf("%s: in hold the level droops about %.1f counts per sample, so it crosses the %g-count band in %.1f samples",
+					where(g), droop, band, band/droop)
+				if g.meanE < -g.db {
+					msg += fmt.Sprintf(", and on average it sits %.1f counts below the setpoint, under the band", -g.meanE)
+				}
+				addG(DiagDroopTooFast, "warning", "%s: the charges barely keep up. Reduce the load, shorten the sample period or widen the band.", msg)
 			}
 		}
 	}

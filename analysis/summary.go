@@ -47,7 +47,9 @@ type Board struct {
 }
 
 // Plant is the identified circuit: the real RC, not the one on the parts list.
-// The _ci fields are 95 % confidence intervals [low, high].
+// The _ci fields are 95 % confidence intervals [low, high]. EffectiveROhm and
+// EffectiveCF solve tau = C (R || R_L) for R (with the meta C) or C (with the meta R),
+// R_L being the meta load or else the identified one (none when neither is known).
 type Plant struct {
 	TauChargeS      *float64    `json:"tau_charge_s"`
 	TauChargeCIS    *[2]float64 `json:"tau_charge_ci_s"`

@@ -137,10 +137,10 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 	fmt.Fprintf(tw, "  v_low\t%s\t%s\t\n", fvc(p.VLowV, p.VLowCounts), fci(p.VLowCIV, "V"))
 	fmt.Fprintf(tw, "  ADC noise\t%s counts rms\t\t\n", ff(p.NoiseRMSCounts, "%.2f"))
 	if p.EffectiveROhm != nil {
-		fmt.Fprintf(tw, "  effective R\t%s\t(tau / C)\t\n", fv(p.EffectiveROhm, "Ω"))
+		fmt.Fprintf(tw, "  effective R\t%s\t(from tau, C and the load)\t\n", fv(p.EffectiveROhm, "Ω"))
 	}
 	if p.EffectiveCF != nil {
-		fmt.Fprintf(tw, "  effective C\t%s\t(tau / R)\t\n", fv(p.EffectiveCF, "F"))
+		fmt.Fprintf(tw, "  effective C\t%s\t(from tau, R and the load)\t\n", fv(p.EffectiveCF, "F"))
 	}
 	if p.LoadOhm != nil {
 		fmt.Fprintf(tw, "  load\t%s\t\t\n", fv(p.LoadOhm, "Ω"))
