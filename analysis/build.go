@@ -410,14 +410,13 @@ func (a *Accumulator) traces(pf plantFit, c conv) *Traces {
 		}
 		return c.s(ticks)
 	}
-	o := &a.ov
-	for i := range o.t {
-		tr.T = append(tr.T, secs(o.t[i]))
-		tr.SP = append(tr.SP, val(o.sp[i]))
-		tr.PV = append(tr.PV, val(o.sum[i]/o.cnt[i]))
-		tr.PVMin = append(tr.PVMin, val(o.lo[i]))
-		tr.PVMax = append(tr.PVMax, val(o.hi[i]))
-	}
+	a.ov.each(func(t, sp, mean, lo, hi float64) {
+		tr.T = append(tr.T, secs(t))
+		tr.SP = append(tr.SP, val(sp))
+		tr.PV = append(tr.PV, val(mean))
+		tr.PVMin = append(tr.PVMin, val(lo))
+		tr.PVMax = append(tr.PVMax, val(hi))
+	})
 	for _, z := range a.zooms {
 		zz := ZoomTrace{Segment: z.Segment, T: make([]float64, len(z.T)), PV: make([]float64, len(z.PV)), U: z.U}
 		for i := range z.T {

@@ -248,3 +248,39 @@ func TestDeadbandChangeSplits(t *testing.T) {
 		t.Errorf("band jumps: got %d before and %d after, want some and none", before.BandJumps, after.BandJumps)
 	}
 }
+
+// TestOverview checks the decimated envelope: every sample is in exactly one bucket,
+// the envelope holds the extremes, and the buckets stay within their number.
+func TestOverview(t *testing.T) {
+	for _, n := range []int{1, 7, 1024, 1025, 5000, 100003} {
+		var o overview
+		o.init(64)
+		lo, hi := math.Inf(1), math.Inf(-1)
+		for k := range n {
+			pv := float64((k * 7919) % 1000)
+			lo, hi = math.Min(lo, pv), math.Max(hi, pv)
+			o.add(float64(k), 0, pv)
+		}
+		var buckets int
+		var count float64
+		glo, ghi, prevT, ordered := math.Inf(1), math.Inf(-1), -1.0, true
+		o.each(func(t, sp, mean, l, h float64) {
+			buckets++
+			glo, ghi = math.Min(glo, l), math.Max(ghi, h)
+			ordered = ordered && t > prevT
+			prevT = t
+		})
+		if !ordered {
+			t.Errorf("n=%d: bucket times not increasing", n)
+		}
+		for i := range o.cnt {
+			count += o.cnt[i]
+		}
+		if o.open {
+			count += o.ccnt
+		}
+		if buckets > 64 || count != float64(n) || glo != lo || ghi != hi {
+			t.Errorf("n=%d: %d buckets (max 64), %g samples, envelope [%g, %g], want %d samples in [%g, %g]", n, buckets, count, glo, ghi, n, lo, hi)
+		}
+	}
+}
