@@ -48,6 +48,10 @@ limit-cycle period and deadband hits, identifies the real RC from the data, and 
 the deadband count and standard R and C values, each checked by simulating the loop.
 
 With no command, caploop shows the bench screen on its built-in virtual board.`,
+		Example: `  caploop                                   # the bench screen on the virtual board
+  caploop live /dev/ttyACM0 --record bench.cap
+  caploop summary bench.cap --max-ripple 20mV --max-jumps 0
+  caploop design --supply 5 --period 1ms --ripple 100mV --series E12`,
 		SilenceUsage:  true,
 		SilenceErrors: true,
 	}
