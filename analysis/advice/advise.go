@@ -226,7 +226,7 @@ func (p *plant) advise(cur *present, noiseMeasured bool) (*Advice, error) {
 		}
 		a.SamplePeriod = pa
 	}
-	if sr.meeting == 0 || len(a.Candidates) == 0 || a.Candidates[0].Verdict != "meets goals" {
+	if sr.meeting == 0 || len(a.Candidates) == 0 || !a.Candidates[0].MeetsGoals {
 		t, err := p.topology(sr)
 		if err != nil {
 			return nil, err

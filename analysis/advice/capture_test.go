@@ -159,7 +159,7 @@ func TestCapturesSuggestionsMeetGoals(t *testing.T) {
 			g := a.Goals
 			noise := math.Max(g.NoiseRMSCounts, 1)
 			for _, c := range a.Candidates {
-				if c.Verdict != "meets goals" {
+				if !c.MeetsGoals {
 					continue
 				}
 				for _, seed := range []uint64{501, 502} {

@@ -152,12 +152,12 @@ func TestDesignClosedLoop(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			if len(a.Candidates) == 0 || a.Candidates[0].Verdict != "meets goals" {
+			if len(a.Candidates) == 0 || !a.Candidates[0].MeetsGoals {
 				t.Fatalf("no candidate meets the goals: %+v", a.Candidates)
 			}
 			g := a.Goals
 			for i, cd := range a.Candidates {
-				if cd.Verdict != "meets goals" {
+				if !cd.MeetsGoals {
 					continue
 				}
 				// Each run with another seed meets the goals; the figures match the mean
@@ -305,7 +305,7 @@ func TestTopologyWhenNothingMeets(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(a.Candidates) > 0 && a.Candidates[0].Verdict == "meets goals" {
+	if len(a.Candidates) > 0 && a.Candidates[0].MeetsGoals {
 		t.Fatalf("a pair meets impossible goals: %+v", a.Candidates[0])
 	}
 	if len(a.Topology) == 0 {

@@ -34,8 +34,10 @@ type pair struct {
 	res      simResult
 	simmed   bool
 	verified bool
-	score    float64
-	window   int // steady window of the last run, samples
+	score    float64  // third key of the ranking (see better)
+	meets    bool     // meets every goal in the last run
+	broken   []string // rules of the trade broken (see rules)
+	window   int      // steady window of the last run, samples
 }
 
 // tolFor is the settling band for a loop with deadband db: the output is settled when it
@@ -88,6 +90,7 @@ func (p *plant) closedForm(pr *pair, kind loop.Kind, period float64) {
 	if kind == loop.ThreeState && p.g.staticV > 0 && pr.work.StaticErrorV > p.g.staticV {
 		pr.fail = append(pr.fail, "static error too high")
 	}
+	pr.broken = p.rules(pr)
 }
 
 // plan sizes a run from the closed form: settling to within the band itself (not just
@@ -171,6 +174,7 @@ func (p *plant) checkPlan(pr *pair, kind loop.Kind, period float64, plan runPlan
 		agg.rippleMean = agg.ripplePP
 	}
 	pr.res, pr.simmed = agg, true
+	pr.meets = len(p.failures(pr)) == 0
 	pr.score = p.score(pr)
 	return nil
 }
@@ -209,45 +213,6 @@ func contains(s []string, x string) bool {
 		}
 	}
 	return false
-}
-
-// score ranks pairs: for a pair that meets the goals, the smaller of its two margins
-// (log of goal over figure), so the pair in the middle of the window wins; for one that
-// misses, minus the sum of its log excesses.
-func (p *plant) score(pr *pair) float64 {
-	rip := math.Max(pr.res.ripplePP, 0.5*p.lsb())
-	set := math.Max(pr.res.settleS, p.period)
-	if !pr.res.settled {
-		set = math.Max(set, 2*p.g.settleS)
-	}
-	mr, ms := math.Log(p.g.rippleV/rip), math.Log(p.g.settleS/set)
-	if pr.db > 0 {
-		// Three-state: the band is the static error; keep a margin on it too.
-		mr = math.Min(mr, math.Log(p.g.staticV/(float64(pr.db)*p.lsb())))
-	}
-	if len(p.failures(pr)) == 0 {
-		return math.Min(mr, ms) - p.penalty(pr)
-	}
-	return -10 - math.Max(-mr, 0) - math.Max(-ms, 0) - 5*float64(len(pr.fail))
-}
-
-// penalty is a soft preference against parts that work but cost something: a pin current
-// over half the limit, a load under 10 R, an electrolytic-sized or large ceramic capacitor.
-func (p *plant) penalty(pr *pair) float64 {
-	var x float64
-	if pr.pinA > 0.5*p.g.pinA {
-		x += 0.2
-	}
-	if p.load > 0 && p.load < 10*pr.r {
-		x += 0.2
-	}
-	switch {
-	case pr.c >= 10e-6:
-		x += 0.2
-	case pr.c >= 1e-6:
-		x += 0.05
-	}
-	return x
 }
 
 // searchResult is the outcome of one search over the parts.
@@ -299,7 +264,13 @@ func (p *plant) search(kind loop.Kind, period float64) (*searchResult, error) {
 		}
 		return m
 	}
-	sort.SliceStable(pass, func(i, j int) bool { return cfScore(pass[i]) > cfScore(pass[j]) })
+	// Pairs that keep the rules of the trade first (they head the table when they meet
+	// the goals, see better), each group best centred first.
+	cfs := make(map[*pair]float64, len(pass))
+	for _, pr := range pass {
+		cfs[pr] = cfScore(pr)
+	}
+	sort.SliceStable(pass, func(i, j int) bool { return p.cfBetter(pass[i], pass[j], cfs[pass[i]], cfs[pass[j]]) })
 	// Fine series hold hundreds of pairs with the same R*C; keep at most a few per 2 %
 	// band of R*C so that the short runs cover different time constants.
 	perTau := map[int]int{}
@@ -326,16 +297,11 @@ func (p *plant) search(kind loop.Kind, period float64) (*searchResult, error) {
 			return nil, err
 		}
 		out.simmed++
-		if len(p.failures(pr)) == 0 {
+		if pr.meets {
 			out.meeting++
 		}
 	}
-	sort.SliceStable(pass, func(i, j int) bool {
-		if pass[i].score != pass[j].score {
-			return pass[i].score > pass[j].score
-		}
-		return pass[i].c < pass[j].c
-	})
+	sort.SliceStable(pass, func(i, j int) bool { return p.better(pass[i], pass[j]) })
 	// Verify the best, one pair per time constant, until Top are shown.
 	var products []float64
 	for _, pr := range pass {
@@ -363,7 +329,7 @@ func (p *plant) search(kind loop.Kind, period float64) (*searchResult, error) {
 		}
 		out.shown = append(out.shown, pr)
 	}
-	sort.SliceStable(out.shown, func(i, j int) bool { return out.shown[i].score > out.shown[j].score })
+	sort.SliceStable(out.shown, func(i, j int) bool { return p.better(out.shown[i], out.shown[j]) })
 	if len(out.shown) > 0 {
 		out.best = out.shown[0]
 	}
@@ -403,10 +369,15 @@ func (p *plant) candidate(pr *pair, kind loop.Kind) Candidate {
 		c.DeadbandCounts = pr.db
 	}
 	f := p.failures(pr)
-	if len(f) == 0 {
-		c.Verdict = "meets goals"
+	c.MeetsGoals = len(f) == 0
+	c.RulesBroken = append([]string{}, pr.broken...)
+	if c.MeetsGoals {
+		c.Verdict = VerdictMeets
 	} else {
 		c.Verdict = strings.Join(f, ", ")
+	}
+	if len(pr.broken) > 0 {
+		c.Verdict += "; " + strings.Join(pr.broken, ", ")
 	}
 	c.Trades = p.trades(pr, kind)
 	return c
@@ -428,20 +399,9 @@ func (p *plant) trades(pr *pair, kind loop.Kind) string {
 	if kind == loop.ThreeState && pr.db > 0 {
 		t = append(t, fmt.Sprintf("static error up to %d counts (%s)", pr.db, fmtV(float64(pr.db)*p.lsb())))
 	}
-	if pr.pinA > 0.5*p.g.pinA {
-		t = append(t, fmt.Sprintf("pin current %s is over half the %s limit", fmtA(pr.pinA), fmtA(p.g.pinA)))
-	}
-	if p.load > 0 && p.load < 10*pr.r {
-		t = append(t, fmt.Sprintf("load is under 10 R: V_inf sags %s", fmtV(pr.sag)))
-	}
-	switch {
-	case pr.c >= 10e-6:
-		t = append(t, "electrolytic size: leaks and -20/+80 % tolerance")
-	case pr.c >= 1e-6:
+	t = append(t, p.ruleTrades(pr)...)
+	if pr.c >= 1e-6*(1-relTol) && pr.c <= ruleMaxC*(1+relTol) {
 		t = append(t, "a class-2 ceramic this size loses capacitance under DC bias: film or measure")
-	}
-	if pr.r >= 470e3 {
-		t = append(t, "high R: leakage and ADC input current start to matter")
 	}
 	return strings.Join(t, "; ")
 }

@@ -79,16 +79,18 @@ type Candidate struct {
 	PredictedSettleS   float64 `json:"predicted_settle_s"`
 	PinCurrentA        float64 `json:"pin_current_a"`
 	VInfSagV           float64 `json:"v_inf_sag_v"`
-	Verdict            string  `json:"verdict"` // "meets goals", "ripple too high", ...
+	Verdict            string  `json:"verdict"` // "meets goals", "ripple too high", ...; then "; " and any rules broken
 	Trades             string  `json:"trades"`  // what it trades away
 
 	// Added fields.
-	TauS          float64 `json:"tau_s"`                 // charge time constant with the real C and the load
-	EffectiveCF   float64 `json:"effective_c_f"`         // the capacitance designed with (marked C times the measured ratio)
-	StaticErrorV  float64 `json:"static_error_v"`        // largest mean error over the steady parts, model
-	BandJumps     int64   `json:"band_jumps"`            // band jumps in the checking runs (three-state)
-	Settled       bool    `json:"settled"`               // both full-scale steps settled within the run
-	WindowSamples int     `json:"steady_window_samples"` // samples per setpoint the ripple is measured over
+	TauS          float64  `json:"tau_s"`                 // charge time constant with the real C and the load
+	EffectiveCF   float64  `json:"effective_c_f"`         // the capacitance designed with (marked C times the measured ratio)
+	StaticErrorV  float64  `json:"static_error_v"`        // largest mean error over the steady parts, model
+	BandJumps     int64    `json:"band_jumps"`            // band jumps in the checking runs (three-state)
+	Settled       bool     `json:"settled"`               // both full-scale steps settled within the run
+	WindowSamples int      `json:"steady_window_samples"` // samples per setpoint the ripple is measured over
+	MeetsGoals    bool     `json:"meets_goals"`           // every numeric goal met in the loop model (worst seed)
+	RulesBroken   []string `json:"rules_broken"`          // rules of the trade broken (RuleLoad, ...), empty = none
 }
 
 // PeriodAdvice says whether another sample period would serve the goal better.

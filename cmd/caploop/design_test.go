@@ -51,6 +51,7 @@ func TestDesignCommand(t *testing.T) {
 				Settle  float64 `json:"predicted_settle_s"`
 				PinA    float64 `json:"pin_current_a"`
 				Verdict string  `json:"verdict"`
+				Meets   bool    `json:"meets_goals"`
 			} `json:"candidates"`
 		}
 		if err := json.Unmarshal([]byte(out), &doc); err != nil {
@@ -60,7 +61,7 @@ func TestDesignCommand(t *testing.T) {
 			t.Fatalf("doc = %+v, want a deadband and candidates", doc)
 		}
 		c := doc.Candidates[0]
-		if c.Verdict != "meets goals" || c.Ripple > 0.1 || c.Settle > 0.2 || c.PinA != 5/c.ROhm {
+		if !c.Meets || c.Verdict != "meets goals" || c.Ripple > 0.1 || c.Settle > 0.2 || c.PinA != 5/c.ROhm {
 			t.Errorf("top candidate %+v does not meet 100 mV / 200 ms or has the wrong pin current", c)
 		}
 	})
