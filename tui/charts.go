@@ -74,11 +74,23 @@ func (m ChartModel) View() string {
 		return fitBlock("last step: no setpoint step seen yet", m.width, m.height)
 	}
 	st := tr.StepTraces[len(tr.StepTraces)-1]
-	var fig *analysis.StepFigures
-	if st.Step >= 0 && st.Step < len(m.sum.Steps) {
-		fig = &m.sum.Steps[st.Step]
+	return RenderStep(st, stepFigures(m.sum, st), tr.Volts, m.width, m.height, m.color)
+}
+
+// stepFigures finds the figures of the step a trace shows: the step that starts at the
+// trace's first sample (StepTrace.Step numbers segments, not steps). Nil when none does.
+func stepFigures(s *analysis.Summary, st analysis.StepTrace) *analysis.StepFigures {
+	if s == nil || len(st.T) < 2 {
+		return nil
 	}
-	return RenderStep(st, fig, tr.Volts, m.width, m.height, m.color)
+	tol := math.Abs(st.T[1]-st.T[0]) / 2
+	var best *analysis.StepFigures
+	for i := range s.Steps {
+		if d := math.Abs(s.Steps[i].AtS - st.T[0]); d <= tol && (best == nil || d < math.Abs(best.AtS-st.T[0])) {
+			best = &s.Steps[i]
+		}
+	}
+	return best
 }
 
 // RenderHistogram draws the error histogram as horizontal bars, one row per bin (bins
@@ -200,21 +212,51 @@ func fmtFloat(v float64) string {
 	return fmt.Sprintf("%.2f", v)
 }
 
-// RenderStep draws the last step response with the fitted exponential over it, and the
-// step's figures on the title line. It is a pure function of its arguments.
+// stepMinSamples is the fewest samples the step plot shows when it zooms onto the rise.
+const stepMinSamples = 48
+
+// RenderStep draws the last step response: the samples of pv as dots over the response
+// of the identified plant driven by the same recorded drives (the fitted model) as a
+// line, with the step's figures under the title. The time axis runs from the step to
+// four settling times (at least stepMinSamples samples, at most the whole trace) so the
+// rise fills the plot. Dots stand at least two columns apart (samples in between are
+// left out) so the line stays visible between them whatever the colours. It is a pure
+// function of its arguments.
 func RenderStep(st analysis.StepTrace, fig *analysis.StepFigures, volts bool, width, height int, color bool) string {
-	n := min(len(st.T), len(st.PV), len(st.Fitted))
+	n := min(len(st.T), len(st.PV))
 	if n < 2 || height < 6 || width < 30 {
 		return fitBlock("last step: no setpoint step seen yet", width, height)
 	}
+	hasFit := len(st.Fitted) >= n
 	unit := "V"
 	if !volts {
 		unit = "counts"
 	}
-	title := "last step: pv ─ and fitted exponential ┄ (" + unit + ")"
+	title := "last step (" + unit + "): pv samples •, fitted model ─ (identified plant, same drives)"
+	if !hasFit {
+		title = "last step (" + unit + "): pv ─ (no fitted model yet: the plant is not identified)"
+	}
+	lines := []string{title}
 	if fig != nil {
-		title += fmt.Sprintf("  %s → %s  rise %s  settle %s  overshoot %s",
-			fmtSI(fig.FromV, "V"), fmtSI(fig.ToV, "V"), fmtSI(fig.RiseS, "s"), fmtSI(fig.SettleS, "s"), fmtSI(fig.OvershootV, "V"))
+		lines = append(lines, fmt.Sprintf("step at %s: %s → %s  rise %s  settle %s  overshoot %s", formatSeconds(fig.AtS),
+			fmtSI(fig.FromV, "V"), fmtSI(fig.ToV, "V"), fmtSI(fig.RiseS, "s"), fmtSI(fig.SettleS, "s"), fmtSI(fig.OvershootV, "V")))
+	}
+	head := wrapLines(lines, width)
+	headRows := strings.Count(head, "\n") + 1
+	t0 := st.T[0]
+	// Zoom onto the rise: four settling times, never fewer than stepMinSamples samples.
+	last := n - 1
+	if fig != nil && fig.SettleS != nil && *fig.SettleS > 0 {
+		end := t0 + 4**fig.SettleS
+		k := last
+		for k > 0 && st.T[k] > end {
+			k--
+		}
+		last = min(max(k, stepMinSamples-1), n-1)
+	}
+	t1 := st.T[last]
+	if !(t1 > t0) {
+		return fitBlock(head+"\n(the step trace has no time span)", width, height)
 	}
 	plotW := width - 13
 	pv := make([]float64, plotW)
@@ -222,25 +264,125 @@ func RenderStep(st analysis.StepTrace, fig *analysis.StepFigures, volts bool, wi
 	for i := range pv {
 		pv[i], fit[i] = math.NaN(), math.NaN()
 	}
-	t0, t1 := st.T[0], st.T[n-1]
-	for i := 0; i < n; i++ {
-		c := int((st.T[i] - t0) / (t1 - t0) * float64(plotW-1))
+	lo, hi := math.Inf(1), math.Inf(-1)
+	line := fit
+	for i := 0; i <= last; i++ {
+		c := int(math.Round((st.T[i] - t0) / (t1 - t0) * float64(plotW-1)))
 		if c < 0 || c >= plotW {
 			continue
 		}
-		pv[c], fit[c] = st.PV[i], st.Fitted[i]
+		pv[c] = st.PV[i]
+		lo, hi = math.Min(lo, st.PV[i]), math.Max(hi, st.PV[i])
+		if hasFit {
+			fit[c] = st.Fitted[i]
+			lo, hi = math.Min(lo, st.Fitted[i]), math.Max(hi, st.Fitted[i])
+		}
 	}
-	fillGaps(pv)
-	fillGaps(fit)
-	opts := []asciigraph.Option{
-		asciigraph.Height(height - 5), asciigraph.Offset(2), asciigraph.Precision(3),
-		asciigraph.YAxisValueFormatter(func(v float64) string { return fmt.Sprintf("%7.3f", v) }),
-		asciigraph.SeriesChars(asciigraph.CreateCharSet("┄"), asciigraph.DefaultCharSet),
+	if !hasFit {
+		line = pv
+	}
+	fillGaps(line)
+	prec := uint(3)
+	yfmt := "%7.3f"
+	if !volts {
+		prec, yfmt = 0, "%7.0f"
+	}
+	rowsH := max(height-3-headRows, 2)
+	out := asciigraph.Plot(line,
+		asciigraph.Height(rowsH), asciigraph.Offset(2), asciigraph.Precision(prec),
+		asciigraph.LowerBound(lo), asciigraph.UpperBound(hi),
+		asciigraph.YAxisValueFormatter(func(v float64) string { return fmt.Sprintf(yfmt, v) }),
 		asciigraph.XAxisRange(0, t1-t0), asciigraph.XAxisTickCount(tickCount(plotW)),
 		asciigraph.XAxisValueFormatter(func(v float64) string { return si.Format(v, "s") }),
+	)
+	grid := strings.Split(out, "\n")
+	if hasFit {
+		overlayDots(grid, pv, lo, hi, rowsH)
 	}
 	if color {
-		opts = append(opts, asciigraph.SeriesColors(colourSP, colourPV), asciigraph.AxisColor(colourAxis), asciigraph.LabelColor(colourAxis))
+		colourStep(grid)
 	}
-	return fitBlock(wrapLines([]string{title}, width)+"\n"+asciigraph.PlotMany([][]float64{fit, pv}, opts...), width, height)
+	return fitBlock(head+"\n"+strings.Join(grid, "\n"), width, height)
+}
+
+// overlayDots puts a • for each sample of pv (NaN: none) on a plain asciigraph plot of
+// the same columns and bounds, using asciigraph's row arithmetic (rows = height, value v
+// on row round(v·ratio) − round(lo·ratio) from the bottom). Dots stand at least two
+// columns apart (samples in between are left out) so the line shows between them.
+func overlayDots(grid []string, pv []float64, lo, hi float64, height int) {
+	ratio := 1.0
+	if hi > lo {
+		ratio = float64(height) / (hi - lo)
+	}
+	min2 := int(math.Round(lo * ratio))
+	rows := int(math.Abs(float64(int(math.Round(hi*ratio)) - min2)))
+	if rows >= len(grid) {
+		return
+	}
+	lastDot := -2
+	for x, v := range pv {
+		if math.IsNaN(v) || x < lastDot+2 {
+			continue
+		}
+		r := rows - (int(math.Round(v*ratio)) - min2)
+		if r < 0 || r > rows {
+			continue
+		}
+		line := []rune(grid[r])
+		axis := strings.IndexFunc(string(line), func(c rune) bool { return c == '┤' || c == '┼' })
+		if axis < 0 {
+			continue
+		}
+		axis = len([]rune(string(line)[:axis]))
+		// Point x sits between asciigraph's segments x-1 and x; draw it on segment x-1
+		// (the first point on the first segment).
+		c := axis + max(x, 1)
+		for len(line) <= c {
+			line = append(line, ' ')
+		}
+		line[c] = '•'
+		grid[r] = string(line)
+		lastDot = x
+	}
+}
+
+// colourStep colours a plain step plot: labels and axes grey, the model line and pv dots
+// in their series colours.
+func colourStep(grid []string) {
+	paint := func(c asciigraph.AnsiColor, s string) string {
+		if s == "" {
+			return s
+		}
+		return fmt.Sprintf("\x1b[38;5;%dm%s\x1b[0m", int(c), s)
+	}
+	for i, l := range grid {
+		r := []rune(l)
+		axis := -1
+		for j, c := range r {
+			if c == '┤' || c == '┼' {
+				axis = j
+				break
+			}
+		}
+		if axis < 0 {
+			grid[i] = paint(colourAxis, l)
+			continue
+		}
+		var b strings.Builder
+		b.WriteString(paint(colourAxis, string(r[:axis+1])))
+		for j := axis + 1; j < len(r); {
+			k := j
+			dot := r[j] == '•'
+			for k < len(r) && (r[k] == '•') == dot {
+				k++
+			}
+			if dot {
+				b.WriteString(paint(colourPV, string(r[j:k])))
+			} else {
+				b.WriteString(paint(colourFit, string(r[j:k])))
+			}
+			j = k
+		}
+		grid[i] = b.String()
+	}
 }

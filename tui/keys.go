@@ -59,28 +59,28 @@ func DefaultKeyMap() KeyMap {
 	return KeyMap{
 		Quit:      key.NewBinding(key.WithKeys("q", "ctrl+c"), key.WithHelp("q", "quit")),
 		Help:      key.NewBinding(key.WithKeys("?", "h"), key.WithHelp("?", "keys")),
-		Pause:     key.NewBinding(key.WithKeys(" ", "p"), key.WithHelp("space", "hold/run")),
-		ZoomIn:    key.NewBinding(key.WithKeys("+", "="), key.WithHelp("+/-", "time zoom")),
+		Pause:     key.NewBinding(key.WithKeys(" ", "p"), key.WithHelp("space", "hold / run")),
+		ZoomIn:    key.NewBinding(key.WithKeys("+", "="), key.WithHelp("+", "zoom in")),
 		ZoomOut:   key.NewBinding(key.WithKeys("-", "_"), key.WithHelp("-", "zoom out")),
-		Back:      key.NewBinding(key.WithKeys("left"), key.WithHelp("←/→", "scroll")),
+		Back:      key.NewBinding(key.WithKeys("left"), key.WithHelp("←", "scroll back")),
 		Forward:   key.NewBinding(key.WithKeys("right"), key.WithHelp("→", "scroll ahead")),
-		Latest:    key.NewBinding(key.WithKeys("end", "G"), key.WithHelp("G", "newest")),
+		Latest:    key.NewBinding(key.WithKeys("end", "G"), key.WithHelp("G", "follow the newest")),
 		NextView:  key.NewBinding(key.WithKeys("tab"), key.WithHelp("tab", "next view")),
-		PrevView:  key.NewBinding(key.WithKeys("shift+tab"), key.WithHelp("shift+tab", "previous view")),
+		PrevView:  key.NewBinding(key.WithKeys("shift+tab"), key.WithHelp("S-tab", "previous view")),
 		Trace:     key.NewBinding(key.WithKeys("1"), key.WithHelp("1", "trace")),
-		Figures:   key.NewBinding(key.WithKeys("2"), key.WithHelp("2", "figures")),
+		Figures:   key.NewBinding(key.WithKeys("2"), key.WithHelp("2", "figures, advice")),
 		Spread:    key.NewBinding(key.WithKeys("3"), key.WithHelp("3", "error spread")),
 		Ripple:    key.NewBinding(key.WithKeys("4"), key.WithHelp("4", "ripple spectrum")),
 		Step:      key.NewBinding(key.WithKeys("5"), key.WithHelp("5", "last step")),
-		Apply:     key.NewBinding(key.WithKeys("d"), key.WithHelp("d", "send deadband")),
-		Mark:      key.NewBinding(key.WithKeys("m"), key.WithHelp("m", "mark moment")),
-		Faster:    key.NewBinding(key.WithKeys("]"), key.WithHelp("[/]", "replay speed")),
-		Slower:    key.NewBinding(key.WithKeys("["), key.WithHelp("[", "slower")),
-		StepOnce:  key.NewBinding(key.WithKeys("n"), key.WithHelp("n", "step (held)")),
-		SeekBack:  key.NewBinding(key.WithKeys(","), key.WithHelp(",/.", "seek 10 s")),
-		SeekAhead: key.NewBinding(key.WithKeys("."), key.WithHelp(".", "seek ahead")),
-		Confirm:   key.NewBinding(key.WithKeys("y", "enter"), key.WithHelp("y", "confirm")),
-		Cancel:    key.NewBinding(key.WithKeys("n", "esc"), key.WithHelp("n/esc", "cancel")),
+		Apply:     key.NewBinding(key.WithKeys("d"), key.WithHelp("d", "send advised deadband")),
+		Mark:      key.NewBinding(key.WithKeys("m"), key.WithHelp("m", "mark this moment")),
+		Faster:    key.NewBinding(key.WithKeys("]"), key.WithHelp("]", "replay faster")),
+		Slower:    key.NewBinding(key.WithKeys("["), key.WithHelp("[", "replay slower")),
+		StepOnce:  key.NewBinding(key.WithKeys("n"), key.WithHelp("n", "step (while held)")),
+		SeekBack:  key.NewBinding(key.WithKeys(","), key.WithHelp(",", "seek back 10 s")),
+		SeekAhead: key.NewBinding(key.WithKeys("."), key.WithHelp(".", "seek ahead 10 s")),
+		Confirm:   key.NewBinding(key.WithKeys("y", "enter"), key.WithHelp("y", "send it")),
+		Cancel:    key.NewBinding(key.WithKeys("n", "esc"), key.WithHelp("n/esc", "do not send")),
 	}
 }
 
@@ -104,23 +104,39 @@ func (k *KeyMap) SetConfirming(on bool) {
 	k.Cancel.SetEnabled(on)
 }
 
-// ShortHelp is the one-line help: bindings people need first.
+// ShortHelp is the one-line help: bindings people need first, in short words. Pairs of keys (zoom,
+// scroll, replay speed) share one entry here; the full help lists each key on its own.
 func (k KeyMap) ShortHelp() []key.Binding {
 	if k.Confirm.Enabled() {
 		return []key.Binding{k.Confirm, k.Cancel}
 	}
-	return []key.Binding{k.Help, k.Apply, k.Pause, k.NextView, k.ZoomIn, k.Back, k.Faster, k.Mark, k.Quit}
+	pair := func(a, b key.Binding, keys, desc string) key.Binding {
+		return key.NewBinding(key.WithKeys(append(a.Keys(), b.Keys()...)...), key.WithHelp(keys, desc),
+			key.WithDisabled())
+	}
+	zoom := pair(k.ZoomIn, k.ZoomOut, "+/-", "zoom")
+	zoom.SetEnabled(k.ZoomIn.Enabled())
+	scroll := pair(k.Back, k.Forward, "←/→", "scroll")
+	scroll.SetEnabled(k.Back.Enabled())
+	speed := pair(k.Slower, k.Faster, "[/]", "speed")
+	speed.SetEnabled(k.Faster.Enabled())
+	apply, pause := k.Apply, k.Pause
+	apply.SetHelp("d", "send deadband")
+	pause.SetHelp("space", "hold/run")
+	// The most needed first: a narrow terminal cuts the tail (bubbles/help ends it with …).
+	return []key.Binding{k.Help, k.Quit, apply, pause, k.NextView, zoom, scroll, speed, k.Mark}
 }
 
-// FullHelp is the full key list in columns.
+// FullHelp is the full key list in columns, every key once.
 func (k KeyMap) FullHelp() [][]key.Binding {
 	if k.Confirm.Enabled() {
 		return [][]key.Binding{{k.Confirm, k.Cancel}}
 	}
+	help := k.Help
+	help.SetHelp("?", "close this list")
 	return [][]key.Binding{
-		{k.Pause, k.ZoomIn, k.ZoomOut, k.Back, k.Forward, k.Latest},
-		{k.NextView, k.Trace, k.Figures, k.Spread, k.Ripple, k.Step},
-		{k.Apply, k.Mark, k.Faster, k.Slower, k.StepOnce, k.SeekBack, k.SeekAhead},
-		{k.Help, k.Quit},
+		{k.Pause, k.ZoomIn, k.ZoomOut, k.Back, k.Forward, k.Latest, k.Mark},
+		{k.NextView, k.PrevView, k.Trace, k.Figures, k.Spread, k.Ripple, k.Step},
+		{k.Apply, k.Faster, k.Slower, k.StepOnce, k.SeekBack, k.SeekAhead, help, k.Quit},
 	}
 }

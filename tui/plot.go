@@ -215,6 +215,7 @@ var (
 	colourBand = asciigraph.DimGray
 	colourPV   = asciigraph.DeepSkyBlue
 	colourAxis = asciigraph.Gray
+	colourFit  = asciigraph.Orange
 )
 
 // RenderPlot draws w as a text plot exactly width columns wide and height rows high:
