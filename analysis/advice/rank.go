@@ -178,7 +178,7 @@ func (p *plant) ruleTrades(pr *pair) []string {
 		case RuleLowR:
 			t = append(t, fmt.Sprintf("R under 1 kΩ draws %s at every switch for no gain", fmtA(pr.pinA)))
 		case RuleHighR:
-			t = append(t, fmt.Sprintf("R over 100 kΩ: leakage and ADC input current (about 1 µA, from memory) through it make %s",
+			t = append(t, fmt.Sprintf("R over 100 kΩ: 1 µA of leakage or ADC input current (from memory) through it is %s",
 				fmtV(1e-6*pr.ci.R)))
 		case RuleBigC:
 			t = append(t, "electrolytic size: leaks and has -20/+80 % tolerance")
