@@ -170,9 +170,10 @@ func RenderSpectrum(freq, amp []float64, width, height int, color bool) string {
 	for i := range col {
 		col[i] = math.NaN()
 	}
-	f0, f1 := freq[0], freq[n-1]
+	// The axis starts at 0 Hz and ends on a round frequency at or above the last line.
+	top, ticks := niceAxis(freq[n-1], tickCount(plotW)-1)
 	for i := 0; i < n; i++ {
-		c := int((freq[i] - f0) / (f1 - f0) * float64(plotW-1))
+		c := int(math.Round(freq[i] / top * float64(plotW-1)))
 		if c < 0 || c >= plotW {
 			continue
 		}
@@ -184,7 +185,7 @@ func RenderSpectrum(freq, amp []float64, width, height int, color bool) string {
 	opts := []asciigraph.Option{
 		asciigraph.Height(height - 5), asciigraph.Offset(2), asciigraph.Precision(2),
 		asciigraph.YAxisValueFormatter(func(v float64) string { return fmt.Sprintf("%7.2f", v) }),
-		asciigraph.XAxisRange(f0, f1), asciigraph.XAxisTickCount(tickCount(plotW)),
+		asciigraph.XAxisRange(0, top), asciigraph.XAxisTickCount(ticks + 1),
 		asciigraph.XAxisValueFormatter(func(v float64) string { return si.Format(v, "Hz") }),
 	}
 	if color {
@@ -254,11 +255,16 @@ func RenderStep(st analysis.StepTrace, fig *analysis.StepFigures, volts bool, wi
 		}
 		last = min(max(k, stepMinSamples-1), n-1)
 	}
-	t1 := st.T[last]
-	if !(t1 > t0) {
+	if !(st.T[last] > t0) {
 		return fitBlock(head+"\n(the step trace has no time span)", width, height)
 	}
 	plotW := width - 13
+	// The axis ends on a round time; the samples up to it are drawn.
+	span, ticks := niceAxis(st.T[last]-t0, tickCount(plotW)-1)
+	for last < n-1 && st.T[last+1]-t0 <= span {
+		last++
+	}
+	t1 := t0 + span
 	pv := make([]float64, plotW)
 	fit := make([]float64, plotW)
 	for i := range pv {
@@ -292,7 +298,7 @@ func RenderStep(st analysis.StepTrace, fig *analysis.StepFigures, volts bool, wi
 		asciigraph.Height(rowsH), asciigraph.Offset(2), asciigraph.Precision(prec),
 		asciigraph.LowerBound(lo), asciigraph.UpperBound(hi),
 		asciigraph.YAxisValueFormatter(func(v float64) string { return fmt.Sprintf(yfmt, v) }),
-		asciigraph.XAxisRange(0, t1-t0), asciigraph.XAxisTickCount(tickCount(plotW)),
+		asciigraph.XAxisRange(0, span), asciigraph.XAxisTickCount(ticks+1),
 		asciigraph.XAxisValueFormatter(func(v float64) string { return si.Format(v, "s") }),
 	)
 	grid := strings.Split(out, "\n")
@@ -385,4 +391,35 @@ func colourStep(grid []string) {
 		}
 		grid[i] = b.String()
 	}
+}
+
+// niceAxis picks the end of an axis that starts at 0 and must reach span: a multiple of
+// a 1, 2, 2.5 or 5 × 10^k tick step, with at most maxIntervals intervals (at least 2
+// when allowed), as near span as it can. It returns the end and the interval count.
+func niceAxis(span float64, maxIntervals int) (top float64, intervals int) {
+	if !(span > 0) || math.IsInf(span, 0) {
+		return 1, max(maxIntervals, 1)
+	}
+	maxIntervals = max(maxIntervals, 1)
+	minIntervals := min(2, maxIntervals)
+	top = math.Inf(1)
+	e := math.Pow(10, math.Floor(math.Log10(span/float64(maxIntervals))))
+	for _, scale := range []float64{e, e * 10} {
+		for _, m := range []float64{1, 2, 2.5, 5} {
+			step := m * scale
+			k := int(math.Ceil(span/step - 1e-9))
+			k = max(k, minIntervals)
+			if k > maxIntervals {
+				continue
+			}
+			t := step * float64(k)
+			if t < top*(1-1e-9) || (math.Abs(t-top) <= 1e-9*top && k > intervals) {
+				top, intervals = t, k
+			}
+		}
+	}
+	if math.IsInf(top, 1) {
+		return span, maxIntervals
+	}
+	return top, intervals
 }

@@ -59,12 +59,12 @@ func fixtureSummary() *analysis.Summary {
 		a := 0.05 + 2.4*math.Exp(-(f-84)*(f-84)/20) + 0.8*math.Exp(-(f-168)*(f-168)/20)
 		amp = append(amp, math.Round(a*1000)/1000)
 	}
-	var st analysis.StepTrace
+	st := analysis.StepTrace{Step: 1} // segment 1 starts with the step
 	for k := 0; k < 200; k++ {
 		tt := float64(k) * 1e-3
 		fit := 400*lsb + (600-400)*lsb*(1-math.Exp(-tt/0.047))
 		pv := fit + lsb*float64((k*7)%3-1)
-		st.T = append(st.T, tt)
+		st.T = append(st.T, 1.5+tt) // the trace starts at the step, on the analysis clock
 		st.PV = append(st.PV, pv)
 		st.Fitted = append(st.Fitted, fit)
 	}
