@@ -94,8 +94,8 @@ func stepFigures(s *analysis.Summary, st analysis.StepTrace) *analysis.StepFigur
 }
 
 // RenderHistogram draws the error histogram as horizontal bars, one row per bin (bins
-// merged in groups when there are more than rows), with the bin centre in counts and the
-// sample count. It is a pure function of its arguments.
+// merged in groups when there are more than rows, labelled with their range), with the
+// error in counts and the sample count. It is a pure function of its arguments.
 func RenderHistogram(bins, counts []float64, width, height int) string {
 	n := len(bins)
 	if len(counts) < n {
@@ -114,40 +114,56 @@ func RenderHistogram(bins, counts []float64, width, height int) string {
 	}
 	rows := height - 1
 	group := (hi - lo + rows) / rows
-	type bar struct{ centre, count float64 }
+	type bar struct {
+		label string
+		count float64
+	}
 	var bars []bar
 	for i := lo; i <= hi; i += group {
-		var c, wsum, csum float64
-		for j := i; j < i+group && j <= hi; j++ {
-			c += counts[j]
-			wsum += bins[j] * counts[j]
-			csum += bins[j]
+		var c float64
+		j := min(i+group-1, hi)
+		for k := i; k <= j; k++ {
+			c += counts[k]
 		}
-		centre := csum / float64(min(group, hi-i+1))
-		if c > 0 {
-			centre = wsum / c
+		// One bin: its value in counts; merged bins: their range.
+		label := fmtBin(bins[i])
+		if j > i {
+			label = fmtBin(bins[i]) + "…" + fmtBin(bins[j])
 		}
-		bars = append(bars, bar{centre, c})
+		bars = append(bars, bar{label, c})
 	}
-	var max, total float64
+	var most, total float64
 	for _, b := range bars {
-		max = math.Max(max, b.count)
+		most = math.Max(most, b.count)
 		total += b.count
 	}
-	barW := width - 22
-	if barW < 5 {
-		barW = 5
+	labW := 0
+	for _, r := range bars {
+		labW = max(labW, len([]rune(r.label)))
 	}
+	labW = max(labW, 7)
+	barW := max(width-labW-15, 5)
 	var b strings.Builder
 	fmt.Fprintf(&b, "error spread over steady parts (pv - sp, counts), %.0f samples", total)
 	for _, r := range bars {
-		w := 0
-		if max > 0 {
-			w = int(math.Round(r.count / max * float64(barW)))
+		bar := ""
+		if most > 0 {
+			bar = strings.Repeat("█", int(math.Round(r.count/most*float64(barW))))
 		}
-		fmt.Fprintf(&b, "\n%7.1f │%s %.0f", r.centre, strings.Repeat("█", w), r.count)
+		if bar == "" && r.count > 0 {
+			bar = "▏" // a few samples: visible, not zero
+		}
+		fmt.Fprintf(&b, "\n%*s │%s %.0f", labW, r.label, bar, r.count)
 	}
 	return fitBlock(b.String(), width, height)
+}
+
+// fmtBin writes a histogram bin value in counts: whole counts without decimals.
+func fmtBin(v float64) string {
+	if v == math.Trunc(v) {
+		return fmt.Sprintf("%.0f", v)
+	}
+	return fmt.Sprintf("%.1f", v)
 }
 
 // RenderSpectrum draws the ripple amplitude spectrum (counts against Hz) with the
