@@ -463,6 +463,16 @@ func (p *plant) notes(a *Advice, sr *searchResult) []string {
 			si.Format(p.period, "s"), fmtV(p.supply), fmtV(p.g.rippleV), si.FormatDigits(p.period*p.supply/p.g.rippleV, "s", 3),
 			si.FormatDigits(tau, "s", 3), si.FormatDigits(p.period*p.supply/p.g.rippleV/1e-6, "Ω", 3)))
 	}
+	n = append(n, fmt.Sprintf("ranking: pairs that meet the goals first; among them, those that keep the rules of the trade (load >= 10 R, pin current within half the %s limit, R from 1 kΩ to 100 kΩ, C from 10 nF to 10 µF) ahead of any that break one, named after the verdict; then the widest margin on the goals",
+		fmtA(p.g.pinA)))
+	if len(a.Candidates) > 0 && a.Candidates[0].MeetsGoals && len(a.Candidates[0].RulesBroken) > 0 {
+		m := fmt.Sprintf("no pair on hand meets the goals and keeps every rule of the trade; the top one breaks: %s",
+			strings.Join(a.Candidates[0].RulesBroken, ", "))
+		if contains(a.Candidates[0].RulesBroken, RuleLoad) {
+			m += "; a follower buffer before the load lifts the load rule"
+		}
+		n = append(n, m)
+	}
 	src := "assumed"
 	if a.Goals.NoiseMeasured {
 		src = "measured"

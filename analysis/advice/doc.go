@@ -18,6 +18,15 @@
 //	// a.Candidates[0]: R, C, predicted ripple p-p and settling time, pin current, verdict
 //	// *a.DeadbandCounts and a.Deadband: the band and the arithmetic behind it
 //
+// The table is ranked by three keys, in order (see plant.better): meeting every numeric
+// goal in the loop model; then, among pairs that meet them, the number of rules of the
+// trade broken (load under 10 R, pin current over half the limit, R outside 1 kOhm to
+// 100 kOhm, C outside 10 nF to 10 uF; common practice), so that a pair that breaks one
+// ranks below every pair that meets the goals and breaks none, and its verdict names the
+// rule ("meets goals; load under 10 R"); then the margin on the goals (the smallest log
+// ratio of goal to figure), so the pair in the middle of the window wins. Candidate.MeetsGoals
+// and Candidate.RulesBroken carry the first two keys; the figures are the loop model's.
+//
 // Definitions used throughout: ripple p-p is the spread of the output between its 0.5 %
 // and 99.5 % points over the steady part at each used setpoint (the largest of them);
 // settling is timed on a full-scale step (lowest to highest used setpoint, and back) to

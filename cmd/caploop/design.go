@@ -36,6 +36,11 @@ ranked table with the predicted ripple, settling time, pin current and load sag 
 the deadband with its arithmetic, sample-period advice and, when no pair can meet the
 goals, the change of circuit that would.
 
+The table is ranked: pairs that meet the goals first; among them, pairs that keep the
+rules of the trade (load >= 10 R, pin current within half the limit, R from 1 kΩ to
+100 kΩ, C from 10 nF to 10 µF) ahead of any that break one, which the verdict names
+("meets goals; load under 10 R"); then the widest margin on the goals.
+
 Ripple may be given in volts (100mV) or as a percentage of full scale (2%).`,
 		Example: `  caploop design --supply 5 --vref 5 --bits 10 --period 1ms --ripple 100mV --settle 200ms --series E12 --load 1M
   caploop design --ripple 1% --settle 50ms --mode two-state --c "100n 470n 1u 2.2u" --json`,

@@ -74,6 +74,38 @@ func TestDesignCommand(t *testing.T) {
 			t.Errorf("parts list or ripple not taken:\n%s", out[:min(len(out), 2000)])
 		}
 	})
+	t.Run("rule breakers ranked below", func(t *testing.T) {
+		// A parts box with one pair that keeps R_L >= 10 R (common practice) and pairs that
+		// meet the numeric goals but break it; comma-separated lists are accepted too.
+		out, err := runDesign(t, "--ripple", "100mV", "--settle", "500ms", "--load", "1.31M", "--setpoints", "246,410",
+			"--r", "47k,470k,680k", "--c", "560n,680n,1u")
+		if err != nil {
+			t.Fatal(err)
+		}
+		lines := strings.Split(out, "\n")
+		var rows []string
+		for i, l := range lines {
+			if strings.Contains(l, "R and C, best first") {
+				for _, r := range lines[i+2:] {
+					if strings.Contains(r, "trades:") || strings.TrimSpace(r) == "" {
+						break
+					}
+					rows = append(rows, r)
+				}
+			}
+		}
+		if len(rows) < 2 || !strings.Contains(rows[0], "47 kΩ") || !strings.HasSuffix(strings.TrimSpace(rows[0]), "meets goals") {
+			t.Fatalf("top row is not 47 kΩ meeting the goals with no rule broken:\n%s", strings.Join(rows, "\n"))
+		}
+		for _, r := range rows[1:] {
+			if !strings.Contains(r, "meets goals; load under 10 R, R over 100 kΩ") {
+				t.Errorf("row %q lacks the broken rules in its verdict", r)
+			}
+		}
+		if !strings.Contains(out, "ranking: pairs that meet the goals first") {
+			t.Errorf("output lacks the ranking note:\n%s", out)
+		}
+	})
 	for _, c := range []struct {
 		name string
 		args []string
