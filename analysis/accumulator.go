@@ -153,7 +153,7 @@ type Accumulator struct {
 	maxCode    int
 	railLo     int64
 	railHi     int64
-	steadyHist [2*histHalf + 1]int64
+	steadyHist [2*histHalf + 1]int64 // error bins of the steady samples of the closed segments
 
 	ov overview
 }
@@ -224,98 +224,134 @@ func (a *Accumulator) infer(e float64) telemetry.Drive {
 }
 
 // Add feeds one sample.
-func (a *Accumulator) Add(s telemetry.Sample) { a.add(&s) }
+func (a *Accumulator) Add(s telemetry.Sample) { a.addRun([]telemetry.Sample{s}) }
 
-// add is Add without the copy of the sample (Summarize feeds its batches through it).
-func (a *Accumulator) add(s *telemetry.Sample) {
-	tick, contiguous := a.clk.tick(s)
-	u := s.U
-	e := s.PV - s.SP
-	if !s.Has(telemetry.HasU) {
-		u = a.infer(e)
-		a.inferred = true
-	} else if u < telemetry.Discharge || u > telemetry.Charge {
-		u = telemetry.Hold
-	}
-	if a.n == 0 {
-		a.first = tick
-		a.openSegment(s.SP, tick, false, 0)
-	} else if s.SP != a.seg.sp {
-		from := a.seg.sp
-		a.closeSegment()
-		a.openSegment(s.SP, tick, true, from)
-	} else if a.db != a.seg.db {
-		// A new band on the same setpoint (tuning): a new segment, but no step.
-		a.closeSegment()
-		a.openSegment(s.SP, tick, false, 0)
-	}
-	a.n++
-	a.last = tick
-	a.seg.db = a.db
-	if b := a.seg.add(tick, s.PV, u, a.three); b >= 0 {
-		a.steadyHist[b]++
-	}
+// addRun feeds the samples of ss in order (Summarize hands over its batches through it,
+// without copies). It is the hot path of every pass: the clock's common case, the open
+// segment's per-sample update and the overview's open bucket are written out here rather
+// than called, and work whose result a sample cannot use is skipped.
+func (a *Accumulator) addRun(ss []telemetry.Sample) {
+	for i := range ss {
+		s := &ss[i]
 
-	// ADC code histogram and rails.
-	pv := s.PV
-	code := int(pv)
-	ok := pv >= 0 && float64(code) == pv
-	if ok {
-		if code < len(a.codes) {
-			a.codes[code]++
-		} else if code < 1<<16 {
-			a.growCodes(code)
-			a.codes[code]++
+		// Clock: the common case of clock.tick (board time near the period), else tick.
+		var tick float64
+		var contiguous bool
+		c := &a.clk
+		if dt := float64(s.T - c.prevT); c.fast && s.Flags&(telemetry.HasT|telemetry.HasHost) == telemetry.HasT &&
+			dt >= c.lo && dt <= c.hi {
+			c.prevT = s.T
+			c.jn++
+			c.js += dt
+			c.jss += dt * dt
+			tick = c.base + float64(s.T-c.t0)
+			c.lastTick = tick
+			contiguous = true
+		} else {
+			tick, contiguous = c.tick(s)
 		}
-	}
-	if pv <= 0 {
-		a.railLo++
-		ok = false
-	} else if a.maxCode > 0 && pv >= float64(a.maxCode) {
-		a.railHi++
-		ok = false
-	}
 
-	// Plant fit: pair (p1 -> this) with instrument p2.
-	p1, p2 := &a.mem[a.cur], &a.mem[a.cur^1]
-	p1.next = contiguous
-	if ok && p1.ok && contiguous {
-		d1 := int(p1.u) + 1
-		a.stepEMA[d1] += (math.Abs(pv-p1.pv) - a.stepEMA[d1]) * (1.0 / 256)
-		if p2.ok && p2.next {
-			if p1.u == p2.u {
-				// Noise from second differences inside runs of one drive, where the
-				// exponential's own curvature is far below a count.
-				d2 := pv - 2*p1.pv + p2.pv
-				a.noiseEMA += (d2*d2 - a.noiseEMA) * (1.0 / 256)
-			}
-			lo, hi := a.reach(int(p2.u)+1, p2.pv)
-			switch p1.u {
-			case telemetry.Charge:
-				if hi+a.guard < p1.sp-p1.db {
-					a.fits[2].add(p2.pv, p1.pv, pv)
-				}
-			case telemetry.Discharge:
-				if lo-a.guard > p1.sp+p1.db {
-					a.fits[0].add(p2.pv, p1.pv, pv)
-				}
+		u := s.U
+		pv := s.PV
+		if s.Flags&telemetry.HasU == 0 {
+			u = a.infer(pv - s.SP)
+			a.inferred = true
+		} else if u < telemetry.Discharge || u > telemetry.Charge {
+			u = telemetry.Hold
+		}
+		if a.n == 0 {
+			a.first = tick
+			a.openSegment(s.SP, tick, false, 0)
+		} else if s.SP != a.seg.sp {
+			from := a.seg.sp
+			a.closeSegment()
+			a.openSegment(s.SP, tick, true, from)
+		} else if a.db != a.seg.db {
+			// A new band on the same setpoint (tuning): a new segment, but no step.
+			a.closeSegment()
+			a.openSegment(s.SP, tick, false, 0)
+		}
+		a.n++
+		a.last = tick
+		a.seg.db = a.db
+		a.seg.add(tick, pv, u, a.three)
+
+		// ADC code histogram and rails.
+		code := int(pv)
+		ok := pv >= 0 && float64(code) == pv
+		if ok {
+			if code < len(a.codes) {
+				a.codes[code]++
+			} else if code < 1<<16 {
+				a.growCodes(code)
+				a.codes[code]++
 			}
 		}
-		if p1.steady {
-			d := p1.u + 1
-			a.bal.delta += pv - p1.pv
-			a.bal.s[d] += p1.pv
-			a.bal.n[d]++
+		if pv <= 0 {
+			a.railLo++
+			ok = false
+		} else if a.maxCode > 0 && pv >= float64(a.maxCode) {
+			a.railHi++
+			ok = false
+		}
+
+		// Plant fit: pair (p1 -> this) with instrument p2.
+		cur := a.cur & 1
+		p1, p2 := &a.mem[cur], &a.mem[cur^1]
+		p1.next = contiguous
+		if ok && p1.ok && contiguous {
+			d1 := int(p1.u) + 1
+			a.stepEMA[d1] += (math.Abs(pv-p1.pv) - a.stepEMA[d1]) * (1.0 / 256)
+			if p2.ok && p2.next {
+				if p1.u == p2.u {
+					// Noise from second differences inside runs of one drive, where the
+					// exponential's own curvature is far below a count.
+					d2 := pv - 2*p1.pv + p2.pv
+					a.noiseEMA += (d2*d2 - a.noiseEMA) * (1.0 / 256)
+				}
+				// Only a charge or a discharge pair can enter a fit, so only they need
+				// the reach of p2 (a hold pair, most of them, skips it).
+				switch p1.u {
+				case telemetry.Charge:
+					if _, hi := a.reach(int(p2.u)+1, p2.pv); hi+a.guard < p1.sp-p1.db {
+						a.fits[2].add(p2.pv, p1.pv, pv)
+					}
+				case telemetry.Discharge:
+					if lo, _ := a.reach(int(p2.u)+1, p2.pv); lo-a.guard > p1.sp+p1.db {
+						a.fits[0].add(p2.pv, p1.pv, pv)
+					}
+				}
+			}
+			if p1.steady {
+				d := p1.u + 1
+				a.bal.delta += pv - p1.pv
+				a.bal.s[d] += p1.pv
+				a.bal.n[d]++
+			}
+		}
+		// The new sample becomes p1, the old p1 becomes p2: flip the pair, overwrite p2.
+		p2.pv, p2.u, p2.ok, p2.next, p2.steady, p2.sp, p2.db = pv, u, ok, false, a.seg.steady, s.SP, a.db
+		a.cur = cur ^ 1
+		if a.n&63 == 0 {
+			a.refreshGuard()
+		}
+
+		// Overview: the open bucket's common case of overview.add, else add.
+		if o := &a.ov; o.open && o.fill < o.width {
+			o.csp = s.SP
+			o.csum += pv
+			o.ccnt++
+			if pv < o.clo {
+				o.clo = pv
+			}
+			if pv > o.chi {
+				o.chi = pv
+			}
+			o.fill++
+		} else {
+			o.add(tick, s.SP, pv)
 		}
 	}
-	// The new sample becomes p1, the old p1 becomes p2: flip the pair, overwrite p2.
-	p2.pv, p2.u, p2.ok, p2.next, p2.steady, p2.sp, p2.db = pv, u, ok, false, a.seg.steady, s.SP, a.db
-	a.cur ^= 1
-	if a.n&63 == 0 {
-		a.refreshGuard()
-	}
-
-	a.ov.add(tick, s.SP, pv)
 }
 
 // reach returns the range [lo, hi] the next reading can take, in counts, one period
@@ -368,6 +404,7 @@ func (a *Accumulator) openSegment(sp, tick float64, hasFrom bool, from float64) 
 	a.seg.reset(a.opts.Window)
 	a.seg.sp, a.seg.start, a.seg.end = sp, tick, tick
 	a.seg.hasFrom, a.seg.from = hasFrom, from
+	a.seg.rising = hasFrom && sp != from
 	a.seg.index = int(a.segSeen)
 	a.seg.db = a.db
 	a.segSeen++
@@ -379,6 +416,7 @@ func (a *Accumulator) closeSegment() {
 	if s.n == 0 {
 		return
 	}
+	s.foldHist(&a.steadyHist)
 	if len(a.segs) >= a.opts.MaxSegments {
 		return
 	}

@@ -431,8 +431,11 @@ func (a *Accumulator) traces(pf plantFit, c conv) *Traces {
 		}
 		tr.Zoom = append(tr.Zoom, z)
 	}
+	// The closed segments' steady errors, and the open segment's so far.
+	hist := a.steadyHist
+	a.seg.foldHist(&hist)
 	lo, hi := -1, -1
-	for i, n := range a.steadyHist {
+	for i, n := range hist {
 		if n > 0 {
 			if lo < 0 {
 				lo = i
@@ -442,7 +445,7 @@ func (a *Accumulator) traces(pf plantFit, c conv) *Traces {
 	}
 	for i := lo; i >= 0 && i <= hi; i++ {
 		tr.ErrBins = append(tr.ErrBins, float64(i-histHalf))
-		tr.ErrHist = append(tr.ErrHist, float64(a.steadyHist[i]))
+		tr.ErrHist = append(tr.ErrHist, float64(hist[i]))
 	}
 	for i := range a.bestSpec.freq {
 		f := a.bestSpec.freq[i]

@@ -35,12 +35,19 @@ type clock struct {
 	gaps        int64
 	resets      int64
 
+	// fast is set once the period is fixed (board time, the first intervals seen): an
+	// interval within [lo, hi] (±50 % of the period) is then an interval of the jitter
+	// sums, neither a reset nor a gap, and addRun takes that case without calling tick.
+	fast   bool
+	lo, hi float64
+
 	h0, h1 int64 // first and last host time, ns
 	hn     int64
 	hasH   bool
 }
 
 // tick returns the tick of s and whether s follows the previous sample without a gap.
+// Accumulator.addRun takes its common case (fast) itself and calls it for the rest.
 func (c *clock) tick(s *telemetry.Sample) (float64, bool) {
 	if s.Has(telemetry.HasHost) {
 		if !c.hasH {
@@ -76,6 +83,11 @@ func (c *clock) tick(s *telemetry.Sample) (float64, bool) {
 			c.dts[c.ndt] = dt
 			c.ndt++
 			c.perUS = median(c.dts[:c.ndt])
+			if c.ndt == len(c.dts) && c.perUS > 0 {
+				// The same bounds as the switch below: dt in [0.5 p, 1.5 p] is an
+				// interval of the jitter sums (and neither a reset nor a gap).
+				c.fast, c.lo, c.hi = true, 0.5*c.perUS, 1.5*c.perUS
+			}
 		}
 		p := c.perUS
 		switch {

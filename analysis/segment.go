@@ -29,6 +29,7 @@ type segState struct {
 	steadyAt   float64
 	db         float64
 	sawHold    bool
+	rising     bool // a step whose 10 % or 90 % crossing is still to come
 
 	// whole segment
 	minPV, maxPV   float64
@@ -99,7 +100,7 @@ func (s *segState) reset(window int) {
 	s.start, s.end, s.n, s.firstSign, s.steady, s.steadyAt, s.db, s.sawHold = 0, 0, 0, 0, false, 0, 0, false
 	s.minPV, s.maxPV, s.prevIn, s.prevU = math.Inf(1), math.Inf(-1), false, 0
 	s.entries, s.exits, s.noiseExits = 0, 0, 0
-	s.t10, s.t90, s.has10, s.has90 = 0, 0, false, false
+	s.t10, s.t90, s.has10, s.has90, s.rising = 0, 0, false, false, false
 	s.lsLo, s.lsHi = 2*histHalf, 0
 	s.endRun, s.lastPV = 0, 0
 	s.sn, s.sumE, s.sumE2, s.minE, s.maxE = 0, 0, 0, math.Inf(1), math.Inf(-1)
@@ -110,9 +111,8 @@ func (s *segState) reset(window int) {
 	s.trigMax, s.trigJ = 0, -1
 }
 
-// add feeds one sample of the segment. threeState says band jumps count. It returns the
-// error bin of a steady sample, -1 before the steady part.
-func (s *segState) add(tick, pv float64, u telemetry.Drive, threeState bool) int {
+// add feeds one sample of the segment. threeState says band jumps count.
+func (s *segState) add(tick, pv float64, u telemetry.Drive, threeState bool) {
 	e := pv - s.sp
 	s.n++
 	s.end = tick
@@ -127,7 +127,7 @@ func (s *segState) add(tick, pv float64, u telemetry.Drive, threeState bool) int
 		i := s.n - 1
 		s.stepT[i], s.stepPV[i], s.stepU[i] = tick, pv, int8(u)
 	}
-	if s.hasFrom && s.sp != s.from {
+	if s.rising {
 		p := (pv - s.from) / (s.sp - s.from)
 		if !s.has10 && p >= 0.1 {
 			s.t10, s.has10 = tick, true
@@ -135,6 +135,7 @@ func (s *segState) add(tick, pv float64, u telemetry.Drive, threeState bool) int
 		if !s.has90 && p >= 0.9 {
 			s.t90, s.has90 = tick, true
 		}
+		s.rising = !(s.has10 && s.has90)
 	}
 	b := binOf(e)
 	s.lastSeen[b] = s.n
@@ -220,10 +221,13 @@ func (s *segState) add(tick, pv float64, u telemetry.Drive, threeState bool) int
 	}
 	s.prevIn = in
 	s.prevU = u
-	if !s.steady {
-		return -1
+}
+
+// foldHist adds the error histogram of the steady part to h.
+func (s *segState) foldHist(h *[2*histHalf + 1]int64) {
+	for i := s.hLo; i <= s.hHi && s.sn > 0; i++ {
+		h[i] += int64(s.hist[i])
 	}
-	return b
 }
 
 func sign(e float64) int8 {

@@ -46,17 +46,14 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 	go func() {
 		defer close(done)
 		for b := range full {
-			mi := 0
-			for i := range b.samples {
-				for mi < len(b.metas) && b.metas[mi].at == i {
-					acc.SetMeta(b.metas[mi].m)
-					mi++
-				}
-				acc.add(&b.samples[i])
+			// The runs of samples between meta lines go through in one call each.
+			at := 0
+			for _, m := range b.metas {
+				acc.addRun(b.samples[at:m.at])
+				acc.SetMeta(m.m)
+				at = m.at
 			}
-			for ; mi < len(b.metas); mi++ {
-				acc.SetMeta(b.metas[mi].m)
-			}
+			acc.addRun(b.samples[at:])
 			free <- b
 		}
 	}()
