@@ -21,9 +21,9 @@
 // The table is ranked by three keys, in order (see plant.better): meeting every numeric
 // goal in the loop model; then, among pairs that meet them, the number of rules of the
 // trade broken (load under 10 R, pin current over half the limit, R outside 1 kOhm to
-// 100 kOhm, C outside 10 nF to 10 uF; common practice), so that a pair that breaks one
-// ranks below every pair that meets the goals and breaks none, and its verdict names the
-// rule ("meets goals; load under 10 R"); then the margin on the goals (the smallest log
+// 100 kOhm, C outside 10 nF to 10 uF; common practice) and how far beyond their bounds,
+// so that a pair that breaks one ranks below every pair that meets the goals and breaks
+// none, and its verdict names the rule ("meets goals; load under 10 R"); then the margin on the goals (the smallest log
 // ratio of goal to figure), so the pair in the middle of the window wins. Candidate.MeetsGoals
 // and Candidate.RulesBroken carry the first two keys; the figures are the loop model's.
 //

@@ -37,6 +37,7 @@ type pair struct {
 	score    float64  // third key of the ranking (see better)
 	meets    bool     // meets every goal in the last run
 	broken   []string // rules of the trade broken (see rules)
+	excess   float64  // how far beyond the rules' bounds, decades (see rules)
 	window   int      // steady window of the last run, samples
 }
 
@@ -90,7 +91,7 @@ func (p *plant) closedForm(pr *pair, kind loop.Kind, period float64) {
 	if kind == loop.ThreeState && p.g.staticV > 0 && pr.work.StaticErrorV > p.g.staticV {
 		pr.fail = append(pr.fail, "static error too high")
 	}
-	pr.broken = p.rules(pr)
+	pr.broken, pr.excess = p.rules(pr)
 }
 
 // plan sizes a run from the closed form: settling to within the band itself (not just

@@ -51,51 +51,59 @@ const VerdictMeets = "meets goals"
 
 // rules lists the rules of the trade a pair breaks, in this order: load under 10 R, pin
 // current over half the limit, R under 1 kOhm, R over 100 kOhm, C over 10 uF, C under
-// 10 nF. The parts are the marked values; the load and pin checks use the real R.
-func (p *plant) rules(pr *pair) []string {
+// 10 nF; and how far beyond their bounds it goes, summed in decades (a 220 kOhm R is
+// 0.34 decade over 100 kOhm). The parts are the marked values; the load and pin checks
+// use the real R.
+func (p *plant) rules(pr *pair) ([]string, float64) {
 	var b []string
+	var ex float64
+	over := func(name string, x, bound float64) {
+		b = append(b, name)
+		ex += math.Abs(math.Log10(x / bound))
+	}
 	if p.load > 0 && p.load < ruleLoadRatio*pr.ci.R*(1-relTol) {
-		b = append(b, RuleLoad)
+		over(RuleLoad, ruleLoadRatio*pr.ci.R, p.load)
 	}
 	if pr.pinA > rulePinShare*p.g.pinA*(1+relTol) {
-		b = append(b, RulePin)
+		over(RulePin, pr.pinA, rulePinShare*p.g.pinA)
 	}
 	switch {
 	case pr.r < ruleMinR*(1-relTol):
-		b = append(b, RuleLowR)
+		over(RuleLowR, pr.r, ruleMinR)
 	case pr.r > ruleMaxR*(1+relTol):
-		b = append(b, RuleHighR)
+		over(RuleHighR, pr.r, ruleMaxR)
 	}
 	switch {
 	case pr.c > ruleMaxC*(1+relTol):
-		b = append(b, RuleBigC)
+		over(RuleBigC, pr.c, ruleMaxC)
 	case pr.c < ruleMinC*(1-relTol):
-		b = append(b, RuleSmallC)
+		over(RuleSmallC, pr.c, ruleMinC)
 	}
-	return b
+	return b, ex
 }
 
 // better reports whether pair a ranks above pair b. The ranking, in this order:
 //
 //  1. Goals: a pair that meets every numeric goal in the loop model (ripple, settling,
 //     static error, pin current, reach) ranks above one that misses any.
-//  2. Rules of the trade (see rules): among pairs that meet the goals, one that breaks
-//     fewer rules ranks higher, so a pair that meets the goals and breaks none heads
-//     the table and one with the load under 10 R comes after it, whatever its margins.
+//  2. Rules of the trade (see rules), among pairs that meet the goals: fewer rules
+//     broken first, then the smaller excess beyond their bounds; so a pair that meets
+//     the goals and breaks none heads the table, one with the load under 10 R comes
+//     after it whatever its margins, and 330 kOhm + 4.7 uF comes before 18 kOhm +
+//     100 uF when each breaks one rule.
 //  3. Score (see score): the margin on the goals for a pair that meets them, the
 //     nearness for one that misses; among misses this comes before the rules, since
 //     how near a miss comes is what the table is for then.
-//  4. Ties (pairs with the same R*C and no load run alike): fewer rules (misses), then
-//     the R nearer 10 kOhm (log distance; the middle of the moderate range), then the
-//     smaller C, so that the order never depends on the order of the search.
+//  4. Ties (pairs with the same R*C and no load run alike): the rules as in 2 (misses),
+//     then the R nearer 10 kOhm (log distance; the middle of the moderate range), then
+//     the smaller C, so that the order never depends on the order of the search.
 func (p *plant) better(a, b *pair) bool {
 	ma, mb := a.meets, b.meets
 	if ma != mb {
 		return ma
 	}
-	ra, rb := len(a.broken), len(b.broken)
-	if ma && ra != rb {
-		return ra < rb
+	if ma && rulesDiffer(a, b) {
+		return rulesBetter(a, b)
 	}
 	if a.score != b.score {
 		return a.score > b.score
@@ -103,11 +111,24 @@ func (p *plant) better(a, b *pair) bool {
 	return tieBetter(a, b)
 }
 
-// tieBetter is the last key of the ranking (see better): fewer rules broken, then the R
-// nearer 10 kOhm, then the smaller C, then the smaller R.
-func tieBetter(a, b *pair) bool {
+// rulesDiffer reports whether key 2 of the ranking tells a and b apart.
+func rulesDiffer(a, b *pair) bool {
+	return len(a.broken) != len(b.broken) || math.Abs(a.excess-b.excess) > 1e-9
+}
+
+// rulesBetter is key 2 of the ranking: fewer rules broken, then the smaller excess.
+func rulesBetter(a, b *pair) bool {
 	if ra, rb := len(a.broken), len(b.broken); ra != rb {
 		return ra < rb
+	}
+	return a.excess < b.excess
+}
+
+// tieBetter is the last key of the ranking (see better): the rules as in key 2, then the
+// R nearer 10 kOhm, then the smaller C, then the smaller R.
+func tieBetter(a, b *pair) bool {
+	if rulesDiffer(a, b) {
+		return rulesBetter(a, b)
 	}
 	da, db := math.Abs(math.Log10(a.r/ruleMidR)), math.Abs(math.Log10(b.r/ruleMidR))
 	if math.Abs(da-db) > 1e-9 {
@@ -120,11 +141,11 @@ func tieBetter(a, b *pair) bool {
 }
 
 // cfBetter orders pairs before any run, by the same keys as better with the closed-form
-// margin cf in place of the score: rules broken, then the margin less the soft
-// preference, then the ties.
+// margin cf in place of the score: the rules, then the margin less the soft preference,
+// then the ties.
 func (p *plant) cfBetter(a, b *pair, cfa, cfb float64) bool {
-	if ra, rb := len(a.broken), len(b.broken); ra != rb {
-		return ra < rb
+	if rulesDiffer(a, b) {
+		return rulesBetter(a, b)
 	}
 	if sa, sb := cfa-p.soft(a), cfb-p.soft(b); sa != sb {
 		return sa > sb
@@ -137,7 +158,7 @@ func (p *plant) cfBetter(a, b *pair, cfa, cfb float64) bool {
 // time and (three-state) the band's static error, so the pair in the middle of the
 // window wins, less a soft preference (see soft). For a pair that misses it is -10 less
 // the sum of its log excesses over the ripple and settling goals, less 5 per closed-form
-// failure.
+// failure, less the same soft preference.
 func (p *plant) score(pr *pair) float64 {
 	rip := math.Max(pr.res.ripplePP, 0.5*p.lsb())
 	set := math.Max(pr.res.settleS, p.period)
@@ -152,7 +173,7 @@ func (p *plant) score(pr *pair) float64 {
 	if pr.meets {
 		return math.Min(mr, ms) - p.soft(pr)
 	}
-	return -10 - math.Max(-mr, 0) - math.Max(-ms, 0) - 5*float64(len(pr.fail))
+	return -10 - math.Max(-mr, 0) - math.Max(-ms, 0) - 5*float64(len(pr.fail)) - p.soft(pr)
 }
 
 // soft is a small preference inside the rules, in log-margin units: a capacitor over

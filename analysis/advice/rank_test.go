@@ -1,6 +1,7 @@
 package advice
 
 import (
+	"math"
 	"path/filepath"
 	"reflect"
 	"strings"
@@ -35,24 +36,28 @@ func TestRules(t *testing.T) {
 		req  Request
 		r, c float64
 		want []string
+		ex   float64 // decades beyond the bounds
 	}{
-		{"47k 1u no load", base, 47e3, 1e-6, nil},
-		{"bounds 100k 10u kept", base, 100e3, 10e-6, nil},
-		{"bounds 1k 10n kept", base, 1e3, 10e-9, nil},
-		{"82k under a 1M load is 12 R", with(func(r *Request) { r.LoadOhm = 1e6 }), 82e3, 1e-6, nil},
-		{"100k under a 1M load is 10 R", with(func(r *Request) { r.LoadOhm = 1e6 }), 100e3, 1e-6, nil},
-		{"68k under a 470k load", with(func(r *Request) { r.LoadOhm = 470e3 }), 68e3, 1e-6, []string{RuleLoad}},
-		{"470k under a 1.31M load", with(func(r *Request) { r.LoadOhm = 1.31e6 }), 470e3, 680e-9, []string{RuleLoad, RuleHighR}},
-		{"470 ohm from 5 V: 10.6 mA of 20 mA", base, 470, 100e-6, []string{RulePin, RuleLowR, RuleBigC}},
-		{"820 ohm from 5 V: 6.1 mA", base, 820, 47e-6, []string{RuleLowR, RuleBigC}},
-		{"2.2k with a 1 mA limit", with(func(r *Request) { r.Goals.PinCurrentA = 1e-3 }), 2.2e3, 22e-6, []string{RulePin, RuleBigC}},
-		{"120k no load", base, 120e3, 470e-9, []string{RuleHighR}},
-		{"4.7n", base, 47e3, 4.7e-9, []string{RuleSmallC}},
+		{"47k 1u no load", base, 47e3, 1e-6, nil, 0},
+		{"bounds 100k 10u kept", base, 100e3, 10e-6, nil, 0},
+		{"bounds 1k 10n kept", base, 1e3, 10e-9, nil, 0},
+		{"82k under a 1M load is 12 R", with(func(r *Request) { r.LoadOhm = 1e6 }), 82e3, 1e-6, nil, 0},
+		{"100k under a 1M load is 10 R", with(func(r *Request) { r.LoadOhm = 1e6 }), 100e3, 1e-6, nil, 0},
+		{"68k under a 470k load", with(func(r *Request) { r.LoadOhm = 470e3 }), 68e3, 1e-6, []string{RuleLoad}, 0.161},
+		{"470k under a 1.31M load", with(func(r *Request) { r.LoadOhm = 1.31e6 }), 470e3, 680e-9, []string{RuleLoad, RuleHighR}, 0.555 + 0.672},
+		{"470 ohm from 5 V: 10.6 mA of 20 mA", base, 470, 100e-6, []string{RulePin, RuleLowR, RuleBigC}, 0.027 + 0.328 + 1},
+		{"820 ohm from 5 V: 6.1 mA", base, 820, 47e-6, []string{RuleLowR, RuleBigC}, 0.086 + 0.672},
+		{"2.2k with a 1 mA limit", with(func(r *Request) { r.Goals.PinCurrentA = 1e-3 }), 2.2e3, 22e-6, []string{RulePin, RuleBigC}, 0.658 + 0.342},
+		{"120k no load", base, 120e3, 470e-9, []string{RuleHighR}, 0.079},
+		{"4.7n", base, 47e3, 4.7e-9, []string{RuleSmallC}, 0.328},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			_, pr := closedPair(t, c.req, c.r, c.c)
 			if !reflect.DeepEqual(pr.broken, c.want) {
 				t.Errorf("rules(R %g, C %g) = %q, want %q", c.r, c.c, pr.broken, c.want)
+			}
+			if math.Abs(pr.excess-c.ex) > 0.002 {
+				t.Errorf("excess(R %g, C %g) = %.4f decades, want %.4f", c.r, c.c, pr.excess, c.ex)
 			}
 		})
 	}
@@ -65,6 +70,7 @@ func TestBetterOrder(t *testing.T) {
 	mk := func(meets bool, broken int, score, r, c float64) *pair {
 		return &pair{meets: meets, broken: make([]string, broken), score: score, r: r, c: c}
 	}
+	ex := func(pr *pair, e float64) *pair { pr.excess = e; return pr }
 	for _, c := range []struct {
 		name string
 		a, b *pair // want a above b
@@ -72,6 +78,8 @@ func TestBetterOrder(t *testing.T) {
 		{"meets beats misses", mk(true, 3, 0.01, 47e3, 1e-6), mk(false, 0, -10.01, 47e3, 1e-6)},
 		{"no rule broken beats a wider margin with one", mk(true, 0, 0.05, 47e3, 1e-6), mk(true, 1, 1.5, 470e3, 680e-9)},
 		{"one rule beats two", mk(true, 1, 0.1, 47e3, 1e-6), mk(true, 2, 1.0, 470e3, 680e-9)},
+		{"one rule each: the smaller excess", ex(mk(true, 1, 0.1, 330e3, 4.7e-6), 0.52), ex(mk(true, 1, 0.9, 18e3, 100e-6), 1)},
+		{"misses at the same nearness: smaller excess", ex(mk(false, 1, -10.5, 120e3, 1e-6), 0.08), ex(mk(false, 1, -10.5, 470e3, 100e-9), 0.67)},
 		{"same rules: wider margin", mk(true, 0, 0.8, 47e3, 1e-6), mk(true, 0, 0.5, 22e3, 2.2e-6)},
 		{"misses: nearer first, rules after", mk(false, 2, -10.2, 470e3, 1e-6), mk(false, 0, -11, 47e3, 1e-6)},
 		{"misses at the same nearness: fewer rules", mk(false, 0, -10.5, 47e3, 1e-6), mk(false, 1, -10.5, 470e3, 100e-9)},
