@@ -2,9 +2,11 @@ package tui
 
 import (
 	"fmt"
+	"slices"
 	"strings"
 
 	tea "github.com/charmbracelet/bubbletea"
+	"github.com/charmbracelet/x/ansi"
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/advice"
@@ -90,15 +92,23 @@ func (m AdviceModel) View() string {
 	var lines []string
 	lines = append(lines, m.deadbandLine())
 	if m.compact {
-		// Diagnostics first: they say what is wrong; the best pair when there is room.
-		for _, d := range m.diags {
-			lines = append(lines, "  "+severityGlyph(d.Severity)+" "+d.Message)
-		}
-		if m.adv != nil && len(m.adv.Candidates) > 0 {
-			lines = append(lines, "  best pair "+candidateLine(m.adv.Candidates[0]))
-		}
-		return fitBlock(strings.Join(lines, "\n"), m.width, m.height)
+		return fitBlock(strings.Join(append(lines, m.compactLines(m.height-1)...), "\n"), m.width, m.height)
 	}
+	out := m.fullLines()
+	if len(out) > m.height && m.height > 1 {
+		// Say what does not fit rather than cut it silently.
+		more := len(out) - m.height + 1
+		out = append(out[:m.height-1], fmt.Sprintf("  … %d more lines: a taller terminal shows them", more))
+	}
+	return fitBlock(strings.Join(out, "\n"), m.width, m.height)
+}
+
+// Lines returns how many rows the full form needs at the current width.
+func (m AdviceModel) Lines() int { return len(m.fullLines()) }
+
+// fullLines is the full form, word-wrapped to the width.
+func (m AdviceModel) fullLines() []string {
+	lines := []string{m.deadbandLine()}
 	if m.adv != nil {
 		if w := m.adv.Deadband; w != nil {
 			lines = append(lines, fmt.Sprintf("  step near setpoint %.1f counts, noise %.2f counts rms × %.1f = margin %.1f counts",
@@ -133,7 +143,109 @@ func (m AdviceModel) View() string {
 			lines = append(lines, "  caution: "+c)
 		}
 	}
-	return fitBlock(wrapLines(lines, m.width), m.width, m.height)
+	return strings.Split(wrapLines(lines, m.width), "\n")
+}
+
+// compactLines fills rows rows under the trace: the diagnostics (errors first, else in
+// the analysis' order), each as a short word-wrapped sentence when the rows allow it, else as a one-line
+// headline with a pointer to view 2; then the best pair when a row is left.
+func (m AdviceModel) compactLines(rows int) []string {
+	if rows <= 0 {
+		return nil
+	}
+	diags := append([]analysis.Diagnostic(nil), m.diags...)
+	slices.SortStableFunc(diags, func(a, b analysis.Diagnostic) int { return severityRank(a.Severity) - severityRank(b.Severity) })
+	var out []string
+	switch n := len(diags); {
+	case n == 0:
+	case n > rows:
+		// Headlines only; the last row counts the rest.
+		for _, d := range diags[:rows-1] {
+			out = append(out, "  "+severityGlyph(d.Severity)+" "+headline(d))
+		}
+		more := n - (rows - 1)
+		last := fmt.Sprintf("  … %d more diagnostics on view 2", more)
+		if rows == 1 {
+			last = fmt.Sprintf("  %s %s · %d more on view 2", severityGlyph(diags[0].Severity), headline(diags[0]), more-1)
+		}
+		out = append(out, last)
+	default:
+		// Every diagnostic as a headline, then as a whole sentence while rows are left.
+		full := make([][]string, n)
+		spare := rows - n
+		for i, d := range diags {
+			full[i] = []string{"  " + severityGlyph(d.Severity) + " " + headline(d)}
+			f := strings.Split(wrapLines([]string{"  " + severityGlyph(d.Severity) + " " + shortSentence(d.Message)}, m.width), "\n")
+			if len(f)-1 <= spare {
+				full[i], spare = f, spare-(len(f)-1)
+			} else if h := full[i][0] + " · more on view 2"; ansi.StringWidth(h) <= m.width {
+				full[i][0] = h
+			}
+		}
+		for _, f := range full {
+			out = append(out, f...)
+		}
+	}
+	if len(out) < rows && m.adv != nil && len(m.adv.Candidates) > 0 {
+		out = append(out, "  best pair "+candidateLine(m.adv.Candidates[0]))
+	}
+	return out
+}
+
+func severityRank(s string) int {
+	switch s {
+	case "error":
+		return 0
+	case "warning":
+		return 1
+	}
+	return 2
+}
+
+// shortSentence drops the long explanations in brackets (over 24 characters) from a
+// diagnostic: the figures view has the whole text.
+func shortSentence(msg string) string {
+	var b strings.Builder
+	r := []rune(msg)
+	for i := 0; i < len(r); i++ {
+		if r[i] == '(' {
+			if j := slices.Index(r[i:], ')'); j > 24 {
+				s := b.String()
+				b.Reset()
+				b.WriteString(strings.TrimRight(s, " "))
+				i += j
+				continue
+			}
+		}
+		b.WriteRune(r[i])
+	}
+	return b.String()
+}
+
+// headline is a one-line form of a diagnostic: what it is about (the text before the
+// first colon, when short) and its kind (from the code) when that text does not say it.
+func headline(d analysis.Diagnostic) string {
+	subject, _, found := strings.Cut(d.Message, ": ")
+	kind := strings.ReplaceAll(d.Code, "_", " ")
+	if !found {
+		return shortSentence(d.Message)
+	}
+	if len([]rune(subject)) > 60 {
+		if kind != "" {
+			return kind
+		}
+		return cut(d.Message, 60)
+	}
+	says := true
+	for _, w := range strings.Fields(kind) {
+		if len(w) > 3 && !strings.Contains(strings.ToLower(subject), w) {
+			says = false
+		}
+	}
+	if says || kind == "" {
+		return subject
+	}
+	return kind + ": " + subject
 }
 
 func severityGlyph(s string) string {

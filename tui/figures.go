@@ -75,6 +75,11 @@ func (m FiguresModel) View() string {
 	return fitBlock(m.fullView(), m.width, m.height)
 }
 
+// Lines returns how many rows the full form needs at the current width.
+func (m FiguresModel) Lines() int {
+	return strings.Count(strings.TrimRight(m.fullView(), "\n"), "\n") + 1
+}
+
 func (m FiguresModel) compactView() string {
 	seg := currentSegment(m.sum)
 	if seg == nil {

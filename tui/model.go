@@ -521,7 +521,16 @@ func (m Model) View() string {
 		case ViewTrace:
 			body = m.plot.View() + "\n" + m.figures.View() + "\n" + m.advice.View()
 		case ViewFigures:
-			body = m.figures.View() + "\n" + m.advice.View()
+			// The figures take the rows they need (up to two thirds), the advice the rest.
+			fig, adv := m.figures, m.advice
+			figH := min(fig.Lines(), bodyH-bodyH/3)
+			gap := 0
+			if bodyH-figH-1 >= adv.Lines() || bodyH-figH >= 12 {
+				gap = 1 // a blank row between them when the advice keeps its room
+			}
+			fig.SetSize(w, figH, false)
+			adv.SetSize(w, bodyH-figH-gap, false)
+			body = fig.View() + strings.Repeat("\n", 1+gap) + adv.View()
 		default:
 			body = m.charts[m.view-ViewSpread].View()
 		}
