@@ -120,11 +120,12 @@ func (k KeyMap) ShortHelp() []key.Binding {
 	scroll.SetEnabled(k.Back.Enabled())
 	speed := pair(k.Slower, k.Faster, "[/]", "speed")
 	speed.SetEnabled(k.Faster.Enabled())
-	apply, pause := k.Apply, k.Pause
+	apply, pause, mark := k.Apply, k.Pause, k.Mark
 	apply.SetHelp("d", "send deadband")
 	pause.SetHelp("space", "hold/run")
+	mark.SetHelp("m", "mark")
 	// The most needed first: a narrow terminal cuts the tail (bubbles/help ends it with …).
-	return []key.Binding{k.Help, k.Quit, apply, pause, k.NextView, zoom, scroll, speed, k.Mark}
+	return []key.Binding{k.Help, k.Quit, apply, pause, k.NextView, zoom, scroll, speed, mark}
 }
 
 // FullHelp is the full key list in columns, every key once.

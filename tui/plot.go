@@ -267,12 +267,17 @@ func RenderPlot(w Window, width, height int) string {
 			}
 		}
 	}
-	legend := fmt.Sprintf("sp ─ band ┄ pv (%s)", unit)
-	if strings.TrimSpace(string(labels)) == "" {
-		lines = append(lines, padRight(legend, width))
-	} else {
-		lines = append(lines, string(labels))
+	// The legend shares the bottom row with the mark labels: at the left when there are
+	// none, else at the right end when it fits after the last label.
+	legend := []rune(fmt.Sprintf("sp ─ band ┄ pv (%s)", unit))
+	used := len([]rune(strings.TrimRight(string(labels), " ")))
+	switch {
+	case used == 0:
+		copy(labels, legend)
+	case used+2+len(legend) <= width:
+		copy(labels[width-len(legend):], legend)
 	}
+	lines = append(lines, string(labels))
 	return fitBlock(strings.Join(lines, "\n"), width, height)
 }
 
