@@ -71,7 +71,10 @@ func (m AdviceModel) deadbandLine() string {
 		return "advice: waiting for enough steady data…"
 	}
 	now := ""
-	if m.current >= 0 {
+	switch {
+	case m.current == float64(n):
+		now = " (in force)"
+	case m.current >= 0:
 		now = fmt.Sprintf(" (now %.0f)", m.current)
 	}
 	s := fmt.Sprintf("advice: deadband %d counts%s", n, now)

@@ -187,7 +187,7 @@ func TestCaptureAdvice(t *testing.T) {
 	if n != 9 {
 		t.Errorf("suggested deadband = %d, want 9", n)
 	}
-	if out := m.View(); !strings.Contains(out, "advice: deadband 9 counts (now 9)") {
+	if out := m.View(); !strings.Contains(out, "advice: deadband 9 counts (in force)") {
 		t.Errorf("trace view does not show the advice line; screen:\n%s", out)
 	}
 }
