@@ -18,17 +18,18 @@ const (
 	// the pin limit (well inside the datasheet figure, not at it).
 	rulePinShare = 0.5
 	// ruleMinR and ruleMaxR bound a moderate resistor: under 1 kOhm the pin spends
-	// milliamperes at every switch for no gain; over 100 kOhm the ADC input current and
-	// capacitor and board leakage (about 1 uA on classic parts, from memory) shift the
-	// level by tenths of a volt and the node picks up noise.
+	// milliamperes at every switch for no gain; over 100 kOhm the charging current (Vs / R,
+	// tens of uA at most) is no longer large beside the ADC input current and the
+	// capacitor and board leakage (up to about 1 uA on classic parts, from memory), so the
+	// hold droops and the steps change with them, and the high-impedance node picks up noise.
 	ruleMinR = 1e3
 	ruleMaxR = 100e3
 	// ruleMidR is the middle of the moderate range (log scale), the tie-break's choice.
 	ruleMidR = 10e3
 	// ruleMinC and ruleMaxC bound an ordinary part: over 10 uF is electrolytic size (leaks,
-	// -20/+80 % tolerance) when a 1-10 uF film or ceramic with a larger R gives the same
-	// tau; under 10 nF the board's stray capacitance and the ADC's sampling capacitor
-	// take a visible share of the charge.
+	// -20/+80 % tolerance), where a 1-10 uF film or ceramic usually gives the same tau
+	// with a larger R; under 10 nF the board's stray capacitance and the ADC's sampling
+	// capacitor take a visible share of the charge.
 	ruleMinC = 10e-9
 	ruleMaxC = 10e-6
 	// relTol keeps a part exactly at a bound (10 uF, 100 kOhm) inside it.
@@ -37,12 +38,12 @@ const (
 
 // The rule names shown after the verdict ("meets goals; load under 10 R").
 const (
-	RuleLoad   = "load under 10 R"
-	RulePin    = "pin current over half the limit"
-	RuleLowR   = "R under 1 kΩ wastes current"
-	RuleHighR  = "R over 100 kΩ"
-	RuleBigC   = "C over 10 µF (electrolytic size)"
-	RuleSmallC = "C under 10 nF"
+	RuleLoad   = "load under 10 R"                  // the load is under 10 x R: V_inf sags, tau shrinks
+	RulePin    = "pin current over half the limit"  // Vs / R is over half the pin current limit
+	RuleLowR   = "R under 1 kΩ wastes current"      // R under 1 kOhm
+	RuleHighR  = "R over 100 kΩ"                    // R over 100 kOhm: leakage and ADC input current matter
+	RuleBigC   = "C over 10 µF (electrolytic size)" // C over 10 uF
+	RuleSmallC = "C under 10 nF"                    // C under 10 nF: stray and ADC sampling capacitance matter
 )
 
 // VerdictMeets is the verdict of a pair that meets every goal; rules it breaks follow it
@@ -199,8 +200,8 @@ func (p *plant) ruleTrades(pr *pair) []string {
 		case RuleLowR:
 			t = append(t, fmt.Sprintf("R under 1 kΩ draws %s at every switch for no gain", fmtA(pr.pinA)))
 		case RuleHighR:
-			t = append(t, fmt.Sprintf("R over 100 kΩ: 1 µA of leakage or ADC input current (from memory) through it is %s",
-				fmtV(1e-6*pr.ci.R)))
+			t = append(t, fmt.Sprintf("R over 100 kΩ charges with %s at most, so 1 µA of leakage or ADC input current (from memory) is %.0f %% of it; the node also picks up noise",
+				fmtA(pr.pinA), 100*1e-6/pr.pinA))
 		case RuleBigC:
 			t = append(t, "electrolytic size: leaks and has -20/+80 % tolerance")
 		case RuleSmallC:
