@@ -130,6 +130,8 @@ type Accumulator struct {
 	inferred bool
 
 	seg      *segState
+	fin      *finisher // finishes closed segments on its own goroutine (nil: inline)
+	kept     int       // closed segments kept (finished or being finished)
 	segs     []segFig
 	segSeen  int64
 	zooms    []ZoomTrace
@@ -410,16 +412,29 @@ func (a *Accumulator) openSegment(sp, tick float64, hasFrom bool, from float64) 
 	a.segSeen++
 }
 
-// closeSegment finishes the open segment and keeps its figures (bounded).
+// closeSegment finishes the open segment and keeps its figures (bounded). With a
+// finisher running (Summarize), the figures are worked out on the finisher's goroutine
+// and the accumulator carries on with a spare segment state.
 func (a *Accumulator) closeSegment() {
 	s := a.seg
 	if s.n == 0 {
 		return
 	}
 	s.foldHist(&a.steadyHist)
-	if len(a.segs) >= a.opts.MaxSegments {
+	if a.kept >= a.opts.MaxSegments {
 		return
 	}
+	a.kept++
+	if a.fin != nil {
+		a.fin.work <- s
+		a.seg = <-a.fin.spare
+		return
+	}
+	a.finishSegment(s)
+}
+
+// finishSegment works out the figures, spectrum and traces of the closed segment s.
+func (a *Accumulator) finishSegment(s *segState) {
 	var f segFig
 	f, a.buf = s.finish(&a.spec, a.buf)
 	a.keepSpectrum(s)
@@ -434,6 +449,64 @@ func (a *Accumulator) closeSegment() {
 			pv: append([]float64(nil), s.stepPV[:k]...), u: append([]int8(nil), s.stepU[:k]...)}
 		a.stepTr = append(a.stepTr, r)
 	}
+}
+
+// finisher finishes closed segments on a goroutine of its own, in order, so that the
+// end of a segment (two FFTs and the figures) does not hold up the per-sample work of
+// a whole-file pass. Only finishSegment touches the kept figures while it runs: the
+// accumulator's Summary waits for it first.
+type finisher struct {
+	work  chan *segState // closed segments to finish; nil asks for an acknowledgement
+	spare chan *segState // finished segment states, to be reused
+	ack   chan struct{}
+	done  chan struct{}
+}
+
+// spareSegments is the number of closed segments that may wait for the finisher.
+const spareSegments = 2
+
+// startFinisher moves the finishing of closed segments to a goroutine of its own until
+// stopFinisher.
+func (a *Accumulator) startFinisher() {
+	if a.fin != nil {
+		return
+	}
+	f := &finisher{work: make(chan *segState, spareSegments), spare: make(chan *segState, spareSegments+1),
+		ack: make(chan struct{}), done: make(chan struct{})}
+	for range spareSegments {
+		f.spare <- new(segState)
+	}
+	go func() {
+		defer close(f.done)
+		for s := range f.work {
+			if s == nil {
+				f.ack <- struct{}{}
+				continue
+			}
+			a.finishSegment(s)
+			f.spare <- s
+		}
+	}()
+	a.fin = f
+}
+
+// syncFinisher waits until the finisher has finished every segment handed to it.
+func (a *Accumulator) syncFinisher() {
+	if a.fin != nil {
+		a.fin.work <- nil
+		<-a.fin.ack
+	}
+}
+
+// stopFinisher waits for the finisher and ends it; closed segments are then finished
+// on the caller's goroutine again.
+func (a *Accumulator) stopFinisher() {
+	if a.fin == nil {
+		return
+	}
+	close(a.fin.work)
+	<-a.fin.done
+	a.fin = nil
 }
 
 // keepSpectrum keeps the spectrum of s when its steady part is the longest so far. It

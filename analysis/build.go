@@ -44,6 +44,7 @@ type plantFit struct {
 // cost does not depend on the number of samples seen. The open segment is reported
 // with its figures so far.
 func (a *Accumulator) Summary() *Summary {
+	a.syncFinisher()
 	perTick, period, from := a.clk.seconds(a.meta)
 	c := conv{perTick: perTick, period: period, lsb: a.meta.LSB(), origin: a.first}
 	sum := &Summary{
@@ -89,7 +90,7 @@ func (a *Accumulator) Summary() *Summary {
 
 	figs := a.segs
 	var cur segFig
-	if a.seg.n > 0 && len(a.segs) < a.opts.MaxSegments {
+	if a.seg.n > 0 && a.kept < a.opts.MaxSegments {
 		cur, a.buf = a.seg.finish(&a.spec, a.buf)
 		if a.bestSpec.sn == 0 || a.seg.sn > a.bestSpec.sn {
 			a.keepSpectrum(a.seg)

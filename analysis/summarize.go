@@ -36,6 +36,7 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 		opts.Source = sc.Name
 	}
 	acc := New(opts)
+	acc.startFinisher()
 	const inFlight = 4
 	full := make(chan *batch, inFlight)
 	free := make(chan *batch, inFlight+2)
@@ -74,6 +75,7 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 	full <- b
 	close(full)
 	<-done
+	acc.stopFinisher()
 	acc.SetStats(sc.Stats())
 	sum := acc.Summary()
 	if err := sc.Err(); err != nil {
