@@ -60,7 +60,7 @@ func fixtureAdvice() *advice.Advice {
 			Steps: []advice.SetpointStep{{SetpointCounts: 246, ChargeCounts: 4.1, DischargeCounts: 1.3}}},
 		Candidates: []advice.Candidate{
 			{ROhm: 47e3, CF: 2.2e-6, Series: "E12", DeadbandCounts: 3, PredictedRipplePPV: 0.0098, PredictedSettleS: 0.41,
-				PinCurrentA: 1.06e-4, VInfSagV: 0.42, Verdict: "meets goals", Trades: "slower settling"},
+				PinCurrentA: 1.06e-4, VInfSagV: 0.42, Verdict: "meets goals", MeetsGoals: true, Trades: "slower settling"},
 			{ROhm: 22e3, CF: 1e-6, Series: "E6", DeadbandCounts: 5, PredictedRipplePPV: 0.031, PredictedSettleS: 0.09,
 				PinCurrentA: 2.27e-4, VInfSagV: 0.2, Verdict: "ripple too high", Trades: "faster, noisier"},
 		},

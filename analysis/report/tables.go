@@ -303,7 +303,7 @@ func AdviceTables(a *advice.Advice, prefix string) []Table {
 		}
 		for i, c := range a.Candidates {
 			r := row("#"+strconv.Itoa(i+1), c)
-			if c.Verdict == "meets goals" {
+			if c.MeetsGoals && len(c.RulesBroken) == 0 {
 				r.Class = "better"
 			}
 			t.Rows = append(t.Rows, r)
