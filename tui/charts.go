@@ -3,6 +3,7 @@ package tui
 import (
 	"fmt"
 	"math"
+	"strconv"
 	"strings"
 
 	tea "github.com/charmbracelet/bubbletea"
@@ -62,7 +63,7 @@ func (m ChartModel) View() string {
 		if tr == nil {
 			return fitBlock("ripple spectrum: no steady data yet", m.width, m.height)
 		}
-		return RenderSpectrum(tr.SpecFreq, tr.SpecAmp, m.width, m.height, m.color)
+		return renderSpectrum(tr.SpecFreq, tr.SpecAmp, m.width, m.height, m.color, m.sum.SamplePeriodS == nil)
 	}
 	if tr == nil || len(tr.StepTraces) == 0 {
 		if m.sum != nil && len(m.sum.Steps) > 0 {
@@ -74,7 +75,7 @@ func (m ChartModel) View() string {
 		return fitBlock("last step: no setpoint step seen yet", m.width, m.height)
 	}
 	st := tr.StepTraces[len(tr.StepTraces)-1]
-	return RenderStep(st, stepFigures(m.sum, st), tr.Volts, m.width, m.height, m.color)
+	return renderStep(st, stepFigures(m.sum, st), tr.Volts, m.width, m.height, m.color, m.sum.SamplePeriodS == nil)
 }
 
 // stepFigures finds the figures of the step a trace shows: the step that starts at the
@@ -169,6 +170,21 @@ func fmtBin(v float64) string {
 // RenderSpectrum draws the ripple amplitude spectrum (counts against Hz) with the
 // strongest line named in the title. It is a pure function of its arguments.
 func RenderSpectrum(freq, amp []float64, width, height int, color bool) string {
+	return renderSpectrum(freq, amp, width, height, color, false)
+}
+
+// plainFormat writes an axis value without a unit (samples, cycles per sample: the
+// title names the unit when the sample period is unknown).
+func plainFormat(v float64) string { return strconv.FormatFloat(v, 'g', 3, 64) }
+
+// renderSpectrum is RenderSpectrum; perSample: freq is in cycles per sample (the sample
+// period is unknown).
+func renderSpectrum(freq, amp []float64, width, height int, color, perSample bool) string {
+	xfmt := func(v float64) string { return si.Format(v, "Hz") }
+	unit := ""
+	if perSample {
+		xfmt, unit = plainFormat, " cycles/sample"
+	}
 	n := min(len(freq), len(amp))
 	if n < 2 || height < 6 || width < 30 {
 		return fitBlock("ripple spectrum: no steady data yet", width, height)
@@ -180,7 +196,7 @@ func RenderSpectrum(freq, amp []float64, width, height int, color bool) string {
 		}
 	}
 	title := fmt.Sprintf("ripple spectrum (amplitude, counts): strongest %s at %s",
-		fmtFloat(amp[peak]), si.Format(freq[peak], "Hz"))
+		fmtFloat(amp[peak]), xfmt(freq[peak])+unit)
 	plotW := width - 13
 	col := make([]float64, plotW)
 	for i := range col {
@@ -202,7 +218,7 @@ func RenderSpectrum(freq, amp []float64, width, height int, color bool) string {
 		asciigraph.Height(height - 5), asciigraph.Offset(2), asciigraph.Precision(2),
 		asciigraph.YAxisValueFormatter(func(v float64) string { return fmt.Sprintf("%7.2f", v) }),
 		asciigraph.XAxisRange(0, top), asciigraph.XAxisTickCount(ticks + 1),
-		asciigraph.XAxisValueFormatter(func(v float64) string { return si.Format(v, "Hz") }),
+		asciigraph.XAxisValueFormatter(xfmt),
 	}
 	if color {
 		opts = append(opts, asciigraph.SeriesColors(colourPV), asciigraph.AxisColor(colourAxis), asciigraph.LabelColor(colourAxis))
@@ -240,6 +256,15 @@ const stepMinSamples = 48
 // left out) so the line stays visible between them whatever the colours. It is a pure
 // function of its arguments.
 func RenderStep(st analysis.StepTrace, fig *analysis.StepFigures, volts bool, width, height int, color bool) string {
+	return renderStep(st, fig, volts, width, height, color, false)
+}
+
+// renderStep is RenderStep; perSample: st.T counts samples (the sample period is unknown).
+func renderStep(st analysis.StepTrace, fig *analysis.StepFigures, volts bool, width, height int, color, perSample bool) string {
+	xfmt := func(v float64) string { return si.Format(v, "s") }
+	if perSample {
+		xfmt = plainFormat
+	}
 	n := min(len(st.T), len(st.PV))
 	if n < 2 || height < 6 || width < 30 {
 		return fitBlock("last step: no setpoint step seen yet", width, height)
@@ -254,6 +279,9 @@ func RenderStep(st analysis.StepTrace, fig *analysis.StepFigures, volts bool, wi
 		title = "last step (" + unit + "): pv ─ (no fitted model yet: the plant is not identified)"
 	}
 	lines := []string{title}
+	if perSample {
+		lines = append(lines, "time in samples (the sample period is unknown)")
+	}
 	if fig != nil {
 		lines = append(lines, fmt.Sprintf("step at %s: %s → %s  rise %s  settle %s  overshoot %s", formatSeconds(fig.AtS),
 			fmtSI(fig.FromV, "V"), fmtSI(fig.ToV, "V"), fmtSI(fig.RiseS, "s"), fmtSI(fig.SettleS, "s"), fmtSI(fig.OvershootV, "V")))
@@ -315,7 +343,7 @@ func RenderStep(st analysis.StepTrace, fig *analysis.StepFigures, volts bool, wi
 		asciigraph.LowerBound(lo), asciigraph.UpperBound(hi),
 		asciigraph.YAxisValueFormatter(func(v float64) string { return fmt.Sprintf(yfmt, v) }),
 		asciigraph.XAxisRange(0, span), asciigraph.XAxisTickCount(ticks+1),
-		asciigraph.XAxisValueFormatter(func(v float64) string { return si.Format(v, "s") }),
+		asciigraph.XAxisValueFormatter(xfmt),
 	)
 	grid := strings.Split(out, "\n")
 	if hasFit {
