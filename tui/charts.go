@@ -223,7 +223,7 @@ func renderSpectrum(freq, amp []float64, width, height int, color, perSample boo
 	if color {
 		opts = append(opts, asciigraph.SeriesColors(colourPV), asciigraph.AxisColor(colourAxis), asciigraph.LabelColor(colourAxis))
 	}
-	return fitBlock(title+"\n"+asciigraph.Plot(col, opts...), width, height)
+	return fitBlock(title+"\n"+plainAxis(asciigraph.Plot(col, opts...)), width, height)
 }
 
 // fillGaps repeats the previous value into empty columns so the line stays connected.
@@ -345,7 +345,7 @@ func renderStep(st analysis.StepTrace, fig *analysis.StepFigures, volts bool, wi
 		asciigraph.XAxisRange(0, span), asciigraph.XAxisTickCount(ticks+1),
 		asciigraph.XAxisValueFormatter(xfmt),
 	)
-	grid := strings.Split(out, "\n")
+	grid := strings.Split(plainAxis(out), "\n")
 	if hasFit {
 		overlayDots(grid, pv, lo, hi, rowsH)
 	}

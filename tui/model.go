@@ -556,13 +556,23 @@ func (m Model) header() string {
 		tabs = append(tabs, name)
 	}
 	left := "caploop  " + strings.Join(tabs, " ")
-	right := "window " + formatSeconds(m.plot.Span())
+	// The time window belongs to the trace; the other views show whole-run figures.
+	var right []string
 	if m.ended {
-		right = "ended · " + right
+		right = append(right, "ended")
 	}
-	gap := m.width - lipgloss.Width(left) - lipgloss.Width(right)
+	if m.view == ViewTrace && !m.full {
+		right = append(right, "window "+formatSeconds(m.plot.Span()))
+	}
+	return headerLine(left, strings.Join(right, " · "), m.width)
+}
+
+// headerLine puts right at the right end of a line width cells wide after left, or
+// drops it when they do not fit.
+func headerLine(left, right string, width int) string {
+	gap := width - lipgloss.Width(left) - lipgloss.Width(right)
 	if gap < 1 {
-		return padRight(left, m.width)
+		return padRight(left, width)
 	}
 	return left + strings.Repeat(" ", gap) + right
 }

@@ -337,8 +337,13 @@ func plotOnce(w Window, plotW, bodyRows int, prec uint, format func(float64) str
 	if w.Color {
 		opts = append(opts, asciigraph.SeriesColors(colours...), asciigraph.AxisColor(colourAxis), asciigraph.LabelColor(colourAxis))
 	}
-	return asciigraph.PlotMany(series, opts...)
+	return plainAxis(asciigraph.PlotMany(series, opts...))
 }
+
+// plainAxis turns asciigraph's first-value marks on the y axis (┼, one per series) into
+// plain axis cells: on a plot with several series they read as stray ticks. No series
+// glyph of these plots is a ┼, so the swap touches only the axis.
+func plainAxis(plot string) string { return strings.ReplaceAll(plot, "┼", "┤") }
 
 func tickCount(plotW int) int {
 	n := plotW / 14
