@@ -91,8 +91,8 @@ func (m FiguresModel) compactView() string {
 	fmt.Fprintf(&b, "duty charge %s hold %s discharge %s  cycle %s  switching %s\n",
 		fmtPct(seg.DutyCharge), fmtPct(seg.DutyHold), fmtPct(seg.DutyDischarge),
 		fmtSI(seg.LimitCyclePeriodS, "s"), fmtSI(seg.SwitchingHz, "Hz"))
-	fmt.Fprintf(&b, "band ±%s counts  entries %d  exits %d  band jumps %d%s\n",
-		fmtCounts(seg.DeadbandCounts), seg.DeadbandEntries, seg.DeadbandExits, seg.BandJumps, unreachable(seg))
+	fmt.Fprintf(&b, "band %s  entries %d  exits %d  band jumps %d%s\n",
+		fmtBand(seg.DeadbandCounts), seg.DeadbandEntries, seg.DeadbandExits, seg.BandJumps, unreachable(seg))
 	p := m.sum.Plant
 	fmt.Fprintf(&b, "tau charge %s%s discharge %s  v_high %s  noise %s counts rms",
 		fmtSI(p.TauChargeS, "s"), fmtCI(p.TauChargeS, p.TauChargeCIS), fmtSI(p.TauDischargeS, "s"),
@@ -105,6 +105,14 @@ func fmtSPV(seg *analysis.Segment) string {
 		return fmtSI(seg.SetpointV, "V")
 	}
 	return fmt.Sprintf("%.0f counts", seg.SetpointCounts)
+}
+
+// fmtBand writes a deadband half-width: "±4 counts", or "– (not reported)".
+func fmtBand(p *float64) string {
+	if p == nil {
+		return dash + " (not reported)"
+	}
+	return "±" + fmtCounts(p) + " counts"
 }
 
 func unreachable(seg *analysis.Segment) string {
@@ -129,7 +137,7 @@ func segmentRows(seg *analysis.Segment) [][2]string {
 		{"limit cycle", fmtSI(seg.LimitCyclePeriodS, "s")},
 		{"switching", fmtSI(seg.SwitchingHz, "Hz")},
 		{"ripple freq", fmtSI(seg.RippleFreqHz, "Hz")},
-		{"band", "±" + fmtCounts(seg.DeadbandCounts) + " counts"},
+		{"band", fmtBand(seg.DeadbandCounts)},
 		{"entries/exits", fmt.Sprintf("%d / %d", seg.DeadbandEntries, seg.DeadbandExits)},
 		{"band jumps", fmt.Sprintf("%d", seg.BandJumps)},
 	}
