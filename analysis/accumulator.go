@@ -275,8 +275,108 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 		}
 		a.n++
 		a.last = tick
-		a.seg.db = a.db
-		a.seg.add(tick, pv, u, a.three)
+
+		// The open segment (its state is segState; this is its per-sample update).
+		sg := a.seg
+		sg.db = a.db
+		e := pv - sg.sp
+		sg.n++
+		sg.end = tick
+		sg.lastPV = pv
+		if pv < sg.minPV {
+			sg.minPV = pv
+		}
+		if pv > sg.maxPV {
+			sg.maxPV = pv
+		}
+		if sg.n <= stepKeep {
+			k := sg.n - 1
+			sg.stepT[k], sg.stepPV[k], sg.stepU[k] = tick, pv, int8(u)
+		}
+		if sg.rising {
+			p := (pv - sg.from) / (sg.sp - sg.from)
+			if !sg.has10 && p >= 0.1 {
+				sg.t10, sg.has10 = tick, true
+			}
+			if !sg.has90 && p >= 0.9 {
+				sg.t90, sg.has90 = tick, true
+			}
+			sg.rising = !(sg.has10 && sg.has90)
+		}
+		b := binOf(e)
+		sg.lastSeen[b] = sg.n
+		sg.lsLo = min(sg.lsLo, b)
+		sg.lsHi = max(sg.lsHi, b)
+		in := math.Abs(e) <= sg.db
+		if sg.n == 1 {
+			sg.firstSign = sign(e)
+		} else if in != sg.prevIn {
+			if in {
+				sg.entries++
+			} else {
+				sg.exits++
+				if e > 0 && sg.prevU == telemetry.Hold {
+					sg.noiseExits++
+				}
+			}
+		}
+		if !sg.steady && (in || (sg.n > 1 && sign(e) != sg.firstSign)) {
+			sg.steady, sg.steadyAt = true, tick
+		}
+		if u == sg.prevU && sg.n > 1 {
+			sg.endRun++
+		} else {
+			sg.endRun = 1
+		}
+		if sg.steady {
+			sg.sn++
+			sg.sumE += e
+			sg.sumE2 += e * e
+			if e < sg.minE {
+				sg.minE = e
+			}
+			if e > sg.maxE {
+				sg.maxE = e
+			}
+			sg.hist[b]++
+			sg.hLo = min(sg.hLo, b)
+			sg.hHi = max(sg.hHi, b)
+			sg.duty[u+1]++
+			if sg.sn > 1 && u != sg.sprev {
+				sg.switches++
+				if (a.three || sg.sawHold) && u == -sg.sprev {
+					sg.jumps++
+				}
+				// A charge onset: charge after anything else (so also a switch).
+				if u == telemetry.Charge {
+					if sg.onsets == 0 {
+						sg.firstOn = tick
+					}
+					sg.lastOn = tick
+					sg.onsets++
+					sg.trigJ = 0
+				}
+			}
+			if j := sg.trigJ; j >= 0 && j < trigLen {
+				sg.trigSum[j] += e
+				sg.trigCnt[j]++
+				sg.trigJ = j + 1
+				sg.trigMax = max(sg.trigMax, j+1)
+			}
+			r := sg.rpos
+			sg.ring[r] = pv
+			sg.ringU[r] = int8(u)
+			sg.ringT[r] = tick
+			r++
+			if r == len(sg.ring) {
+				r = 0
+			}
+			sg.rpos = r
+			sg.sprev = u
+		}
+		sg.sawHold = sg.sawHold || u == telemetry.Hold
+		sg.prevIn = in
+		sg.prevU = u
 
 		// ADC code histogram and rails.
 		code := int(pv)
@@ -332,7 +432,7 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 			}
 		}
 		// The new sample becomes p1, the old p1 becomes p2: flip the pair, overwrite p2.
-		p2.pv, p2.u, p2.ok, p2.next, p2.steady, p2.sp, p2.db = pv, u, ok, false, a.seg.steady, s.SP, a.db
+		p2.pv, p2.u, p2.ok, p2.next, p2.steady, p2.sp, p2.db = pv, u, ok, false, sg.steady, s.SP, a.db
 		a.cur = cur ^ 1
 		if a.n&63 == 0 {
 			a.refreshGuard()
