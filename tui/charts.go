@@ -351,6 +351,10 @@ func renderStep(st analysis.StepTrace, fig *analysis.StepFigures, volts bool, wi
 	}
 	if color {
 		colourStep(grid)
+		if hasFit {
+			head = strings.Replace(head, "•", paint(colourPV, "•"), 1)
+			head = strings.Replace(head, "model ─", "model "+paint(colourFit, "─"), 1)
+		}
 	}
 	return fitBlock(head+"\n"+strings.Join(grid, "\n"), width, height)
 }
@@ -399,12 +403,6 @@ func overlayDots(grid []string, pv []float64, lo, hi float64, height int) {
 // colourStep colours a plain step plot: labels and axes grey, the model line and pv dots
 // in their series colours.
 func colourStep(grid []string) {
-	paint := func(c asciigraph.AnsiColor, s string) string {
-		if s == "" {
-			return s
-		}
-		return fmt.Sprintf("\x1b[38;5;%dm%s\x1b[0m", int(c), s)
-	}
 	for i, l := range grid {
 		r := []rune(l)
 		axis := -1

@@ -4,6 +4,8 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/charmbracelet/x/ansi"
+
 	"github.com/caploop/caploop/analysis"
 )
 
@@ -94,6 +96,40 @@ func TestDiagnosticShortForms(t *testing.T) {
 			if got := headline(c.d); got != c.wantHeadline {
 				t.Errorf("headline = %q, want %q", got, c.wantHeadline)
 			}
+		})
+	}
+}
+
+// TestColourSameText checks that colour only adds escapes: the colour plots, stripped of
+// them, equal the plain plots cell for cell, and keep the grid.
+func TestColourSameText(t *testing.T) {
+	sum := fixtureSummary()
+	st := sum.Traces.StepTraces[0]
+	pts := fixturePoints(t)
+	win := func(color bool) Window {
+		return Window{From: 1, To: 3, Points: pts[1000:], Marks: []Mark{{T: 1.5, Label: "fan on"}, {T: 2.5, Label: "door"}}, Volts: true, Color: color}
+	}
+	cases := []struct {
+		name         string
+		plain, color string
+	}{
+		{"step", RenderStep(st, &sum.Steps[0], true, 80, 24, false), RenderStep(st, &sum.Steps[0], true, 80, 24, true)},
+		{"trace", RenderPlot(win(false), 80, 16), RenderPlot(win(true), 80, 16)},
+		{"spectrum", RenderSpectrum(sum.Traces.SpecFreq, sum.Traces.SpecAmp, 80, 20, false), RenderSpectrum(sum.Traces.SpecFreq, sum.Traces.SpecAmp, 80, 20, true)},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			if c.color == c.plain {
+				t.Fatalf("colour output has no colour")
+			}
+			if c.name == "trace" && !strings.Contains(c.plain, "┊") {
+				t.Errorf("no dotted mark column in the trace:\n%s", c.plain)
+			}
+			if got := ansi.Strip(c.color); got != c.plain {
+				t.Errorf("colour text differs from plain:\n%s\nwant:\n%s", got, c.plain)
+			}
+			h := strings.Count(c.plain, "\n") + 1
+			checkGrid(t, c.color, 80, h)
 		})
 	}
 }

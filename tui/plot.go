@@ -6,6 +6,7 @@ import (
 	"strings"
 
 	tea "github.com/charmbracelet/bubbletea"
+	"github.com/charmbracelet/x/ansi"
 	"github.com/guptarohit/asciigraph"
 )
 
@@ -254,11 +255,7 @@ func RenderPlot(w Window, width, height int) string {
 			continue
 		}
 		for i := 0; i <= bodyRows && i < len(lines); i++ {
-			r := []rune(lines[i])
-			if pad+c < len(r) && r[pad+c] == ' ' {
-				r[pad+c] = '┊'
-				lines[i] = string(r)
-			}
+			lines[i] = setBlankCell(lines[i], pad+c, "┊", w.Color)
 		}
 		lab := []rune("▲" + mk.Label)
 		for j, ch := range lab {
@@ -277,7 +274,13 @@ func RenderPlot(w Window, width, height int) string {
 	case used+2+len(legend) <= width:
 		copy(labels[width-len(legend):], legend)
 	}
-	lines = append(lines, string(labels))
+	row := string(labels)
+	if w.Color {
+		// The legend's glyphs in their series colours.
+		col := fmt.Sprintf("sp %s band %s pv (%s)", paint(colourSP, "─"), paint(colourBand, "┄"), paint(colourPV, unit))
+		row = strings.Replace(row, string(legend), col, 1)
+	}
+	lines = append(lines, row)
 	return fitBlock(strings.Join(lines, "\n"), width, height)
 }
 
@@ -338,6 +341,31 @@ func plotOnce(w Window, plotW, bodyRows int, prec uint, format func(float64) str
 		opts = append(opts, asciigraph.SeriesColors(colours...), asciigraph.AxisColor(colourAxis), asciigraph.LabelColor(colourAxis))
 	}
 	return plainAxis(asciigraph.PlotMany(series, opts...))
+}
+
+// setBlankCell puts glyph in cell x of line when that cell is blank, counting cells (a
+// coloured line holds ANSI escapes between them).
+func setBlankCell(line string, x int, glyph string, color bool) string {
+	if !color {
+		r := []rune(line)
+		if x < len(r) && r[x] == ' ' {
+			r[x] = []rune(glyph)[0]
+		}
+		return string(r)
+	}
+	n := ansi.StringWidth(line)
+	if x >= n || ansi.Strip(ansi.Cut(line, x, x+1)) != " " {
+		return line
+	}
+	return ansi.Cut(line, 0, x) + glyph + ansi.Cut(line, x+1, n)
+}
+
+// paint wraps s in an ANSI 256-colour foreground.
+func paint(c asciigraph.AnsiColor, s string) string {
+	if s == "" {
+		return s
+	}
+	return fmt.Sprintf("\x1b[38;5;%dm%s\x1b[0m", int(c), s)
 }
 
 // plainAxis turns asciigraph's first-value marks on the y axis (┼, one per series) into
