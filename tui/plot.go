@@ -257,10 +257,15 @@ func RenderPlot(w Window, width, height int) string {
 		for i := 0; i <= bodyRows && i < len(lines); i++ {
 			lines[i] = setBlankCell(lines[i], pad+c, "┊", w.Color)
 		}
-		lab := []rune("▲" + mk.Label)
+		// The label reads rightwards from the ▲; near the right edge it ends at the ▲.
+		lab, at := []rune("▲"+mk.Label), pad+c
+		if at+len(lab) > width && at+1 >= len(lab) {
+			lab = []rune(mk.Label + "▲")
+			at = pad + c - len(lab) + 1
+		}
 		for j, ch := range lab {
-			if pad+c+j < width {
-				labels[pad+c+j] = ch
+			if at+j < width {
+				labels[at+j] = ch
 			}
 		}
 	}
@@ -343,21 +348,24 @@ func plotOnce(w Window, plotW, bodyRows int, prec uint, format func(float64) str
 	return plainAxis(asciigraph.PlotMany(series, opts...))
 }
 
-// setBlankCell puts glyph in cell x of line when that cell is blank, counting cells (a
-// coloured line holds ANSI escapes between them).
+// setBlankCell puts glyph in cell x of line when that cell is blank or past the line's
+// end (asciigraph trims trailing blanks), counting cells (a coloured line holds ANSI
+// escapes between them).
 func setBlankCell(line string, x int, glyph string, color bool) string {
+	if n := ansi.StringWidth(line); n <= x {
+		line += strings.Repeat(" ", x+1-n)
+	}
 	if !color {
 		r := []rune(line)
-		if x < len(r) && r[x] == ' ' {
+		if r[x] == ' ' {
 			r[x] = []rune(glyph)[0]
 		}
 		return string(r)
 	}
-	n := ansi.StringWidth(line)
-	if x >= n || ansi.Strip(ansi.Cut(line, x, x+1)) != " " {
+	if ansi.Strip(ansi.Cut(line, x, x+1)) != " " {
 		return line
 	}
-	return ansi.Cut(line, 0, x) + glyph + ansi.Cut(line, x+1, n)
+	return ansi.Cut(line, 0, x) + glyph + ansi.Cut(line, x+1, ansi.StringWidth(line))
 }
 
 // paint wraps s in an ANSI 256-colour foreground.
