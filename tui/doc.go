@@ -23,7 +23,8 @@
 //	         the figures before and after a deadband change side by side; the full advice
 //	spread   histogram of the error over steady parts
 //	ripple   ripple spectrum of the longest steady part
-//	step     the last step response with the fitted exponential
+//	step     the last step response: pv samples as dots over the fitted plant model
+//	         driven by the same drives, zoomed onto the rise
 //
 // The keys are in KeyMap (DefaultKeyMap); ? shows them all. On a live source, d sends
 // "set deadband=N" with the suggested N after a y/n question and m marks the moment with
