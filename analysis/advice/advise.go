@@ -92,7 +92,7 @@ func requestFromSummary(s *analysis.Summary, g Goals) (Request, *present, error)
 		req.PeriodS = *s.SamplePeriodS
 	}
 	if len(missing) > 0 {
-		return req, nil, fmt.Errorf("%w: missing %v", ErrNoBoard, missing)
+		return req, nil, fmt.Errorf("%w: no %s (send them in a meta line, e.g. # vref=5 adc_bits=10 period_us=1000)", ErrNoBoard, strings.Join(missing, ", "))
 	}
 	if pl.SenseDropV != nil && *pl.SenseDropV >= 0.3 && *pl.SenseDropV < 1.2 {
 		req.VBE = *pl.SenseDropV
