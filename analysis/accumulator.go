@@ -149,10 +149,11 @@ type Accumulator struct {
 	stepV      [3]float64
 	stepOK     [3]bool
 	bal        balance
-	mem        [2]memo // the previous sample (mem[cur]) and the one before
-	cur        int
+	mem        [2]memo // the previous sample (*p1) and the one before (*p2)
+	p1, p2     *memo
 	codes      []uint32
 	maxCode    int
+	codeLim    int // codes 0 < code < codeLim are in codes and off both rails
 	railLo     int64
 	railHi     int64
 	steadyHist [2*histHalf + 1]int64 // error bins of the steady samples of the closed segments
@@ -178,6 +179,7 @@ type specKeep struct {
 // New returns an empty accumulator.
 func New(opts Options) *Accumulator {
 	a := &Accumulator{opts: opts.withDefaults(), seg: new(segState)}
+	a.p1, a.p2 = &a.mem[0], &a.mem[1]
 	a.seg.reset(a.opts.Window)
 	a.ov.init(a.opts.TraceBuckets)
 	a.noiseEMA = 6 // 1 count rms until the data say otherwise
@@ -202,6 +204,7 @@ func (a *Accumulator) SetMeta(m telemetry.Meta) {
 	if m.Has(telemetry.FieldADCBits) && m.ADCBits > 0 && m.ADCBits <= 16 {
 		a.maxCode = 1<<m.ADCBits - 1
 	}
+	a.setCodeLim()
 }
 
 // SetStats records the reader's line counts (rejected lines, first rejects).
@@ -258,7 +261,7 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 		if s.Flags&telemetry.HasU == 0 {
 			u = a.infer(pv - s.SP)
 			a.inferred = true
-		} else if u < telemetry.Discharge || u > telemetry.Charge {
+		} else if uint8(u+1) > 2 { // not one of -1, 0, 1
 			u = telemetry.Hold
 		}
 		if a.n == 0 {
@@ -277,8 +280,7 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 		a.last = tick
 
 		// The open segment (its state is segState; this is its per-sample update).
-		sg := a.seg
-		sg.db = a.db
+		sg := a.seg // sg.db == a.db: a new band opened a new segment above
 		e := pv - sg.sp
 		sg.n++
 		sg.end = tick
@@ -364,9 +366,7 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 				sg.trigMax = max(sg.trigMax, j+1)
 			}
 			r := sg.rpos
-			sg.ring[r] = pv
-			sg.ringU[r] = int8(u)
-			sg.ringT[r] = tick
+			sg.ring[r] = ringEntry{pv: pv, t: tick, u: int8(u)}
 			r++
 			if r == len(sg.ring) {
 				r = 0
@@ -378,28 +378,19 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 		sg.prevIn = in
 		sg.prevU = u
 
-		// ADC code histogram and rails.
+		// ADC code histogram and rails: a whole reading inside the histogram and off
+		// both rails takes the short way, everything else codeSlow.
 		code := int(pv)
-		ok := pv >= 0 && float64(code) == pv
-		if ok {
-			if code < len(a.codes) {
-				a.codes[code]++
-			} else if code < 1<<16 {
-				a.growCodes(code)
-				a.codes[code]++
-			}
-		}
-		if pv <= 0 {
-			a.railLo++
-			ok = false
-		} else if a.maxCode > 0 && pv >= float64(a.maxCode) {
-			a.railHi++
-			ok = false
+		var ok bool
+		if float64(code) == pv && code > 0 && code < a.codeLim {
+			a.codes[code]++
+			ok = true
+		} else {
+			ok = a.codeSlow(pv)
 		}
 
 		// Plant fit: pair (p1 -> this) with instrument p2.
-		cur := a.cur & 1
-		p1, p2 := &a.mem[cur], &a.mem[cur^1]
+		p1, p2 := a.p1, a.p2
 		p1.next = contiguous
 		if ok && p1.ok && contiguous {
 			d1 := int(p1.u) + 1
@@ -433,7 +424,7 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 		}
 		// The new sample becomes p1, the old p1 becomes p2: flip the pair, overwrite p2.
 		p2.pv, p2.u, p2.ok, p2.next, p2.steady, p2.sp, p2.db = pv, u, ok, false, sg.steady, s.SP, a.db
-		a.cur = cur ^ 1
+		a.p1, a.p2 = p2, p1
 		if a.n&63 == 0 {
 			a.refreshGuard()
 		}
@@ -492,6 +483,38 @@ func (a *Accumulator) refreshGuard() {
 	}
 }
 
+// codeSlow counts a reading in the ADC code histogram (when it is a code) and at the
+// rails, and reports whether it can enter the plant fit (off both rails).
+func (a *Accumulator) codeSlow(pv float64) bool {
+	code := int(pv)
+	ok := pv >= 0 && float64(code) == pv
+	if ok {
+		if code < len(a.codes) {
+			a.codes[code]++
+		} else if code < 1<<16 {
+			a.growCodes(code)
+			a.codes[code]++
+		}
+	}
+	if pv <= 0 {
+		a.railLo++
+		ok = false
+	} else if a.maxCode > 0 && pv >= float64(a.maxCode) {
+		a.railHi++
+		ok = false
+	}
+	return ok
+}
+
+// setCodeLim sets codeLim: the codes below it are in the histogram and below the top
+// rail.
+func (a *Accumulator) setCodeLim() {
+	a.codeLim = len(a.codes)
+	if a.maxCode > 0 {
+		a.codeLim = min(a.codeLim, a.maxCode)
+	}
+}
+
 func (a *Accumulator) growCodes(code int) {
 	n := 1024
 	for n <= code {
@@ -500,6 +523,7 @@ func (a *Accumulator) growCodes(code int) {
 	c := make([]uint32, n)
 	copy(c, a.codes)
 	a.codes = c
+	a.setCodeLim()
 }
 
 func (a *Accumulator) openSegment(sp, tick float64, hasFrom bool, from float64) {
@@ -638,7 +662,7 @@ func (s *segState) zoom(n int) ZoomTrace {
 	}
 	for i := 0; i < m; i++ {
 		j := (start + i) % len(s.ring)
-		z.T[i], z.PV[i], z.U[i] = s.ringT[j], s.ring[j], float64(s.ringU[j])
+		z.T[i], z.PV[i], z.U[i] = s.ring[j].t, s.ring[j].pv, float64(s.ring[j].u)
 	}
 	return z
 }

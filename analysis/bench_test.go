@@ -45,6 +45,26 @@ func BenchmarkAccumulator(b *testing.B) {
 	}
 }
 
+// BenchmarkAccumulatorBatch measures the analysing side of Summarize per sample: the
+// same stream as BenchmarkAccumulator handed over in batches of batchLen samples, with
+// closed segments finished on the finisher's goroutine (ns/op is ns per sample).
+func BenchmarkAccumulatorBatch(b *testing.B) {
+	const n = 1 << 20
+	samples := benchSamples(b, n)
+	m := metaOf(benchCfg(loop.ThreeState, 6, 1, 1))
+	b.ReportAllocs()
+	b.ResetTimer()
+	for done := 0; done < b.N; done += n {
+		acc := New(Options{})
+		acc.SetMeta(m)
+		acc.startFinisher()
+		for i := 0; i < n && done+i < b.N; i += batchLen {
+			acc.addRun(samples[i:min(n, i+batchLen, b.N-done)])
+		}
+		acc.stopFinisher()
+	}
+}
+
 // BenchmarkSummary measures one Summary call on an accumulator that has seen a million
 // samples (the live screen calls it about ten times a second).
 func BenchmarkSummary(b *testing.B) {

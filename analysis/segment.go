@@ -57,14 +57,18 @@ type segState struct {
 	onsets          int64
 	firstOn, lastOn float64
 	sprev           telemetry.Drive
-	ring            []float64 // last Window steady readings
-	ringU           []int8
-	ringT           []float64
+	ring            []ringEntry // last Window steady readings
 	rpos            int
 	trigSum         [trigLen]float64
 	trigCnt         [trigLen]int32
 	trigMax         int
 	trigJ           int // offset since the last charge onset, -1 before the first
+}
+
+// ringEntry is one steady reading kept in the ring: counts, tick and drive.
+type ringEntry struct {
+	pv, t float64
+	u     int8
 }
 
 // binOf returns the histogram bin of error e: round(e) + histHalf, clamped.
@@ -91,11 +95,9 @@ func (s *segState) reset(window int) {
 		s.trigSum[i], s.trigCnt[i] = 0, 0
 	}
 	if len(s.ring) != window {
-		s.ring = make([]float64, window)
-		s.ringU = make([]int8, window)
-		s.ringT = make([]float64, window)
+		s.ring = make([]ringEntry, window)
 	}
-	ring, ringU, ringT := s.ring, s.ringU, s.ringT
+	ring := s.ring
 	s.sp, s.from, s.hasFrom, s.index = 0, 0, false, 0
 	s.start, s.end, s.n, s.firstSign, s.steady, s.steadyAt, s.db, s.sawHold = 0, 0, 0, 0, false, 0, 0, false
 	s.minPV, s.maxPV, s.prevIn, s.prevU = math.Inf(1), math.Inf(-1), false, 0
@@ -107,7 +109,7 @@ func (s *segState) reset(window int) {
 	s.hLo, s.hHi = 2*histHalf, 0
 	s.duty = [3]int64{}
 	s.switches, s.jumps, s.onsets, s.firstOn, s.lastOn, s.sprev = 0, 0, 0, 0, 0, 0
-	s.ring, s.ringU, s.ringT, s.rpos = ring, ringU, ringT, 0
+	s.ring, s.rpos = ring, 0
 	s.trigMax, s.trigJ = 0, -1
 }
 
@@ -141,7 +143,7 @@ func (s *segState) window(dst []float64) []float64 {
 		if j >= len(s.ring) {
 			j -= len(s.ring)
 		}
-		dst = append(dst, s.ring[j])
+		dst = append(dst, s.ring[j].pv)
 	}
 	return dst
 }
