@@ -14,6 +14,10 @@ import (
 // runScreen shows the bench screen on p until the user quits (q, Ctrl-C) or a SIGTERM
 // arrives, then stops the source (flushing any recording) and restores the terminal.
 func runScreen(p *tui.Pipeline, span time.Duration) error {
+	if !term.IsTerminal(int(os.Stdout.Fd())) {
+		p.Close()
+		return withCode(2, errors.New("the bench screen needs a terminal; without one, use `caploop record` to capture or `caploop summary` to measure"))
+	}
 	color := os.Getenv("NO_COLOR") == "" && term.IsTerminal(int(os.Stdout.Fd()))
 	m := tui.New(p, tui.Options{Color: color, Span: span.Seconds()})
 	prog := tea.NewProgram(m, tea.WithAltScreen())
