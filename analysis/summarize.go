@@ -62,7 +62,12 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 	for sc.Scan() {
 		switch sc.Kind() {
 		case telemetry.RecSample:
-			b.samples = append(b.samples, sc.Sample())
+			// Field by field (see Scanner.SampleRef), into the batch in place.
+			n := len(b.samples)
+			b.samples = b.samples[:n+1]
+			d, p := &b.samples[n], sc.SampleRef()
+			d.Line, d.Index, d.T, d.N, d.Host = p.Line, p.Index, p.T, p.N, p.Host
+			d.SP, d.PV, d.U, d.Flags = p.SP, p.PV, p.U, p.Flags
 			if len(b.samples) == batchLen {
 				full <- b
 				b = <-free

@@ -211,6 +211,12 @@ func (s *Scanner) Kind() RecordKind { return s.kind }
 // Sample returns the current sample (valid when Kind is RecSample).
 func (s *Scanner) Sample() Sample { return s.p.sample }
 
+// SampleRef returns the current sample in place (valid when Kind is RecSample, until the
+// next Scan; do not keep it). Copying its fields one by one is cheaper right after Scan
+// than copying the whole struct: the parser has just stored them one by one, and a wider
+// load of stores still in flight stalls.
+func (s *Scanner) SampleRef() *Sample { return &s.p.sample }
+
 // Extras returns the extra channels of the current sample; the slice is reused by the
 // next Scan.
 func (s *Scanner) Extras() []Extra { return s.p.extras }
