@@ -1,14 +1,18 @@
 package main
 
 import (
+	"bufio"
 	"errors"
 	"fmt"
+	"io"
 	"math"
 	"os"
+	"strconv"
 	"strings"
 	"time"
 
 	"github.com/spf13/cobra"
+	"golang.org/x/term"
 
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/si"
@@ -79,13 +83,75 @@ stops. The screen reconnects by itself after an unplug or a board reset and says
 	return cmd
 }
 
-// pickPort returns the only USB serial device, or an error listing the candidates.
+// pickPort returns the only USB serial device. With several candidates it asks which one
+// on a terminal, and otherwise returns an error listing them.
 func pickPort() (string, error) {
 	ports, err := telemetry.ListPorts()
 	if err != nil {
 		return "", fmt.Errorf("live: list serial ports: %w", err)
 	}
-	return pickFrom(ports)
+	path, err := pickFrom(ports)
+	if err == nil || !term.IsTerminal(int(os.Stdin.Fd())) {
+		return path, err
+	}
+	list := candidates(ports)
+	if len(list) == 0 {
+		return "", err
+	}
+	return askPort(list, os.Stdin, os.Stderr)
+}
+
+// candidates are the ports worth offering: the USB ones, or every port when none is USB.
+func candidates(ports []telemetry.PortInfo) []telemetry.PortInfo {
+	var usb []telemetry.PortInfo
+	for _, p := range ports {
+		if p.USB {
+			usb = append(usb, p)
+		}
+	}
+	if len(usb) == 0 {
+		return ports
+	}
+	return usb
+}
+
+// askPort lists the candidates with their USB ids, numbered, and reads the number of the
+// one to use from in.
+func askPort(list []telemetry.PortInfo, in io.Reader, out io.Writer) (string, error) {
+	fmt.Fprintln(out, "serial ports:")
+	for i, p := range list {
+		fmt.Fprintf(out, "  %d) %s\n", i+1, describePort(p))
+	}
+	sc := bufio.NewScanner(in)
+	for tries := 0; tries < 3; tries++ {
+		fmt.Fprintf(out, "which one (1-%d)? ", len(list))
+		if !sc.Scan() {
+			break
+		}
+		n, err := strconv.Atoi(strings.TrimSpace(sc.Text()))
+		if err == nil && n >= 1 && n <= len(list) {
+			return list[n-1].Path, nil
+		}
+		fmt.Fprintf(out, "please type a number from 1 to %d\n", len(list))
+	}
+	return "", errors.New("live: no port chosen; name it: caploop live PORT")
+}
+
+// describePort is one line about a port: path, USB VID:PID, serial number and product,
+// with the device's own strings sanitised.
+func describePort(p telemetry.PortInfo) string {
+	var b strings.Builder
+	b.WriteString(p.Path)
+	if id := p.VIDPID(); id != "" {
+		fmt.Fprintf(&b, "  %s", id)
+	}
+	if p.Serial != "" {
+		fmt.Fprintf(&b, "  serial %s", telemetry.SanitizeN([]byte(p.Serial), 40))
+	}
+	if p.Product != "" {
+		fmt.Fprintf(&b, "  %s", telemetry.SanitizeN([]byte(p.Product), 40))
+	}
+	return b.String()
 }
 
 // pickFrom picks the only USB serial device of ports, or lists the candidates (the USB
@@ -114,16 +180,7 @@ func pickFrom(ports []telemetry.PortInfo) (string, error) {
 		fmt.Fprintf(&b, "live: %d USB serial devices; name one:", len(usb))
 	}
 	for _, p := range list {
-		fmt.Fprintf(&b, "\n  %s", p.Path)
-		if id := p.VIDPID(); id != "" {
-			fmt.Fprintf(&b, "  %s", id)
-		}
-		if p.Serial != "" {
-			fmt.Fprintf(&b, "  serial %s", telemetry.SanitizeN([]byte(p.Serial), 40))
-		}
-		if p.Product != "" {
-			fmt.Fprintf(&b, "  %s", telemetry.SanitizeN([]byte(p.Product), 40))
-		}
+		b.WriteString("\n  " + describePort(p))
 	}
 	return "", errors.New(b.String())
 }

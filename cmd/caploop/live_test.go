@@ -8,8 +8,8 @@ import (
 )
 
 func TestPickFrom(t *testing.T) {
-	board := telemetry.PortInfo{Path: "/dev/ttyACM0", VID: "2341", PID: "0043", Serial: "A1", Product: "bench\x1b[2J", USB: true}
-	adapter := telemetry.PortInfo{Path: "/dev/ttyUSB0", VID: "0403", PID: "6001", USB: true}
+	board := telemetry.PortInfo{Path: "/dev/ttyACM0", VID: "1209", PID: "0001", Serial: "A1", Product: "bench\x1b[2J", USB: true}
+	adapter := telemetry.PortInfo{Path: "/dev/ttyUSB0", VID: "1209", PID: "0002", USB: true}
 	builtin := telemetry.PortInfo{Path: "/dev/ttyS0"}
 	tests := []struct {
 		name     string
@@ -60,6 +60,34 @@ func TestParseSpeed(t *testing.T) {
 			got, err := parseSpeed(tc.in)
 			if (err != nil) != tc.bad || got != tc.want {
 				t.Errorf("parseSpeed(%q) = %g, %v; want %g, error %v", tc.in, got, err, tc.want, tc.bad)
+			}
+		})
+	}
+}
+
+func TestAskPort(t *testing.T) {
+	list := []telemetry.PortInfo{
+		{Path: "/dev/ttyACM0", VID: "1209", PID: "0001", Product: "bench\x1b[2J", USB: true},
+		{Path: "/dev/ttyUSB0", VID: "1209", PID: "0002", USB: true},
+	}
+	tests := []struct {
+		name, in, want string
+		wantErr        bool
+	}{
+		{"second", "2\n", "/dev/ttyUSB0", false},
+		{"retry after a bad answer", "x\n9\n1\n", "/dev/ttyACM0", false},
+		{"gives up after three", "x\ny\nz\n2\n", "", true},
+		{"end of input", "", "", true},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			var out strings.Builder
+			got, err := askPort(list, strings.NewReader(tc.in), &out)
+			if got != tc.want || (err != nil) != tc.wantErr {
+				t.Errorf("askPort = %q, %v; want %q, error %v", got, err, tc.want, tc.wantErr)
+			}
+			if !strings.Contains(out.String(), "1) /dev/ttyACM0  1209:0001") || strings.Contains(out.String(), "\x1b") {
+				t.Errorf("listing not as expected or not sanitised:\n%q", out.String())
 			}
 		})
 	}

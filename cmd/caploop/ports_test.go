@@ -54,7 +54,7 @@ func TestWritePortsJSON(t *testing.T) {
 		want  int
 	}{
 		{"none is an empty array", nil, 0},
-		{"one", []telemetry.PortInfo{{Path: "/dev/ttyUSB0", VID: "0403", PID: "6001", USB: true}}, 1},
+		{"one", []telemetry.PortInfo{{Path: "/dev/ttyUSB0", VID: "1209", PID: "0002", USB: true}}, 1},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
