@@ -40,8 +40,8 @@ and R/C pairs) and the diagnostics, the error spread, the ripple spectrum and th
 step response. Press ? on the screen for the keys; d sends the suggested deadband to the
 board (after a y/n question) and shows the figures before and after it.
 
-Without PORT, live uses the only USB serial device; with several it lists them and
-stops. The screen reconnects by itself after an unplug or a board reset and says so.
+Without PORT, live uses the only USB serial device; with several it lists them with
+their USB ids and asks which one (on a terminal). The screen reconnects by itself after an unplug or a board reset and says so.
 --record writes the same capture as caploop record, marks included.`,
 		Example: `  caploop live
   caploop live /dev/ttyACM0 --record bench.cap
