@@ -25,8 +25,10 @@ type batch struct {
 
 // Summarize reads sc to its end and returns the Summary of everything it held: the
 // whole-file pass of `caploop summary`. Parsing and analysis run on two goroutines,
-// handing samples over in batches, so that a file costs about the larger of the two,
-// not their sum; memory stays bounded (a few batches in flight).
+// handing samples over in batches (reused, so a batch costs one channel send each way),
+// and the end of each segment (its spectra and figures) is worked out on a third, so
+// that a file costs about the parse, not the sum of the three; memory stays bounded (a
+// few batches and segment states in flight).
 //
 // A read error ends the pass: the Summary of what was read is returned with the error.
 // An input without samples returns ErrNoSamples (and the Summary, which has the line
