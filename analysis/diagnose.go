@@ -135,8 +135,12 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 		if g.jumps > 0 {
 			step := a.stepNear(g.sp, pf)
 			band := 2*g.db + 1
-			msg := fmt.Sprintf("%s: %d band jumps (a charge followed directly by a discharge or the reverse) with a deadband of ±%g counts (%g counts wide)",
-				where(g), g.jumps, g.db, band)
+			bandText := fmt.Sprintf("a deadband of ±%g counts (%g counts wide)", g.db, band)
+			if g.db == 0 {
+				bandText = "no deadband in force (none reported, so a band of one count)"
+			}
+			msg := fmt.Sprintf("%s: %d band jumps (a charge followed directly by a discharge or the reverse) with %s",
+				where(g), g.jumps, bandText)
 			if !math.IsNaN(step) {
 				msg += fmt.Sprintf("; one charge step near the setpoint is about %.1f counts", step)
 				noise := 0.0
