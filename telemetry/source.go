@@ -54,6 +54,14 @@ func Stdin() Source {
 	return &lazySource{name: "stdin", r: os.Stdin}
 }
 
+// NewSource makes a Source named name from any byte stream r, decompressing it when its
+// first two bytes are the gzip magic number, as OpenFile does. Close closes c (when not
+// nil). It is for callers that wrap the raw stream, e.g. to count the bytes read for a
+// progress bar; it reads the first bytes of r to decide.
+func NewSource(name string, r io.Reader, c io.Closer) (Source, error) {
+	return newReaderSource(name, r, c)
+}
+
 // readerSource reads a plain or gzip stream and closes the underlying file.
 type readerSource struct {
 	name string

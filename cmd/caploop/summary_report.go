@@ -1,9 +1,6 @@
 package main
 
 import (
-	"bufio"
-	"compress/gzip"
-	"errors"
 	"fmt"
 	"io"
 	"os"
@@ -168,15 +165,6 @@ func newProgressBar(w io.Writer, size int64, name string) *progressbar.ProgressB
 	)
 }
 
-// progressSource reads a plain or gzip file and counts the file's bytes on a bar.
-type progressSource struct {
-	name string
-	r    io.Reader
-	gz   *gzip.Reader
-	f    *os.File
-	bar  *progressbar.ProgressBar
-}
-
 // countingReader adds the bytes read to a bar.
 type countingReader struct {
 	r   io.Reader
@@ -191,46 +179,24 @@ func (c *countingReader) Read(p []byte) (int, error) {
 	return n, err
 }
 
-func newProgressSource(name string, f *os.File, bar *progressbar.ProgressBar) (*progressSource, error) {
-	br := bufio.NewReaderSize(&countingReader{r: f, bar: bar}, 64<<10)
-	s := &progressSource{name: name, r: br, f: f, bar: bar}
-	head, err := br.Peek(2)
-	if err != nil && !errors.Is(err, io.EOF) {
-		f.Close()
-		return nil, fmt.Errorf("telemetry: read %s: %w", name, err)
-	}
-	// The gzip magic number (RFC 1952, section 2.3.1: ID1 = 31, ID2 = 139).
-	if len(head) == 2 && head[0] == 0x1f && head[1] == 0x8b {
-		gz, err := gzip.NewReader(br)
-		if err != nil {
-			f.Close()
-			return nil, fmt.Errorf("telemetry: %s: bad gzip data: %w", name, err)
-		}
-		s.gz, s.r = gz, gz
-	}
-	return s, nil
+// barFile closes the file and finishes (and so clears) the bar.
+type barFile struct {
+	f   *os.File
+	bar *progressbar.ProgressBar
 }
 
-func (s *progressSource) Read(p []byte) (int, error) {
-	n, err := s.r.Read(p)
-	if err != nil && !errors.Is(err, io.EOF) && s.gz != nil {
-		err = fmt.Errorf("telemetry: %s: bad gzip data: %w", s.name, err)
-	}
-	return n, err
+func (b barFile) Close() error {
+	_ = b.bar.Finish()
+	return b.f.Close()
 }
 
-// Name returns the file name.
-func (s *progressSource) Name() string { return s.name }
-
-// Close finishes and clears the bar and closes the file.
-func (s *progressSource) Close() error {
-	_ = s.bar.Finish()
-	var err error
-	if s.gz != nil {
-		err = s.gz.Close()
+// newProgressSource reads f (plain or gzip) through telemetry.NewSource, counting the
+// file's bytes on bar.
+func newProgressSource(name string, f *os.File, bar *progressbar.ProgressBar) (telemetry.Source, error) {
+	src, err := telemetry.NewSource(name, &countingReader{r: f, bar: bar}, barFile{f: f, bar: bar})
+	if err != nil {
+		barFile{f: f, bar: bar}.Close()
+		return nil, err
 	}
-	if cerr := s.f.Close(); err == nil {
-		err = cerr
-	}
-	return err
+	return src, nil
 }
