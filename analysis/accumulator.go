@@ -29,6 +29,12 @@ type Options struct {
 	// (0 = 104 µs: 13 ADC clocks at 125 kHz for a 10-bit successive-approximation ADC,
 	// classic 8-bit microcontroller datasheets, from memory).
 	ConversionS float64
+	// TrackSamples and TrackStepCounts set the tracking rule (see Tracking): a setpoint
+	// change of at most TrackStepCounts counts (0 = 16) less than TrackSamples samples
+	// (0 = 32) after the previous one is a tracking move, and the TrackSamples samples
+	// from it on are tracking samples.
+	TrackSamples    int
+	TrackStepCounts float64
 }
 
 func (o Options) withDefaults() Options {
@@ -49,6 +55,12 @@ func (o Options) withDefaults() Options {
 	}
 	if o.ConversionS <= 0 {
 		o.ConversionS = 104e-6
+	}
+	if o.TrackSamples <= 0 {
+		o.TrackSamples = 32
+	}
+	if o.TrackStepCounts <= 0 {
+		o.TrackStepCounts = 16
 	}
 	return o
 }
@@ -158,7 +170,8 @@ type Accumulator struct {
 	railHi     int64
 	steadyHist [2*histHalf + 1]int64 // error bins of the steady samples of the closed segments
 
-	ov overview
+	ov  overview
+	trk tracker
 }
 
 // stepRaw is the start of one step response, kept for the plot.
@@ -271,6 +284,7 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 			from := a.seg.sp
 			a.closeSegment()
 			a.openSegment(s.SP, tick, true, from)
+			a.seg.trk = a.trk.move(a.n, from, s.SP, &a.opts)
 		} else if a.db != a.seg.db {
 			// A new band on the same setpoint (tuning): a new segment, but no step.
 			a.closeSegment()
@@ -285,6 +299,9 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 		sg.n++
 		sg.end = tick
 		sg.lastPV = pv
+		if a.n <= a.trk.end {
+			a.trk.add(a.n, e, s.SP, u, a.three)
+		}
 		if pv < sg.minPV {
 			sg.minPV = pv
 		}

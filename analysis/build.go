@@ -109,6 +109,7 @@ func (a *Accumulator) Summary() *Summary {
 		sum.SegmentsOmitted = a.segSeen - int64(len(figs))
 		sum.StepsOmitted = sum.SegmentsOmitted
 	}
+	sum.Tracking = a.trk.figures(c)
 	sum.Traces = a.traces(pf, c)
 	sum.Diagnostics = a.diagnose(sum, figs, pf, c)
 	return sum

@@ -30,6 +30,7 @@ type segState struct {
 	db         float64
 	sawHold    bool
 	rising     bool // a step whose 10 % or 90 % crossing is still to come
+	trk        bool // opened by a tracking move (see Tracking)
 
 	// whole segment
 	minPV, maxPV   float64
@@ -101,6 +102,7 @@ func (s *segState) reset(window int) {
 	s.sp, s.from, s.hasFrom, s.index = 0, 0, false, 0
 	s.start, s.end, s.n, s.firstSign, s.steady, s.steadyAt, s.db, s.sawHold = 0, 0, 0, 0, false, 0, 0, false
 	s.minPV, s.maxPV, s.prevIn, s.prevU = math.Inf(1), math.Inf(-1), false, 0
+	s.trk = false
 	s.entries, s.exits, s.noiseExits = 0, 0, 0
 	s.t10, s.t90, s.has10, s.has90, s.rising = 0, 0, false, false, false
 	s.lsLo, s.lsHi = 2*histHalf, 0
@@ -189,6 +191,7 @@ type segFig struct {
 	hasStep                            bool
 	from                               float64
 	rise, settle, overshoot, slewTicks float64
+	trk                                bool // opened by a tracking move
 }
 
 // finish computes the figures of s without changing it (except the workspace sp).
@@ -200,7 +203,7 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 		duty: [3]float64{math.NaN(), math.NaN(), math.NaN()}, periodSamples: math.NaN(),
 		driveTicks: math.NaN(), freq: math.NaN(),
 		switches: s.switches, entries: s.entries, exits: s.exits, jumps: s.jumps, noiseExits: s.noiseExits,
-		lastU: s.prevU, endRun: s.endRun, lastPV: s.lastPV,
+		lastU: s.prevU, endRun: s.endRun, lastPV: s.lastPV, trk: s.trk,
 		rise: math.NaN(), settle: math.NaN(), overshoot: math.NaN(), slewTicks: math.NaN(),
 	}
 	if s.steady {

@@ -19,8 +19,11 @@ type Summary struct {
 	Plant         Plant         `json:"plant"`
 	Segments      []Segment     `json:"segments"`
 	Steps         []StepFigures `json:"steps"`
-	Diagnostics   []Diagnostic  `json:"diagnostics"`
-	Traces        *Traces       `json:"-"` // bounded waveforms for plots (report, screen)
+	// Tracking holds the figures of the samples taken while the setpoint moved in small,
+	// frequent steps; null when it never did.
+	Tracking    *Tracking    `json:"tracking"`
+	Diagnostics []Diagnostic `json:"diagnostics"`
+	Traces      *Traces      `json:"-"` // bounded waveforms for plots (report, screen)
 
 	// SegmentsOmitted and StepsOmitted count segments and steps seen but not listed,
 	// because the lists are bounded (Options.MaxSegments).
