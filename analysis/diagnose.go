@@ -67,6 +67,7 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 		unreachable, unsettled, up       bool
 		droopChecked                     bool
 		meanE                            float64 // lowest steady mean error, counts
+		trk                              bool    // every segment opened by a tracking move
 	}
 	var groups []*group
 	bySP := map[[2]float64]*group{}
@@ -75,11 +76,12 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 		key := [2]float64{f.sp, f.db}
 		g := bySP[key]
 		if g == nil {
-			g = &group{sp: f.sp, db: f.db, meanE: math.Inf(1)}
+			g = &group{sp: f.sp, db: f.db, meanE: math.Inf(1), trk: true}
 			bySP[key] = g
 			groups = append(groups, g)
 		}
 		g.segs = append(g.segs, i+1)
+		g.trk = g.trk && f.trk
 		g.jumps += f.jumps
 		g.noiseExits += f.noiseExits
 		g.exits += f.exits
@@ -115,7 +117,13 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 		}
 		add(code, sev, format, args...)
 	}
+	// Setpoints passed while the setpoint moved (tracking) share one sentence per code.
+	var fold trackFold
 	for _, g := range groups {
+		if g.trk {
+			fold.add(a, g.sp, g.db, g.unreachable, g.unsettled, g.jumps, g.noiseExits, g.exits, g.droopChecked, g.meanE, pf)
+			continue
+		}
 		if g.unreachable {
 			what, lim, dd := "v_high", "charge", 2
 			if !g.up {
@@ -180,6 +188,7 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 		code, sev, _ := strings.Cut(k, "\x00")
 		add(code, sev, "The same (%s) at %d more setpoints.", strings.ReplaceAll(code, "_", " "), more[code])
 	}
+	fold.write(add, sum, c)
 	if sum.Gaps > 0 && a.n > 0 {
 		add(DiagDroppedSamples, "warning", "%d samples are missing (%.2f %% of %d): the link dropped lines or the board skipped periods.",
 			sum.Gaps, 100*float64(sum.Gaps)/float64(sum.Gaps+a.n), sum.Gaps+a.n)
@@ -250,4 +259,122 @@ func segList(v []int) string {
 		fmt.Fprint(&b, n)
 	}
 	return b.String()
+}
+
+// trackFold gathers the per-setpoint findings of the setpoints passed while the setpoint
+// moved (see Tracking): a ramp or a sine passes hundreds of them, each in a short
+// segment, and the same finding at each says one thing.
+type trackFold struct {
+	unreachable, unsettled int     // setpoints
+	jumpSPs                int     // setpoints with band jumps
+	jumps                  int64   // band jumps at them
+	db                     float64 // the widest band among them, counts
+	maxStep                float64 // the largest charge step near them, counts (NaN: unknown)
+	chatterSPs             int
+	noiseExits, exits      int64
+	droopSPs               int
+	maxDroop               float64    // counts per sample
+	lo, hi                 [5]float64 // setpoint range of each finding (unreachable, unsettled, jumps, chatter, droop)
+}
+
+// note widens the setpoint range of finding i.
+func (f *trackFold) note(i int, n int, sp float64) {
+	if n == 1 || sp < f.lo[i] {
+		f.lo[i] = sp
+	}
+	if n == 1 || sp > f.hi[i] {
+		f.hi[i] = sp
+	}
+}
+
+// add folds in the findings of one setpoint (the same tests as the per-setpoint sentences).
+func (f *trackFold) add(a *Accumulator, sp, db float64, unreachable, unsettled bool, jumps, noiseExits, exits int64,
+	droopChecked bool, meanE float64, pf plantFit) {
+	if unreachable {
+		f.unreachable++
+		f.note(0, f.unreachable, sp)
+	} else if unsettled {
+		f.unsettled++
+		f.note(1, f.unsettled, sp)
+	}
+	if jumps > 0 {
+		f.jumpSPs++
+		f.note(2, f.jumpSPs, sp)
+		f.jumps += jumps
+		f.db = math.Max(f.db, db)
+		if step := a.stepNear(sp, pf); f.jumpSPs == 1 || math.IsNaN(f.maxStep) || step > f.maxStep {
+			f.maxStep = step
+		}
+	}
+	if noiseExits > 2 && float64(noiseExits) > 0.1*float64(exits) {
+		f.chatterSPs++
+		f.note(3, f.chatterSPs, sp)
+		f.noiseExits += noiseExits
+		f.exits += exits
+		f.db = math.Max(f.db, db)
+	}
+	if db > 0 && pf.ok[1] && droopChecked {
+		hf := pf.fit[1]
+		droop := (1 - hf.A) * (sp - hf.VInf)
+		if droop > 0 && (5*droop > 2*db+1 || meanE < -db) {
+			f.droopSPs++
+			f.note(4, f.droopSPs, sp)
+			f.maxDroop = math.Max(f.maxDroop, droop)
+		}
+	}
+}
+
+// write adds one sentence per finding.
+func (f *trackFold) write(add func(code, sev, format string, args ...any), sum *Summary, c conv) {
+	span := func(i int) string {
+		if f.lo[i] == f.hi[i] {
+			return c.fmtV(f.lo[i])
+		}
+		return c.fmtV(f.lo[i]) + " to " + c.fmtV(f.hi[i])
+	}
+	const while = "While the setpoint moved (tracking)"
+	if f.unreachable > 0 {
+		add(DiagUnreachable, "error", "%s, %d setpoints (%s) were beyond what the loop can reach.", while, f.unreachable, span(0))
+	}
+	if f.unsettled > 0 {
+		msg := fmt.Sprintf("%s, the reading did not reach %d setpoints (%s) before the next one came", while, f.unsettled, span(1))
+		if t := sum.Tracking; t != nil && t.RMSErrorCounts != nil {
+			msg += fmt.Sprintf("; it trailed by %s rms", c.fmtV(*t.RMSErrorCounts))
+			if t.LagSamples != nil {
+				if t.LagS != nil {
+					msg += fmt.Sprintf(", a lag of %s", fmtS(*t.LagS))
+				} else {
+					msg += fmt.Sprintf(", a lag of %.1f samples", *t.LagSamples)
+				}
+			}
+		}
+		add(DiagNotSettled, "info", "%s.", msg)
+	}
+	if f.jumpSPs > 0 {
+		msg := fmt.Sprintf("%s, %d band jumps (a charge followed directly by a discharge or the reverse) at %d setpoints (%s) with a deadband of ±%g counts",
+			while, f.jumps, f.jumpSPs, span(2), f.db)
+		if !math.IsNaN(f.maxStep) {
+			msg += fmt.Sprintf("; one charge step there is up to %.1f counts", f.maxStep)
+			noise := 0.0
+			if sum.Plant.NoiseRMSCounts != nil {
+				noise = *sum.Plant.NoiseRMSCounts
+			}
+			if need := math.Floor((f.maxStep+3*noise-1)/2) + 1; need > f.db {
+				msg += fmt.Sprintf(", so the band needs a deadband of at least %g counts (step plus 3 sigma of noise)", need)
+			}
+		}
+		add(DiagBandTooNarrow, "warning", "%s.", msg)
+	}
+	if f.chatterSPs > 0 {
+		noise := "unknown"
+		if sum.Plant.NoiseRMSCounts != nil {
+			noise = fmt.Sprintf("%.2f counts rms", *sum.Plant.NoiseRMSCounts)
+		}
+		add(DiagNoiseChatter, "warning", "%s, %d of %d deadband exits at %d setpoints (%s) went upward out of hold, which the droop cannot do: ADC noise (%s) chatters against the ±%g count band; widen it or filter the reading.",
+			while, f.noiseExits, f.exits, f.chatterSPs, span(3), noise, f.db)
+	}
+	if f.droopSPs > 0 {
+		add(DiagDroopTooFast, "warning", "%s, at %d setpoints (%s) the level droops in hold by up to %.1f counts per sample, fast against the band: the charges barely keep up. Reduce the load, shorten the sample period or widen the band.",
+			while, f.droopSPs, span(4), f.maxDroop)
+	}
 }
