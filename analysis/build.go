@@ -332,6 +332,7 @@ func (a *Accumulator) segment(f *segFig, pf plantFit, c conv) Segment {
 		NoiseExits:      f.noiseExits,
 		Settled:         f.settled,
 		RippleSignalPPV: ptr(c.v(f.sigPP)),
+		Tracking:        f.trk,
 	}
 	if math.IsNaN(c.perTick) {
 		s.StartS, s.EndS = 0, 0

@@ -130,6 +130,9 @@ type Segment struct {
 	LimitCyclePeriodSamples *float64 `json:"limit_cycle_period_samples"`
 	// Settled says the steady part was reached (the error changed sign or entered the band).
 	Settled bool `json:"settled"`
+	// Tracking says the segment was opened by a tracking move (see Tracking): one of the
+	// short segments of a moving setpoint (absent from JSON when false).
+	Tracking bool `json:"tracking,omitempty"`
 }
 
 // StepFigures describe the response to one setpoint change.

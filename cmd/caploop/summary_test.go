@@ -87,6 +87,9 @@ func TestSummaryGolden(t *testing.T) {
 		{"three-state-good.json", "three-state-good.txt", []string{"--json"}},
 		{"tuned.txt", "tuned.cap", nil},
 		{"follower-limit.json", "follower-limit.txt", []string{"--json"}},
+		// A moving setpoint: the tracking block, and the short segments in one line.
+		{"two-state-ramp.txt", "two-state-ramp.txt", nil},
+		{"noisy-sine.txt", "noisy-sine.txt", nil},
 	}
 	for _, tc := range cases {
 		t.Run(tc.name, func(t *testing.T) {
@@ -263,5 +266,34 @@ func TestSummaryStdin(t *testing.T) {
 	}
 	if !strings.Contains(out, "6000 samples") {
 		t.Errorf("output:\n%s", out)
+	}
+}
+
+// TestSummaryTrackingJSON checks the JSON of a moving setpoint: the tracking block with
+// most samples, and the short segments still listed (bounded as before).
+func TestSummaryTrackingJSON(t *testing.T) {
+	p := capture(t, "two-state-ramp.txt")
+	out, errOut, code := runSummaryCmd(t, "--no-advice", "--json", p)
+	if code != 0 {
+		t.Fatalf("exit code %d: %s", code, errOut)
+	}
+	var got struct {
+		Samples  int64 `json:"samples"`
+		Tracking *struct {
+			Samples int64    `json:"samples"`
+			LagS    *float64 `json:"lag_s"`
+			RMS     *float64 `json:"rms_error_v"`
+		} `json:"tracking"`
+		Segments        []json.RawMessage `json:"segments"`
+		SegmentsOmitted int64             `json:"segments_omitted"`
+	}
+	if err := json.Unmarshal([]byte(out), &got); err != nil {
+		t.Fatalf("json: %v", err)
+	}
+	if got.Tracking == nil || 2*got.Tracking.Samples <= got.Samples || got.Tracking.LagS == nil || got.Tracking.RMS == nil {
+		t.Fatalf("tracking = %+v, want most of %d samples with lag and rms", got.Tracking, got.Samples)
+	}
+	if len(got.Segments) != 4096 || got.SegmentsOmitted == 0 {
+		t.Errorf("segments listed %d, omitted %d; want 4096 and the rest omitted", len(got.Segments), got.SegmentsOmitted)
 	}
 }

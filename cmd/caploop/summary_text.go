@@ -156,15 +156,37 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 		fmt.Fprintf(w, "  stuck codes: %s\n", intList(p.StuckCodes))
 	}
 
+	tracking := mostlyTracking(s)
+	if tracking {
+		writeTrackingText(w, s.Tracking, s.Samples)
+	}
+
 	fmt.Fprintf(w, "\nsegments (figures over the steady part)\n")
+	others := len(s.Segments)
+	if tracking {
+		for _, g := range s.Segments {
+			if g.Tracking {
+				others--
+			}
+		}
+		fmt.Fprintf(w, "  the moving setpoint made %d short segments of a few samples each, too short for segment figures (see tracking above; --json lists them, bounded)\n",
+			s.Tracking.Segments)
+	}
 	tw = tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
-	fmt.Fprintln(tw, "  #\tsetpoint\tfrom\tto\tsteady\tmean err\tripple p-p\trobust\trms\tcharge\thold\tdisch\tcycle\tswitch\tin\tout\tjumps\t")
+	if others > 0 {
+		fmt.Fprintln(tw, "  #\tsetpoint\tfrom\tto\tsteady\tmean err\tripple p-p\trobust\trms\tcharge\thold\tdisch\tcycle\tswitch\tin\tout\tjumps\t")
+	}
+	listed := 0
 	for i, g := range s.Segments {
-		if i == textRows && len(s.Segments) > textRows+5 {
+		if tracking && g.Tracking {
+			continue
+		}
+		if listed == textRows && len(s.Segments)-i > 5 {
 			tw.Flush()
-			fmt.Fprintf(w, "  ... %d more segments (the setpoint changes often; --json lists them all)\n", len(s.Segments)-textRows)
+			fmt.Fprintf(w, "  ... %d more segments (the setpoint changes often; --json lists them all)\n", len(s.Segments)-i)
 			break
 		}
+		listed++
 		sp := fmtCountsV(g.SetpointCounts, g.SetpointV)
 		if g.Unreachable {
 			sp += " !"
@@ -186,7 +208,9 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 		}
 	}
 
-	if len(s.Steps) > 0 {
+	if len(s.Steps) > 0 && tracking {
+		fmt.Fprintf(w, "\nsteps\n  %d setpoint changes, nearly all the small moves of the moving setpoint (--json lists them)\n", len(s.Steps)+int(s.StepsOmitted))
+	} else if len(s.Steps) > 0 {
 		fmt.Fprintln(w, "\nsteps")
 		tw = tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 		fmt.Fprintln(tw, "  #\tat\tfrom\tto\trise 10-90 %\tsettle\tovershoot\tslew\t")
@@ -349,4 +373,30 @@ func change(before, after float64, unit string) string {
 		s += fmt.Sprintf(" (%+.0f %%)", 100*d/before)
 	}
 	return s
+}
+
+// mostlyTracking says most samples of s were taken while the setpoint moved (see
+// analysis.Tracking): the text then shows the tracking figures and folds the short
+// segments into one line.
+func mostlyTracking(s *analysis.Summary) bool {
+	return s.Tracking != nil && 2*s.Tracking.Samples > s.Samples
+}
+
+// writeTrackingText writes the tracking block: how well the reading followed the
+// moving setpoint.
+func writeTrackingText(w io.Writer, t *analysis.Tracking, total int64) {
+	fmt.Fprintf(w, "\ntracking (the setpoint moved in small steps: %d of %d samples", t.Samples, total)
+	if t.DurationS != nil {
+		fmt.Fprintf(w, ", %s", si.FormatDigits(*t.DurationS, "s", 4))
+	}
+	fmt.Fprintln(w, ")")
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+	fmt.Fprintf(tw, "  setpoint range\t%s .. %s\t\n", fmtCountsV(t.SPMinCounts, t.SPMinV), fmtCountsV(t.SPMaxCounts, t.SPMaxV))
+	fmt.Fprintf(tw, "  mean error\t%s\t\n", fvc(t.MeanErrorV, t.MeanErrorCounts))
+	fmt.Fprintf(tw, "  rms error\t%s\t\n", fvc(t.RMSErrorV, t.RMSErrorCounts))
+	fmt.Fprintf(tw, "  max |error|\t%s\t\n", fvc(t.MaxAbsErrorV, t.MaxAbsCounts))
+	fmt.Fprintf(tw, "  lag (pv behind sp)\t%s\t\n", fss(t.LagS, t.LagSamples))
+	fmt.Fprintf(tw, "  duty charge/hold/discharge\t%s / %s / %s\t\n", ff(t.DutyCharge, "%.3f"), ff(t.DutyHold, "%.3f"), ff(t.DutyDischarge, "%.3f"))
+	fmt.Fprintf(tw, "  band jumps\t%d\t\n", t.BandJumps)
+	tw.Flush()
 }
