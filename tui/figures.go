@@ -80,7 +80,50 @@ func (m FiguresModel) Lines() int {
 	return strings.Count(strings.TrimRight(m.fullView(), "\n"), "\n") + 1
 }
 
+// showTracking says the setpoint is moving (the newest segment was opened by a tracking
+// move) or mostly moved: the tracking figures then stand where the segment's would.
+func showTracking(s *analysis.Summary) bool {
+	if s == nil || s.Tracking == nil {
+		return false
+	}
+	if 2*s.Tracking.Samples > s.Samples {
+		return true
+	}
+	return len(s.Segments) > 0 && s.Segments[len(s.Segments)-1].Tracking
+}
+
+// trackingRows lists the tracking figures as label/value rows.
+func trackingRows(t *analysis.Tracking) [][2]string {
+	lag := fmtSI(t.LagS, "s")
+	if t.LagS == nil && t.LagSamples != nil {
+		lag = fmt.Sprintf("%.1f samples", *t.LagSamples)
+	}
+	return [][2]string{
+		{"samples", fmt.Sprintf("%d over %s", t.Samples, fmtSI(t.DurationS, "s"))},
+		{"setpoint", fmtSI(t.SPMinV, "V") + " to " + fmtSI(t.SPMaxV, "V")},
+		{"mean error", fmtSI(t.MeanErrorV, "V") + " (" + fmtCounts(t.MeanErrorCounts) + " counts)"},
+		{"rms error", fmtSI(t.RMSErrorV, "V") + " (" + fmtCounts(t.RMSErrorCounts) + " counts)"},
+		{"max |error|", fmtSI(t.MaxAbsErrorV, "V")},
+		{"lag", lag},
+		{"duty c/h/d", fmtPct(t.DutyCharge) + " / " + fmtPct(t.DutyHold) + " / " + fmtPct(t.DutyDischarge)},
+		{"band jumps", fmt.Sprintf("%d", t.BandJumps)},
+	}
+}
+
 func (m FiguresModel) compactView() string {
+	if showTracking(m.sum) {
+		t := m.sum.Tracking
+		rows := trackingRows(t)
+		var b strings.Builder
+		fmt.Fprintf(&b, "tracking %s  rms error %s  mean error %s  lag %s\n", rows[1][1], fmtSI(t.RMSErrorV, "V"), fmtSI(t.MeanErrorV, "V"), rows[5][1])
+		fmt.Fprintf(&b, "duty charge %s hold %s discharge %s  max |error| %s  band jumps %d\n",
+			fmtPct(t.DutyCharge), fmtPct(t.DutyHold), fmtPct(t.DutyDischarge), fmtSI(t.MaxAbsErrorV, "V"), t.BandJumps)
+		p := m.sum.Plant
+		fmt.Fprintf(&b, "tau charge %s%s discharge %s  v_high %s  noise %s counts rms",
+			fmtSI(p.TauChargeS, "s"), fmtCI(p.TauChargeS, p.TauChargeCIS), fmtSI(p.TauDischargeS, "s"),
+			fmtSI(p.VHighV, "V"), fmtCounts(p.NoiseRMSCounts))
+		return b.String()
+	}
 	seg := currentSegment(m.sum)
 	if seg == nil {
 		return "figures: waiting for a steady segment…"
@@ -203,5 +246,8 @@ func (m FiguresModel) fullView() string {
 		return cmp
 	}
 	left := rowsBlock("current segment", segmentRows(currentSegment(m.sum)))
+	if showTracking(m.sum) {
+		left = rowsBlock("tracking (moving setpoint)", trackingRows(m.sum.Tracking))
+	}
 	return sideBySide(left, plant, 3)
 }

@@ -191,3 +191,28 @@ func TestCaptureAdvice(t *testing.T) {
 		t.Errorf("trace view does not show the advice line; screen:\n%s", out)
 	}
 }
+
+// TestTrackingViews replays the project's ramp capture (testdata/two-state-ramp.txt, a
+// setpoint that moves by a count every sample or two) and checks that the trace and
+// figures views show the tracking figures where a segment's would stand, against
+// testdata/TestTrackingViews/... (regenerate with -update).
+func TestTrackingViews(t *testing.T) {
+	const w, h = 120, 40
+	m := replayToEnd(t, "../testdata/two-state-ramp.txt", w, h, false)
+	for _, v := range []struct {
+		name string
+		keys []string
+		want string
+	}{
+		{"trace", nil, "tracking"}, {"figures", []string{"2"}, "tracking (moving setpoint)"},
+	} {
+		t.Run(v.name, func(t *testing.T) {
+			out := press(t, m, v.keys...).View()
+			checkGrid(t, out, w, h)
+			if !strings.Contains(out, v.want) || !strings.Contains(out, "lag") {
+				t.Errorf("view lacks %q and the lag:\n%s", v.want, out)
+			}
+			golden.RequireEqual(t, []byte(out))
+		})
+	}
+}
