@@ -50,8 +50,11 @@ func DocTables(d Doc, prefix string) []Table {
 		captureTable(s, prefix),
 		boardTable(s, prefix),
 		plantTable(s, prefix),
-		segmentsTable(s, prefix),
 	}
+	if s.Tracking != nil {
+		ts = append(ts, trackingTable(s, prefix))
+	}
+	ts = append(ts, segmentsTable(s, prefix))
 	if len(s.Steps) > 0 {
 		ts = append(ts, stepsTable(s, prefix))
 	}
@@ -158,11 +161,21 @@ func segmentsTable(s *analysis.Summary, prefix string) Table {
 		"#", "setpoint", "from – to", "steady samples", "mean error", "ripple p-p", "ripple rms",
 		"duty charge / hold / discharge", "limit-cycle period", "switching", "deadband", "band entries / exits", "band jumps", "reachable",
 	}}
+	moving := mostlyTracking(s)
+	if moving {
+		t.note(fmt.Sprintf("the moving setpoint made %d short segments of a few samples each, too short for segment figures: see the tracking table (caploop summary --json lists them)",
+			s.Tracking.Segments))
+	}
+	shown := 0
 	for i, g := range s.Segments {
-		if i == maxRows {
+		if moving && g.Tracking {
+			continue
+		}
+		if shown == maxRows {
 			t.note(fmt.Sprintf("%d more segments not shown here (caploop summary --json lists them)", len(s.Segments)-i))
 			break
 		}
+		shown++
 		span := si.Format(g.StartS, "s") + " – " + si.Format(g.EndS, "s")
 		duty := fmtPct(g.DutyCharge) + " / " + fmtPct(g.DutyHold) + " / " + fmtPct(g.DutyDischarge)
 		r := Row{Cells: []string{
@@ -185,6 +198,42 @@ func segmentsTable(s *analysis.Summary, prefix string) Table {
 	if s.SegmentsOmitted > 0 {
 		t.note(fmt.Sprintf("%d more segments seen but not kept by the analysis (the list is bounded)", s.SegmentsOmitted))
 	}
+	return t
+}
+
+// mostlyTracking says most samples were taken while the setpoint moved (see
+// analysis.Tracking): the segments table then leaves out the short segments it made.
+func mostlyTracking(s *analysis.Summary) bool {
+	return s.Tracking != nil && 2*s.Tracking.Samples > s.Samples
+}
+
+// trackingTable shows how well the reading followed the moving setpoint.
+func trackingTable(s *analysis.Summary, prefix string) Table {
+	tr := s.Tracking
+	t := Table{ID: prefix + "tracking", Caption: "Tracking (while the setpoint moved in small steps)", Head: []string{"figure", "value"}}
+	dur := ""
+	if tr.DurationS != nil {
+		dur = " (" + fmtSI(tr.DurationS, "s") + ")"
+	}
+	t.add("samples", fmt.Sprintf("%d of %d%s", tr.Samples, s.Samples, dur))
+	t.add("setpoint range", levelText(tr.SPMinV, tr.SPMinCounts)+" – "+levelText(tr.SPMaxV, tr.SPMaxCounts))
+	pick := func(v, counts *float64) string {
+		if v != nil {
+			return fmtSI(v, "V")
+		}
+		return fmtCounts(counts) + " counts"
+	}
+	t.add("mean error", pick(tr.MeanErrorV, tr.MeanErrorCounts))
+	t.add("rms error", pick(tr.RMSErrorV, tr.RMSErrorCounts))
+	t.add("largest error", pick(tr.MaxAbsErrorV, tr.MaxAbsCounts))
+	lag := fmtSI(tr.LagS, "s")
+	if tr.LagS == nil && tr.LagSamples != nil {
+		lag = fmtNum(*tr.LagSamples) + " samples"
+	}
+	t.add("lag of the reading behind the setpoint", lag)
+	t.add("duty charge / hold / discharge", fmtPct(tr.DutyCharge)+" / "+fmtPct(tr.DutyHold)+" / "+fmtPct(tr.DutyDischarge))
+	t.add("band jumps", strconv.FormatInt(tr.BandJumps, 10))
+	t.add("short segments made by the moving setpoint", strconv.FormatInt(tr.Segments, 10))
 	return t
 }
 
