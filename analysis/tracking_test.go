@@ -2,6 +2,7 @@ package analysis
 
 import (
 	"math"
+	"strings"
 	"testing"
 
 	"github.com/caploop/caploop/analysis/loop"
@@ -258,5 +259,28 @@ func TestTrackingNullOnSteps(t *testing.T) {
 				t.Errorf("tracking = %+v, want most of the %d samples", sum.Tracking, sum.Samples)
 			}
 		})
+	}
+}
+
+// TestTrackingDiagnosticsFold checks that the per-setpoint findings at the setpoints a
+// moving setpoint passed come as one sentence per code, with the numbers: the sine
+// capture (testdata/noisy-sine.txt, deadband 12 against a charge step of about 14
+// counts near the top, from its truth file) makes band jumps at dozens of setpoints.
+func TestTrackingDiagnosticsFold(t *testing.T) {
+	sum, _ := summarizeTestdata(t, "noisy-sine.txt")
+	count := map[string]int{}
+	for _, d := range sum.Diagnostics {
+		count[d.Code]++
+		if d.Code == DiagBandTooNarrow && !strings.HasPrefix(d.Message, "While the setpoint moved") {
+			t.Errorf("band_too_narrow not folded: %s", d.Message)
+		}
+	}
+	for code, n := range count {
+		if n > 1 {
+			t.Errorf("%d diagnostics with code %s, want one sentence", n, code)
+		}
+	}
+	if count[DiagBandTooNarrow] != 1 {
+		t.Errorf("band_too_narrow: %d sentences, want 1 (diagnostics %+v)", count[DiagBandTooNarrow], sum.Diagnostics)
 	}
 }
