@@ -2,7 +2,10 @@
 // streaming pass: segments of one setpoint and their steady figures (mean error, ripple,
 // duty, limit-cycle period, deadband entries and band jumps), the response to each
 // setpoint step, the real circuit behind it (tau for charge, discharge and hold, the
-// charge and discharge levels, ADC noise), and diagnostics in plain sentences.
+// charge and discharge levels, ADC noise), and diagnostics in plain sentences. While
+// the setpoint moves in small, frequent steps (a ramp, a slow sine), where every sample
+// or few would start a segment too short for figures, the Tracking figures (error, lag,
+// duty, band jumps) say how well the reading followed it.
 //
 // One Accumulator serves the live screen and the headless summary, so a figure on the
 // screen and in `caploop summary` is the same number:
