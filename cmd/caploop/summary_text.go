@@ -156,8 +156,10 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 		fmt.Fprintf(w, "  stuck codes: %s\n", intList(p.StuckCodes))
 	}
 
+	// The tracking figures whenever the setpoint moved in small steps; the short
+	// segments it made fold into one line when they are most of the capture.
 	tracking := mostlyTracking(s)
-	if tracking {
+	if s.Tracking != nil {
 		writeTrackingText(w, s.Tracking, s.Samples)
 	}
 
