@@ -284,3 +284,58 @@ func TestTrackingDiagnosticsFold(t *testing.T) {
 		t.Errorf("band_too_narrow: %d sentences, want 1 (diagnostics %+v)", count[DiagBandTooNarrow], sum.Diagnostics)
 	}
 }
+
+// TestTrackingRuleEdges checks which samples count as tracking on a profile with every
+// edge of the rule: a ramp, a large step (tracking ends at once), a long dwell, a
+// ramp down in moves of 2 counts every 3 samples, a dwell after it (tracking ends
+// TrackSamples samples after the last move), and a ramp in moves too large to count.
+// The streamed figures must match the rule worked out over the whole arrays.
+func TestTrackingRuleEdges(t *testing.T) {
+	var sp []float64
+	add := func(n int, f func(i int) float64) {
+		for i := 0; i < n; i++ {
+			sp = append(sp, f(i))
+		}
+	}
+	add(300, func(i int) float64 { return 400 + float64(i/2) })     // ramp up
+	add(500, func(int) float64 { return 800 })                      // large step, dwell
+	add(600, func(i int) float64 { return 800 - 2*float64(i/3) })   // ramp down
+	add(400, func(int) float64 { return 400 })                      // dwell
+	add(300, func(i int) float64 { return 400 + 20*float64(i/10) }) // moves too large
+	pv := make([]float64, len(sp))
+	for k := range sp {
+		// A reading a few samples behind with a deterministic wobble.
+		j := max(0, k-3)
+		pv[k] = sp[j] + float64((k*7)%5-2)
+	}
+	tr := feedArrays(sp, pv).Tracking
+	if tr == nil {
+		t.Fatal("tracking = null, want figures")
+	}
+	mark := trackingSet(sp, 32, 16)
+	cnt, mean, rms, _ := errStats(sp, pv, mark)
+	if tr.Samples != cnt {
+		t.Errorf("samples = %d, want %d by the rule", tr.Samples, cnt)
+	}
+	if math.Abs(deref(tr.MeanErrorCounts)-mean) > 1e-9 || math.Abs(deref(tr.RMSErrorCounts)-rms) > 1e-9 {
+		t.Errorf("mean, rms = %g, %g counts, want %g, %g", deref(tr.MeanErrorCounts), deref(tr.RMSErrorCounts), mean, rms)
+	}
+	for _, c := range []struct {
+		k    int
+		want bool
+	}{
+		{1, false}, {2, true}, {299, true}, // the array's start counts as a change
+		{300, false}, {310, false}, // the large step ends tracking at once
+		{803, false}, {805, false}, {806, true}, {1399, true}, // the first move after the dwell is not tracking, the next is
+		{1400 + 31, true}, {1400 + 32, false}, // the last move, at 1400, counts for 32 samples
+		{1800 + 50, false}, // moves of 20 counts
+	} {
+		if mark[c.k] != c.want {
+			t.Errorf("sample %d tracking = %v by the rule, want %v", c.k, mark[c.k], c.want)
+		}
+	}
+	// The highest tracking setpoint is 796, at the second move down (800 is a dwell).
+	if tr.SPMinCounts != 400 || tr.SPMaxCounts != 796 {
+		t.Errorf("setpoint range = [%g, %g] counts, want [400, 796]", tr.SPMinCounts, tr.SPMaxCounts)
+	}
+}
