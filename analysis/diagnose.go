@@ -219,7 +219,7 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 		add(DiagStuckCodes, "warning", "%d ADC codes occur far more often than their neighbours away from any setpoint (first: %d): the converter may stick there.", n, sum.Plant.StuckCodes[0])
 	}
 	if sum.SegmentsOmitted > 0 {
-		add(DiagSegmentsOmitted, "info", "%d more segments are not listed (the list is bounded).", sum.SegmentsOmitted)
+		add(DiagSegmentsOmitted, "info", "%d segments past the first %d are not kept in the segment list (it is bounded); the plant, tracking and these diagnostics still cover them.", sum.SegmentsOmitted, len(sum.Segments))
 	}
 	return d
 }

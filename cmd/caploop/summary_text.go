@@ -201,7 +201,8 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 	}
 	tw.Flush()
 	if s.SegmentsOmitted > 0 {
-		fmt.Fprintf(w, "  (%d more segments not listed)\n", s.SegmentsOmitted)
+		fmt.Fprintf(w, "  (%d more segments past the bounded list of %d; the plant, tracking and diagnostics still cover them)\n",
+			s.SegmentsOmitted, len(s.Segments))
 	}
 	for _, g := range s.Segments {
 		if g.Unreachable {
