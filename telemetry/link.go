@@ -203,13 +203,17 @@ func (l *Link) Send(cmd string) error {
 	if l.port == nil {
 		return &SerialError{Path: l.cfg.Path, Op: "write", Kind: ErrNotConnected}
 	}
+	// The command is delivered (and recorded) before it is written, so that it always
+	// comes before the board's answer, which the reader may see as soon as it is written.
+	l.deliver([]Line{{Host: time.Now(), Dir: ToBoard, Raw: []byte(cmd)}})
 	if _, err := l.port.Write([]byte(cmd + "\n")); err != nil {
-		return readError(l.cfg.Path, "write", err)
+		err = readError(l.cfg.Path, "write", err)
+		l.deliver([]Line{{Host: time.Now(), Dir: HostEvent, Raw: []byte("send failed: " + SanitizeN([]byte(err.Error()), 200))}})
+		return err
 	}
 	l.mu.Lock()
 	l.stats.Sent++
 	l.mu.Unlock()
-	l.deliver([]Line{{Host: time.Now(), Dir: ToBoard, Raw: []byte(cmd)}})
 	return nil
 }
 
