@@ -87,7 +87,9 @@ type LinkStats struct {
 // stamps them with the host time, optionally records them, and hands them out in batches.
 // When the port goes away (unplug, reset with USB re-enumeration) it emits an "unplugged"
 // event, polls the path until it can open it again (a symlink is resolved anew each time)
-// and emits "reconnected". After every open the partial first line is dropped and counted.
+// and emits "reconnected". After every open the first line is dropped and counted as
+// partial (a "partial" event), unless it reads on its own as a whole data or meta line
+// (see wholeRecord): a board already running is usually half-way through a line.
 //
 // The reader goroutine never waits for the consumer of Batches: lines queue (bounded by
 // LinkOptions.Queue) and the oldest are dropped from delivery if the consumer falls far
@@ -349,12 +351,13 @@ func (l *Link) run() {
 }
 
 // readLoop reads the open port until it fails, splitting lines and dropping the partial
-// first one. It returns the number of bytes read and the error that ended it.
+// first one (see wholeRecord for when the first line is kept). It returns the number of bytes read and the error that ended it.
 func (l *Link) readLoop(p io.Reader, buf []byte) (int64, error) {
 	var total int64
 	dropping := true // before the first newline after open
 	skipped := 0     // bytes of the partial first line
 	var lastSkipped byte
+	var first []byte // the first line's bytes, to tell a whole line from a cut one
 	cur := make([]byte, 0, 256)
 	cut := false
 	var lines []Line
@@ -376,13 +379,25 @@ func (l *Link) readLoop(p io.Reader, buf []byte) (int64, error) {
 				if len(seg) > 0 {
 					skipped += len(seg)
 					lastSkipped = seg[len(seg)-1]
+					if room := l.opt.MaxLine - len(first); room > 0 {
+						first = append(first, seg[:min(room, len(seg))]...)
+					}
 				}
 				if i >= 0 {
 					dropping = false
 					if lastSkipped == '\r' {
 						skipped--
 					}
-					if skipped > 0 {
+					head := bytes.TrimSuffix(first, []byte{'\r'})
+					switch {
+					case skipped == 0:
+					case skipped <= l.opt.MaxLine && wholeRecord(head):
+						// The port opened at a line start: the first line is whole.
+						lines = append(lines, Line{Host: now, Dir: FromBoard, Raw: bytes.Clone(head)})
+						l.mu.Lock()
+						l.stats.Lines++
+						l.mu.Unlock()
+					default:
 						l.mu.Lock()
 						l.stats.Partial++
 						l.mu.Unlock()
@@ -578,4 +593,22 @@ func (l *Link) flusher() {
 			return
 		}
 	}
+}
+
+// wholeRecord reports whether the first line after an open can be kept: it reads, on its
+// own, as a complete data line (sp and pv present) or meta line. A line cut by the open
+// loses its start, and a start cut anywhere but at a field separator leaves a fragment
+// that does not read ("12 pv=498", "p=512 pv=498", "=1000 sp=..."); a cut exactly at a
+// separator leaves whole fields, which are real readings. Numeric rows are never kept
+// (their header may not have been seen), nor comments.
+func wholeRecord(line []byte) bool {
+	if len(line) == 0 {
+		return false
+	}
+	var p Parser
+	switch p.Parse(line, 0, false).Kind {
+	case RecSample, RecMeta:
+		return true
+	}
+	return false
 }

@@ -427,10 +427,11 @@ func TestLinkRecordPath(t *testing.T) {
 	defer p.Close()
 	path := filepath.Join(t.TempDir(), "run.cap")
 	l := Dial(SerialConfig{Path: p.Path(), Baud: 9600}, LinkOptions{RecordPath: path, RecordAttrs: []string{"note=greenhouse-bias"}})
+	t.Cleanup(func() { l.Close() }) // a Link left open would take over a reused pty number
 	w := watch(l)
 	w.waitFor(t, "connected", func(ls []Line) bool { return countEvents(ls, EventConnected) == 1 })
 	go io.WriteString(p.Master(), "# vref=5 adc_bits=10 period_us=1000\n"+dataLine(1)+"\n"+dataLine(2)+"\n")
-	w.waitFor(t, "two lines", func(ls []Line) bool { return len(boardLines(ls)) == 2 })
+	w.waitFor(t, "three lines", func(ls []Line) bool { return len(boardLines(ls)) == 3 })
 	if err := l.Close(); err != nil {
 		t.Fatalf("Close: %v", err)
 	}
@@ -455,9 +456,13 @@ func TestLinkRecordPath(t *testing.T) {
 	if err := sc.Err(); err != nil {
 		t.Fatal(err)
 	}
-	// The meta line was the partial first line after the open: dropped.
-	if samples != 2 || events != 2 {
-		t.Errorf("replay: %d samples, %d events; want 2 and 2 (connected, partial)", samples, events)
+	// The meta line came first after the open, whole: kept (wholeRecord), and its values
+	// apply to the replay.
+	if samples != 2 || events != 1 {
+		t.Errorf("replay: %d samples, %d events; want 2 and 1 (connected)", samples, events)
+	}
+	if m := sc.Meta(); !m.Has(FieldVref) || m.Vref != 5 || m.Period != 1e-3 {
+		t.Errorf("replay meta = %+v, want vref 5 V and period 1 ms from the first line", m)
 	}
 	head, _ := os.ReadFile(path)
 	first := strings.SplitN(string(head), "\n", 2)[0]
@@ -506,4 +511,31 @@ func BenchmarkLinkPTY(b *testing.B) {
 	}
 	b.StopTimer()
 	b.ReportMetric(float64(got)/b.Elapsed().Seconds(), "lines/s")
+}
+
+// TestWholeRecord: the first line after an open is kept only when it reads as a whole
+// data or meta line on its own; a line cut by the open is dropped.
+func TestWholeRecord(t *testing.T) {
+	tests := []struct {
+		line string
+		want bool
+	}{
+		{"t=1000 n=1 sp=512 pv=498 u=1", true},
+		{"# vref=5 adc_bits=10 period_us=1000", true},
+		{" sp=512 pv=498 u=1", true}, // cut at a separator: whole fields, real readings
+		{"12 pv=498 u=1", false},     // cut inside sp's value
+		{"p=512 pv=498 u=1", false},  // cut inside sp's key
+		{"=1000 sp=512 pv=498", false},
+		{"000 n=1 sp=512 pv=498", false},
+		{"ref=5 adc_bits=10", false}, // the rest of a meta line
+		{"12,498,1", false},          // a numeric row: its header may not have been seen
+		{"# virtual board boot", false},
+		{"", false},
+		{"pv=4", false},
+	}
+	for _, tc := range tests {
+		if got := wholeRecord([]byte(tc.line)); got != tc.want {
+			t.Errorf("wholeRecord(%q) = %v, want %v", tc.line, got, tc.want)
+		}
+	}
 }
