@@ -68,17 +68,9 @@ func TestLiveScreenTmux(t *testing.T) {
 	if testing.Short() {
 		t.Skip("end-to-end screen test takes about 40 s; skipped with -short")
 	}
-	if _, err := exec.LookPath("tmux"); err != nil {
-		if os.Getenv("CI") == "true" {
-			t.Fatalf("tmux is required in CI: %v", err)
-		}
-		t.Skip("tmux not installed; skipping the end-to-end screen test")
-	}
+	needTmux(t)
 	dir := t.TempDir()
-	bin := filepath.Join(dir, "caploop")
-	if out, err := exec.Command("go", "build", "-o", bin, ".").CombinedOutput(); err != nil {
-		t.Fatalf("go build: %v\n%s", err, out)
-	}
+	bin := buildCaploop(t, dir)
 
 	// The virtual board: unplugged after 25 s, back 3 s later, behind a stable link.
 	link := filepath.Join(dir, "board")
@@ -173,17 +165,9 @@ func TestReplayScreenQuits(t *testing.T) {
 	if testing.Short() {
 		t.Skip("end-to-end screen test; skipped with -short")
 	}
-	if _, err := exec.LookPath("tmux"); err != nil {
-		if os.Getenv("CI") == "true" {
-			t.Fatalf("tmux is required in CI: %v", err)
-		}
-		t.Skip("tmux not installed; skipping the end-to-end screen test")
-	}
+	needTmux(t)
 	dir := t.TempDir()
-	bin := filepath.Join(dir, "caploop")
-	if out, err := exec.Command("go", "build", "-o", bin, ".").CombinedOutput(); err != nil {
-		t.Fatalf("go build: %v\n%s", err, out)
-	}
+	bin := buildCaploop(t, dir)
 	capture, err := filepath.Abs("../../testdata/tuned.cap")
 	if err != nil {
 		t.Fatal(err)
@@ -220,5 +204,17 @@ func TestReplayScreenQuits(t *testing.T) {
 				t.Errorf("the bench screen is still on the terminal after exit:\n%s", s)
 			}
 		})
+	}
+}
+
+// needTmux skips the test when tmux is missing, and fails it under CI=true, where .ci/run
+// installs tmux.
+func needTmux(t *testing.T) {
+	t.Helper()
+	if _, err := exec.LookPath("tmux"); err != nil {
+		if os.Getenv("CI") == "true" {
+			t.Fatalf("tmux is required in CI: %v", err)
+		}
+		t.Skip("tmux not installed; skipping the end-to-end screen test")
 	}
 }
