@@ -148,29 +148,24 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 	}
 	T := c.period
 	var ssr, dof float64
-	if pf.ok[2] {
-		f := pf.fit[2]
-		p.TauChargeSamples, p.VHighCounts = ptr(tauOf(f.A, 1)), ptr(f.VInf)
-		p.TauChargeS = ptr(tauOf(f.A, T))
+	// driveFigures sets the figures of one drive's fit (charge or discharge) and adds its
+	// residuals to the noise estimate.
+	driveFigures := func(f fitResult, tauSamples, levelCounts, tauS **float64, tauCIS **[2]float64, levelV **float64, levelCIV **[2]float64) {
+		*tauSamples, *levelCounts = ptr(tauOf(f.A, 1)), ptr(f.VInf)
+		*tauS = ptr(tauOf(f.A, T))
 		r := tauCI(f, T)
-		p.TauChargeCIS = ci(r[0], r[1])
+		*tauCIS = ci(r[0], r[1])
 		q := tQuantile(f.N - 2)
-		p.VHighV = ptr(c.v(f.VInf))
-		p.VHighCIV = ci(c.v(f.VInf-q*f.SeVInf), c.v(f.VInf+q*f.SeVInf))
+		*levelV = ptr(c.v(f.VInf))
+		*levelCIV = ci(c.v(f.VInf-q*f.SeVInf), c.v(f.VInf+q*f.SeVInf))
 		ssr += f.S2 * (f.N - 2) / (1 + f.A*f.A)
 		dof += f.N - 2
 	}
+	if pf.ok[2] {
+		driveFigures(pf.fit[2], &p.TauChargeSamples, &p.VHighCounts, &p.TauChargeS, &p.TauChargeCIS, &p.VHighV, &p.VHighCIV)
+	}
 	if pf.ok[0] {
-		f := pf.fit[0]
-		p.TauDischargeSamples, p.VLowCounts = ptr(tauOf(f.A, 1)), ptr(f.VInf)
-		p.TauDischargeS = ptr(tauOf(f.A, T))
-		r := tauCI(f, T)
-		p.TauDischargeCIS = ci(r[0], r[1])
-		q := tQuantile(f.N - 2)
-		p.VLowV = ptr(c.v(f.VInf))
-		p.VLowCIV = ci(c.v(f.VInf-q*f.SeVInf), c.v(f.VInf+q*f.SeVInf))
-		ssr += f.S2 * (f.N - 2) / (1 + f.A*f.A)
-		dof += f.N - 2
+		driveFigures(pf.fit[0], &p.TauDischargeSamples, &p.VLowCounts, &p.TauDischargeS, &p.TauDischargeCIS, &p.VLowV, &p.VLowCIV)
 	}
 	if pf.ok[1] {
 		f := pf.fit[1]

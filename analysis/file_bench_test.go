@@ -11,10 +11,7 @@ import (
 // environment variable CAPLOOP_BENCH_FILE (for example the file testdata/bench/wholefile.sh
 // makes); ns/op is per line. It skips when the variable is unset.
 func BenchmarkSummarizeFile(b *testing.B) {
-	name := os.Getenv("CAPLOOP_BENCH_FILE")
-	if name == "" {
-		b.Skip("CAPLOOP_BENCH_FILE is not set: no capture to read")
-	}
+	name := benchFile(b)
 	var lines int64
 	for done := 0; done < b.N; done += int(lines) {
 		f, err := os.Open(name)
@@ -34,10 +31,7 @@ func BenchmarkSummarizeFile(b *testing.B) {
 // BenchmarkScanFile measures the parse alone over the same capture (the lower bound of
 // the whole-file pass); ns/op is per line.
 func BenchmarkScanFile(b *testing.B) {
-	name := os.Getenv("CAPLOOP_BENCH_FILE")
-	if name == "" {
-		b.Skip("CAPLOOP_BENCH_FILE is not set: no capture to read")
-	}
+	name := benchFile(b)
 	var lines int64
 	for done := 0; done < b.N; done += int(lines) {
 		f, err := os.Open(name)
@@ -57,4 +51,13 @@ func BenchmarkScanFile(b *testing.B) {
 		}
 		lines = max(1, sc.Stats().Lines)
 	}
+}
+
+// benchFile returns the capture named by CAPLOOP_BENCH_FILE, or skips the benchmark.
+func benchFile(b *testing.B) string {
+	name := os.Getenv("CAPLOOP_BENCH_FILE")
+	if name == "" {
+		b.Skip("CAPLOOP_BENCH_FILE is not set: no capture to read")
+	}
+	return name
 }
