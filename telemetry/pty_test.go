@@ -13,16 +13,7 @@ import (
 // TestPTYRawNoEcho checks the slave is raw: bytes the board writes are not echoed back to
 // the master, and CR LF passes through untranslated.
 func TestPTYRawNoEcho(t *testing.T) {
-	p, err := OpenPTY()
-	if err != nil {
-		t.Fatalf("OpenPTY: %v", err)
-	}
-	defer p.Close()
-	src, err := OpenSerial(SerialConfig{Path: p.Path()})
-	if err != nil {
-		t.Fatalf("OpenSerial: %v", err)
-	}
-	defer src.Close()
+	p, src := openPTYSerial(t)
 	const line = "t=1 sp=2 pv=3\r\n"
 	if _, err := p.Master().WriteString("\n" + line); err != nil {
 		t.Fatal(err)
@@ -99,4 +90,21 @@ func TestPTYSymlink(t *testing.T) {
 			t.Errorf("round %d: stat link after Close: %v, want not-exist", i, err)
 		}
 	}
+}
+
+// openPTYSerial opens a pseudo-terminal and the serial source on its slave path; both are
+// closed when the test ends (closing the source twice is harmless).
+func openPTYSerial(t *testing.T) (*PTY, Source) {
+	t.Helper()
+	p, err := OpenPTY()
+	if err != nil {
+		t.Fatalf("OpenPTY: %v", err)
+	}
+	t.Cleanup(func() { p.Close() })
+	src, err := OpenSerial(SerialConfig{Path: p.Path()})
+	if err != nil {
+		t.Fatalf("OpenSerial: %v", err)
+	}
+	t.Cleanup(func() { src.Close() })
+	return p, src
 }

@@ -170,15 +170,7 @@ func TestSerialUnplug(t *testing.T) {
 // TestSerialCloseUnblocksRead checks that Close from another goroutine ends a blocked read
 // with io.EOF (serial.NoTimeout reads are stopped by Close).
 func TestSerialCloseUnblocksRead(t *testing.T) {
-	p, err := OpenPTY()
-	if err != nil {
-		t.Fatalf("OpenPTY: %v", err)
-	}
-	defer p.Close()
-	src, err := OpenSerial(SerialConfig{Path: p.Path()})
-	if err != nil {
-		t.Fatalf("OpenSerial: %v", err)
-	}
+	_, src := openPTYSerial(t)
 	done := make(chan error, 1)
 	go func() {
 		_, err := src.Read(make([]byte, 16))
@@ -198,16 +190,7 @@ func TestSerialCloseUnblocksRead(t *testing.T) {
 
 // TestSerialWrite sends a command through the source and reads it on the master side.
 func TestSerialWrite(t *testing.T) {
-	p, err := OpenPTY()
-	if err != nil {
-		t.Fatalf("OpenPTY: %v", err)
-	}
-	defer p.Close()
-	src, err := OpenSerial(SerialConfig{Path: p.Path()})
-	if err != nil {
-		t.Fatalf("OpenSerial: %v", err)
-	}
-	defer src.Close()
+	p, src := openPTYSerial(t)
 	if _, err := src.(*SerialSource).Write([]byte("set deadband=14\n")); err != nil {
 		t.Fatalf("Write: %v", err)
 	}
