@@ -126,4 +126,3 @@ func CheckCount(name string, v float64, bits int) error {
 	}
 	return nil
 }
-
