@@ -8,6 +8,7 @@ import (
 
 	"github.com/caploop/caploop/analysis/loop"
 	"github.com/caploop/caploop/telemetry"
+	"github.com/caploop/caploop/telemetry/wire"
 )
 
 // genSource is an endless-looking telemetry stream made by the loop model on the fly:
@@ -128,11 +129,11 @@ func BenchmarkReplayMax(b *testing.B) {
 func BenchmarkLivePTY(b *testing.B) {
 	const n = 1_000_000
 	for i := 0; i < b.N; i++ {
-		pt, err := telemetry.OpenPTY()
+		pt, err := wire.OpenPTY()
 		if err != nil {
 			b.Skipf("no pseudo-terminal: %v", err)
 		}
-		p := NewLive(LiveOptions{Serial: telemetry.SerialConfig{Path: pt.Path()}})
+		p := NewLive(LiveOptions{Serial: wire.SerialConfig{Path: pt.Path()}})
 		m := New(p, Options{})
 		m.width, m.height = 120, 40
 		m.layout()

@@ -12,6 +12,7 @@ import (
 	tea "github.com/charmbracelet/bubbletea"
 
 	"github.com/caploop/caploop/telemetry"
+	"github.com/caploop/caploop/telemetry/wire"
 )
 
 // TestResize checks that every view fills the terminal exactly through a series of
@@ -155,13 +156,13 @@ func TestReplayControls(t *testing.T) {
 // TestMarkRecorded marks a moment on a live link with a recording and checks the mark
 // is in the capture file as a host event.
 func TestMarkRecorded(t *testing.T) {
-	pt, err := telemetry.OpenPTY()
+	pt, err := wire.OpenPTY()
 	if err != nil {
 		t.Skipf("no pseudo-terminal: %v", err)
 	}
 	defer pt.Close()
 	rec := filepath.Join(t.TempDir(), "marks.cap")
-	p := NewLive(LiveOptions{Serial: telemetry.SerialConfig{Path: pt.Path()}, Record: rec, SourceOptions: SourceOptions{NoAdvice: true}})
+	p := NewLive(LiveOptions{Serial: wire.SerialConfig{Path: pt.Path()}, Record: rec, SourceOptions: SourceOptions{NoAdvice: true}})
 	m := New(p, Options{})
 	last := time.Time{}
 	for deadline := time.Now().Add(5 * time.Second); m.status.st.State != "connected"; {

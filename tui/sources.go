@@ -11,8 +11,9 @@ import (
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/advice"
+	"github.com/caploop/caploop/analysis/loop/virtual"
 	"github.com/caploop/caploop/telemetry"
-	"github.com/caploop/caploop/telemetry/virtual"
+	"github.com/caploop/caploop/telemetry/wire"
 )
 
 // SourceOptions are the options every source shares.
@@ -42,7 +43,7 @@ func (o SourceOptions) adviser() adviser {
 // LiveOptions configure NewLive.
 type LiveOptions struct {
 	SourceOptions
-	Serial telemetry.SerialConfig
+	Serial wire.SerialConfig
 	Record string // capture file path; "" = no recording
 	Name   string // shown in the status line; "" = the port path
 }
@@ -54,7 +55,7 @@ func NewLive(o LiveOptions) *Pipeline {
 	if name == "" {
 		name = o.Serial.Path
 	}
-	link := telemetry.Dial(o.Serial, telemetry.LinkOptions{RecordPath: o.Record})
+	link := wire.Dial(o.Serial, wire.LinkOptions{RecordPath: o.Record})
 	p := newPipeline(name, o.Retain, o.adviser())
 	p.canSend = true
 	p.sendFn = link.Send
@@ -90,7 +91,7 @@ func NewLive(o LiveOptions) *Pipeline {
 // already sent them. A board that does not know "info" ignores it.
 const askMetaAfter = 500 * time.Millisecond
 
-func (p *Pipeline) runLive(link *telemetry.Link, parser *telemetry.Parser, c *core) {
+func (p *Pipeline) runLive(link *wire.Link, parser *telemetry.Parser, c *core) {
 	defer close(p.closed)
 	start := link.Start()
 	tick := time.NewTicker(summaryInterval)
@@ -124,7 +125,7 @@ func (p *Pipeline) runLive(link *telemetry.Link, parser *telemetry.Parser, c *co
 }
 
 // line handles one line of a live link.
-func (c *core) line(parser *telemetry.Parser, ln telemetry.Line, start time.Time) {
+func (c *core) line(parser *telemetry.Parser, ln wire.Line, start time.Time) {
 	switch ln.Dir {
 	case telemetry.FromBoard:
 		rec := parser.Parse(ln.Raw, ln.Host.Sub(start).Nanoseconds(), true)
@@ -141,20 +142,20 @@ func (c *core) line(parser *telemetry.Parser, ln telemetry.Line, start time.Time
 		switch kind := ln.EventKind(); kind {
 		case "mark":
 			c.event(EventMark, strings.TrimSpace(strings.TrimPrefix(text, "mark")))
-		case telemetry.EventConnected, telemetry.EventReconnected:
+		case wire.EventConnected, wire.EventReconnected:
 			parser.ResetClock()
 			c.connectedAt, c.asked, c.haveN = time.Now(), false, false
 			c.stats.State = "connected"
 			c.event(EventState, kind)
-		case telemetry.EventUnplugged:
+		case wire.EventUnplugged:
 			c.stats.State = "UNPLUGGED, waiting for the board"
 			c.event(EventState, "unplugged")
-		case telemetry.EventWaiting:
+		case wire.EventWaiting:
 			if c.stats.State != "UNPLUGGED, waiting for the board" {
 				c.stats.State = "waiting for the port"
 			}
 			c.event(EventInfo, telemetry.SanitizeN(ln.Raw, 200))
-		case telemetry.EventPartial:
+		case wire.EventPartial:
 		default:
 			c.event(EventNote, text)
 		}
@@ -173,7 +174,7 @@ func NewDemo(sc virtual.Scenario, o SourceOptions) (*Pipeline, error) {
 	ready := make(chan string, 1)
 	served := make(chan error, 1)
 	go func() {
-		served <- board.Serve(ctx, virtual.ServeOptions{Ready: func(path string) { ready <- path }})
+		served <- wire.Serve(ctx, board, wire.ServeOptions{Ready: func(path string) { ready <- path }})
 	}()
 	var path string
 	select {
@@ -188,7 +189,7 @@ func NewDemo(sc virtual.Scenario, o SourceOptions) (*Pipeline, error) {
 		cancel()
 		return nil, errors.New("tui: the virtual board did not start within 5 s")
 	}
-	p := NewLive(LiveOptions{SourceOptions: o, Serial: telemetry.SerialConfig{Path: path}, Name: "virtual board"})
+	p := NewLive(LiveOptions{SourceOptions: o, Serial: wire.SerialConfig{Path: path}, Name: "virtual board"})
 	linkClose := p.closeFn
 	p.closeFn = func() error {
 		err := linkClose()
@@ -371,9 +372,9 @@ func (p *Pipeline) runReplay(o ReplayOptions, src telemetry.Source, c *core) {
 			switch word {
 			case "mark":
 				c.event(EventMark, rest)
-			case telemetry.EventUnplugged, telemetry.EventReconnected:
+			case wire.EventUnplugged, wire.EventReconnected:
 				c.event(EventState, word)
-			case telemetry.EventConnected, telemetry.EventWaiting, telemetry.EventPartial:
+			case wire.EventConnected, wire.EventWaiting, wire.EventPartial:
 			default:
 				c.event(EventNote, ev.Text)
 			}

@@ -3,7 +3,7 @@ package main
 import (
 	"github.com/spf13/cobra"
 
-	"github.com/caploop/caploop/telemetry/virtual"
+	"github.com/caploop/caploop/analysis/loop/virtual"
 	"github.com/caploop/caploop/tui"
 )
 

@@ -16,6 +16,7 @@ import (
 
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/si"
+	"github.com/caploop/caploop/telemetry/wire"
 	"github.com/caploop/caploop/tui"
 )
 
@@ -67,7 +68,7 @@ their USB ids and asks which one (on a terminal). The screen reconnects by itsel
 					return withCode(2, fmt.Errorf("live: %s exists; use --force to overwrite it", f.record))
 				}
 			}
-			cfg := telemetry.SerialConfig{Path: port, Baud: int(baud), DataBits: f.dataBits, Parity: f.parity, StopBits: f.stopBits}
+			cfg := wire.SerialConfig{Path: port, Baud: int(baud), DataBits: f.dataBits, Parity: f.parity, StopBits: f.stopBits}
 			p := tui.NewLive(tui.LiveOptions{Serial: cfg, Record: f.record})
 			return runScreen(p, f.span)
 		},
@@ -86,7 +87,7 @@ their USB ids and asks which one (on a terminal). The screen reconnects by itsel
 // pickPort returns the only USB serial device. With several candidates it asks which one
 // on a terminal, and otherwise returns an error listing them.
 func pickPort() (string, error) {
-	ports, err := telemetry.ListPorts()
+	ports, err := wire.ListPorts()
 	if err != nil {
 		return "", fmt.Errorf("live: list serial ports: %w", err)
 	}
@@ -102,8 +103,8 @@ func pickPort() (string, error) {
 }
 
 // candidates are the ports worth offering: the USB ones, or every port when none is USB.
-func candidates(ports []telemetry.PortInfo) []telemetry.PortInfo {
-	var usb []telemetry.PortInfo
+func candidates(ports []wire.PortInfo) []wire.PortInfo {
+	var usb []wire.PortInfo
 	for _, p := range ports {
 		if p.USB {
 			usb = append(usb, p)
@@ -117,7 +118,7 @@ func candidates(ports []telemetry.PortInfo) []telemetry.PortInfo {
 
 // askPort lists the candidates with their USB ids, numbered, and reads the number of the
 // one to use from in.
-func askPort(list []telemetry.PortInfo, in io.Reader, out io.Writer) (string, error) {
+func askPort(list []wire.PortInfo, in io.Reader, out io.Writer) (string, error) {
 	fmt.Fprintln(out, "serial ports:")
 	for i, p := range list {
 		fmt.Fprintf(out, "  %d) %s\n", i+1, describePort(p))
@@ -139,7 +140,7 @@ func askPort(list []telemetry.PortInfo, in io.Reader, out io.Writer) (string, er
 
 // describePort is one line about a port: path, USB VID:PID, serial number and product,
 // with the device's own strings sanitised.
-func describePort(p telemetry.PortInfo) string {
+func describePort(p wire.PortInfo) string {
 	var b strings.Builder
 	b.WriteString(p.Path)
 	if id := p.VIDPID(); id != "" {
@@ -156,8 +157,8 @@ func describePort(p telemetry.PortInfo) string {
 
 // pickFrom picks the only USB serial device of ports, or lists the candidates (the USB
 // ones with their ids, else every port) in the error.
-func pickFrom(ports []telemetry.PortInfo) (string, error) {
-	var usb []telemetry.PortInfo
+func pickFrom(ports []wire.PortInfo) (string, error) {
+	var usb []wire.PortInfo
 	for _, p := range ports {
 		if p.USB {
 			usb = append(usb, p)

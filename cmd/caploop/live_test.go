@@ -4,22 +4,22 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/caploop/caploop/telemetry"
+	"github.com/caploop/caploop/telemetry/wire"
 )
 
 func TestPickFrom(t *testing.T) {
-	board := telemetry.PortInfo{Path: "/dev/ttyACM0", VID: "1209", PID: "0001", Serial: "A1", Product: "bench\x1b[2J", USB: true}
-	adapter := telemetry.PortInfo{Path: "/dev/ttyUSB0", VID: "1209", PID: "0002", USB: true}
-	builtin := telemetry.PortInfo{Path: "/dev/ttyS0"}
+	board := wire.PortInfo{Path: "/dev/ttyACM0", VID: "1209", PID: "0001", Serial: "A1", Product: "bench\x1b[2J", USB: true}
+	adapter := wire.PortInfo{Path: "/dev/ttyUSB0", VID: "1209", PID: "0002", USB: true}
+	builtin := wire.PortInfo{Path: "/dev/ttyS0"}
 	tests := []struct {
 		name     string
-		ports    []telemetry.PortInfo
+		ports    []wire.PortInfo
 		want     string
 		errParts []string
 	}{
-		{"one usb among others", []telemetry.PortInfo{builtin, board}, "/dev/ttyACM0", nil},
-		{"two usb", []telemetry.PortInfo{board, adapter, builtin}, "", []string{"2 USB serial devices", "/dev/ttyACM0", "/dev/ttyUSB0", "serial A1", `bench\x1b[2J`}},
-		{"no usb", []telemetry.PortInfo{builtin}, "", []string{"no USB serial device", "/dev/ttyS0"}},
+		{"one usb among others", []wire.PortInfo{builtin, board}, "/dev/ttyACM0", nil},
+		{"two usb", []wire.PortInfo{board, adapter, builtin}, "", []string{"2 USB serial devices", "/dev/ttyACM0", "/dev/ttyUSB0", "serial A1", `bench\x1b[2J`}},
+		{"no usb", []wire.PortInfo{builtin}, "", []string{"no USB serial device", "/dev/ttyS0"}},
 		{"nothing", nil, "", []string{"no serial port found"}},
 	}
 	for _, tc := range tests {
@@ -66,7 +66,7 @@ func TestParseSpeed(t *testing.T) {
 }
 
 func TestAskPort(t *testing.T) {
-	list := []telemetry.PortInfo{
+	list := []wire.PortInfo{
 		{Path: "/dev/ttyACM0", VID: "1209", PID: "0001", Product: "bench\x1b[2J", USB: true},
 		{Path: "/dev/ttyUSB0", VID: "1209", PID: "0002", USB: true},
 	}

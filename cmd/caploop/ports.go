@@ -9,6 +9,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"github.com/caploop/caploop/telemetry"
+	"github.com/caploop/caploop/telemetry/wire"
 )
 
 func init() { commands = append(commands, newPortsCmd) }
@@ -25,7 +26,7 @@ not open the ports. Give one of the paths to live or record with --port.`,
   caploop ports --json`,
 		Args: cobra.NoArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
-			ports, err := telemetry.ListPorts()
+			ports, err := wire.ListPorts()
 			if err != nil {
 				return withCode(2, err)
 			}
@@ -40,9 +41,9 @@ not open the ports. Give one of the paths to live or record with --port.`,
 }
 
 // writePortsJSON writes the list as a JSON array (empty, not null, when there are none).
-func writePortsJSON(w io.Writer, ports []telemetry.PortInfo) error {
+func writePortsJSON(w io.Writer, ports []wire.PortInfo) error {
 	if ports == nil {
-		ports = []telemetry.PortInfo{}
+		ports = []wire.PortInfo{}
 	}
 	enc := json.NewEncoder(w)
 	enc.SetIndent("", "  ")
@@ -50,7 +51,7 @@ func writePortsJSON(w io.Writer, ports []telemetry.PortInfo) error {
 }
 
 // writePorts writes a table; the device's own strings are sanitised.
-func writePorts(w io.Writer, ports []telemetry.PortInfo) error {
+func writePorts(w io.Writer, ports []wire.PortInfo) error {
 	if len(ports) == 0 {
 		_, err := fmt.Fprintln(w, "no serial ports found (is the board plugged in? a board that needs a driver shows up only once it is loaded)")
 		return err

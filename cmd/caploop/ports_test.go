@@ -6,23 +6,23 @@ import (
 	"strings"
 	"testing"
 
-	"github.com/caploop/caploop/telemetry"
+	"github.com/caploop/caploop/telemetry/wire"
 )
 
 // TestWritePorts checks the table and the JSON, with device strings that try to reach the
 // terminal raw (escape sequences, control bytes, invalid UTF-8).
 func TestWritePorts(t *testing.T) {
-	hostile := telemetry.PortInfo{Path: "/dev/ttyACM0", VID: "1209", PID: "0001", USB: true,
+	hostile := wire.PortInfo{Path: "/dev/ttyACM0", VID: "1209", PID: "0001", USB: true,
 		Serial: "A1\x1b[2J", Product: "bench\x07 ref\xff"}
-	plain := telemetry.PortInfo{Path: "/dev/ttyS0"}
+	plain := wire.PortInfo{Path: "/dev/ttyS0"}
 	tests := []struct {
 		name    string
-		ports   []telemetry.PortInfo
+		ports   []wire.PortInfo
 		want    []string
 		notWant []string
 	}{
 		{"none", nil, []string{"no serial ports found"}, nil},
-		{"two", []telemetry.PortInfo{hostile, plain},
+		{"two", []wire.PortInfo{hostile, plain},
 			[]string{"PORT", "VID:PID", "/dev/ttyACM0", "1209:0001", "/dev/ttyS0 "},
 			[]string{"\x1b", "\x07", "\xff"}},
 	}
@@ -50,11 +50,11 @@ func TestWritePorts(t *testing.T) {
 func TestWritePortsJSON(t *testing.T) {
 	tests := []struct {
 		name  string
-		ports []telemetry.PortInfo
+		ports []wire.PortInfo
 		want  int
 	}{
 		{"none is an empty array", nil, 0},
-		{"one", []telemetry.PortInfo{{Path: "/dev/ttyUSB0", VID: "1209", PID: "0002", USB: true}}, 1},
+		{"one", []wire.PortInfo{{Path: "/dev/ttyUSB0", VID: "1209", PID: "0002", USB: true}}, 1},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
@@ -62,7 +62,7 @@ func TestWritePortsJSON(t *testing.T) {
 			if err := writePortsJSON(&b, tc.ports); err != nil {
 				t.Fatal(err)
 			}
-			var got []telemetry.PortInfo
+			var got []wire.PortInfo
 			if err := json.Unmarshal(b.Bytes(), &got); err != nil {
 				t.Fatalf("bad JSON %q: %v", b.String(), err)
 			}

@@ -16,6 +16,7 @@ import (
 
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/si"
+	"github.com/caploop/caploop/telemetry/wire"
 )
 
 func init() { commands = append(commands, newRecordCmd) }
@@ -74,12 +75,12 @@ A status line goes to standard error; it never shows the board's own text.`,
 }
 
 // serialConfig turns the port flags into a telemetry.SerialConfig.
-func (f recordFlags) serialConfig() (telemetry.SerialConfig, error) {
+func (f recordFlags) serialConfig() (wire.SerialConfig, error) {
 	baud, err := si.Parse(f.baud)
 	if err != nil || baud <= 0 || baud > math.MaxInt32 || baud != math.Trunc(baud) {
-		return telemetry.SerialConfig{}, fmt.Errorf("record: --baud %q: want a whole positive number such as 115200 or 1M", f.baud)
+		return wire.SerialConfig{}, fmt.Errorf("record: --baud %q: want a whole positive number such as 115200 or 1M", f.baud)
 	}
-	cfg := telemetry.SerialConfig{Path: f.port, Baud: int(baud), DataBits: f.dataBits, Parity: f.parity, StopBits: f.stopBits}
+	cfg := wire.SerialConfig{Path: f.port, Baud: int(baud), DataBits: f.dataBits, Parity: f.parity, StopBits: f.stopBits}
 	return cfg, nil
 }
 
@@ -110,7 +111,7 @@ func runRecord(ctx context.Context, f recordFlags, stderr io.Writer) error {
 	ctx, stop := signal.NotifyContext(ctx, os.Interrupt, syscall.SIGTERM)
 	defer stop()
 
-	link := telemetry.Dial(cfg, telemetry.LinkOptions{
+	link := wire.Dial(cfg, wire.LinkOptions{
 		Record:      out,
 		RecordAttrs: []string{"tool=caploop-record"},
 		FailFirst:   !f.wait,
@@ -183,7 +184,7 @@ type recordStatus struct {
 	w       io.Writer
 	tty     bool
 	quiet   bool
-	cfg     telemetry.SerialConfig
+	cfg     wire.SerialConfig
 	out     string
 	start   time.Time
 	onLine  bool // a status line is on screen and must be ended before other output
@@ -191,7 +192,7 @@ type recordStatus struct {
 	lastLen int
 }
 
-func newRecordStatus(w io.Writer, f recordFlags, cfg telemetry.SerialConfig) *recordStatus {
+func newRecordStatus(w io.Writer, f recordFlags, cfg wire.SerialConfig) *recordStatus {
 	tty := false
 	if fd, ok := w.(interface{ Fd() uintptr }); ok {
 		tty = term.IsTerminal(int(fd.Fd()))
@@ -211,29 +212,29 @@ func (s *recordStatus) printf(format string, a ...any) {
 }
 
 // events prints the host events of a batch and reports whether the board was unplugged.
-func (s *recordStatus) events(b []telemetry.Line) (unplugged bool) {
+func (s *recordStatus) events(b []wire.Line) (unplugged bool) {
 	for _, ln := range b {
 		switch ln.EventKind() {
-		case telemetry.EventConnected:
+		case wire.EventConnected:
 			s.printf("recording %s (%s) to %s; Ctrl-C stops\n", clean(s.cfg.Path), s.cfg, clean(s.out))
-		case telemetry.EventReconnected:
+		case wire.EventReconnected:
 			s.printf("reconnected\n")
-		case telemetry.EventUnplugged:
+		case wire.EventUnplugged:
 			unplugged = true
 			if s.exitOn {
 				s.printf("unplugged\n")
 			} else {
 				s.printf("unplugged; waiting for the board to come back\n")
 			}
-		case telemetry.EventWaiting:
-			s.printf("waiting: %s\n", telemetry.SanitizeN(ln.Raw[len(telemetry.EventWaiting):], 300))
+		case wire.EventWaiting:
+			s.printf("waiting: %s\n", telemetry.SanitizeN(ln.Raw[len(wire.EventWaiting):], 300))
 		}
 	}
 	return unplugged
 }
 
 // status rewrites the status line on a terminal.
-func (s *recordStatus) status(st telemetry.LinkStats) {
+func (s *recordStatus) status(st wire.LinkStats) {
 	if s.quiet || !s.tty {
 		return
 	}

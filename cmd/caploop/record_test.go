@@ -14,6 +14,7 @@ import (
 	"time"
 
 	"github.com/caploop/caploop/telemetry"
+	"github.com/caploop/caploop/telemetry/wire"
 )
 
 // buildCaploop builds the caploop binary into dir and returns its path.
@@ -36,7 +37,7 @@ func buildCaploop(t *testing.T, dir string) string {
 // fakeBoard writes numbered data lines to a pseudo-terminal's master side at about
 // 2000 lines per second, as a running board would, and remembers when each went out.
 type fakeBoard struct {
-	p    *telemetry.PTY
+	p    *wire.PTY
 	stop chan struct{}
 	done chan struct{}
 
@@ -48,7 +49,7 @@ func boardLine(n int) string {
 	return fmt.Sprintf("t=%d n=%d sp=512 pv=%d u=%d", 1000*n, n, 480+n%64, n%3-1)
 }
 
-func startBoard(p *telemetry.PTY, from int) *fakeBoard {
+func startBoard(p *wire.PTY, from int) *fakeBoard {
 	b := &fakeBoard{p: p, stop: make(chan struct{}), done: make(chan struct{}), sent: make([]time.Time, from)}
 	go func() {
 		defer close(b.done)
@@ -204,43 +205,43 @@ func TestRecordCommand(t *testing.T) {
 	tests := []struct {
 		name   string
 		args   []string
-		stop   func(t *testing.T, cmd *exec.Cmd, p *telemetry.PTY)
+		stop   func(t *testing.T, cmd *exec.Cmd, p *wire.PTY)
 		events string // events the capture must hold, in order
 		killed bool   // stopped by SIGKILL: no exit status to check
 	}{
 		{
 			name:   "SIGINT",
-			stop:   func(t *testing.T, cmd *exec.Cmd, p *telemetry.PTY) { cmd.Process.Signal(os.Interrupt) },
+			stop:   func(t *testing.T, cmd *exec.Cmd, p *wire.PTY) { cmd.Process.Signal(os.Interrupt) },
 			events: "connected partial",
 		},
 		{
 			name:   "SIGTERM",
-			stop:   func(t *testing.T, cmd *exec.Cmd, p *telemetry.PTY) { cmd.Process.Signal(syscall.SIGTERM) },
+			stop:   func(t *testing.T, cmd *exec.Cmd, p *wire.PTY) { cmd.Process.Signal(syscall.SIGTERM) },
 			events: "connected partial",
 		},
 		{
 			name:   "unplug with --exit-on-unplug",
 			args:   []string{"--exit-on-unplug"},
-			stop:   func(t *testing.T, cmd *exec.Cmd, p *telemetry.PTY) { p.Close() },
+			stop:   func(t *testing.T, cmd *exec.Cmd, p *wire.PTY) { p.Close() },
 			events: "connected partial unplugged",
 		},
 		{
 			name:   "--duration",
 			args:   []string{"--duration", "3s"},
-			stop:   func(t *testing.T, cmd *exec.Cmd, p *telemetry.PTY) {},
+			stop:   func(t *testing.T, cmd *exec.Cmd, p *wire.PTY) {},
 			events: "connected partial",
 		},
 		{
 			// SIGKILL gives no chance to flush: what the periodic flush wrote must be there.
 			name:   "SIGKILL",
-			stop:   func(t *testing.T, cmd *exec.Cmd, p *telemetry.PTY) { cmd.Process.Kill() },
+			stop:   func(t *testing.T, cmd *exec.Cmd, p *wire.PTY) { cmd.Process.Kill() },
 			events: "connected partial",
 			killed: true,
 		},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
-			p, err := telemetry.OpenPTY()
+			p, err := wire.OpenPTY()
 			if err != nil {
 				t.Fatalf("OpenPTY: %v", err)
 			}
@@ -317,7 +318,7 @@ func TestRecordKeepsWaitingAfterUnplug(t *testing.T) {
 	dir := t.TempDir()
 	bin := buildCaploop(t, dir)
 	link := filepath.Join(dir, "board")
-	a, err := telemetry.OpenPTY()
+	a, err := wire.OpenPTY()
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -350,7 +351,7 @@ func TestRecordKeepsWaitingAfterUnplug(t *testing.T) {
 	// the first one's recorded lines ended.
 	data, _ := os.ReadFile(out)
 	firstSession := bytes.Count(data, []byte(" < "))
-	b, err := telemetry.OpenPTY()
+	b, err := wire.OpenPTY()
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -12,8 +12,9 @@ import (
 
 	"github.com/spf13/cobra"
 
+	"github.com/caploop/caploop/analysis/loop/virtual"
 	"github.com/caploop/caploop/telemetry"
-	"github.com/caploop/caploop/telemetry/virtual"
+	"github.com/caploop/caploop/telemetry/wire"
 )
 
 func init() { commands = append(commands, newSimCmd) }
@@ -133,7 +134,7 @@ Values take SI prefixes and units (47k, 4k7, 1u, 100mV, 1ms). Keys:
 			defer stop()
 
 			if usePTY {
-				err := b.Serve(ctx, virtual.ServeOptions{
+				err := wire.Serve(ctx, b, wire.ServeOptions{
 					Link:     link,
 					Ready:    func(path string) { fmt.Fprintln(cmd.OutOrStdout(), path) },
 					WaitOpen: waitOpen,

@@ -12,7 +12,7 @@ import (
 	"fmt"
 	"os"
 
-	"github.com/caploop/caploop/telemetry/virtual"
+	"github.com/caploop/caploop/analysis/loop/virtual"
 )
 
 func main() {

@@ -1,9 +1,13 @@
-package virtual
+//go:build unix
+
+package wire_test
 
 import (
 	"bufio"
+	"bytes"
 	"context"
 	"errors"
+	"fmt"
 	"os"
 	"path/filepath"
 	"strings"
@@ -12,18 +16,19 @@ import (
 
 	"go.bug.st/serial"
 
-	"github.com/caploop/caploop/telemetry"
+	"github.com/caploop/caploop/analysis/loop/virtual"
+	"github.com/caploop/caploop/telemetry/wire"
 )
 
 // serveBoard starts sc on a pseudo-terminal behind a link in a temporary directory and
 // returns the link path; the board stops when the test ends.
-func serveBoard(t *testing.T, sc Scenario, speed float64) (string, *Board) {
+func serveBoard(t *testing.T, sc virtual.Scenario, speed float64) (string, *virtual.Board) {
 	return serveBoardOpt(t, sc, speed, false)
 }
 
-func serveBoardOpt(t *testing.T, sc Scenario, speed float64, waitOpen bool) (string, *Board) {
+func serveBoardOpt(t *testing.T, sc virtual.Scenario, speed float64, waitOpen bool) (string, *virtual.Board) {
 	t.Helper()
-	b, err := NewBoard(sc)
+	b, err := virtual.NewBoard(sc)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -33,7 +38,7 @@ func serveBoardOpt(t *testing.T, sc Scenario, speed float64, waitOpen bool) (str
 	done := make(chan error, 1)
 	link := filepath.Join(t.TempDir(), "board")
 	go func() {
-		done <- b.Serve(ctx, ServeOptions{Link: link, Ready: func(p string) { ready <- p }, WaitOpen: waitOpen})
+		done <- wire.Serve(ctx, b, wire.ServeOptions{Link: link, Ready: func(p string) { ready <- p }, WaitOpen: waitOpen})
 	}()
 	t.Cleanup(func() {
 		cancel()
@@ -100,13 +105,13 @@ func nextLine(t *testing.T, ch <-chan string) string {
 // data lines from the device path, writes `set deadband=9`, gets the meta answer and sees
 // the loop hold with errors of up to 9 counts, which the old deadband of 4 forbids.
 func TestServeSetDeadband(t *testing.T) {
-	sc := DefaultScenario()
+	sc := virtual.DefaultScenario()
 	path, _ := serveBoard(t, sc, 4)
 	port, lines := portLines(t, path)
 
 	checkRule := func(l string, db int) (hold bool, e int) {
 		t.Helper()
-		d, ok := parseData(l)
+		d, ok := boardLine(l)
 		if !ok {
 			t.Fatalf("not a data line: %q", l)
 		}
@@ -162,7 +167,7 @@ func TestServeSetDeadband(t *testing.T) {
 // TestServeUnplugReplug: an unplug closes the port under the reader and removes the path;
 // the re-plug brings the same path back, and the board boots again.
 func TestServeUnplugReplug(t *testing.T) {
-	sc := DefaultScenario()
+	sc := virtual.DefaultScenario()
 	sc.Faults.UnplugAfter = 0.3
 	sc.Faults.ReplugAfter = 0.4
 	sc.Faults.BootTime = 0.3 // time to reopen the port before the banner
@@ -193,14 +198,14 @@ func TestServeUnplugReplug(t *testing.T) {
 		time.Sleep(10 * time.Millisecond)
 	}
 	_, lines = portLines(t, path)
-	want := []string{Banner, "# vref=5 adc_bits=10 period_us=1000 mode=three-state deadband=4"}
+	want := []string{virtual.Banner, "# vref=5 adc_bits=10 period_us=1000 mode=three-state deadband=4"}
 	for i, w := range want {
 		if l := nextLine(t, lines); l != w {
 			t.Fatalf("line %d after re-plug = %q, want %q", i+1, l, w)
 		}
 	}
 	nextLine(t, lines) // parts meta line
-	d, ok := parseData(nextLine(t, lines))
+	d, ok := boardLine(nextLine(t, lines))
 	if !ok || d.t != 0 || d.n != 0 {
 		t.Errorf("first data line after re-plug = %+v, want t=0 n=0", d)
 	}
@@ -208,8 +213,8 @@ func TestServeUnplugReplug(t *testing.T) {
 
 // TestStreamSend drives the in-process stream the demo screen uses.
 func TestStreamSend(t *testing.T) {
-	sc := DefaultScenario()
-	b, err := NewBoard(sc)
+	sc := virtual.DefaultScenario()
+	b, err := virtual.NewBoard(sc)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -237,7 +242,7 @@ func TestStreamSend(t *testing.T) {
 	}
 	// Two-state never holds.
 	for i := 0; i < 200 && s.Scan(); i++ {
-		if d, ok := parseData(s.Text()); !ok || d.u == 0 {
+		if d, ok := boardLine(s.Text()); !ok || d.u == 0 {
 			t.Fatalf("line %q after mode=two-state: want a data line with u=+-1", s.Text())
 		}
 	}
@@ -249,19 +254,19 @@ func TestStreamSend(t *testing.T) {
 // TestServePTY serves a caller's telemetry.PTY: set commands work through it, and a
 // scenario unplug closes it and ends ServePTY.
 func TestServePTY(t *testing.T) {
-	p, err := telemetry.OpenPTY()
+	p, err := wire.OpenPTY()
 	if err != nil {
 		t.Fatal(err)
 	}
-	sc := DefaultScenario()
+	sc := virtual.DefaultScenario()
 	sc.Faults.UnplugAfter = 1.5
-	b, err := NewBoard(sc)
+	b, err := virtual.NewBoard(sc)
 	if err != nil {
 		t.Fatal(err)
 	}
 	b.Speed = 2
 	done := make(chan error, 1)
-	go func() { done <- b.ServePTY(context.Background(), p) }()
+	go func() { done <- wire.ServePTY(context.Background(), b, p) }()
 	_, lines := portLines(t, p.Path())
 	for data := 0; data < 50; {
 		if strings.HasPrefix(nextLine(t, lines), "t=") {
@@ -290,12 +295,20 @@ func TestServePTY(t *testing.T) {
 // board writes, garbage included (raw mode: no signal characters, no CR/LF translation,
 // no erase), from the boot (WaitOpen) to the end of a limited run.
 func TestServeBytesExact(t *testing.T) {
-	sc := DefaultScenario()
+	sc := virtual.DefaultScenario()
 	sc.Samples = 600
 	sc.Faults.GarbageEvery = 0.05
-	want, _ := runBoard(t, sc)
+	ref, err := virtual.NewBoard(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var wantBuf bytes.Buffer
+	if err := ref.Run(context.Background(), &wantBuf, false); err != nil {
+		t.Fatal(err)
+	}
+	want := wantBuf.String()
 
-	b, err := NewBoard(sc)
+	b, err := virtual.NewBoard(sc)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -304,7 +317,7 @@ func TestServeBytesExact(t *testing.T) {
 	ready := make(chan string, 1)
 	done := make(chan error, 1)
 	go func() {
-		done <- b.Serve(context.Background(), ServeOptions{Link: link, Ready: func(p string) { ready <- p }, WaitOpen: true})
+		done <- wire.Serve(context.Background(), b, wire.ServeOptions{Link: link, Ready: func(p string) { ready <- p }, WaitOpen: true})
 	}()
 	p, err := serial.Open(<-ready, &serial.Mode{BaudRate: 115200})
 	if err != nil {
@@ -326,4 +339,14 @@ func TestServeBytesExact(t *testing.T) {
 	if string(got) != want {
 		t.Errorf("read %d bytes; want the %d bytes of a fast run of the same scenario", len(got), len(want))
 	}
+}
+
+// dataLine is one data line of the virtual board.
+type dataLine struct{ t, n, sp, pv, u int }
+
+// boardLine reads a data line in the exact form the virtual board writes it.
+func boardLine(l string) (dataLine, bool) {
+	var d dataLine
+	n, err := fmt.Sscanf(l, "t=%d n=%d sp=%d pv=%d u=%d", &d.t, &d.n, &d.sp, &d.pv, &d.u)
+	return d, err == nil && n == 5 && strings.Count(l, " ") == 4
 }

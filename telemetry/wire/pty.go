@@ -1,4 +1,6 @@
-package telemetry
+//go:build unix
+
+package wire
 
 import (
 	"errors"

@@ -31,7 +31,7 @@ func TestTestdataUpToDate(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		want, err := os.ReadFile(filepath.Join("..", "..", "testdata", f.Name()))
+		want, err := os.ReadFile(filepath.Join("..", "..", "..", "testdata", f.Name()))
 		if err != nil {
 			t.Errorf("%s: %v (run go run ./testdata/gen from the module root)", f.Name(), err)
 			continue

@@ -1,4 +1,6 @@
-package telemetry
+//go:build unix
+
+package wire
 
 import (
 	"bufio"
@@ -11,6 +13,8 @@ import (
 	"sync"
 	"testing"
 	"time"
+
+	"github.com/caploop/caploop/telemetry"
 )
 
 // lineWatcher collects a Link's batches in the background.
@@ -55,9 +59,9 @@ func (w *lineWatcher) summary() string {
 	var ev []string
 	nb := 0
 	for _, ln := range w.lines {
-		if ln.Dir == HostEvent {
+		if ln.Dir == telemetry.HostEvent {
 			ev = append(ev, string(ln.Raw))
-		} else if ln.Dir == FromBoard {
+		} else if ln.Dir == telemetry.FromBoard {
 			nb++
 		}
 	}
@@ -77,7 +81,7 @@ func countEvents(lines []Line, kind string) int {
 func boardLines(lines []Line) []string {
 	var out []string
 	for _, ln := range lines {
-		if ln.Dir == FromBoard {
+		if ln.Dir == telemetry.FromBoard {
 			out = append(out, string(ln.Raw))
 		}
 	}
@@ -198,15 +202,15 @@ func TestLinkUnplugReplug(t *testing.T) {
 	var recEvents []string
 	for _, r := range recs {
 		switch r.dir {
-		case FromBoard:
+		case telemetry.FromBoard:
 			recBoard = append(recBoard, r.raw)
-		case HostEvent:
+		case telemetry.HostEvent:
 			// A "waiting" event may come from a pty number reused by the kernel and opened
 			// before it is unlocked (EIO); it is informational, so the order check skips it.
 			if k := strings.Fields(r.raw)[0]; k != EventWaiting {
 				recEvents = append(recEvents, k)
 			}
-		case ToBoard:
+		case telemetry.ToBoard:
 			if r.raw != "set deadband=14" {
 				t.Errorf("recorded command %q", r.raw)
 			}
@@ -225,7 +229,7 @@ func TestLinkUnplugReplug(t *testing.T) {
 // documented format (the Scanner is tested elsewhere).
 type captureRecord struct {
 	at  time.Duration
-	dir Direction
+	dir telemetry.Direction
 	raw string
 }
 
@@ -233,7 +237,7 @@ type captureRecord struct {
 // "<seconds with 6 decimals> <dir> <raw>", each ending in a newline, times not decreasing.
 func parseCaptureForTest(t *testing.T, s string) []captureRecord {
 	t.Helper()
-	if !strings.HasPrefix(s, CaptureMagic+" v1 start=") {
+	if !strings.HasPrefix(s, telemetry.CaptureMagic+" v1 start=") {
 		t.Fatalf("capture header: got %q", strings.SplitN(s, "\n", 2)[0])
 	}
 	if !strings.HasSuffix(s, "\n") {
@@ -260,12 +264,12 @@ func parseCaptureForTest(t *testing.T, s string) []captureRecord {
 			t.Errorf("capture line %d: time goes back (%v after %v)", i+2, at, last)
 		}
 		last = at
-		switch Direction(dir) {
-		case FromBoard, ToBoard, HostEvent:
+		switch telemetry.Direction(dir) {
+		case telemetry.FromBoard, telemetry.ToBoard, telemetry.HostEvent:
 		default:
 			t.Fatalf("capture line %d: direction %q", i+2, dir)
 		}
-		out = append(out, captureRecord{at, Direction(dir), raw})
+		out = append(out, captureRecord{at, telemetry.Direction(dir), raw})
 	}
 	return out
 }
@@ -329,7 +333,7 @@ func TestLinkNeverBlocksOnConsumer(t *testing.T) {
 	}
 	var got int
 	for _, r := range parseCaptureForTest(t, rec.String()) {
-		if r.dir == FromBoard {
+		if r.dir == telemetry.FromBoard {
 			if want := dataLine(got); r.raw != want {
 				t.Fatalf("recorded line %d: got %q, want %q", got, r.raw, want)
 			}
@@ -435,21 +439,21 @@ func TestLinkRecordPath(t *testing.T) {
 	if err := l.Close(); err != nil {
 		t.Fatalf("Close: %v", err)
 	}
-	src, err := OpenFile(path)
+	src, err := telemetry.OpenFile(path)
 	if err != nil {
 		t.Fatal(err)
 	}
 	defer src.Close()
-	sc := NewScanner(src)
+	sc := telemetry.NewScanner(src)
 	var samples, events int
 	for sc.Scan() {
 		switch sc.Kind() {
-		case RecSample:
+		case telemetry.RecSample:
 			samples++
-			if !sc.Sample().Has(HasHost) {
+			if !sc.Sample().Has(telemetry.HasHost) {
 				t.Error("replayed sample without host time")
 			}
-		case RecEvent:
+		case telemetry.RecEvent:
 			events++
 		}
 	}
@@ -461,7 +465,7 @@ func TestLinkRecordPath(t *testing.T) {
 	if samples != 2 || events != 1 {
 		t.Errorf("replay: %d samples, %d events; want 2 and 1 (connected)", samples, events)
 	}
-	if m := sc.Meta(); !m.Has(FieldVref) || m.Vref != 5 || m.Period != 1e-3 {
+	if m := sc.Meta(); !m.Has(telemetry.FieldVref) || m.Vref != 5 || m.Period != 1e-3 {
 		t.Errorf("replay meta = %+v, want vref 5 V and period 1 ms from the first line", m)
 	}
 	head, _ := os.ReadFile(path)
@@ -504,7 +508,7 @@ func BenchmarkLinkPTY(b *testing.B) {
 	got := 0
 	for got < b.N {
 		for _, ln := range <-l.Batches() {
-			if ln.Dir == FromBoard {
+			if ln.Dir == telemetry.FromBoard {
 				got++
 			}
 		}

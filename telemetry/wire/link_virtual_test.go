@@ -1,4 +1,6 @@
-package telemetry_test
+//go:build unix
+
+package wire_test
 
 import (
 	"context"
@@ -7,8 +9,9 @@ import (
 	"testing"
 	"time"
 
+	"github.com/caploop/caploop/analysis/loop/virtual"
 	"github.com/caploop/caploop/telemetry"
-	"github.com/caploop/caploop/telemetry/virtual"
+	"github.com/caploop/caploop/telemetry/wire"
 )
 
 // TestLinkOnVirtualBoard runs a Link on the virtual board served on a pseudo-terminal
@@ -31,7 +34,7 @@ func TestLinkOnVirtualBoard(t *testing.T) {
 	ready := make(chan string, 1)
 	served := make(chan error, 1)
 	go func() {
-		served <- b.Serve(ctx, virtual.ServeOptions{Link: path, Ready: func(p string) { ready <- p }})
+		served <- wire.Serve(ctx, b, wire.ServeOptions{Link: path, Ready: func(p string) { ready <- p }})
 	}()
 	defer func() {
 		cancel()
@@ -49,7 +52,7 @@ func TestLinkOnVirtualBoard(t *testing.T) {
 		t.Fatal("virtual board never became ready")
 	}
 
-	l := telemetry.Dial(telemetry.SerialConfig{Path: path}, telemetry.LinkOptions{Poll: 50 * time.Millisecond})
+	l := wire.Dial(wire.SerialConfig{Path: path}, wire.LinkOptions{Poll: 50 * time.Millisecond})
 	defer l.Close()
 	var p telemetry.Parser
 	var events []string
@@ -66,13 +69,13 @@ func TestLinkOnVirtualBoard(t *testing.T) {
 			for _, ln := range batch {
 				switch ln.Dir {
 				case telemetry.HostEvent:
-					if k := ln.EventKind(); k != telemetry.EventWaiting && k != telemetry.EventPartial {
+					if k := ln.EventKind(); k != wire.EventWaiting && k != wire.EventPartial {
 						events = append(events, k)
 					}
 				case telemetry.FromBoard:
 					rec := p.Parse(ln.Raw, 0, false)
 					if rec.Kind == telemetry.RecSample {
-						if strings.Contains(strings.Join(events, " "), telemetry.EventReconnected) {
+						if strings.Contains(strings.Join(events, " "), wire.EventReconnected) {
 							after++
 						} else {
 							before++

@@ -1,4 +1,6 @@
-package virtual
+//go:build unix
+
+package wire
 
 import (
 	"context"
@@ -12,25 +14,10 @@ import (
 	"syscall"
 	"time"
 
-	"github.com/caploop/caploop/telemetry"
 	"github.com/creack/pty"
 	"golang.org/x/sys/unix"
 	"golang.org/x/term"
 )
-
-// ServeOptions configure Serve.
-type ServeOptions struct {
-	// Link is the stable device path: a symbolic link that always points at the current
-	// pseudo-terminal, so a re-plugged board (a new pseudo-terminal) appears at the same
-	// path. Empty means "tty" in a new temporary directory, removed when Serve returns.
-	Link string
-	// Ready, when set, is called once with the device path as soon as it can be opened.
-	Ready func(path string)
-	// WaitOpen holds the board in reset until a program first opens the device, as
-	// boards that reset when the port opens do: the first reader sees the boot banner
-	// and every line after it.
-	WaitOpen bool
-}
 
 // Serve runs the board in real time on a pseudo-terminal, as if it were on USB: any
 // serial program can open the device path, read the board's lines and write `set` lines
@@ -41,13 +28,13 @@ type ServeOptions struct {
 //
 // While no program has the device open, the board's output is dropped, as a USB serial
 // device's would be; a program that opens it reads fresh lines, not stale ones.
-func (b *Board) Serve(ctx context.Context, opt ServeOptions) error {
+func Serve(ctx context.Context, b Device, opt ServeOptions) error {
 	link := opt.Link
 	tmpDir := ""
 	if link == "" {
 		d, err := os.MkdirTemp("", "caploop-sim-")
 		if err != nil {
-			return fmt.Errorf("virtual: %w", err)
+			return fmt.Errorf("wire: %w", err)
 		}
 		tmpDir = d
 		link = filepath.Join(d, "tty")
@@ -55,7 +42,7 @@ func (b *Board) Serve(ctx context.Context, opt ServeOptions) error {
 		link = abs
 	}
 	if fi, err := os.Lstat(link); err == nil && fi.Mode()&os.ModeSymlink == 0 {
-		return fmt.Errorf("virtual: %s exists and is not a symbolic link; choose another --link", link)
+		return fmt.Errorf("wire: %s exists and is not a symbolic link; choose another --link", link)
 	}
 	s := &ptyServer{board: b, link: link}
 	defer func() {
@@ -68,7 +55,7 @@ func (b *Board) Serve(ctx context.Context, opt ServeOptions) error {
 			os.RemoveAll(tmpDir)
 		}
 	}()
-	if err := s.replug(); err != nil {
+	if err := s.Replug(); err != nil {
 		return err
 	}
 	if opt.Ready != nil {
@@ -97,7 +84,7 @@ func (b *Board) Serve(ctx context.Context, opt ServeOptions) error {
 
 // ptyServer is the io.Writer (and plugger) that Run writes to while serving.
 type ptyServer struct {
-	board   *Board
+	board   Device
 	link    string
 	conn    *ptyConn // nil while unplugged
 	dropped atomic.Int64
@@ -122,8 +109,8 @@ func (s *ptyServer) Write(p []byte) (int, error) {
 	return len(p), nil
 }
 
-// unplug closes the pseudo-terminal and removes the link.
-func (s *ptyServer) unplug() {
+// Unplug closes the pseudo-terminal and removes the link.
+func (s *ptyServer) Unplug() {
 	if s.conn == nil {
 		return
 	}
@@ -132,9 +119,9 @@ func (s *ptyServer) unplug() {
 	s.conn = nil
 }
 
-// replug opens a new pseudo-terminal and points the link at it.
-func (s *ptyServer) replug() error {
-	s.unplug()
+// Replug opens a new pseudo-terminal and points the link at it.
+func (s *ptyServer) Replug() error {
+	s.Unplug()
 	c, err := openConn(s.board, &s.dropped)
 	if err != nil {
 		return err
@@ -143,12 +130,12 @@ func (s *ptyServer) replug() error {
 	os.Remove(tmp)
 	if err := os.Symlink(c.path, tmp); err != nil {
 		c.close()
-		return fmt.Errorf("virtual: %w", err)
+		return fmt.Errorf("wire: %w", err)
 	}
 	if err := os.Rename(tmp, s.link); err != nil {
 		os.Remove(tmp)
 		c.close()
-		return fmt.Errorf("virtual: %w", err)
+		return fmt.Errorf("wire: %w", err)
 	}
 	s.conn = c
 	return nil
@@ -167,15 +154,15 @@ type ptyConn struct {
 
 // openConn opens a pseudo-terminal in raw mode (no echo, no line editing, no signals)
 // and starts serving it.
-func openConn(b *Board, dropped *atomic.Int64) (*ptyConn, error) {
+func openConn(b Device, dropped *atomic.Int64) (*ptyConn, error) {
 	m, sl, err := pty.Open()
 	if err != nil {
-		return nil, fmt.Errorf("virtual: open pseudo-terminal: %w", err)
+		return nil, fmt.Errorf("wire: open pseudo-terminal: %w", err)
 	}
 	defer sl.Close()
 	defer m.Close()
 	if _, err := term.MakeRaw(int(sl.Fd())); err != nil {
-		return nil, fmt.Errorf("virtual: raw mode: %w", err)
+		return nil, fmt.Errorf("wire: raw mode: %w", err)
 	}
 	return newConn(m, sl.Name(), b, dropped)
 }
@@ -184,15 +171,15 @@ func openConn(b *Board, dropped *atomic.Int64) (*ptyConn, error) {
 // a non-blocking duplicate of m: creack/pty leaves the master in blocking mode, where
 // Close does not interrupt a Read or a Write; the duplicate goes through the runtime
 // poller instead. The caller keeps (and closes) m.
-func newConn(m *os.File, path string, b *Board, dropped *atomic.Int64) (*ptyConn, error) {
+func newConn(m *os.File, path string, b Device, dropped *atomic.Int64) (*ptyConn, error) {
 	fd, err := unix.Dup(int(m.Fd()))
 	if err != nil {
-		return nil, fmt.Errorf("virtual: %w", err)
+		return nil, fmt.Errorf("wire: %w", err)
 	}
 	unix.CloseOnExec(fd)
 	if err := unix.SetNonblock(fd, true); err != nil {
 		unix.Close(fd)
-		return nil, fmt.Errorf("virtual: %w", err)
+		return nil, fmt.Errorf("wire: %w", err)
 	}
 	c := &ptyConn{master: os.NewFile(uintptr(fd), "/dev/ptmx"), path: path, out: make(chan []byte, 256), wdone: make(chan struct{})}
 	c.wg.Add(2)
@@ -262,7 +249,7 @@ func (c *ptyConn) writer(dropped *atomic.Int64) {
 
 // reader hands every line the host writes to the board. Lines longer than 512 bytes are
 // cut. While no program has the device open the master reads EIO; it waits and retries.
-func (c *ptyConn) reader(b *Board) {
+func (c *ptyConn) reader(b Device) {
 	defer c.wg.Done()
 	buf := make([]byte, 1024)
 	var line []byte
@@ -288,12 +275,12 @@ func (c *ptyConn) reader(b *Board) {
 }
 
 // ServePTY runs the board in real time on a pseudo-terminal the caller opened with
-// telemetry.OpenPTY (the caller tells its users p.Path()). Host lines written to the
+// OpenPTY (the caller tells its users p.Path()). Host lines written to the
 // slave side are read from the master and answered. Output the terminal cannot take (no
 // program reading) is dropped rather than stalling the board. A scenario unplug closes p
 // and ServePTY returns nil, since a re-plug needs a new pseudo-terminal (Serve does
 // that). ServePTY also returns nil when ctx ends, and closes p either way.
-func (b *Board) ServePTY(ctx context.Context, p *telemetry.PTY) error {
+func ServePTY(ctx context.Context, b Device, p *PTY) error {
 	defer p.Close()
 	w := &fixedPTY{p: p}
 	c, err := newConn(p.Master(), p.Path(), b, &w.dropped)
@@ -301,7 +288,7 @@ func (b *Board) ServePTY(ctx context.Context, p *telemetry.PTY) error {
 		return err
 	}
 	w.conn = c
-	defer w.unplug()
+	defer w.Unplug()
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
 	w.cancel = cancel
@@ -315,7 +302,7 @@ func (b *Board) ServePTY(ctx context.Context, p *telemetry.PTY) error {
 // fixedPTY is the writer of ServePTY: the caller's pseudo-terminal, which can be
 // unplugged but not plugged in again.
 type fixedPTY struct {
-	p       *telemetry.PTY
+	p       *PTY
 	conn    *ptyConn // nil once unplugged
 	cancel  context.CancelFunc
 	dropped atomic.Int64
@@ -333,7 +320,7 @@ func (w *fixedPTY) Write(b []byte) (int, error) {
 	return len(b), nil
 }
 
-func (w *fixedPTY) unplug() {
+func (w *fixedPTY) Unplug() {
 	if w.conn != nil {
 		w.conn.close()
 		w.conn = nil
@@ -342,4 +329,4 @@ func (w *fixedPTY) unplug() {
 	}
 }
 
-func (w *fixedPTY) replug() error { return nil }
+func (w *fixedPTY) Replug() error { return nil }

@@ -1,4 +1,6 @@
-package telemetry
+//go:build unix
+
+package wire
 
 import (
 	"bufio"
@@ -8,6 +10,8 @@ import (
 	"path/filepath"
 	"testing"
 	"time"
+
+	"github.com/caploop/caploop/telemetry"
 )
 
 // TestPTYRawNoEcho checks the slave is raw: bytes the board writes are not echoed back to
@@ -94,7 +98,7 @@ func TestPTYSymlink(t *testing.T) {
 
 // openPTYSerial opens a pseudo-terminal and the serial source on its slave path; both are
 // closed when the test ends (closing the source twice is harmless).
-func openPTYSerial(t *testing.T) (*PTY, Source) {
+func openPTYSerial(t *testing.T) (*PTY, telemetry.Source) {
 	t.Helper()
 	p, err := OpenPTY()
 	if err != nil {

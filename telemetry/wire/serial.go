@@ -1,4 +1,4 @@
-package telemetry
+package wire
 
 import (
 	"bytes"
@@ -11,6 +11,7 @@ import (
 	"sync/atomic"
 	"syscall"
 
+	"github.com/caploop/caploop/telemetry"
 	"go.bug.st/serial"
 )
 
@@ -228,7 +229,7 @@ type SerialSource struct {
 // OpenSerial opens the serial port cfg.Path with cfg's settings. The returned Source is a
 // *SerialSource. Errors are *SerialError values that say what to do: port not found, busy
 // (another program holds it), no permission (the dialout group hint), not a serial port.
-func OpenSerial(cfg SerialConfig) (Source, error) {
+func OpenSerial(cfg SerialConfig) (telemetry.Source, error) {
 	p, err := openPort(cfg)
 	if err != nil {
 		return nil, err

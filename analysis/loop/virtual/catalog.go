@@ -408,15 +408,15 @@ func GenerateTestdata(dir string) error {
 
 const readmeHead = `# Demo and test captures
 
-Everything in this directory is made by the virtual board (package telemetry/virtual)
+Everything in this directory is made by the virtual board (package analysis/loop/virtual)
 from fixed scenarios and seeds. Do not edit the files by hand; regenerate them from the
 module root with
 
     go run ./testdata/gen
 
-(or ` + "`go generate ./telemetry/virtual`" + `, which runs the same command).
-The generator writes the same bytes every time (a test in telemetry/virtual checks that
-these files match a fresh run). Change a scenario in telemetry/virtual/catalog.go, run the
+(or ` + "`go generate ./analysis/loop/virtual`" + `, which runs the same command).
+The generator writes the same bytes every time (a test in analysis/loop/virtual checks that
+these files match a fresh run). Change a scenario in analysis/loop/virtual/catalog.go, run the
 command, and commit the files together with the change.
 
 Files ending in .txt are plain telemetry, exactly the bytes a board would send; files

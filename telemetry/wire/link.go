@@ -1,4 +1,4 @@
-package telemetry
+package wire
 
 import (
 	"bytes"
@@ -9,6 +9,8 @@ import (
 	"sync"
 	"syscall"
 	"time"
+
+	"github.com/caploop/caploop/telemetry"
 )
 
 // Line is one line of a live link: a line the board sent (Dir FromBoard), a command the
@@ -17,14 +19,14 @@ import (
 // sanitise it before showing it. Host is the time the line was received or sent.
 type Line struct {
 	Host time.Time
-	Dir  Direction
+	Dir  telemetry.Direction
 	Raw  []byte
 }
 
 // EventKind returns the first word of a HostEvent line ("unplugged", "reconnected", ...)
 // and "" for other lines.
 func (ln Line) EventKind() string {
-	if ln.Dir != HostEvent {
+	if ln.Dir != telemetry.HostEvent {
 		return ""
 	}
 	if i := bytes.IndexByte(ln.Raw, ' '); i >= 0 {
@@ -116,7 +118,7 @@ type Link struct {
 	port   io.ReadWriteCloser
 
 	recMu    sync.Mutex
-	rec      *CaptureWriter
+	rec      *telemetry.CaptureWriter
 	recSync  interface{ Sync() error }
 	recFile  *os.File
 	recDirty bool
@@ -207,10 +209,10 @@ func (l *Link) Send(cmd string) error {
 	}
 	// The command is delivered (and recorded) before it is written, so that it always
 	// comes before the board's answer, which the reader may see as soon as it is written.
-	l.deliver([]Line{{Host: time.Now(), Dir: ToBoard, Raw: []byte(cmd)}})
+	l.deliver([]Line{{Host: time.Now(), Dir: telemetry.ToBoard, Raw: []byte(cmd)}})
 	if _, err := l.port.Write([]byte(cmd + "\n")); err != nil {
 		err = readError(l.cfg.Path, "write", err)
-		l.deliver([]Line{{Host: time.Now(), Dir: HostEvent, Raw: []byte("send failed: " + SanitizeN([]byte(err.Error()), 200))}})
+		l.deliver([]Line{{Host: time.Now(), Dir: telemetry.HostEvent, Raw: []byte("send failed: " + telemetry.SanitizeN([]byte(err.Error()), 200))}})
 		return err
 	}
 	l.mu.Lock()
@@ -393,7 +395,7 @@ func (l *Link) readLoop(p io.Reader, buf []byte) (int64, error) {
 					case skipped == 0:
 					case skipped <= l.opt.MaxLine && wholeRecord(head):
 						// The port opened at a line start: the first line is whole.
-						lines = append(lines, Line{Host: now, Dir: FromBoard, Raw: bytes.Clone(head)})
+						lines = append(lines, Line{Host: now, Dir: telemetry.FromBoard, Raw: bytes.Clone(head)})
 						l.mu.Lock()
 						l.stats.Lines++
 						l.mu.Unlock()
@@ -401,7 +403,7 @@ func (l *Link) readLoop(p io.Reader, buf []byte) (int64, error) {
 						l.mu.Lock()
 						l.stats.Partial++
 						l.mu.Unlock()
-						lines = append(lines, Line{Host: now, Dir: HostEvent,
+						lines = append(lines, Line{Host: now, Dir: telemetry.HostEvent,
 							Raw: fmt.Appendf(nil, "%s %d bytes", EventPartial, skipped)})
 					}
 				}
@@ -415,7 +417,7 @@ func (l *Link) readLoop(p io.Reader, buf []byte) (int64, error) {
 			}
 			if i >= 0 {
 				raw := bytes.TrimSuffix(cur, []byte{'\r'})
-				lines = append(lines, Line{Host: now, Dir: FromBoard, Raw: bytes.Clone(raw)})
+				lines = append(lines, Line{Host: now, Dir: telemetry.FromBoard, Raw: bytes.Clone(raw)})
 				l.mu.Lock()
 				l.stats.Lines++
 				if cut {
@@ -439,7 +441,7 @@ func (l *Link) readLoop(p io.Reader, buf []byte) (int64, error) {
 
 // event records and delivers a host event line.
 func (l *Link) event(text string) {
-	l.deliver([]Line{{Host: time.Now(), Dir: HostEvent, Raw: []byte(text)}})
+	l.deliver([]Line{{Host: time.Now(), Dir: telemetry.HostEvent, Raw: []byte(text)}})
 }
 
 // deliver records lines and queues them for the consumer without waiting for it. The
@@ -519,7 +521,7 @@ func (l *Link) openRecord() error {
 		fmt.Sprintf("baud=%d", l.cfg.Baud),
 		fmt.Sprintf("framing=%s", frameString(l.cfg)),
 	}, l.opt.RecordAttrs...)
-	cw, err := NewCaptureWriter(w, l.start, attrs...)
+	cw, err := telemetry.NewCaptureWriter(w, l.start, attrs...)
 	if err != nil {
 		if l.recFile != nil {
 			l.recFile.Close()
@@ -605,9 +607,9 @@ func wholeRecord(line []byte) bool {
 	if len(line) == 0 {
 		return false
 	}
-	var p Parser
+	var p telemetry.Parser
 	switch p.Parse(line, 0, false).Kind {
-	case RecSample, RecMeta:
+	case telemetry.RecSample, telemetry.RecMeta:
 		return true
 	}
 	return false

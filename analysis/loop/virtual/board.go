@@ -195,12 +195,12 @@ type timedWriter interface {
 	host(dir telemetry.Direction, text string)
 }
 
-// plugger is a writer that can be unplugged and plugged in again (the pseudo-terminal
-// server). Run calls unplug when the scenario unplugs the board and replug when it comes
-// back; other writers just see silence in between.
-type plugger interface {
-	unplug()
-	replug() error
+// Plugger is a writer that can be unplugged and plugged in again (a pseudo-terminal
+// server such as wire.Serve). Run calls Unplug when the scenario unplugs the board and
+// Replug when it comes back; other writers just see silence in between.
+type Plugger interface {
+	Unplug()
+	Replug() error
 }
 
 // Run powers the board up and writes its output to w: the banner and meta lines, then one
@@ -362,11 +362,11 @@ func (b *Board) tick(w io.Writer) error {
 	case stateOff:
 		b.idle()
 		if b.now >= b.until-eps {
-			if p, ok := w.(plugger); ok {
+			if p, ok := w.(Plugger); ok {
 				if err := b.flush(w); err != nil {
 					return err
 				}
-				if err := p.replug(); err != nil {
+				if err := p.Replug(); err != nil {
 					return err
 				}
 			}
@@ -396,11 +396,11 @@ func (b *Board) tick(w io.Writer) error {
 			}
 			b.tw.host(telemetry.HostEvent, "unplugged")
 		}
-		if p, ok := w.(plugger); ok {
+		if p, ok := w.(Plugger); ok {
 			if err := b.flush(w); err != nil {
 				return err
 			}
-			p.unplug()
+			p.Unplug()
 		}
 		replug := f.ReplugAfter
 		if replug == 0 {

@@ -5,7 +5,7 @@ import (
 	"fmt"
 	"os"
 
-	"github.com/caploop/caploop/telemetry/virtual"
+	"github.com/caploop/caploop/analysis/loop/virtual"
 )
 
 // A board of the demo scenario with a wider deadband, five samples as fast as possible.
