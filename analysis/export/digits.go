@@ -54,7 +54,7 @@ func appendFixed(dst []byte, v int64, dec int) []byte {
 // the shortest form that reads back exactly ("511.5", "1e-07").
 func appendCounts(dst []byte, v float64) []byte {
 	if v == math.Trunc(v) && math.Abs(v) < 1e15 {
-		return strconv.AppendInt(dst, int64(v), 10)
+		return appendInt(dst, int64(v))
 	}
 	return strconv.AppendFloat(dst, v, 'g', -1, 64)
 }

@@ -415,3 +415,23 @@ func TestInputChanged(t *testing.T) {
 		t.Errorf("no samples: %v, want ErrNoSamples", err)
 	}
 }
+
+// TestHeaderQuoting: header cells follow encoding/csv's RFC 4180 quoting, so a channel
+// name with a comma, a quote or a leading space reads back as the same single cell.
+func TestHeaderQuoting(t *testing.T) {
+	l := &export.Layout{Samples: 1, Extras: []string{"x,y", `q"z`, " lead", "=1+1"}}
+	var out bytes.Buffer
+	if _, err := export.Write(&out, telemetry.NewScanner(strings.NewReader("sp=1 pv=2\n")), l, export.Options{}); err != nil {
+		t.Fatal(err)
+	}
+	header, rows := readTable(t, out.Bytes(), false)
+	if !slices.Equal(header, l.Columns()) || len(rows) != 1 || len(rows[0]) != len(header) {
+		t.Fatalf("header %q rows %q, want header %q", header, rows, l.Columns())
+	}
+	if got := header[len(header)-4:]; !slices.Equal(got, []string{"x,y", `q"z`, " lead", "'=1+1"}) {
+		t.Errorf("extra headers %q", got)
+	}
+	if !strings.Contains(out.String(), `"x,y","q""z"," lead"`) {
+		t.Errorf("header line not quoted as RFC 4180 asks: %q", strings.SplitN(out.String(), "\r\n", 2)[0])
+	}
+}

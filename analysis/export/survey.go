@@ -42,6 +42,7 @@ const (
 func Survey(sc *telemetry.Scanner) (*Layout, error) {
 	l := &Layout{}
 	seen := map[string]bool{}
+	var last []string // the extra channel names of the previous sample
 	var flags telemetry.SampleFlags
 	var h0, h1 int64
 	for sc.Scan() {
@@ -71,11 +72,21 @@ func Survey(sc *telemetry.Scanner) (*Layout, error) {
 				l.hostNS = true
 			}
 		}
-		if ex := sc.Extras(); len(ex) > 0 {
-			for _, e := range ex {
-				if !seen[e.Name] {
-					seen[e.Name] = true
-					l.Extras = append(l.Extras, e.Name)
+		if ex := sc.Extras(); len(ex) > 0 || len(last) > 0 {
+			// Lines mostly repeat the previous line's channels: compare with those
+			// (interned names, so equal strings share their bytes) before the map.
+			same := len(ex) == len(last)
+			for i := 0; same && i < len(ex); i++ {
+				same = ex[i].Name == last[i]
+			}
+			if !same {
+				last = last[:0]
+				for _, e := range ex {
+					last = append(last, e.Name)
+					if !seen[e.Name] {
+						seen[e.Name] = true
+						l.Extras = append(l.Extras, e.Name)
+					}
 				}
 			}
 		}
