@@ -50,11 +50,26 @@ func appendFixed(dst []byte, v int64, dec int) []byte {
 	return append(dst, b[i:]...)
 }
 
-// appendCounts appends a count: a whole number as an integer ("512"), anything else in
-// the shortest form that reads back exactly ("511.5", "1e-07").
+// pow10f holds 10^k for k = 0..6, exact in float64.
+var pow10f = [...]float64{1, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6}
+
+// appendCounts appends a number read from the board (a count, an extra channel): a whole
+// number as an integer ("512"), one with at most 6 decimals in the fewest decimals that
+// read back to exactly v ("511.5", "21.25"), anything else in strconv's shortest exact
+// form ("1e-07"). The decimals are checked exactly: for |x| < 2^53, x / 10^d is the
+// correctly rounded quotient, which is what reading "x with d decimals" gives.
 func appendCounts(dst []byte, v float64) []byte {
 	if v == math.Trunc(v) && math.Abs(v) < 1e15 {
 		return appendInt(dst, int64(v))
+	}
+	for d := 1; d < len(pow10f); d++ {
+		x := math.Round(v * pow10f[d])
+		if math.Abs(x) >= 1<<53 {
+			break
+		}
+		if x/pow10f[d] == v {
+			return appendFixed(dst, int64(x), d)
+		}
 	}
 	return strconv.AppendFloat(dst, v, 'g', -1, 64)
 }

@@ -51,10 +51,23 @@ func TestAppendInt(t *testing.T) {
 }
 
 func TestAppendCounts(t *testing.T) {
+	// Every number reads back exactly, however it was written.
+	r := rand.New(rand.NewPCG(3, 4))
+	for range 100000 {
+		v := float64(r.Int64N(2e9)-1e9) / pow10f[r.IntN(7)]
+		if r.IntN(4) == 0 {
+			v = r.NormFloat64() * math.Pow(10, float64(r.IntN(20)-10))
+		}
+		got := string(appendCounts(nil, v))
+		if back, err := strconv.ParseFloat(got, 64); err != nil || back != v {
+			t.Fatalf("appendCounts(%v) = %q reads back as %v", v, got, back)
+		}
+	}
 	for _, c := range []struct {
 		v    float64
 		want string
-	}{{512, "512"}, {-3, "-3"}, {511.5, "511.5"}, {1e-7, "1e-07"}, {1e20, "1e+20"}, {0.1, "0.1"}} {
+	}{{512, "512"}, {-3, "-3"}, {511.5, "511.5"}, {1e-7, "1e-07"}, {1e20, "1e+20"}, {0.1, "0.1"},
+		{-0.5, "-0.5"}, {21.25, "21.25"}, {0.000001, "0.000001"}, {1.0000001, "1.0000001"}} {
 		if got := string(appendCounts(nil, c.v)); got != c.want {
 			t.Errorf("appendCounts(%v) = %q, want %q", c.v, got, c.want)
 		}
