@@ -91,6 +91,18 @@ func TestExportCommand(t *testing.T) {
 	if _, stderr, code := runExportCmd(t, in, "-o", other, "--force"); code != 0 {
 		t.Errorf("--force: exit %d: %s", code, stderr)
 	}
+
+	// A file without samples is unusable input (exit 2); unreadable lines are left out
+	// and counted on standard error.
+	empty := filepath.Join(dir, "empty.txt")
+	os.WriteFile(empty, []byte("# vref=5 adc_bits=10\n"), 0o644)
+	if _, stderr, code := runExportCmd(t, empty); code != 2 || !strings.Contains(stderr, "no samples") {
+		t.Errorf("no samples: exit %d, %q", code, stderr)
+	}
+	if _, stderr, code := runExportCmd(t, capture(t, "dirty-stream.txt"), "-o", filepath.Join(dir, "d.csv")); code != 0 ||
+		!strings.Contains(stderr, "could not be read and were left out") || !strings.Contains(stderr, "rows, 10 columns to") {
+		t.Errorf("dirty stream: exit %d, %q", code, stderr)
+	}
 }
 
 func mustOpen(t *testing.T, p string) *os.File {
