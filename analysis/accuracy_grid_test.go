@@ -1120,3 +1120,57 @@ func (c *capture) holdShare() float64 {
 	}
 	return float64(h) / float64(max(n, 1))
 }
+
+// TestAccuracyTruth checks the suite's own truth against closed forms, so that a gap in
+// the table is the analysis's and not the truth's: the circuit figures against the loop
+// model's Circuit.Tau and Circuit.VInf on every grid case, and the segment truth on an
+// open-loop square wave against the textbook steady ripple of an RC driven at duty D,
+// period P (DOMAIN.md: Vpp = Vs (1-e^(-DP/tau)) (1-e^(-(1-D)P/tau)) / (1-e^(-P/tau))).
+func TestAccuracyTruth(t *testing.T) {
+	for _, g := range grid {
+		p := g.params()
+		ci := loop.Circuit{Supply: p.supply, R: p.r, C: p.c, Load: p.load}
+		vbe := 0.0
+		if p.buffer {
+			ci.Follower = loop.Follower{VBE: followerVBE, Beta: followerBeta, RE: followerRE}
+			vbe = followerVBE
+		}
+		if got, want := tauCharge(p), ci.Tau(loop.Charge); math.Abs(got-want) > 1e-12*want {
+			t.Errorf("%s: tau %g, loop model %g", g.name, got, want)
+		}
+		if got, want := vHigh(p), ci.VInf(loop.Charge)-vbe; math.Abs(got-want) > 1e-12 {
+			t.Errorf("%s: v_high %g, loop model %g", g.name, got, want)
+		}
+	}
+
+	const D, P = 0.3, 20
+	p := plantParams{kind: loop.TwoState, bits: 12, vref: 5, supply: 5, r: 47e3, c: 1e-6, period: 1e-3}
+	cfg := loop.Config{
+		Circuit:    loop.Circuit{Supply: p.supply, R: p.r, C: p.c},
+		ADC:        loop.ADC{Vref: p.vref, Bits: p.bits},
+		Controller: loop.Controller{Kind: loop.OpenDuty, Duty: D, CycleSamples: P},
+		Period:     p.period,
+	}
+	c := &capture{name: "square wave", p: p}
+	err := loop.Run(cfg, nil, 4000, func(st loop.Step) {
+		c.recs = append(c.recs, rec{t: st.T, pv: st.PV, u: st.U, sense: st.Sense})
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	tr := truthOf(c, segSpan{from: 0, to: len(c.recs)})
+	tau := p.r * p.c
+	per := P * p.period
+	want := p.supply * -math.Expm1(-D*per/tau) * -math.Expm1(-(1-D)*per/tau) / -math.Expm1(-per/tau)
+	if math.Abs(tr.nodePP-want) > 1e-9 {
+		t.Errorf("node p-p %.9g V, closed form %.9g V", tr.nodePP, want)
+	}
+	if math.Abs(tr.dutyC-D) > 1e-9 || math.Abs(tr.cycle-per) > 1e-9 || tr.dutyH != 0 {
+		t.Errorf("duty %g (want %g), hold %g, limit cycle %g s (want %g s)", tr.dutyC, D, tr.dutyH, tr.cycle, per)
+	}
+	// Noise-free, a rounding converter reads the level within half an LSB: the measured
+	// p-p is the node p-p within one LSB.
+	if math.Abs(tr.measPP-tr.nodePP) > p.lsb() {
+		t.Errorf("measured p-p %g V against node p-p %g V without noise", tr.measPP, tr.nodePP)
+	}
+}
