@@ -194,7 +194,9 @@ void loop_init(struct loop *lp, const struct loop_board *board, const struct loo
     lp->line_len = 0u;
     lp->line_over = 0u;
     drive_set(LOOP_HOLD);
-    put_str("# reference loop start\n");
+    /* The newline first ends whatever the host read before the start (a boot message,
+     * noise on the line), so the start-up comment reads whole. */
+    put_str("\n# reference loop start\n");
     put_info(lp);
     lp->last_us = micros();
     lp->next_us = lp->last_us + lp->set.period_us; /* the first sample, one period on */

@@ -94,11 +94,19 @@ void drive_set(int8_t u)
     fprintf(plant_out, "d %d\n", (int)u); /* sent with the next reading */
 }
 
+/* Telemetry leaves in chunks, as from a USB serial device: at the end of a line once
+ * FLUSH_BYTES are waiting or FLUSH_US of board time have passed since the last chunk.
+ * Writing every line on its own would make the run as slow as the reader's wake-ups. */
+enum { FLUSH_BYTES = 512, FLUSH_US = 5000 };
+static uint32_t flushed_us;
+
 void byte_write(uint8_t b)
 {
     tx[tx_len++] = b;
-    if (b == '\n' || tx_len == sizeof tx) {
+    if (tx_len == sizeof tx ||
+        (b == '\n' && (tx_len >= FLUSH_BYTES || (uint32_t)(clock_us - flushed_us) >= FLUSH_US))) {
         tx_flush();
+        flushed_us = clock_us;
     }
 }
 

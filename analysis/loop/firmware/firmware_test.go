@@ -1,0 +1,328 @@
+package firmware
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"sync"
+	"testing"
+	"time"
+
+	"github.com/caploop/caploop/analysis/loop"
+	"github.com/caploop/caploop/telemetry"
+)
+
+var (
+	buildOnce sync.Once
+	buildDir  string
+	buildProg string
+	buildErr  error
+)
+
+func TestMain(m *testing.M) {
+	code := m.Run()
+	if buildDir != "" {
+		os.RemoveAll(buildDir)
+	}
+	os.Exit(code)
+}
+
+// build compiles the reference firmware once for the tests, or skips the test: under
+// -short, and when there is no C compiler (a failure when CI=true).
+func build(t *testing.T) string {
+	t.Helper()
+	if testing.Short() {
+		t.Skip("compiles and runs the C reference firmware with cc; skipped with -short")
+	}
+	buildOnce.Do(func() {
+		src, err := FindSource(".")
+		if err != nil {
+			buildErr = err
+			return
+		}
+		if buildDir, buildErr = os.MkdirTemp("", "caploop-firmware-"); buildErr != nil {
+			return
+		}
+		ctx, cancel := context.WithTimeout(context.Background(), time.Minute)
+		defer cancel()
+		buildProg, buildErr = Build(ctx, src, buildDir)
+	})
+	if errors.Is(buildErr, ErrNoCompiler) {
+		if os.Getenv("CI") == "true" {
+			t.Fatalf("CI=true and no C compiler: %v", buildErr)
+		}
+		t.Skipf("no C compiler, firmware in the loop not tested: %v", buildErr)
+	}
+	if buildErr != nil {
+		t.Fatal(buildErr)
+	}
+	return buildProg
+}
+
+// plantConfig is the bench of these tests: a 5 V pin, 47 kΩ and 1 µF (tau 47 ms), a
+// 1 MΩ load that makes the hold droop, a 10-bit converter on the supply, 1 ms samples,
+// three-state with a band of 4 counts, starting from an empty capacitor.
+func plantConfig(noise float64) loop.Config {
+	return loop.Config{
+		Circuit:    loop.Circuit{Supply: 5, R: 47e3, C: 1e-6, Load: 1e6},
+		ADC:        loop.ADC{Vref: 5, Bits: 10, Noise: noise},
+		Controller: loop.Controller{Kind: loop.ThreeState, Deadband: 4},
+		Period:     1e-3,
+		Seed:       7,
+	}
+}
+
+// command is a host line sent while the plant holds the firmware before reading k.
+type command struct {
+	k    int64
+	line string
+}
+
+// script walks the settings the firmware takes: a wider band, two-state, back to
+// three-state at a shorter period, a new setpoint, info, and lines it must refuse.
+var script = []command{
+	{3000, "set deadband=9"},
+	{4500, "set mode=two-state"},
+	{5500, "set mode=three-state period_us=500"},
+	{6500, "set sp=600"},
+	{7000, "info"},
+	{7200, "set deadband=999"},
+	{7300, "reboot now"},
+	{7400, "set sp=600 " + strings.Repeat("x", 80)},
+}
+
+const runSamples = 8000
+
+// fil is what one firmware-in-the-loop run gave: the board's lines as read from the port,
+// and the samples as the plant saw them.
+type fil struct {
+	lines [][]byte
+	steps []loop.Step
+}
+
+// runFirmware runs the firmware on cfg for runSamples readings with the script, reading
+// the port through a telemetry.Link as caploop live does.
+func runFirmware(t *testing.T, prog string, cfg loop.Config) fil {
+	t.Helper()
+	var out fil
+	linkc := make(chan *telemetry.Link, 1)
+	var link *telemetry.Link
+	next := 0
+	rig, err := Start(context.Background(), Options{
+		Program: prog, Plant: cfg, SP: 512, Samples: runSamples,
+		OnStep: func(st loop.Step) { out.steps = append(out.steps, st) },
+		BeforeRead: func(k int64) {
+			if next >= len(script) || script[next].k != k {
+				return
+			}
+			if link == nil {
+				link = <-linkc
+			}
+			if err := link.Send(script[next].line); err != nil {
+				t.Errorf("send %q: %v", script[next].line, err)
+			}
+			next++
+			// Give the line time to reach the firmware's side of the port, so its
+			// effect lands near sample k (the checks find where it landed anyway).
+			time.Sleep(2 * time.Millisecond)
+		},
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer rig.Close()
+	capture := filepath.Join(t.TempDir(), "fil.cap")
+	l := telemetry.Dial(telemetry.SerialConfig{Path: rig.Path()}, telemetry.LinkOptions{Poll: 20 * time.Millisecond, RecordPath: capture})
+	defer l.Close()
+	linkc <- l
+	t0 := time.Now()
+	defer func() { t.Logf("run took %v", time.Since(t0)) }()
+	deadline := time.After(20 * time.Second)
+	lastN := fmt.Sprintf(" n=%d ", runSamples-1)
+	for {
+		select {
+		case batch, ok := <-l.Batches():
+			if !ok {
+				t.Fatalf("link closed: %v", l.Err())
+			}
+			end := false
+			for _, ln := range batch {
+				if ln.Dir == telemetry.FromBoard {
+					out.lines = append(out.lines, append([]byte(nil), ln.Raw...))
+					end = end || bytes.Contains(ln.Raw, []byte(lastN))
+				}
+			}
+			if !end {
+				continue
+			}
+			// The last sample's line: the firmware has ended the run and exited.
+			select {
+			case <-rig.Done():
+			case <-time.After(5 * time.Second):
+				t.Fatal("the firmware did not end after its last sample")
+			}
+			if err := rig.Close(); err != nil {
+				t.Fatal(err)
+			}
+			if st := l.Stats(); st.Dropped != 0 || st.Cut != 0 || st.Partial != 0 {
+				t.Errorf("link lost lines: %+v", st)
+			}
+			return out
+		case <-deadline:
+			t.Fatalf("no end of the run after 20 s; %d lines", len(out.lines))
+		}
+	}
+}
+
+// parsed is one board line with the parser's verdict.
+type parsed struct {
+	rec  telemetry.Record
+	text string
+}
+
+func parseAll(t *testing.T, lines [][]byte) (recs []parsed, samples []int) {
+	t.Helper()
+	var p telemetry.Parser
+	for _, ln := range lines {
+		r := p.Parse(ln, 0, false)
+		if r.Kind == telemetry.RecRejected {
+			t.Errorf("the parser rejects firmware line %q: %v", telemetry.Sanitize(ln), p.LastError())
+		}
+		if r.Kind == telemetry.RecSample {
+			samples = append(samples, len(recs))
+		}
+		recs = append(recs, parsed{rec: r, text: string(ln)})
+	}
+	return recs, samples
+}
+
+// TestFirmwareInTheLoop runs the C reference firmware against the loop model, noise-free
+// and with 0.8 counts of noise, and checks that every drive it chose is the one the
+// model's controller chooses for the same reading under the settings the firmware had
+// announced, through a deadband, mode, period and setpoint change.
+func TestFirmwareInTheLoop(t *testing.T) {
+	prog := build(t)
+	for _, noise := range []float64{0, 0.8} {
+		t.Run(fmt.Sprintf("noise=%g", noise), func(t *testing.T) {
+			t.Parallel()
+			cfg := plantConfig(noise)
+			run := runFirmware(t, prog, cfg)
+			recs, samples := parseAll(t, run.lines)
+			if len(samples) > 0 && len(samples) != runSamples {
+				last := recs[samples[len(samples)-1]].rec.Sample.N
+				t.Logf("last n=%d; last lines %q", last, run.lines[len(run.lines)-3:])
+			}
+			if len(samples) != runSamples || len(run.steps) != runSamples {
+				t.Fatalf("%d data lines and %d plant steps, want %d", len(samples), len(run.steps), runSamples)
+			}
+			replay(t, cfg, recs, samples, run.steps)
+			checkAnswers(t, recs)
+		})
+	}
+}
+
+// replay runs the model's own controller over the run: sample i with the firmware's
+// setpoint, the mode and deadband its meta lines had announced before line i, and the
+// interval to the next sample that its clock shows (which must be the period it
+// announced). Reading and drive must match line for line; the plant's record must
+// match the lines (the firmware reports the drive it set).
+func replay(t *testing.T, cfg loop.Config, recs []parsed, samples []int, steps []loop.Step) {
+	t.Helper()
+	sim, err := loop.New(cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	period := cfg.Period
+	for i, ri := range samples {
+		r := recs[ri].rec
+		s := r.Sample
+		if s.N != int64(i) {
+			t.Fatalf("line %q: n=%d, want %d", recs[ri].text, s.N, i)
+		}
+		if i+1 < len(samples) {
+			nx := recs[samples[i+1]].rec
+			dt := float64(nx.Sample.T-s.T) * 1e-6
+			if math.Abs(dt-nx.Meta.Period) > 1e-9 {
+				t.Fatalf("sample %d: the clock moved %g s, the meta lines say period %g s", i, dt, nx.Meta.Period)
+			}
+			if dt != period {
+				c := sim.Config()
+				c.Period, period = dt, dt
+				if err := sim.SetConfig(c); err != nil {
+					t.Fatal(err)
+				}
+			}
+		}
+		k := loop.Controller{Kind: loop.ThreeState, Deadband: int(r.Meta.Deadband)}
+		if r.Meta.Mode == telemetry.TwoState {
+			k.Kind = loop.TwoState
+		}
+		if err := sim.SetController(k); err != nil {
+			t.Fatal(err)
+		}
+		want := sim.Next(int(s.SP))
+		if int(s.PV) != want.PV || loop.Drive(s.U) != want.U {
+			t.Fatalf("sample %d %q (%v, band %g): the model reads pv=%d and drives u=%d",
+				i, recs[ri].text, r.Meta.Mode, r.Meta.Deadband, want.PV, want.U)
+		}
+		if st := steps[i]; st.PV != want.PV || st.U != want.U || st.K != int64(i) {
+			t.Fatalf("sample %d: the plant saw pv=%d u=%d, the line says pv=%g u=%d", i, st.PV, st.U, s.PV, s.U)
+		}
+	}
+}
+
+// checkAnswers checks what the firmware said to each host line.
+func checkAnswers(t *testing.T, recs []parsed) {
+	t.Helper()
+	var comments, texts []string
+	var metas []telemetry.Record
+	for _, p := range recs {
+		switch {
+		case p.rec.Kind == telemetry.RecMeta:
+			metas = append(metas, p.rec)
+			texts = append(texts, p.text)
+		case strings.HasPrefix(p.text, "#"):
+			comments = append(comments, p.text)
+		}
+	}
+	wantComments := []string{
+		"# reference loop start",
+		"# setpoint 600 held",
+		"# error: deadband wants counts from 0 to a quarter of full scale",
+		"# error: unknown command, want set or info",
+		"# error: line too long",
+	}
+	if strings.Join(comments, "\n") != strings.Join(wantComments, "\n") {
+		t.Errorf("comments:\n%s\nwant:\n%s", strings.Join(comments, "\n"), strings.Join(wantComments, "\n"))
+	}
+	// Boot: two meta lines and accepts; then one answer per accepted set; info: three.
+	want := []string{
+		"# vref=5 adc_bits=10 period_us=1000 mode=three-state deadband=4",
+		"# supply=5 r=47k c=1u load=1M",
+		"# accepts=sp,mode,deadband,period_us",
+		"# deadband=9",
+		"# mode=two-state",
+		"# period_us=500 mode=three-state",
+		"# vref=5 adc_bits=10 period_us=500 mode=three-state deadband=9",
+		"# supply=5 r=47k c=1u load=1M",
+		"# accepts=sp,mode,deadband,period_us",
+	}
+	if strings.Join(texts, "\n") != strings.Join(want, "\n") {
+		t.Fatalf("meta lines:\n%s\nwant:\n%s", strings.Join(texts, "\n"), strings.Join(want, "\n"))
+	}
+	m := metas[len(metas)-1].Meta
+	if m.Vref != 5 || m.ADCBits != 10 || m.Period != 500e-6 || m.Mode != telemetry.ThreeState || m.Deadband != 9 ||
+		m.Supply != 5 || m.R != 47e3 || math.Abs(m.C-1e-6) > 1e-18 || m.Load != 1e6 {
+		t.Errorf("meta after info: %+v", m)
+	}
+	for _, k := range []string{"sp", "mode", "deadband", "period_us"} {
+		if !m.AcceptsKey(k) {
+			t.Errorf("info does not list %q in accepts (%q)", k, m.Accepts)
+		}
+	}
+}
