@@ -13,6 +13,7 @@ import (
 	"testing"
 	"time"
 
+	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/loop"
 	"github.com/caploop/caploop/telemetry"
 )
@@ -222,6 +223,7 @@ func TestFirmwareInTheLoop(t *testing.T) {
 			}
 			replay(t, cfg, recs, samples, run.steps)
 			checkAnswers(t, recs)
+			checkSummary(t, cfg, recs, samples)
 		})
 	}
 }
@@ -325,4 +327,111 @@ func checkAnswers(t *testing.T, recs []parsed) {
 			t.Errorf("info does not list %q in accepts (%q)", k, m.Accepts)
 		}
 	}
+}
+
+// checkSummary summarises the firmware's telemetry up to the switch to two-state (one
+// setpoint, band 4 then band 9) and the same stretch of a run of the loop model alone,
+// with its own controller and the band changed at the same sample: duty, ripple and
+// limit cycle must agree segment by segment. The wider band must hold longer and switch
+// less often.
+func checkSummary(t *testing.T, cfg loop.Config, recs []parsed, samples []int) {
+	t.Helper()
+	var at9, atTwo int = -1, -1
+	for i, ri := range samples {
+		m := recs[ri].rec.Meta
+		if at9 < 0 && m.Deadband == 9 {
+			at9 = i
+		}
+		if m.Mode == telemetry.TwoState {
+			atTwo = i
+			break
+		}
+	}
+	if at9 < 0 || atTwo < 0 {
+		t.Fatalf("no band 9 (%d) or two-state (%d) in the run", at9, atTwo)
+	}
+	var fw bytes.Buffer
+	for _, p := range recs[:samples[atTwo]] {
+		fw.WriteString(p.text + "\n")
+	}
+
+	var model bytes.Buffer
+	sim, err := loop.New(cfg)
+	if err != nil {
+		t.Fatal(err)
+	}
+	meta := telemetry.Meta{Vref: 5, ADCBits: 10, Period: cfg.Period, Mode: telemetry.ThreeState, Deadband: 4,
+		Supply: 5, R: 47e3, C: 1e-6, Load: 1e6, Set: telemetry.FieldVref | telemetry.FieldADCBits | telemetry.FieldPeriod |
+			telemetry.FieldMode | telemetry.FieldDeadband | telemetry.FieldSupply | telemetry.FieldR | telemetry.FieldC | telemetry.FieldLoad}
+	model.Write(append(telemetry.AppendMeta(nil, meta), '\n'))
+	for k := 0; k < atTwo; k++ {
+		if k == at9 {
+			sim.SetDeadband(9)
+			model.WriteString("# deadband=9\n")
+		}
+		st := sim.Next(512)
+		s := telemetry.Sample{T: int64(k+1) * 1000, N: int64(k), SP: 512, PV: float64(st.PV), U: telemetry.Drive(st.U),
+			Flags: telemetry.HasT | telemetry.HasN | telemetry.HasU}
+		model.Write(append(telemetry.AppendData(nil, s), '\n'))
+	}
+
+	sumFW := summarize(t, fw.Bytes())
+	sumModel := summarize(t, model.Bytes())
+	if len(sumFW.Segments) != 2 || len(sumModel.Segments) != 2 {
+		t.Fatalf("segments: firmware %d, model %d, want 2 (band 4, band 9)", len(sumFW.Segments), len(sumModel.Segments))
+	}
+	for i := range sumFW.Segments {
+		f, m := sumFW.Segments[i], sumModel.Segments[i]
+		for _, c := range []struct {
+			name string
+			f, m *float64
+		}{
+			{"duty_charge", f.DutyCharge, m.DutyCharge}, {"duty_hold", f.DutyHold, m.DutyHold},
+			{"duty_discharge", f.DutyDischarge, m.DutyDischarge}, {"ripple_pp_v", f.RipplePPV, m.RipplePPV},
+			{"limit_cycle_period_s", f.LimitCyclePeriodS, m.LimitCyclePeriodS}, {"switching_hz", f.SwitchingHz, m.SwitchingHz},
+		} {
+			if c.f == nil || c.m == nil || math.Abs(*c.f-*c.m) > 1e-9*math.Abs(*c.m) {
+				t.Errorf("segment %d %s: firmware %v, model %v", i, c.name, show(c.f), show(c.m))
+			}
+		}
+		t.Logf("segment %d band %v: duty charge %.3f hold %.3f discharge %.3f, ripple %.1f mV, limit cycle %.1f ms, switching %.1f Hz",
+			i, show(f.DeadbandCounts), val(f.DutyCharge), val(f.DutyHold), val(f.DutyDischarge), 1e3*val(f.RipplePPV),
+			1e3*val(f.LimitCyclePeriodS), val(f.SwitchingHz))
+	}
+	b4, b9 := sumFW.Segments[0], sumFW.Segments[1]
+	if val(b4.DeadbandCounts) != 4 || val(b9.DeadbandCounts) != 9 {
+		t.Fatalf("bands %v, %v; want 4 then 9", show(b4.DeadbandCounts), show(b9.DeadbandCounts))
+	}
+	// A wider band lets the node droop further before a correction: more time in hold,
+	// fewer switchings (three-state rule: hold while |pv - sp| <= deadband).
+	if !(val(b9.DutyHold) > val(b4.DutyHold) && val(b9.SwitchingHz) < val(b4.SwitchingHz)) {
+		t.Errorf("set deadband=9 did not widen the hold: hold %v -> %v, switching %v -> %v Hz",
+			show(b4.DutyHold), show(b9.DutyHold), show(b4.SwitchingHz), show(b9.SwitchingHz))
+	}
+}
+
+func summarize(t *testing.T, text []byte) *analysis.Summary {
+	t.Helper()
+	sum, err := analysis.Summarize(telemetry.NewScanner(bytes.NewReader(text)), analysis.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if sum.RejectedLines != 0 {
+		t.Fatalf("summary rejected %d lines: %+v", sum.RejectedLines, sum.FirstRejects)
+	}
+	return sum
+}
+
+func val(p *float64) float64 {
+	if p == nil {
+		return math.NaN()
+	}
+	return *p
+}
+
+func show(p *float64) string {
+	if p == nil {
+		return "null"
+	}
+	return fmt.Sprint(*p)
 }
