@@ -1,6 +1,7 @@
 package firmware
 
 import (
+	"bufio"
 	"bytes"
 	"context"
 	"errors"
@@ -434,4 +435,95 @@ func show(p *float64) string {
 		return "null"
 	}
 	return fmt.Sprint(*p)
+}
+
+// TestFirmwareHostLines writes raw bytes to the firmware's port as a terminal program
+// would (CRLF, blank lines, the short "?", a bare set) and checks each answer, with the
+// plant paced at 20 times real time.
+func TestFirmwareHostLines(t *testing.T) {
+	prog := build(t)
+	t.Parallel()
+	rig, err := Start(context.Background(), Options{Program: prog, Plant: plantConfig(0), SP: 300, Samples: 2000, Speed: 20})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer rig.Close()
+	src, err := telemetry.OpenSerial(telemetry.SerialConfig{Path: rig.Path()})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer src.Close()
+	lines := make(chan string, 4096)
+	go func() {
+		defer close(lines)
+		sc := bufio.NewScanner(src)
+		for sc.Scan() {
+			lines <- sc.Text()
+		}
+	}()
+	// want waits for a line with the prefix and returns the lines up to it.
+	want := func(prefix string) []string {
+		t.Helper()
+		var seen []string
+		timeout := time.After(10 * time.Second)
+		for {
+			select {
+			case l, ok := <-lines:
+				if !ok {
+					t.Fatalf("port closed waiting for %q", prefix)
+				}
+				seen = append(seen, l)
+				if strings.HasPrefix(l, prefix) {
+					return seen
+				}
+			case <-timeout:
+				t.Fatalf("no %q in 10 s", prefix)
+			}
+		}
+	}
+	want("# accepts=")
+	want("t=")
+	w := src.(*telemetry.SerialSource)
+	for _, c := range []struct{ send, answer string }{
+		{"set deadband=6\r\n", "# deadband=6"},
+		{"\r\n\n  \nset\n", "# error: set wants key=value"},
+		{"?\r\n", "# accepts=sp,mode,deadband,period_us"},
+		{"set sp=x\n", "# error: sp wants counts"},
+		{"set sp=1024\n", "# error: sp wants counts"},
+		{"set mode=open\n", "# error: mode wants two-state or three-state"},
+		{"set period_us=49 deadband=5\n", "# deadband=5"},
+		{"set sp=700 mode=two-state\n", "# mode=two-state"},
+	} {
+		if _, err := w.Write([]byte(c.send)); err != nil {
+			t.Fatal(err)
+		}
+		seen := want(c.answer)
+		for _, l := range seen[:len(seen)-1] {
+			if strings.HasPrefix(l, "#") && !strings.HasPrefix(l, "# error: period_us") &&
+				!strings.HasPrefix(l, "# setpoint 700") && !strings.HasPrefix(l, "# vref=") && !strings.HasPrefix(l, "# supply=") {
+				t.Errorf("%q: unexpected %q before %q", c.send, l, c.answer)
+			}
+		}
+	}
+	// The new setpoint, and two-state: no sample holds from here on.
+	var first telemetry.Sample
+	var firstAt time.Time
+	for i := 0; i < 200; i++ {
+		l := want("t=")
+		var p telemetry.Parser
+		r := p.Parse([]byte(l[len(l)-1]), 0, false)
+		if r.Kind != telemetry.RecSample || r.Sample.SP != 700 || r.Sample.U == telemetry.Hold {
+			t.Fatalf("after set sp=700 mode=two-state: %q", l[len(l)-1])
+		}
+		if i == 0 {
+			first, firstAt = r.Sample, time.Now()
+		} else if i == 199 {
+			// Paced at 20 times real time: 1 ms samples come every 50 µs of real time. The
+			// host HAL sends its telemetry every 5 ms of board time, so allow one chunk.
+			board := time.Duration(r.Sample.T-first.T) * time.Microsecond
+			if real, min := time.Since(firstAt), (board-5*time.Millisecond)/20; real < min {
+				t.Errorf("%v of board time in %v, faster than 20 times real time", board, real)
+			}
+		}
+	}
 }
