@@ -25,6 +25,7 @@
 #define _POSIX_C_SOURCE 200809L
 
 #include <errno.h>
+#include <fcntl.h>
 #include <poll.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -55,8 +56,12 @@ static void tx_flush(void)
         if (w > 0) {
             off += (size_t)w;
         } else if (w < 0 && errno == EAGAIN) {
+            /* No one is reading the port: wait up to a second, then drop the bytes, as a
+             * USB serial device with no program on the other end does. */
             struct pollfd p = {FD_SERIAL, POLLOUT, 0};
-            (void)poll(&p, 1, 100);
+            if (poll(&p, 1, 1000) <= 0) {
+                break;
+            }
         } else if (w < 0 && errno == EINTR) {
             continue;
         } else {
@@ -153,7 +158,7 @@ int main(int argc, char **argv)
     struct loop_board board = {5000, 10, 5000, 0, 0, 0};
     struct loop_settings set = {512, LOOP_THREE_STATE, 4, 1000};
     struct loop lp;
-    int i;
+    int i, flags;
     for (i = 1; i < argc; i++) {
         const char *a = argv[i];
         const char *v = strchr(a, '=');
@@ -200,6 +205,11 @@ int main(int argc, char **argv)
     plant_out = fdopen(FD_PLANT_OUT, "w");
     if (plant_in == NULL || plant_out == NULL) {
         fprintf(stderr, "hal_host: no plant on descriptors 3 and 4\n");
+        return 2;
+    }
+    flags = fcntl(FD_SERIAL, F_GETFL);
+    if (flags < 0 || fcntl(FD_SERIAL, F_SETFL, flags | O_NONBLOCK) < 0) {
+        fprintf(stderr, "hal_host: no serial port on descriptor 5\n");
         return 2;
     }
     loop_init(&lp, &board, &set);
