@@ -22,6 +22,10 @@
  *
  * Portable C99: no dynamic memory, no floating point, no standard library beyond
  * <stdint.h>; the hardware is reached only through hal.h.
+ *
+ * Every sample is reported. A line is about 35 bytes, so a UART at 115200 baud carries
+ * one about every 3 ms: choose a period of 4 ms or more there, or a faster link (a USB
+ * serial port runs at its own speed whatever the baud rate says).
  */
 #ifndef CAPLOOP_LOOP_H
 #define CAPLOOP_LOOP_H

@@ -88,17 +88,17 @@ type command struct {
 // script walks the settings the firmware takes: a wider band, two-state, back to
 // three-state at a shorter period, a new setpoint, info, and lines it must refuse.
 var script = []command{
-	{3000, "set deadband=9"},
-	{4500, "set mode=two-state"},
-	{5500, "set mode=three-state period_us=500"},
-	{6500, "set sp=600"},
-	{7000, "info"},
-	{7200, "set deadband=999"},
-	{7300, "reboot now"},
-	{7400, "set sp=600 " + strings.Repeat("x", 80)},
+	{2000, "set deadband=9"},
+	{3000, "set mode=two-state"},
+	{3800, "set mode=three-state period_us=500"},
+	{4600, "set sp=600"},
+	{5000, "info"},
+	{5200, "set deadband=999"},
+	{5300, "reboot now"},
+	{5400, "set sp=600 " + strings.Repeat("x", 80)},
 }
 
-const runSamples = 8000
+const runSamples = 6000
 
 // fil is what one firmware-in-the-loop run gave: the board's lines as read from the port,
 // and the samples as the plant saw them.
