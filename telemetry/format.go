@@ -104,5 +104,9 @@ func AppendMeta(dst []byte, m Meta) []byte {
 	if m.Has(FieldLoad) {
 		num("load", m.Load)
 	}
+	if m.Has(FieldAccepts) && m.Accepts != "" {
+		dst = append(dst, " accepts="...)
+		dst = append(dst, m.Accepts...)
+	}
 	return dst
 }

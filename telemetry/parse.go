@@ -1029,8 +1029,15 @@ func (p *Parser) parseHash(line []byte, i int) RecordKind {
 	}
 	words := bytes.FieldsFunc(rest, func(r rune) bool { return r == ' ' || r == '\t' || r == ',' })
 	var m Meta
+	list := false // after accepts=, the words without '=' continue its list
 	for _, w := range words {
 		k, v, ok := bytes.Cut(w, []byte{'='})
+		if !ok && list {
+			if !m.addAccept(w) {
+				return p.reject(ErrBadMeta, "accepts", line)
+			}
+			continue
+		}
 		key := string(k)
 		if !ok || len(k) == 0 || len(v) == 0 {
 			return p.reject(ErrBadMeta, SanitizeN(k, 32), line)
@@ -1045,6 +1052,7 @@ func (p *Parser) parseHash(line []byte, i int) RecordKind {
 			}
 			m.Set |= f
 		}
+		list = f == FieldAccepts
 	}
 	p.delta = m
 	p.meta = p.meta.Merge(m)
@@ -1108,6 +1116,11 @@ func (m *Meta) setField(key, val string) (MetaField, error) {
 	case "load":
 		m.Load, err = positive("Ω")
 		return FieldLoad, err
+	case "accepts":
+		if !m.addAccept([]byte(val)) {
+			err = ErrBadMeta
+		}
+		return FieldAccepts, err
 	}
 	return 0, nil
 }

@@ -61,6 +61,7 @@ const (
 	FieldR                              // r, ohm
 	FieldC                              // c, F
 	FieldLoad                           // load, ohm
+	FieldAccepts                        // accepts: the set keys the board takes
 )
 
 // Meta describes the board as its meta lines say. All values are SI (volts, seconds,
@@ -76,6 +77,7 @@ type Meta struct {
 	R        float64 // series resistor, ohm
 	C        float64 // capacitor, F
 	Load     float64 // load from the node to ground, ohm
+	Accepts  string  // the keys `set` takes, comma-separated ("sp,mode,deadband,period_us")
 	Set      MetaField
 }
 
@@ -110,6 +112,9 @@ func (m Meta) Merge(n Meta) Meta {
 	}
 	if n.Has(FieldLoad) {
 		m.Load = n.Load
+	}
+	if n.Has(FieldAccepts) {
+		m.Accepts = n.Accepts
 	}
 	m.Set |= n.Set
 	return m

@@ -48,6 +48,8 @@ type Sim struct {
 	rngN  *rand.Rand
 	rngJ  *rand.Rand
 	rngD  *rand.Rand
+	read  int     // code of the last Read, for Apply
+	sense float64 // sense voltage of the last Read
 }
 
 // New checks cfg, fills in its defaults (see Config.WithDefaults) and returns a
