@@ -35,6 +35,9 @@ type Options struct {
 	// from it on are tracking samples.
 	TrackSamples    int
 	TrackStepCounts float64
+	// SupplyTol is the relative tolerance of the supply (0 = DefaultSupplyTol, 5 %): a
+	// load or a drop seen only in v_high must exceed it to be reported.
+	SupplyTol float64
 }
 
 func (o Options) withDefaults() Options {
@@ -61,6 +64,9 @@ func (o Options) withDefaults() Options {
 	}
 	if o.TrackStepCounts <= 0 {
 		o.TrackStepCounts = 16
+	}
+	if o.SupplyTol <= 0 {
+		o.SupplyTol = DefaultSupplyTol
 	}
 	return o
 }
