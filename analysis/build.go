@@ -112,6 +112,9 @@ func (a *Accumulator) Summary() *Summary {
 		sum.SegmentsOmitted = a.segSeen - int64(len(figs))
 		sum.StepsOmitted = sum.SegmentsOmitted
 	}
+	sum.Events, sum.EventsOmitted = a.eventList(c), a.st.omitted
+	sum.Glitches = LineList{Count: a.st.glitches.Count, Lines: append([]int64{}, a.st.glitches.Lines...)}
+	sum.SuspectLines = a.suspects()
 	sum.Tracking = a.trk.figures(c)
 	sum.Traces = a.traces(pf, c)
 	sum.Diagnostics = a.diagnose(sum, figs, pf, c)

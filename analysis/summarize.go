@@ -13,9 +13,13 @@ var ErrNoSamples = errors.New("analysis: no samples in the input")
 // one at a time.
 const batchLen = 8192
 
+// metaAt is a record between samples: a meta line, a comment or a capture event.
 type metaAt struct {
-	at int // the meta applies before samples[at]
-	m  telemetry.Meta
+	at   int // the record comes before samples[at]
+	kind telemetry.RecordKind
+	m    telemetry.Meta
+	line int64
+	ev   telemetry.Event
 }
 
 type batch struct {
@@ -53,7 +57,14 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 			at := 0
 			for _, m := range b.metas {
 				acc.addRun(b.samples[at:m.at])
-				acc.SetMeta(m.m)
+				switch m.kind {
+				case telemetry.RecMeta:
+					acc.SetMetaLine(m.m, m.line)
+				case telemetry.RecEvent:
+					acc.AddEvent(m.ev)
+				default:
+					acc.Comment(m.line)
+				}
 				at = m.at
 			}
 			acc.addRun(b.samples[at:])
@@ -61,6 +72,7 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 		}
 	}()
 	b := <-free
+	var comments int64
 	for sc.Scan() {
 		switch sc.Kind() {
 		case telemetry.RecSample:
@@ -76,7 +88,15 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 				b.samples, b.metas = b.samples[:0], b.metas[:0]
 			}
 		case telemetry.RecMeta:
-			b.metas = append(b.metas, metaAt{at: len(b.samples), m: sc.Meta()})
+			b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecMeta, m: sc.Meta(), line: sc.Stats().Lines})
+		case telemetry.RecEvent:
+			b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecEvent, ev: sc.Event()})
+		case telemetry.RecNone:
+			// A comment (not a blank or header line) may open a restart banner.
+			if st := sc.Stats(); st.Comments > comments {
+				comments = st.Comments
+				b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecNone, line: st.Lines})
+			}
 		}
 	}
 	full <- b

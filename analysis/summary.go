@@ -29,6 +29,20 @@ type Summary struct {
 	// because the lists are bounded (Options.MaxSegments).
 	SegmentsOmitted int64 `json:"segments_omitted"`
 	StepsOmitted    int64 `json:"steps_omitted"`
+
+	// Events are what happened to the stream besides samples (resets, gaps, unplugs,
+	// settings changed by a meta line, lines sent to the board, notes), in order; each
+	// but a note ends the open segment, without a step. Bounded: EventsOmitted counts
+	// the rest.
+	Events        []Event `json:"events"`
+	EventsOmitted int64   `json:"events_omitted"`
+	// Glitches are readings the identified plant cannot reach in the periods since the
+	// last good one (6 sigma of noise aside); they are left out of the level figures
+	// and the plant fit, while the drive that followed them counts.
+	Glitches LineList `json:"glitches"`
+	// SuspectLines are data lines lacking a field (t, n or u) that all but 1 % of the
+	// data lines carry.
+	SuspectLines LineList `json:"suspect_lines"`
 }
 
 // Reject is one rejected line: where and why. Text is already sanitised.

@@ -235,6 +235,8 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 		tw.Flush()
 	}
 
+	writeEventsText(w, s)
+
 	fmt.Fprintln(w, "\ndiagnostics")
 	if len(s.Diagnostics) == 0 {
 		fmt.Fprintln(w, "  none")
@@ -415,4 +417,42 @@ func orWhy(interval, reason string) string {
 		return reason
 	}
 	return interval
+}
+
+// writeEventsText writes the events, glitches and suspect lines, when there are any.
+func writeEventsText(w io.Writer, s *analysis.Summary) {
+	if len(s.Events) > 0 {
+		fmt.Fprintln(w, "\nevents (each but a note starts a new segment)")
+		tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+		for _, e := range s.Events {
+			at := "-"
+			if e.AtS != nil {
+				at = si.FormatDigits(*e.AtS, "s", 4)
+			}
+			fmt.Fprintf(tw, "  %s\tline %d\t%s\t%s\n", at, e.Line, e.Kind, e.Text)
+		}
+		tw.Flush()
+		if s.EventsOmitted > 0 {
+			fmt.Fprintf(w, "  ... %d more events (the list is bounded)\n", s.EventsOmitted)
+		}
+	}
+	lines := func(l analysis.LineList) string {
+		var b strings.Builder
+		for i, n := range l.Lines {
+			if i > 0 {
+				b.WriteString(", ")
+			}
+			fmt.Fprint(&b, n)
+		}
+		if l.Count > int64(len(l.Lines)) {
+			b.WriteString(", ...")
+		}
+		return b.String()
+	}
+	if g := s.Glitches; g.Count > 0 {
+		fmt.Fprintf(w, "\nglitches: %d readings the plant cannot reach in one period, left out of the level figures (lines %s)\n", g.Count, lines(g))
+	}
+	if l := s.SuspectLines; l.Count > 0 {
+		fmt.Fprintf(w, "\nsuspect lines: %d data lines lack a field the other lines carry (lines %s)\n", l.Count, lines(l))
+	}
 }
