@@ -94,7 +94,8 @@ type plantDecision struct {
 	loadFrom         string   // "hold_droop" or "v_high"
 	drop             interval // sense drop, V
 	dropReason       string
-	dropFrom         string // "v_low" or "v_high"
+	dropFrom         string   // "v_low" or "v_high"
+	droop            interval // R_load / R from the hold droop before the 10 % rule (unknown without a droop)
 	notes            []string
 }
 
@@ -110,7 +111,7 @@ type plantDecision struct {
 // the supply tolerance. Without a hold droop (two-state loops) v_high alone gives
 // rho = v_high/(Vs - v_high), again only beyond the tolerance.
 func decidePlant(ev plantEvidence) plantDecision {
-	d := plantDecision{ratio: unknown(), load: unknown(), drop: unknown()}
+	d := plantDecision{ratio: unknown(), load: unknown(), drop: unknown(), droop: unknown()}
 	haveVs := !math.IsNaN(ev.supply) && ev.supply > 0
 	tolV := ev.supplyTol * ev.supply
 
@@ -119,7 +120,11 @@ func decidePlant(ev plantEvidence) plantDecision {
 	noDroop := false   // enough hold and no significant droop: no load
 	switch {
 	case ev.tauC.known() && ev.tauH.known() && ev.holdPairs > 0:
-		r := interval{v: ev.tauH.v/ev.tauC.v - 1, lo: ev.tauH.lo/ev.tauC.hi - 1, hi: ev.tauH.hi/ev.tauC.lo - 1}
+		// q = tau_h/tau_c; the two fits' errors are independent, so their relative
+		// half-widths add in quadrature.
+		q := ev.tauH.v / ev.tauC.v
+		rel := math.Hypot(ev.tauH.halfWidth()/ev.tauH.v, ev.tauC.halfWidth()/ev.tauC.v)
+		r := interval{v: q - 1, lo: q*(1-rel) - 1, hi: q*(1+rel) - 1}
 		switch {
 		case math.IsInf(ev.tauH.hi, 1) || math.IsNaN(ev.tauH.hi):
 			noDroop = true
@@ -127,7 +132,7 @@ func decidePlant(ev plantEvidence) plantDecision {
 		case r.v <= 0:
 			d.ratioReason = "the hold droops faster than the charge runs: not a resistive load"
 		default:
-			d.ratio, droopLoad, d.loadFrom = r, true, "hold_droop"
+			d.ratio, droopLoad, d.loadFrom, d.droop = r, true, "hold_droop", r
 		}
 	case ev.holdPairs > 0 && ev.tauC.known():
 		noDroop = true
@@ -248,8 +253,12 @@ func decidePlant(ev plantEvidence) plantDecision {
 		d.kind = KindBuffer
 	case hasLoad:
 		d.kind = KindLoad
-	case noDroop || (haveVs && ev.vHigh.known() && d.dropReason == reasonSupplyLimited):
+	case noDroop:
 		d.kind = KindNone
+	case haveVs && ev.vHigh.known() && d.dropReason == reasonSupplyLimited:
+		// No hold to show a droop, and v_high within the supply tolerance: a small load
+		// and none look the same.
+		d.kindReason = reasonSupplyLimited
 	default:
 		d.kind = ""
 		d.kindReason = "not identifiable: no hold droop and no v_high to tell a load from a buffer"

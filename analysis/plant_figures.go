@@ -229,6 +229,12 @@ func metaLoadCheck(m telemetry.Meta, ev plantEvidence, dec plantDecision, tauC, 
 	want := m.Load / m.R
 	load := si.Format(m.Load, "Ω")
 	switch {
+	case dec.droop.known() && !math.IsInf(dec.droop.hi, 1):
+		// The droop's interval, even when too wide to show the load as a figure.
+		if r := dec.droop; want < r.lo || want > r.hi {
+			return []string{fmt.Sprintf("the meta lines declare a load of %s, the hold droop shows %s [%s .. %s]",
+				load, si.Format(r.v*m.R, "Ω"), si.Format(r.lo*m.R, "Ω"), si.Format(r.hi*m.R, "Ω"))}
+		}
 	case dec.load.known():
 		if m.Load < dec.load.lo || m.Load > dec.load.hi {
 			return []string{fmt.Sprintf("the meta lines declare a load of %s, the data show %s [%s .. %s]",

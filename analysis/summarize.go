@@ -72,7 +72,7 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 		}
 	}()
 	b := <-free
-	var comments int64
+	var comments, lastLine int64 // comment lines seen at the last meta line; line of the last sample
 	for sc.Scan() {
 		switch sc.Kind() {
 		case telemetry.RecSample:
@@ -82,21 +82,23 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 			d, p := &b.samples[n], sc.SampleRef()
 			d.Line, d.Index, d.T, d.N, d.Host = p.Line, p.Index, p.T, p.N, p.Host
 			d.SP, d.PV, d.U, d.Flags = p.SP, p.PV, p.U, p.Flags
+			lastLine = p.Line
 			if len(b.samples) == batchLen {
 				full <- b
 				b = <-free
 				b.samples, b.metas = b.samples[:0], b.metas[:0]
 			}
 		case telemetry.RecMeta:
-			b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecMeta, m: sc.Meta(), line: sc.Stats().Lines})
+			// Comment lines between the last sample and this meta line (the scanner
+			// skips them, its counts show them) may open a restart banner.
+			st := sc.Stats()
+			if st.Comments > comments && lastLine > 0 && st.Lines-lastLine > 1 {
+				b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecNone, line: st.Lines - 1})
+			}
+			comments = st.Comments
+			b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecMeta, m: sc.Meta(), line: st.Lines})
 		case telemetry.RecEvent:
 			b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecEvent, ev: sc.Event()})
-		case telemetry.RecNone:
-			// A comment (not a blank or header line) may open a restart banner.
-			if st := sc.Stats(); st.Comments > comments {
-				comments = st.Comments
-				b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecNone, line: st.Lines})
-			}
 		}
 	}
 	full <- b
