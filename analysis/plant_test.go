@@ -377,16 +377,27 @@ func TestCaptureCommandEvent(t *testing.T) {
 		"0.001000 < t=1000 sp=500 pv=480 u=1\n" +
 		"0.002000 < t=2000 sp=500 pv=490 u=1\n" +
 		"0.002500 > set deadband=9\n" +
-		"0.003000 < t=3000 sp=500 pv=497 u=0\n"
+		"0.003000 < t=3000 sp=500 pv=497 u=0\n" +
+		"0.004000 ! unplugged\n" +
+		"0.504000 ! reconnected\n" +
+		"0.505000 < t=1000 sp=500 pv=300 u=1\n"
 	sum, err := Summarize(telemetry.NewScanner(strings.NewReader(in)), Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(sum.Events) != 1 || sum.Events[0].Kind != EventCommand || sum.Events[0].Text != "set deadband=9" || sum.Events[0].Line != 5 {
-		t.Fatalf("events: got %+v, want the command at line 5", sum.Events)
+	var kinds []string
+	for _, e := range sum.Events {
+		kinds = append(kinds, e.Kind)
 	}
-	if len(sum.Segments) != 2 {
-		t.Errorf("segments: got %d, want 2 (a sent command splits)", len(sum.Segments))
+	// The board time restarts after the replug: a reset too.
+	if got, want := strings.Join(kinds, " "), "command unplug reconnect reset"; got != want {
+		t.Fatalf("event kinds: got %q, want %q (%+v)", got, want, sum.Events)
+	}
+	if e := sum.Events[0]; e.Text != "set deadband=9" || e.Line != 5 {
+		t.Errorf("command: got %+v, want set deadband=9 at line 5", e)
+	}
+	if len(sum.Segments) != 3 || len(sum.Steps) != 0 {
+		t.Errorf("segments %d, steps %d: want 3 and 0 (a sent command and an unplug split, without a step)", len(sum.Segments), len(sum.Steps))
 	}
 }
 
@@ -424,5 +435,20 @@ func TestDecidePlantSupplyLimited(t *testing.T) {
 	// Truth: v_high = Vs R_L/(R+R_L), so R_L = R v_high/(Vs - v_high) = 47k * 4.85/0.15.
 	if want := 47e3 * 4.85 / 0.15; got.kind != KindLoad || relErr(got.load.v, want) > 1e-9 {
 		t.Errorf("3 %% drop with a 1 %% supply: got kind %q load %g, want load %g", got.kind, got.load.v, want)
+	}
+}
+
+// TestGapEvent leaves 300 periods out of the board time without a banner: a gap event,
+// not a reset.
+func TestGapEvent(t *testing.T) {
+	t.Parallel()
+	c := &capture{cfg: greenhouse(loop.ThreeState, 1e6, 12).WithDefaults()}
+	c.metaLine()
+	c.run(t, schedule(3000, 600), 3000, 0, 0, nil)
+	line := c.line + 1
+	c.run(t, schedule(3000, 600), 3000, 3_300_000, 3300, nil)
+	sum := c.summarize(t)
+	if len(sum.Events) != 1 || sum.Events[0].Kind != EventGap || sum.Events[0].Line != line {
+		t.Fatalf("events: got %+v, want one gap at line %d", sum.Events, line)
 	}
 }
