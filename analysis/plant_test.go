@@ -452,3 +452,23 @@ func TestGapEvent(t *testing.T) {
 		t.Fatalf("events: got %+v, want one gap at line %d", sum.Events, line)
 	}
 }
+
+// TestNoGlitchWhenTauShort cuts a reading in a loop with tau = 1.5 T: one period can move
+// the level most of the way, so by the rule no reading is a glitch.
+func TestNoGlitchWhenTauShort(t *testing.T) {
+	t.Parallel()
+	cfg := greenhouse(loop.ThreeState, 0, 13)
+	cfg.Circuit.R = 1.5e3 // tau = 1.5 ms, T = 1 ms
+	c := &capture{cfg: cfg.WithDefaults()}
+	c.metaLine()
+	c.run(t, square(300, 700, 200), 6000, 0, 0, func(k int64, pv *int, _ *string) {
+		if k == 5000 {
+			*pv = 8
+		}
+	})
+	sum := c.summarize(t)
+	if sum.Glitches.Count != 0 {
+		t.Errorf("glitches: got %+v, want none with tau <= 2 T", sum.Glitches)
+	}
+	t.Logf("tau charge %v samples (%s)", deref(sum.Plant.TauChargeSamples), sum.Plant.TauChargeSamplesReason)
+}
