@@ -291,7 +291,7 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 		// Events and breaks split the segment; a glitch keeps its drive (the firmware
 		// acted on it) but the last good reading stands in for it in every level figure.
 		var split, reset bool
-		if a.n > 0 && (!contiguous || a.st.pending) {
+		if (a.n > 0 && !contiguous) || a.st.pending {
 			split, reset = a.breaks(s, tick, contiguous)
 		}
 		glitch := a.glitch(pv, s.Line, contiguous)

@@ -189,13 +189,13 @@ func metaChanges(old, m telemetry.Meta) string {
 // segment, and whether that is because the board restarted (no step then).
 func (a *Accumulator) breaks(s *telemetry.Sample, tick float64, contiguous bool) (split, reset bool) {
 	st := &a.st
-	split = st.split
-	if !contiguous {
+	split = st.split && a.n > 0
+	if !contiguous && a.n > 0 {
 		p := a.clk.periodTicks()
 		switch {
 		case a.clk.resets != st.resets:
 			st.resets = a.clk.resets
-			st.add(EventReset, "the board time went back: the board restarted", s.Line, tick)
+			st.add(EventReset, "the board time or sequence number went back: the board restarted", s.Line, tick)
 			split, reset = true, true
 		case st.banner:
 			st.add(EventReset, "the board sent its meta lines again after a comment and a gap: it restarted", s.Line, tick)
