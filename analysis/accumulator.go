@@ -35,6 +35,9 @@ type Options struct {
 	// from it on are tracking samples.
 	TrackSamples    int
 	TrackStepCounts float64
+	// SupplyTol is the relative tolerance of the supply (0 = DefaultSupplyTol, 5 %): a
+	// load or a drop seen only in v_high must exceed it to be reported.
+	SupplyTol float64
 }
 
 func (o Options) withDefaults() Options {
@@ -61,6 +64,9 @@ func (o Options) withDefaults() Options {
 	}
 	if o.TrackStepCounts <= 0 {
 		o.TrackStepCounts = 16
+	}
+	if o.SupplyTol <= 0 {
+		o.SupplyTol = DefaultSupplyTol
 	}
 	return o
 }
@@ -172,6 +178,7 @@ type Accumulator struct {
 
 	ov  overview
 	trk tracker
+	st  streamState // events, glitches and suspect lines (events.go)
 }
 
 // stepRaw is the start of one step response, kept for the plot.
@@ -204,6 +211,7 @@ func New(opts Options) *Accumulator {
 // SetMeta sets what the board's meta lines say (the current merged meta). A deadband or
 // mode change takes effect from the next sample.
 func (a *Accumulator) SetMeta(m telemetry.Meta) {
+	a.noteMeta(m)
 	a.meta = m
 	a.db = 0
 	a.mode = m.Mode
@@ -277,15 +285,32 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 		} else if uint8(u+1) > 2 { // not one of -1, 0, 1
 			u = telemetry.Hold
 		}
+		if s.Flags&suspectMask != suspectMask {
+			a.suspect(s.Flags, s.Line)
+		}
+		// Events and breaks split the segment; a glitch keeps its drive (the firmware
+		// acted on it) but the last good reading stands in for it in every level figure.
+		var split, reset bool
+		if (a.n > 0 && !contiguous) || a.st.pending {
+			split, reset = a.breaks(s, tick, contiguous)
+		}
+		glitch := a.glitch(pv, s.Line, contiguous)
+		if glitch {
+			pv = a.st.good
+		}
 		if a.n == 0 {
 			a.first = tick
+			a.openSegment(s.SP, tick, false, 0)
+		} else if reset {
+			// A restarted board: a new segment, never a step.
+			a.closeSegment()
 			a.openSegment(s.SP, tick, false, 0)
 		} else if s.SP != a.seg.sp {
 			from := a.seg.sp
 			a.closeSegment()
 			a.openSegment(s.SP, tick, true, from)
 			a.seg.trk = a.trk.move(a.n, from, s.SP, &a.opts)
-		} else if a.db != a.seg.db {
+		} else if a.db != a.seg.db || split {
 			// A new band on the same setpoint (tuning): a new segment, but no step.
 			a.closeSegment()
 			a.openSegment(s.SP, tick, false, 0)
@@ -405,6 +430,7 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 		} else {
 			ok = a.codeSlow(pv)
 		}
+		ok = ok && !glitch
 
 		// Plant fit: pair (p1 -> this) with instrument p2.
 		p1, p2 := a.p1, a.p2

@@ -81,8 +81,11 @@ func (a *Accumulator) Summary() *Summary {
 	var pf plantFit
 	pf.fit[0], pf.ok[0] = a.fits[0].free()
 	pf.fit[2], pf.ok[2] = a.fits[2].free()
+	// The hold decays towards the discharge asymptote (a load pulls the node to ground),
+	// except behind a follower, whose discharge heads below ground at the sense point
+	// while its hold stops at 0 there (the node stops at V_BE).
 	hc := 0.0
-	if pf.ok[0] && !math.IsNaN(pf.fit[0].VInf) {
+	if pf.ok[0] && !math.IsNaN(pf.fit[0].VInf) && pf.fit[0].VInf > -2 {
 		hc = pf.fit[0].VInf
 	}
 	pf.fit[1], pf.ok[1] = a.holdFit(pf, hc)
@@ -109,6 +112,9 @@ func (a *Accumulator) Summary() *Summary {
 		sum.SegmentsOmitted = a.segSeen - int64(len(figs))
 		sum.StepsOmitted = sum.SegmentsOmitted
 	}
+	sum.Events, sum.EventsOmitted = a.eventList(c), a.st.omitted
+	sum.Glitches = LineList{Count: a.st.glitches.Count, Lines: append([]int64{}, a.st.glitches.Lines...)}
+	sum.SuspectLines = a.suspects()
 	sum.Tracking = a.trk.figures(c)
 	sum.Traces = a.traces(pf, c)
 	sum.Diagnostics = a.diagnose(sum, figs, pf, c)
@@ -135,112 +141,6 @@ func boardOf(m telemetry.Meta) Board {
 	b.CF = f(m.Has(telemetry.FieldC), m.C)
 	b.LoadOhm = f(m.Has(telemetry.FieldLoad), m.Load)
 	return b
-}
-
-// plant converts the fits to the Plant figures.
-func (a *Accumulator) plant(pf plantFit, c conv) Plant {
-	p := Plant{
-		ChargePairs:    int64(a.fits[2].n),
-		DischargePairs: int64(a.fits[0].n),
-		HoldPairs:      int64(a.bal.n[1]),
-		MissingCodes:   []int{},
-		StuckCodes:     []int{},
-	}
-	T := c.period
-	var ssr, dof float64
-	// driveFigures sets the figures of one drive's fit (charge or discharge) and adds its
-	// residuals to the noise estimate.
-	driveFigures := func(f fitResult, tauSamples, levelCounts, tauS **float64, tauCIS **[2]float64, levelV **float64, levelCIV **[2]float64) {
-		*tauSamples, *levelCounts = ptr(tauOf(f.A, 1)), ptr(f.VInf)
-		*tauS = ptr(tauOf(f.A, T))
-		r := tauCI(f, T)
-		*tauCIS = ci(r[0], r[1])
-		q := tQuantile(f.N - 2)
-		*levelV = ptr(c.v(f.VInf))
-		*levelCIV = ci(c.v(f.VInf-q*f.SeVInf), c.v(f.VInf+q*f.SeVInf))
-		ssr += f.S2 * (f.N - 2) / (1 + f.A*f.A)
-		dof += f.N - 2
-	}
-	if pf.ok[2] {
-		driveFigures(pf.fit[2], &p.TauChargeSamples, &p.VHighCounts, &p.TauChargeS, &p.TauChargeCIS, &p.VHighV, &p.VHighCIV)
-	}
-	if pf.ok[0] {
-		driveFigures(pf.fit[0], &p.TauDischargeSamples, &p.VLowCounts, &p.TauDischargeS, &p.TauDischargeCIS, &p.VLowV, &p.VLowCIV)
-	}
-	if pf.ok[1] {
-		f := pf.fit[1]
-		// A droop counts only when a is significantly below 1.
-		q := 1.959963984540054
-		if f.A < 1 && 1-f.A > q*f.SeA {
-			p.TauHoldS = ptr(tauOf(f.A, T))
-			p.TauHoldSamples = ptr(tauOf(f.A, 1))
-			r := tauCI(f, T)
-			p.TauHoldCIS = ci(r[0], r[1])
-		}
-	}
-	if dof > 0 {
-		// The residual of y - a x - b is n[k+1] - a n[k]: its variance is (1 + a^2) sigma^2.
-		p.NoiseRMSCounts = ptr(math.Sqrt(ssr / dof))
-	}
-	p.MissingCodes, p.StuckCodes = a.codeFaults()
-
-	m := a.meta
-	tau := math.NaN()
-	if p.TauChargeS != nil {
-		tau = *p.TauChargeS
-	}
-	if m.Has(telemetry.FieldSupply) && p.VHighV != nil {
-		vs, vh := m.Supply, *p.VHighV
-		drop := vs - vh
-		lsb := c.lsb
-		if math.IsNaN(lsb) {
-			lsb = 0
-		}
-		if drop > math.Max(0.01*vs, 3*lsb) {
-			if p.TauHoldS != nil && !math.IsNaN(tau) && *p.TauHoldS > tau {
-				// A load R_L gives tau_c/tau_h = R/(R+R_L) and v_high = Vs R_L/(R+R_L)
-				// = Vs (1 - tau_c/tau_h); what the load does not explain is a drop
-				// in a buffer between the node and the sense point.
-				th := *p.TauHoldS
-				vLoad := vs * (1 - tau/th)
-				if m.Has(telemetry.FieldR) && m.R > 0 {
-					p.LoadOhm = ptr(m.R * (th - tau) / tau)
-				}
-				if extra := vLoad - vh; extra > math.Max(0.02*vs, 3*lsb) {
-					p.SenseDropV = ptr(extra)
-				}
-			} else {
-				if m.Has(telemetry.FieldR) && m.R > 0 {
-					p.LoadOhm = ptr(m.R * vh / drop)
-				}
-				p.SenseDropV = ptr(drop)
-			}
-		}
-	}
-	// The load in parallel with C: the meta lines' or, failing that, the identified one.
-	rl := math.NaN()
-	switch {
-	case m.Has(telemetry.FieldLoad) && m.Load > 0:
-		rl = m.Load
-	case p.LoadOhm != nil:
-		rl = *p.LoadOhm
-	}
-	if m.Has(telemetry.FieldC) && m.C > 0 && !math.IsNaN(tau) {
-		// tau = C (R || R_L), so R = 1 / (C/tau - 1/R_L); without a load, tau / C.
-		r := tau / m.C
-		if !math.IsNaN(rl) && m.C/tau > 1/rl {
-			r = 1 / (m.C/tau - 1/rl)
-		}
-		p.EffectiveROhm = ptr(r)
-	}
-	if m.Has(telemetry.FieldR) && m.R > 0 && !math.IsNaN(tau) {
-		r := m.R
-		if !math.IsNaN(rl) {
-			r = r * rl / (r + rl)
-		}
-		p.EffectiveCF = ptr(tau / r)
-	}
-	return p
 }
 
 // holdFit returns the hold droop from the steady balance (see Accumulator), with the

@@ -34,6 +34,7 @@ type clock struct {
 	jn, js, jss float64 // intervals within ±50 % of the period
 	gaps        int64
 	resets      int64
+	nSeen       bool // clockT: the previous sample carried n (in prevN)
 
 	// fast is set once the period is fixed (board time, the first intervals seen): an
 	// interval within [lo, hi] (±50 % of the period) is then an interval of the jitter
@@ -61,6 +62,7 @@ func (c *clock) tick(s *telemetry.Sample) (float64, bool) {
 		switch {
 		case s.Has(telemetry.HasT):
 			c.src, c.t0, c.prevT = clockT, s.T, s.T
+			c.prevN, c.nSeen = s.N, s.Has(telemetry.HasN)
 		case s.Has(telemetry.HasN):
 			c.src, c.n0, c.prevN = clockN, s.N, s.N
 		default:
@@ -90,8 +92,15 @@ func (c *clock) tick(s *telemetry.Sample) (float64, bool) {
 			}
 		}
 		p := c.perUS
+		// A sequence number that restarts (n back to 0 or lower) is a reset too, even
+		// if t looks plausible.
+		nBack := false
+		if s.Has(telemetry.HasN) {
+			nBack = c.nSeen && s.N < c.prevN
+			c.prevN, c.nSeen = s.N, true
+		}
 		switch {
-		case dt <= 0 || (p > 0 && dt > 1e4*p):
+		case dt <= 0 || (p > 0 && dt > 1e4*p) || nBack:
 			// Board reset or a wild jump: start a new time origin one period on.
 			c.resets++
 			c.base = c.lastTick + p

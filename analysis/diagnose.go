@@ -25,6 +25,8 @@ const (
 	DiagMissingCodes    = "missing_codes"
 	DiagStuckCodes      = "stuck_codes"
 	DiagSenseDrop       = "sense_drop"
+	DiagLoad            = "load"
+	DiagPlantMismatch   = "plant_mismatch"
 	DiagNoPeriod        = "no_sample_period"
 	DiagNotSettled      = "not_settled"
 	DiagSegmentsOmitted = "segments_omitted"
@@ -208,10 +210,7 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 	if a.n > 100 && !pf.ok[2] && !pf.ok[0] {
 		add(DiagNoIdentify, "info", "No time constant could be identified: there is no run of charge or discharge far enough from the setpoint (one step plus %.0f counts of noise margin). A setpoint step in the capture gives one.", a.guard)
 	}
-	if p := sum.Plant; p.SenseDropV != nil {
-		add(DiagSenseDrop, "info", "v_high is %s below the supply: a buffer (an emitter follower drops about 0.65 V) or a load lowers the top of the range.",
-			si.Format(*p.SenseDropV, "V"))
-	}
+	a.diagnosePlant(sum.Plant, add)
 	if n := len(sum.Plant.MissingCodes); n > 0 {
 		add(DiagMissingCodes, "warning", "%d ADC codes never occur although the reading swept across them (first: %d): the converter has missing codes.", n, sum.Plant.MissingCodes[0])
 	}

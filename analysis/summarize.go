@@ -13,9 +13,13 @@ var ErrNoSamples = errors.New("analysis: no samples in the input")
 // one at a time.
 const batchLen = 8192
 
+// metaAt is a record between samples: a meta line, a comment or a capture event.
 type metaAt struct {
-	at int // the meta applies before samples[at]
-	m  telemetry.Meta
+	at   int // the record comes before samples[at]
+	kind telemetry.RecordKind
+	m    telemetry.Meta
+	line int64
+	ev   telemetry.Event
 }
 
 type batch struct {
@@ -53,7 +57,14 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 			at := 0
 			for _, m := range b.metas {
 				acc.addRun(b.samples[at:m.at])
-				acc.SetMeta(m.m)
+				switch m.kind {
+				case telemetry.RecMeta:
+					acc.SetMetaLine(m.m, m.line)
+				case telemetry.RecEvent:
+					acc.AddEvent(m.ev)
+				default:
+					acc.Comment(m.line)
+				}
 				at = m.at
 			}
 			acc.addRun(b.samples[at:])
@@ -61,6 +72,7 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 		}
 	}()
 	b := <-free
+	var comments, lastLine int64 // comment lines seen at the last meta line; line of the last sample
 	for sc.Scan() {
 		switch sc.Kind() {
 		case telemetry.RecSample:
@@ -70,13 +82,23 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 			d, p := &b.samples[n], sc.SampleRef()
 			d.Line, d.Index, d.T, d.N, d.Host = p.Line, p.Index, p.T, p.N, p.Host
 			d.SP, d.PV, d.U, d.Flags = p.SP, p.PV, p.U, p.Flags
+			lastLine = p.Line
 			if len(b.samples) == batchLen {
 				full <- b
 				b = <-free
 				b.samples, b.metas = b.samples[:0], b.metas[:0]
 			}
 		case telemetry.RecMeta:
-			b.metas = append(b.metas, metaAt{at: len(b.samples), m: sc.Meta()})
+			// Comment lines between the last sample and this meta line (the scanner
+			// skips them, its counts show them) may open a restart banner.
+			st := sc.Stats()
+			if st.Comments > comments && lastLine > 0 && st.Lines-lastLine > 1 {
+				b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecNone, line: st.Lines - 1})
+			}
+			comments = st.Comments
+			b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecMeta, m: sc.Meta(), line: st.Lines})
+		case telemetry.RecEvent:
+			b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecEvent, ev: sc.Event()})
 		}
 	}
 	full <- b

@@ -29,6 +29,20 @@ type Summary struct {
 	// because the lists are bounded (Options.MaxSegments).
 	SegmentsOmitted int64 `json:"segments_omitted"`
 	StepsOmitted    int64 `json:"steps_omitted"`
+
+	// Events are what happened to the stream besides samples (resets, gaps, unplugs,
+	// settings changed by a meta line, lines sent to the board, notes), in order; each
+	// but a note ends the open segment, without a step. Bounded: EventsOmitted counts
+	// the rest.
+	Events        []Event `json:"events"`
+	EventsOmitted int64   `json:"events_omitted"`
+	// Glitches are readings the identified plant cannot reach in the periods since the
+	// last good one (6 sigma of noise aside); they are left out of the level figures
+	// and the plant fit, while the drive that followed them counts.
+	Glitches LineList `json:"glitches"`
+	// SuspectLines are data lines lacking a field (t, n or u) that all but 1 % of the
+	// data lines carry.
+	SuspectLines LineList `json:"suspect_lines"`
 }
 
 // Reject is one rejected line: where and why. Text is already sanitised.
@@ -69,8 +83,8 @@ type Plant struct {
 	StuckCodes      []int       `json:"stuck_codes"`
 	EffectiveROhm   *float64    `json:"effective_r_ohm"` // from tau and the meta C
 	EffectiveCF     *float64    `json:"effective_c_f"`   // from tau and the meta R
-	LoadOhm         *float64    `json:"load_ohm"`        // from v_high, supply and R
-	SenseDropV      *float64    `json:"sense_drop_v"`    // supply - v_high when it looks like a buffer drop
+	LoadOhm         *float64    `json:"load_ohm"`        // R_load from LoadRatio and the meta R
+	SenseDropV      *float64    `json:"sense_drop_v"`    // a buffer's drop between the node and the sense point
 
 	// The same figures in samples and counts, which need neither the sample period nor
 	// the ADC scale (null only when there is no fit).
@@ -84,6 +98,45 @@ type Plant struct {
 	ChargePairs    int64 `json:"charge_pairs"`
 	DischargePairs int64 `json:"discharge_pairs"`
 	HoldPairs      int64 `json:"hold_pairs"`
+
+	// Kind says what explains the top of the range (see decidePlant): "none", "load"
+	// (a resistive load on the node) or "buffer" (a follower: it drops the sensed
+	// level and loads the node); null when the data cannot tell.
+	Kind       *string `json:"kind"`
+	KindReason string  `json:"kind_reason,omitempty"`
+	// LoadRatio is R_load / R, from the hold droop (tau_hold / tau_charge - 1, no
+	// supply needed) or, without a hold, from v_high and the supply; LoadFrom says
+	// which ("hold_droop" or "v_high"). LoadOhm is LoadRatio times the meta R.
+	LoadRatio       *float64    `json:"load_ratio"`
+	LoadRatioCI     *[2]float64 `json:"load_ratio_ci"`
+	LoadRatioReason string      `json:"load_ratio_reason,omitempty"`
+	LoadOhmCI       *[2]float64 `json:"load_ohm_ci"`
+	LoadOhmReason   string      `json:"load_ohm_reason,omitempty"`
+	LoadFrom        string      `json:"load_from,omitempty"`
+	// SenseDropV's interval and its source: "v_low" (the discharge heads below ground,
+	// no supply needed) or "v_high" (what the supply and the load leave unexplained).
+	SenseDropCIV     *[2]float64 `json:"sense_drop_ci_v"`
+	SenseDropVReason string      `json:"sense_drop_v_reason,omitempty"`
+	SenseDropFrom    string      `json:"sense_drop_from,omitempty"`
+	// SupplyTol is the relative supply tolerance a drop of v_high had to exceed.
+	SupplyTol float64 `json:"supply_tol"`
+
+	// Reasons of the null figures above (omitted when the figure is there).
+	TauChargeSReason          string `json:"tau_charge_s_reason,omitempty"`
+	TauChargeSamplesReason    string `json:"tau_charge_samples_reason,omitempty"`
+	TauDischargeSReason       string `json:"tau_discharge_s_reason,omitempty"`
+	TauDischargeSamplesReason string `json:"tau_discharge_samples_reason,omitempty"`
+	TauHoldSReason            string `json:"tau_hold_s_reason,omitempty"`
+	TauHoldSamplesReason      string `json:"tau_hold_samples_reason,omitempty"`
+	VHighVReason              string `json:"v_high_v_reason,omitempty"`
+	VHighCountsReason         string `json:"v_high_counts_reason,omitempty"`
+	VLowVReason               string `json:"v_low_v_reason,omitempty"`
+	VLowCountsReason          string `json:"v_low_counts_reason,omitempty"`
+	NoiseRMSCountsReason      string `json:"noise_rms_counts_reason,omitempty"`
+	EffectiveROhmReason       string `json:"effective_r_ohm_reason,omitempty"`
+	EffectiveCFReason         string `json:"effective_c_f_reason,omitempty"`
+
+	notes []string // disagreements found while deciding the kind (diagnostics)
 }
 
 // Segment holds the figures of one run of samples with one setpoint, over its steady part.

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"strconv"
 	"strings"
 
 	"github.com/spf13/cobra"
@@ -19,12 +20,13 @@ func init() { commands = append(commands, newSummaryCmd) }
 
 // summaryFlags are the flags of `caploop summary`.
 type summaryFlags struct {
-	json     bool
-	junit    string
-	detail   bool
-	noAdvice bool
-	gates    gateFlags
-	rep      reportFlags
+	json      bool
+	junit     string
+	detail    bool
+	noAdvice  bool
+	supplyTol string
+	gates     gateFlags
+	rep       reportFlags
 }
 
 func newSummaryCmd() *cobra.Command {
@@ -60,6 +62,7 @@ With several files, a table gives one row per file and compares each with the fi
 	fl.StringVar(&f.junit, "junit", "", "write a JUnit XML report of the gates to this file")
 	fl.BoolVar(&f.detail, "detail", false, "with several files, print each file's full text too")
 	fl.BoolVar(&f.noAdvice, "no-advice", false, "leave out the advice block")
+	fl.StringVar(&f.supplyTol, "supply-tol", "5%", "the supply's tolerance: a load or buffer drop seen only in v_high must exceed it (e.g. 5%, 1%)")
 	f.gates.register(fl)
 	f.rep.register(fl)
 	return cmd
@@ -92,10 +95,14 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 	if err := f.rep.check(); err != nil {
 		return err
 	}
+	tol, err := parseSupplyTol(f.supplyTol)
+	if err != nil {
+		return withCode(2, err)
+	}
 	var results []*fileResult
 	unusable, failed := 0, 0
 	for _, name := range files {
-		r := summarizeFile(name, stderr, f.rep.quiet)
+		r := summarizeFile(name, stderr, f.rep.quiet, tol)
 		if r.err != nil {
 			unusable++
 			fmt.Fprintf(stderr, "caploop: %v\n", r.err)
@@ -177,7 +184,7 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 
 // summarizeFile runs the whole-file pass over one file. err is set when the file cannot
 // be used: it cannot be opened or read to its end, or holds no sample.
-func summarizeFile(name string, stderr io.Writer, quiet bool) *fileResult {
+func summarizeFile(name string, stderr io.Writer, quiet bool, supplyTol float64) *fileResult {
 	r := &fileResult{name: name}
 	src, err := openWithProgress(name, stderr, quiet)
 	if err != nil {
@@ -187,7 +194,7 @@ func summarizeFile(name string, stderr io.Writer, quiet bool) *fileResult {
 	defer src.Close()
 	sc := telemetry.NewScanner(src)
 	sc.Name = name
-	r.sum, err = analysis.Summarize(sc, analysis.Options{Source: name})
+	r.sum, err = analysis.Summarize(sc, analysis.Options{Source: name, SupplyTol: supplyTol})
 	switch {
 	case errors.Is(err, analysis.ErrNoSamples):
 		st := sc.Stats()
@@ -206,4 +213,18 @@ func summarizeFile(name string, stderr io.Writer, quiet bool) *fileResult {
 // adviceFor attaches the advice block to a summary (goals at their defaults).
 func adviceFor(s *analysis.Summary) (*advice.Advice, error) {
 	return advice.FromSummary(s, advice.Goals{})
+}
+
+// parseSupplyTol reads --supply-tol: a percentage with its unit ("5%"), above 0 and
+// below 50 %.
+func parseSupplyTol(v string) (float64, error) {
+	num, ok := strings.CutSuffix(strings.TrimSpace(v), "%")
+	if !ok {
+		return 0, fmt.Errorf("--supply-tol %q: give it in percent, e.g. 5%%", v)
+	}
+	x, err := strconv.ParseFloat(strings.TrimSpace(num), 64)
+	if err != nil || !(x > 0 && x < 50) {
+		return 0, fmt.Errorf("--supply-tol %q: want a percentage above 0 and below 50 %%", v)
+	}
+	return x / 100, nil
 }

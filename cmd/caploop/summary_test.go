@@ -7,6 +7,7 @@ import (
 	"errors"
 	"flag"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -295,5 +296,18 @@ func TestSummaryTrackingJSON(t *testing.T) {
 	}
 	if len(got.Segments) != 4096 || got.SegmentsOmitted == 0 {
 		t.Errorf("segments listed %d, omitted %d; want 4096 and the rest omitted", len(got.Segments), got.SegmentsOmitted)
+	}
+}
+
+func TestParseSupplyTol(t *testing.T) {
+	for _, tc := range []struct {
+		in   string
+		want float64
+		ok   bool
+	}{{"5%", 0.05, true}, {"1.5 %", 0.015, true}, {"5", 0, false}, {"0%", 0, false}, {"60%", 0, false}, {"x%", 0, false}} {
+		got, err := parseSupplyTol(tc.in)
+		if (err == nil) != tc.ok || (tc.ok && math.Abs(got-tc.want) > 1e-12) {
+			t.Errorf("parseSupplyTol(%q) = %g, %v; want %g ok=%v", tc.in, got, err, tc.want, tc.ok)
+		}
 	}
 }

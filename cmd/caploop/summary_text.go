@@ -130,11 +130,11 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 	p := s.Plant
 	fmt.Fprintln(w, "\nplant (identified from the data)")
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
-	fmt.Fprintf(tw, "  tau charge\t%s\t%s\t%d pairs\n", fss(p.TauChargeS, p.TauChargeSamples), fci(p.TauChargeCIS, "s"), p.ChargePairs)
-	fmt.Fprintf(tw, "  tau discharge\t%s\t%s\t%d pairs\n", fss(p.TauDischargeS, p.TauDischargeSamples), fci(p.TauDischargeCIS, "s"), p.DischargePairs)
-	fmt.Fprintf(tw, "  tau hold\t%s\t%s\t%d pairs\n", fss(p.TauHoldS, p.TauHoldSamples), fci(p.TauHoldCIS, "s"), p.HoldPairs)
-	fmt.Fprintf(tw, "  v_high\t%s\t%s\t\n", fvc(p.VHighV, p.VHighCounts), fci(p.VHighCIV, "V"))
-	fmt.Fprintf(tw, "  v_low\t%s\t%s\t\n", fvc(p.VLowV, p.VLowCounts), fci(p.VLowCIV, "V"))
+	fmt.Fprintf(tw, "  tau charge\t%s\t%s\t%d pairs\n", fss(p.TauChargeS, p.TauChargeSamples), orWhy(fci(p.TauChargeCIS, "s"), p.TauChargeSReason), p.ChargePairs)
+	fmt.Fprintf(tw, "  tau discharge\t%s\t%s\t%d pairs\n", fss(p.TauDischargeS, p.TauDischargeSamples), orWhy(fci(p.TauDischargeCIS, "s"), p.TauDischargeSReason), p.DischargePairs)
+	fmt.Fprintf(tw, "  tau hold\t%s\t%s\t%d pairs\n", fss(p.TauHoldS, p.TauHoldSamples), orWhy(fci(p.TauHoldCIS, "s"), p.TauHoldSReason), p.HoldPairs)
+	fmt.Fprintf(tw, "  v_high\t%s\t%s\t\n", fvc(p.VHighV, p.VHighCounts), orWhy(fci(p.VHighCIV, "V"), p.VHighVReason))
+	fmt.Fprintf(tw, "  v_low\t%s\t%s\t\n", fvc(p.VLowV, p.VLowCounts), orWhy(fci(p.VLowCIV, "V"), p.VLowVReason))
 	fmt.Fprintf(tw, "  ADC noise\t%s counts rms\t\t\n", ff(p.NoiseRMSCounts, "%.2f"))
 	if p.EffectiveROhm != nil {
 		fmt.Fprintf(tw, "  effective R\t%s\t(from tau, C and the load)\t\n", fv(p.EffectiveROhm, "Ω"))
@@ -142,12 +142,17 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 	if p.EffectiveCF != nil {
 		fmt.Fprintf(tw, "  effective C\t%s\t(from tau, R and the load)\t\n", fv(p.EffectiveCF, "F"))
 	}
-	if p.LoadOhm != nil {
-		fmt.Fprintf(tw, "  load\t%s\t\t\n", fv(p.LoadOhm, "Ω"))
+	kind := "-"
+	if p.Kind != nil {
+		kind = *p.Kind
 	}
-	if p.SenseDropV != nil {
-		fmt.Fprintf(tw, "  sense drop\t%s\t\t\n", fv(p.SenseDropV, "V"))
+	fmt.Fprintf(tw, "  load or buffer\t%s\t%s\t\n", kind, orWhy("", p.KindReason))
+	from := map[string]string{"hold_droop": "(from the hold droop)", "v_high": "(from v_high and the supply)", "v_low": "(from v_low below ground)"}
+	fmt.Fprintf(tw, "  load\t%s\t%s\t%s\n", fv(p.LoadOhm, "Ω"), orWhy(fci(p.LoadOhmCI, "Ω"), p.LoadOhmReason), from[p.LoadFrom])
+	if p.LoadRatio != nil {
+		fmt.Fprintf(tw, "  load / R\t%.3g\t[%.3g .. %.3g]\t\n", *p.LoadRatio, (*p.LoadRatioCI)[0], (*p.LoadRatioCI)[1])
 	}
+	fmt.Fprintf(tw, "  sense drop\t%s\t%s\t%s\n", fv(p.SenseDropV, "V"), orWhy(fci(p.SenseDropCIV, "V"), p.SenseDropVReason), from[p.SenseDropFrom])
 	tw.Flush()
 	if len(p.MissingCodes) > 0 {
 		fmt.Fprintf(w, "  missing codes: %s\n", intList(p.MissingCodes))
@@ -229,6 +234,8 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 		}
 		tw.Flush()
 	}
+
+	writeEventsText(w, s)
 
 	fmt.Fprintln(w, "\ndiagnostics")
 	if len(s.Diagnostics) == 0 {
@@ -402,4 +409,50 @@ func writeTrackingText(w io.Writer, t *analysis.Tracking, total int64) {
 	fmt.Fprintf(tw, "  duty charge/hold/discharge\t%s / %s / %s\t\n", ff(t.DutyCharge, "%.3f"), ff(t.DutyHold, "%.3f"), ff(t.DutyDischarge, "%.3f"))
 	fmt.Fprintf(tw, "  band jumps\t%d\t\n", t.BandJumps)
 	tw.Flush()
+}
+
+// orWhy returns the interval text, or the reason when the figure is null.
+func orWhy(interval, reason string) string {
+	if reason != "" {
+		return reason
+	}
+	return interval
+}
+
+// writeEventsText writes the events, glitches and suspect lines, when there are any.
+func writeEventsText(w io.Writer, s *analysis.Summary) {
+	if len(s.Events) > 0 {
+		fmt.Fprintln(w, "\nevents (each but a note starts a new segment)")
+		tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+		for _, e := range s.Events {
+			at := "-"
+			if e.AtS != nil {
+				at = si.FormatDigits(*e.AtS, "s", 4)
+			}
+			fmt.Fprintf(tw, "  %s\tline %d\t%s\t%s\n", at, e.Line, e.Kind, e.Text)
+		}
+		tw.Flush()
+		if s.EventsOmitted > 0 {
+			fmt.Fprintf(w, "  ... %d more events (the list is bounded)\n", s.EventsOmitted)
+		}
+	}
+	lines := func(l analysis.LineList) string {
+		var b strings.Builder
+		for i, n := range l.Lines {
+			if i > 0 {
+				b.WriteString(", ")
+			}
+			fmt.Fprint(&b, n)
+		}
+		if l.Count > int64(len(l.Lines)) {
+			b.WriteString(", ...")
+		}
+		return b.String()
+	}
+	if g := s.Glitches; g.Count > 0 {
+		fmt.Fprintf(w, "\nglitches: %d readings the plant cannot reach in one period, left out of the level figures (lines %s)\n", g.Count, lines(g))
+	}
+	if l := s.SuspectLines; l.Count > 0 {
+		fmt.Fprintf(w, "\nsuspect lines: %d data lines lack a field the other lines carry (lines %s)\n", l.Count, lines(l))
+	}
 }

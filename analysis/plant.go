@@ -1,0 +1,267 @@
+package analysis
+
+import (
+	"fmt"
+	"math"
+)
+
+// Plant kinds: what explains the top of the range.
+const (
+	KindNone   = "none"   // nothing between the node and the sense point, no load seen
+	KindLoad   = "load"   // a resistive load (or leak) from the node to ground
+	KindBuffer = "buffer" // a follower: it drops the sensed level and loads the node
+)
+
+// DefaultSupplyTol is the supply tolerance assumed when Options.SupplyTol is zero: a USB
+// supply's 5 % (common practice).
+const DefaultSupplyTol = 0.05
+
+// Why a figure is null (the <name>_reason strings that say so).
+const (
+	reasonSupplyLimited = "not identifiable (supply-limited)"
+	reasonNoSupply      = "needs supply in the meta lines"
+	reasonNoR           = "needs r in the meta lines (load_ratio is R_load/R)"
+)
+
+// interval is a figure with its 95 % interval; NaN value means unknown.
+type interval struct{ v, lo, hi float64 }
+
+func unknown() interval               { return interval{math.NaN(), math.NaN(), math.NaN()} }
+func (i interval) known() bool        { return !math.IsNaN(i.v) && !math.IsInf(i.v, 0) }
+func (i interval) halfWidth() float64 { return (i.hi - i.lo) / 2 }
+
+// scaleOK applies the identifiability rule of a scale figure (tau, a load, an effective
+// R or C): its 95 % half-width is at most 10 % of its value.
+func scaleOK(i interval) (bool, string) {
+	if !i.known() {
+		return false, "not identified"
+	}
+	if math.IsInf(i.hi, 0) || math.IsInf(i.lo, 0) || math.IsNaN(i.lo) || math.IsNaN(i.hi) {
+		return false, "not identifiable: its 95 % interval is unbounded"
+	}
+	if hw := i.halfWidth(); hw > 0.1*math.Abs(i.v) {
+		return false, fmt.Sprintf("not identifiable: its 95 %% interval is ±%.0f %% (more than 10 %%)", 100*hw/math.Abs(i.v))
+	}
+	return true, ""
+}
+
+// levelOK applies the rule of a figure that may sit near zero (v_low, a drop): its 95 %
+// half-width is at most 2 LSB, or 10 % of its value when that is larger.
+func levelOK(i interval, lsb float64, unit string) (bool, string) {
+	if !i.known() {
+		return false, "not identified"
+	}
+	if math.IsNaN(i.lo) || math.IsNaN(i.hi) {
+		return false, "not identifiable: no interval"
+	}
+	if hw := i.halfWidth(); hw > math.Max(2*lsb, 0.1*math.Abs(i.v)) {
+		return false, fmt.Sprintf("not identifiable: its 95 %% interval is ±%.3g %s (more than 2 LSB and 10 %%)", hw, unit)
+	}
+	return true, ""
+}
+
+// tauOK applies the time-constant rule: tau below 0.3 sample periods is never shown
+// (every sample sits on a rail, one period moves the level all the way), otherwise the
+// scale rule.
+func tauOK(samples interval) (bool, string) {
+	if samples.known() && samples.v < 0.3 {
+		return false, fmt.Sprintf("tau is %.3g times shorter than the sample period: every sample sits on a rail", 1/samples.v)
+	}
+	return scaleOK(samples)
+}
+
+// plantEvidence is what the load-or-buffer decision reads: the identified levels of the
+// sense point (volts, or counts when the scale is unknown, with lsb 1), the time
+// constants in samples, and the meta lines' supply and R.
+type plantEvidence struct {
+	vHigh, vLow interval // sense-point asymptotes of charge and discharge
+	tauC, tauH  interval // charge and hold time constants, samples; tauH.hi may be +Inf
+	holdPairs   float64  // hold sample pairs behind tauH (0: no hold seen)
+	supply      float64  // V, NaN unknown
+	supplyTol   float64  // relative
+	r           float64  // ohm, NaN unknown
+	lsb         float64  // volts per count (1 when working in counts)
+}
+
+// plantDecision is the outcome: the kind and the figures behind it, each with a reason
+// when it is null.
+type plantDecision struct {
+	kind, kindReason string
+	ratio            interval // R_load / R
+	ratioReason      string
+	load             interval // ohm
+	loadReason       string
+	loadFrom         string   // "hold_droop" or "v_high"
+	drop             interval // sense drop, V
+	dropReason       string
+	dropFrom         string   // "v_low" or "v_high"
+	droop            interval // R_load / R from the hold droop before the 10 % rule (unknown without a droop)
+	notes            []string
+}
+
+// decidePlant says whether a load, a buffer or nothing explains the top of the range.
+//
+// The hold droop needs no supply: with a load R_L the node holds with tau_h = R_L C
+// and charges with tau_c = C (R || R_L), so R_L/R = tau_h/tau_c - 1. A follower's base
+// loads the node the same way (its input, beta R_E, pulls towards V_BE), and it also
+// lowers the sensed level by its drop D: the discharge then heads for -D rho/(1+rho)
+// at the sense point, below ground, which no plain load can do (rho = R_L/R). The top of
+// the range is (Vs - D) rho/(1+rho) either way, so with a supply Vs the drop is
+// D = Vs - v_high (1+rho)/rho; that depends on Vs being exact and counts only beyond
+// the supply tolerance. Without a hold droop (two-state loops) v_high alone gives
+// rho = v_high/(Vs - v_high), again only beyond the tolerance.
+func decidePlant(ev plantEvidence) plantDecision {
+	d := plantDecision{ratio: unknown(), load: unknown(), drop: unknown(), droop: unknown()}
+	haveVs := !math.IsNaN(ev.supply) && ev.supply > 0
+	tolV := ev.supplyTol * ev.supply
+
+	// 1. The load ratio from the hold droop.
+	droopLoad := false // the droop shows a load (its interval excludes none)
+	noDroop := false   // enough hold and no significant droop: no load
+	switch {
+	case ev.tauC.known() && ev.tauH.known() && ev.holdPairs > 0:
+		// q = tau_h/tau_c; the two fits' errors are independent, so their relative
+		// half-widths add in quadrature.
+		q := ev.tauH.v / ev.tauC.v
+		rel := math.Hypot(ev.tauH.halfWidth()/ev.tauH.v, ev.tauC.halfWidth()/ev.tauC.v)
+		r := interval{v: q - 1, lo: q*(1-rel) - 1, hi: q*(1+rel) - 1}
+		switch {
+		case math.IsInf(ev.tauH.hi, 1) || math.IsNaN(ev.tauH.hi):
+			noDroop = true
+			d.ratioReason = "no load seen: the hold droop is not significant"
+		case r.v <= 0:
+			d.ratioReason = "the hold droops faster than the charge runs: not a resistive load"
+		default:
+			d.ratio, droopLoad, d.loadFrom, d.droop = r, true, "hold_droop", r
+		}
+	case ev.holdPairs > 0 && ev.tauC.known():
+		noDroop = true
+		d.ratioReason = "no load seen: the hold droop is not significant"
+	case ev.holdPairs == 0:
+		d.ratioReason = "no hold in the capture to show a droop"
+	default:
+		d.ratioReason = "needs the charge time constant"
+	}
+
+	// 2. A drop from the discharge asymptote below ground (supply-independent).
+	lowDrop := false
+	if ev.vLow.known() && ev.vLow.hi < -2*ev.lsb {
+		lowDrop = true
+		k := 1.0
+		if droopLoad {
+			k = (1 + d.ratio.v) / d.ratio.v
+		}
+		d.drop = interval{v: -ev.vLow.v * k, lo: -ev.vLow.hi * k, hi: -ev.vLow.lo * k}
+		d.dropFrom = "v_low"
+	}
+
+	// 3. What v_high says, beyond the supply tolerance.
+	highDrop := false
+	if !ev.vHigh.known() {
+		if d.dropReason == "" && !lowDrop {
+			d.dropReason = "needs v_high"
+		}
+	} else if !haveVs {
+		if !lowDrop {
+			d.dropReason = reasonNoSupply
+		}
+	} else {
+		k, klo, khi := 1.0, 1.0, 1.0
+		if droopLoad {
+			k = (1 + d.ratio.v) / d.ratio.v
+			klo, khi = (1+d.ratio.hi)/d.ratio.hi, (1+d.ratio.lo)/d.ratio.lo
+		}
+		gap := interval{v: ev.supply - ev.vHigh.v*k, lo: ev.supply - ev.vHigh.hi*khi, hi: ev.supply - ev.vHigh.lo*klo}
+		margin := math.Max(tolV, 2*ev.lsb)
+		switch {
+		case gap.lo > margin && (droopLoad || lowDrop || noDroop):
+			// The load is known (or known absent): what is left is a buffer's drop.
+			highDrop = true
+			if !lowDrop {
+				d.drop, d.dropFrom = gap, "v_high"
+			} else if math.Abs(gap.v-d.drop.v) > margin+d.drop.halfWidth()+gap.halfWidth() {
+				d.notes = append(d.notes, fmt.Sprintf("the sense drop from v_low (%.3g V) and from the supply (%.3g V) disagree by more than the supply tolerance", d.drop.v, gap.v))
+			}
+		case gap.lo > margin:
+			// No hold to tell: a plain load explains a drop of the top alone.
+			vh := ev.vHigh
+			d.ratio = interval{v: vh.v / (ev.supply - vh.v), lo: vh.lo / (ev.supply - vh.lo), hi: vh.hi / (ev.supply - vh.hi)}
+			if vh.hi >= ev.supply {
+				d.ratio.hi = math.Inf(1)
+			}
+			d.loadFrom = "v_high"
+			d.ratioReason = ""
+		case gap.hi < -margin:
+			d.notes = append(d.notes, fmt.Sprintf("v_high is above what the supply of %.3g V allows (by more than its %.0f %% tolerance)", ev.supply, 100*ev.supplyTol))
+		default:
+			if !lowDrop {
+				d.dropReason = reasonSupplyLimited
+			}
+			if !droopLoad && !noDroop && d.loadFrom == "" {
+				d.ratioReason = reasonSupplyLimited
+			}
+		}
+	}
+	if !lowDrop && !highDrop && d.dropReason == "" {
+		d.dropReason = "no drop beyond the supply tolerance"
+	}
+
+	// 4. The figures, shown when identifiable.
+	hasLoad := d.loadFrom != "" && d.ratio.known()
+	buffer := lowDrop || highDrop
+	if hasLoad {
+		if ok, why := scaleOK(d.ratio); !ok {
+			d.ratioReason = why
+			if math.IsInf(d.ratio.hi, 1) {
+				// The interval reaches "none": not a load after all.
+				hasLoad = false
+				d.ratioReason = "not identifiable: its interval includes no load"
+			}
+		} else if !math.IsNaN(ev.r) && ev.r > 0 {
+			d.load = interval{d.ratio.v * ev.r, d.ratio.lo * ev.r, d.ratio.hi * ev.r}
+		}
+		if !d.load.known() {
+			switch {
+			case d.ratioReason != "":
+				d.loadReason = d.ratioReason
+			default:
+				d.loadReason = reasonNoR
+			}
+		}
+		if d.ratioReason != "" {
+			d.ratio = unknown()
+		}
+	} else {
+		d.ratio, d.loadFrom = unknown(), ""
+		if d.ratioReason == "" {
+			d.ratioReason = "not identified"
+		}
+		d.loadReason = d.ratioReason
+	}
+	if buffer {
+		if ok, why := levelOK(d.drop, ev.lsb, "V"); !ok || d.drop.lo <= 0 {
+			if ok {
+				why = "not identifiable: its interval includes no drop"
+			}
+			d.dropReason, d.drop = why, unknown()
+		}
+	} else {
+		d.drop, d.dropFrom = unknown(), ""
+	}
+	switch {
+	case buffer:
+		d.kind = KindBuffer
+	case hasLoad:
+		d.kind = KindLoad
+	case noDroop:
+		d.kind = KindNone
+	case haveVs && ev.vHigh.known() && d.dropReason == reasonSupplyLimited:
+		// No hold to show a droop, and v_high within the supply tolerance: a small load
+		// and none look the same.
+		d.kindReason = reasonSupplyLimited
+	default:
+		d.kind = ""
+		d.kindReason = "not identifiable: no hold droop and no v_high to tell a load from a buffer"
+	}
+	return d
+}
