@@ -17,6 +17,7 @@ import (
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/loop"
 	"github.com/caploop/caploop/telemetry"
+	"github.com/caploop/caploop/telemetry/wire"
 )
 
 var (
@@ -112,8 +113,8 @@ type fil struct {
 func runFirmware(t *testing.T, prog string, cfg loop.Config) fil {
 	t.Helper()
 	var out fil
-	linkc := make(chan *telemetry.Link, 1)
-	var link *telemetry.Link
+	linkc := make(chan *wire.Link, 1)
+	var link *wire.Link
 	next := 0
 	rig, err := Start(context.Background(), Options{
 		Program: prog, Plant: cfg, SP: 512, Samples: runSamples,
@@ -139,7 +140,7 @@ func runFirmware(t *testing.T, prog string, cfg loop.Config) fil {
 	}
 	defer rig.Close()
 	capture := filepath.Join(t.TempDir(), "fil.cap")
-	l := telemetry.Dial(telemetry.SerialConfig{Path: rig.Path()}, telemetry.LinkOptions{Poll: 20 * time.Millisecond, RecordPath: capture})
+	l := wire.Dial(wire.SerialConfig{Path: rig.Path()}, wire.LinkOptions{Poll: 20 * time.Millisecond, RecordPath: capture})
 	defer l.Close()
 	linkc <- l
 	t0 := time.Now()
@@ -448,7 +449,7 @@ func TestFirmwareHostLines(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer rig.Close()
-	src, err := telemetry.OpenSerial(telemetry.SerialConfig{Path: rig.Path()})
+	src, err := wire.OpenSerial(wire.SerialConfig{Path: rig.Path()})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -483,7 +484,7 @@ func TestFirmwareHostLines(t *testing.T) {
 	}
 	want("# accepts=")
 	want("t=")
-	w := src.(*telemetry.SerialSource)
+	w := src.(*wire.SerialSource)
 	for _, c := range []struct{ send, answer string }{
 		{"set deadband=6\r\n", "# deadband=6"},
 		{"\r\n\n  \nset\n", "# error: set wants key=value"},
