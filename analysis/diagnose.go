@@ -5,6 +5,7 @@ import (
 	"math"
 	"strings"
 
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/si"
 )
@@ -245,19 +246,7 @@ func segList(v []int) string {
 	if len(v) == 1 {
 		return fmt.Sprintf("segment %d", v[0])
 	}
-	var b strings.Builder
-	b.WriteString("segments ")
-	for i, n := range v {
-		if i > 0 {
-			b.WriteString(", ")
-		}
-		if i == 8 {
-			fmt.Fprintf(&b, "... (%d in all)", len(v))
-			break
-		}
-		fmt.Fprint(&b, n)
-	}
-	return b.String()
+	return "segments " + figure.List(v)
 }
 
 // trackFold gathers the per-setpoint findings of the setpoints passed while the setpoint

@@ -7,6 +7,7 @@ import (
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/advice"
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/telemetry/si"
 )
 
@@ -78,8 +79,8 @@ func captureTable(s *analysis.Summary, prefix string) Table {
 	if from == "" {
 		from = "unknown"
 	}
-	t.add("sample period", fmtSI(s.SamplePeriodS, "s")+" (from "+clean(from)+")")
-	t.add("jitter", fmtSI(s.JitterS, "s"))
+	t.add("sample period", figure.SI(s.SamplePeriodS, "s")+" (from "+clean(from)+")")
+	t.add("jitter", figure.SI(s.JitterS, "s"))
 	t.add("gaps (missing samples)", strconv.FormatInt(s.Gaps, 10))
 	t.add("drive inferred from the rule", yesNo(s.InferredDrive))
 	return t
@@ -88,46 +89,46 @@ func captureTable(s *analysis.Summary, prefix string) Table {
 func boardTable(s *analysis.Summary, prefix string) Table {
 	b := s.Board
 	t := Table{ID: prefix + "board", Caption: "Board (as its meta lines said)", Head: []string{"field", "value"}}
-	t.add("ADC reference", fmtSI(b.VrefV, "V"))
-	bits := na
+	t.add("ADC reference", figure.SI(b.VrefV, "V"))
+	bits := figure.Missing
 	if b.ADCBits != nil {
 		bits = strconv.Itoa(*b.ADCBits) + " bits"
 	}
 	t.add("ADC resolution", bits)
 	mode := b.Mode
 	if mode == "" {
-		mode = na
+		mode = figure.Missing
 	}
 	t.add("controller", clean(mode))
-	t.add("deadband (half-width)", fmtCounts(b.DeadbandCounts))
-	t.add("supply", fmtSI(b.SupplyV, "V"))
-	t.add("R", fmtSI(b.ROhm, "Ω"))
-	t.add("C", fmtSI(b.CF, "F"))
-	t.add("load", fmtSI(b.LoadOhm, "Ω"))
+	t.add("deadband (half-width)", figure.Counts(b.DeadbandCounts))
+	t.add("supply", figure.SI(b.SupplyV, "V"))
+	t.add("R", figure.SI(b.ROhm, "Ω"))
+	t.add("C", figure.SI(b.CF, "F"))
+	t.add("load", figure.SI(b.LoadOhm, "Ω"))
 	return t
 }
 
 func plantTable(s *analysis.Summary, prefix string) Table {
 	p := s.Plant
 	t := Table{ID: prefix + "plant", Caption: "Identified circuit (95 % intervals)", Head: []string{"figure", "value", "interval"}}
-	t.add("tau, charging", fmtSI(p.TauChargeS, "s"), fmtCI(p.TauChargeCIS, "s"))
-	t.add("tau, discharging", fmtSI(p.TauDischargeS, "s"), fmtCI(p.TauDischargeCIS, "s"))
-	t.add("tau, holding", fmtSI(p.TauHoldS, "s"), fmtCI(p.TauHoldCIS, "s"))
-	t.add("charge end level (V high)", fmtSI(p.VHighV, "V"), fmtCI(p.VHighCIV, "V"))
-	t.add("discharge end level (V low)", fmtSI(p.VLowV, "V"), fmtCI(p.VLowCIV, "V"))
-	t.add("ADC noise (rms)", fmtCounts(p.NoiseRMSCounts), "")
-	t.add("missing codes", fmtInts(p.MissingCodes), "")
-	t.add("stuck codes", fmtInts(p.StuckCodes), "")
-	t.add("effective R (from tau and C)", fmtSI(p.EffectiveROhm, "Ω"), "")
-	t.add("effective C (from tau and R)", fmtSI(p.EffectiveCF, "F"), "")
-	t.add("load (from V high, supply and R)", fmtSI(p.LoadOhm, "Ω"), "")
-	t.add("sense drop (supply − V high)", fmtSI(p.SenseDropV, "V"), "")
+	t.add("tau, charging", figure.SI(p.TauChargeS, "s"), figure.Interval(p.TauChargeCIS, "s"))
+	t.add("tau, discharging", figure.SI(p.TauDischargeS, "s"), figure.Interval(p.TauDischargeCIS, "s"))
+	t.add("tau, holding", figure.SI(p.TauHoldS, "s"), figure.Interval(p.TauHoldCIS, "s"))
+	t.add("charge end level (V high)", figure.SI(p.VHighV, "V"), figure.Interval(p.VHighCIV, "V"))
+	t.add("discharge end level (V low)", figure.SI(p.VLowV, "V"), figure.Interval(p.VLowCIV, "V"))
+	t.add("ADC noise (rms)", figure.Counts(p.NoiseRMSCounts), "")
+	t.add("missing codes", figure.List(p.MissingCodes), "")
+	t.add("stuck codes", figure.List(p.StuckCodes), "")
+	t.add("effective R (from tau and C)", figure.SI(p.EffectiveROhm, "Ω"), "")
+	t.add("effective C (from tau and R)", figure.SI(p.EffectiveCF, "F"), "")
+	t.add("load (from V high, supply and R)", figure.SI(p.LoadOhm, "Ω"), "")
+	t.add("sense drop (supply − V high)", figure.SI(p.SenseDropV, "V"), "")
 	return t
 }
 
 // setpointText is "512 counts (2.5 V)".
 func setpointText(g analysis.Segment) string {
-	txt := fmtNum(g.SetpointCounts) + " counts"
+	txt := figure.Num(g.SetpointCounts) + " counts"
 	if g.SetpointV != nil && finite(*g.SetpointV) {
 		txt += " (" + si.Format(*g.SetpointV, "V") + ")"
 	}
@@ -137,23 +138,23 @@ func setpointText(g analysis.Segment) string {
 // ripplePP is the peak-to-peak ripple in volts when known, else in counts.
 func ripplePP(g analysis.Segment) string {
 	if g.RipplePPV != nil {
-		return fmtSI(g.RipplePPV, "V")
+		return figure.SI(g.RipplePPV, "V")
 	}
-	return fmtCounts(g.RipplePPCounts)
+	return figure.Counts(g.RipplePPCounts)
 }
 
 func rippleRMS(g analysis.Segment) string {
 	if g.RippleRMSV != nil {
-		return fmtSI(g.RippleRMSV, "V")
+		return figure.SI(g.RippleRMSV, "V")
 	}
-	return fmtCounts(g.RippleRMSCounts)
+	return figure.Counts(g.RippleRMSCounts)
 }
 
 func meanError(g analysis.Segment) string {
 	if g.MeanErrorV != nil {
-		return fmtSI(g.MeanErrorV, "V")
+		return figure.SI(g.MeanErrorV, "V")
 	}
-	return fmtCounts(g.MeanErrorCounts)
+	return figure.Counts(g.MeanErrorCounts)
 }
 
 func segmentsTable(s *analysis.Summary, prefix string) Table {
@@ -177,11 +178,11 @@ func segmentsTable(s *analysis.Summary, prefix string) Table {
 		}
 		shown++
 		span := si.Format(g.StartS, "s") + " – " + si.Format(g.EndS, "s")
-		duty := fmtPct(g.DutyCharge) + " / " + fmtPct(g.DutyHold) + " / " + fmtPct(g.DutyDischarge)
+		duty := figure.Pct(g.DutyCharge) + " / " + figure.Pct(g.DutyHold) + " / " + figure.Pct(g.DutyDischarge)
 		r := Row{Cells: []string{
 			strconv.Itoa(i + 1), setpointText(g), span, strconv.FormatInt(g.SteadySamples, 10),
-			meanError(g), ripplePP(g), rippleRMS(g), duty, fmtSI(g.LimitCyclePeriodS, "s"),
-			fmtSI(g.SwitchingHz, "Hz"), fmtCounts(g.DeadbandCounts),
+			meanError(g), ripplePP(g), rippleRMS(g), duty, figure.SI(g.LimitCyclePeriodS, "s"),
+			figure.SI(g.SwitchingHz, "Hz"), figure.Counts(g.DeadbandCounts),
 			strconv.FormatInt(g.DeadbandEntries, 10) + " / " + strconv.FormatInt(g.DeadbandExits, 10),
 			strconv.FormatInt(g.BandJumps, 10), yesNo(!g.Unreachable),
 		}}
@@ -213,25 +214,25 @@ func trackingTable(s *analysis.Summary, prefix string) Table {
 	t := Table{ID: prefix + "tracking", Caption: "Tracking (while the setpoint moved in small steps)", Head: []string{"figure", "value"}}
 	dur := ""
 	if tr.DurationS != nil {
-		dur = " (" + fmtSI(tr.DurationS, "s") + ")"
+		dur = " (" + figure.SI(tr.DurationS, "s") + ")"
 	}
 	t.add("samples", fmt.Sprintf("%d of %d%s", tr.Samples, s.Samples, dur))
 	t.add("setpoint range", levelText(tr.SPMinV, tr.SPMinCounts)+" – "+levelText(tr.SPMaxV, tr.SPMaxCounts))
 	pick := func(v, counts *float64) string {
 		if v != nil {
-			return fmtSI(v, "V")
+			return figure.SI(v, "V")
 		}
-		return fmtCounts(counts) + " counts"
+		return figure.Counts(counts) + " counts"
 	}
 	t.add("mean error", pick(tr.MeanErrorV, tr.MeanErrorCounts))
 	t.add("rms error", pick(tr.RMSErrorV, tr.RMSErrorCounts))
 	t.add("largest error", pick(tr.MaxAbsErrorV, tr.MaxAbsCounts))
-	lag := fmtSI(tr.LagS, "s")
+	lag := figure.SI(tr.LagS, "s")
 	if tr.LagS == nil && tr.LagSamples != nil {
-		lag = fmtNum(*tr.LagSamples) + " samples"
+		lag = figure.Num(*tr.LagSamples) + " samples"
 	}
 	t.add("lag of the reading behind the setpoint", lag)
-	t.add("duty charge / hold / discharge", fmtPct(tr.DutyCharge)+" / "+fmtPct(tr.DutyHold)+" / "+fmtPct(tr.DutyDischarge))
+	t.add("duty charge / hold / discharge", figure.Pct(tr.DutyCharge)+" / "+figure.Pct(tr.DutyHold)+" / "+figure.Pct(tr.DutyDischarge))
 	t.add("band jumps", strconv.FormatInt(tr.BandJumps, 10))
 	t.add("short segments made by the moving setpoint", strconv.FormatInt(tr.Segments, 10))
 	return t
@@ -241,7 +242,7 @@ func levelText(v *float64, counts float64) string {
 	if v != nil && finite(*v) {
 		return si.Format(*v, "V")
 	}
-	return fmtNum(counts) + " counts"
+	return figure.Num(counts) + " counts"
 }
 
 func stepsTable(s *analysis.Summary, prefix string) Table {
@@ -252,7 +253,7 @@ func stepsTable(s *analysis.Summary, prefix string) Table {
 			break
 		}
 		t.add(strconv.Itoa(i+1), si.Format(st.AtS, "s"), levelText(st.FromV, st.FromCounts), levelText(st.ToV, st.ToCounts),
-			fmtSI(st.RiseS, "s"), fmtSI(st.SettleS, "s"), fmtSI(st.OvershootV, "V"), fmtSI(st.SlewVPerS, "V/s"))
+			figure.SI(st.RiseS, "s"), figure.SI(st.SettleS, "s"), figure.SI(st.OvershootV, "V"), figure.SI(st.SlewVPerS, "V/s"))
 	}
 	return t
 }
@@ -302,16 +303,16 @@ func AdviceTables(a *advice.Advice, prefix string) []Table {
 			t.add("static error at most", si.Format(g.StaticErrorV, "V"))
 		}
 		t.add("pin current at most", si.Format(g.PinCurrentA, "A"))
-		noise := fmtNum(g.NoiseRMSCounts) + " counts rms"
+		noise := figure.Num(g.NoiseRMSCounts) + " counts rms"
 		if g.NoiseMeasured {
 			noise += " (measured)"
 		} else {
 			noise += " (assumed)"
 		}
 		t.add("ADC noise", noise)
-		t.add("noise margin", fmtNum(g.SigmaMultiple)+" σ")
+		t.add("noise margin", figure.Num(g.SigmaMultiple)+" σ")
 		if g.CRatio > 0 && g.CRatio != 1 {
-			t.add("real / marked capacitance", fmtNum(g.CRatio))
+			t.add("real / marked capacitance", figure.Num(g.CRatio))
 		}
 		ts = append(ts, t)
 	}
@@ -321,16 +322,16 @@ func AdviceTables(a *advice.Advice, prefix string) []Table {
 			t.add("suggested deadband (half-width)", strconv.Itoa(*a.DeadbandCounts)+" counts")
 		}
 		if w := a.Deadband; w != nil {
-			t.add("largest step near the setpoints", fmtNum(w.StepCounts)+" counts")
-			t.add("ADC noise (rms)", fmtNum(w.NoiseRMSCounts)+" counts")
-			t.add("noise margin", fmtNum(w.SigmaMultiple)+" σ = "+fmtNum(w.MarginCounts)+" counts")
+			t.add("largest step near the setpoints", figure.Num(w.StepCounts)+" counts")
+			t.add("ADC noise (rms)", figure.Num(w.NoiseRMSCounts)+" counts")
+			t.add("noise margin", figure.Num(w.SigmaMultiple)+" σ = "+figure.Num(w.MarginCounts)+" counts")
 			t.add("static error it allows", si.Format(w.StaticErrorV, "V"))
 			if w.FromVoltageBand != nil {
 				t.add("from the ripple goal", strconv.Itoa(*w.FromVoltageBand)+" counts")
 			}
 			for _, st := range w.Steps {
 				t.add(fmt.Sprintf("one period's step at %d counts", st.SetpointCounts),
-					"charge "+fmtNum(st.ChargeCounts)+", discharge "+fmtNum(st.DischargeCounts)+" counts")
+					"charge "+figure.Num(st.ChargeCounts)+", discharge "+figure.Num(st.DischargeCounts)+" counts")
 			}
 			t.add("rule", clean(w.Rule))
 			t.add("band jumps in the checking simulation", strconv.FormatInt(w.VerifiedJumps, 10))
@@ -384,8 +385,8 @@ func AdviceTables(a *advice.Advice, prefix string) []Table {
 	return ts
 }
 
-// figure is one row of the comparison table: how to read it from a summary.
-type figure struct {
+// compareRow is one row of the comparison table: how to read it from a summary.
+type compareRow struct {
 	label string
 	unit  string // SI unit for si.Format; "" for plain numbers, "%" for fractions
 	get   func(s *analysis.Summary) *float64
@@ -393,7 +394,7 @@ type figure struct {
 
 func i64(v int64) *float64 { f := float64(v); return &f }
 
-var captureFigures = []figure{
+var captureFigures = []compareRow{
 	{"samples", "", func(s *analysis.Summary) *float64 { return i64(s.Samples) }},
 	{"rejected lines", "", func(s *analysis.Summary) *float64 { return i64(s.RejectedLines) }},
 	{"duration", "s", func(s *analysis.Summary) *float64 { return &s.DurationS }},
@@ -443,19 +444,19 @@ func allPresent(segs []*analysis.Segment, vals []*float64) bool {
 func fmtUnit(p *float64, unit string) string {
 	switch unit {
 	case "":
-		return fmtNumP(p)
+		return figure.NumP(p)
 	case "%":
-		return fmtPct(p)
+		return figure.Pct(p)
 	case "counts":
-		return fmtCounts(p)
+		return figure.Counts(p)
 	}
-	return fmtSI(p, unit)
+	return figure.SI(p, unit)
 }
 
 // fmtDiff formats b - a with its sign and, when a is not zero, the relative change.
 func fmtDiff(a, b *float64, unit string) string {
 	if a == nil || b == nil || !finite(*a) || !finite(*b) {
-		return na
+		return figure.Missing
 	}
 	d := *b - *a
 	if d == 0 {

@@ -25,7 +25,7 @@ type summaryFlags struct {
 	detail    bool
 	noAdvice  bool
 	supplyTol string
-	gates     gateFlags
+	gates     report.GateText
 	rep       reportFlags
 }
 
@@ -63,32 +63,13 @@ With several files, a table gives one row per file and compares each with the fi
 	fl.BoolVar(&f.detail, "detail", false, "with several files, print each file's full text too")
 	fl.BoolVar(&f.noAdvice, "no-advice", false, "leave out the advice block")
 	fl.StringVar(&f.supplyTol, "supply-tol", "5%", "the supply's tolerance: a load or buffer drop seen only in v_high must exceed it (e.g. 5%, 1%)")
-	f.gates.register(fl)
+	registerGates(fl, &f.gates)
 	f.rep.register(fl)
 	return cmd
 }
 
-// fileResult is what summary made of one file.
-type fileResult struct {
-	name   string
-	sum    *analysis.Summary
-	adv    *advice.Advice
-	advErr error
-	err    error // unusable input
-	gates  []gateResult
-}
-
-// summaryDoc is the JSON document of one file: the Summary's fields, the advice and the
-// gate results.
-type summaryDoc struct {
-	*analysis.Summary
-	Advice      *advice.Advice `json:"advice"`
-	AdviceError *string        `json:"advice_error,omitempty"`
-	Gates       []gateResult   `json:"gates,omitempty"`
-}
-
 func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note string) error {
-	gs, err := f.gates.parse()
+	gs, err := f.gates.Parse()
 	if err != nil {
 		return withCode(2, err)
 	}
@@ -99,21 +80,21 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 	if err != nil {
 		return withCode(2, err)
 	}
-	var results []*fileResult
+	var results []*report.FileResult
 	unusable, failed := 0, 0
 	for _, name := range files {
 		r := summarizeFile(name, stderr, f.rep.quiet, tol)
-		if r.err != nil {
+		if r.Err != nil {
 			unusable++
-			fmt.Fprintf(stderr, "caploop: %v\n", r.err)
+			fmt.Fprintf(stderr, "caploop: %v\n", r.Err)
 		}
-		if r.sum != nil && r.err == nil {
+		if r.Summary != nil && r.Err == nil {
 			if !f.noAdvice {
-				r.adv, r.advErr = adviceFor(r.sum)
+				r.Advice, r.AdviceErr = adviceFor(r.Summary)
 			}
-			r.gates = gs.check(r.sum)
-			for _, g := range r.gates {
-				if g.Status == gateFail {
+			r.Gates = gs.Check(r.Summary)
+			for _, g := range r.Gates {
+				if g.Status == report.GateFail {
 					failed++
 				}
 			}
@@ -126,12 +107,12 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 		enc := json.NewEncoder(stdout)
 		enc.SetIndent("", "  ")
 		for _, r := range results {
-			if r.sum == nil || r.err != nil {
+			if r.Summary == nil || r.Err != nil {
 				continue
 			}
-			d := summaryDoc{Summary: r.sum, Advice: r.adv, Gates: r.gates}
-			if r.advErr != nil {
-				s := r.advErr.Error()
+			d := report.SummaryDoc{Summary: r.Summary, Advice: r.Advice, Gates: r.Gates}
+			if r.AdviceErr != nil {
+				s := r.AdviceErr.Error()
 				d.AdviceError = &s
 			}
 			if err := enc.Encode(d); err != nil {
@@ -139,23 +120,23 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 			}
 		}
 	case len(results) == 1:
-		if r := results[0]; r.err == nil {
-			writeFileText(stdout, r)
+		if r := results[0]; r.Err == nil {
+			report.WriteFileText(stdout, r)
 		}
 	default:
 		if f.detail {
 			for _, r := range results {
-				if r.err == nil {
-					writeFileText(stdout, r)
+				if r.Err == nil {
+					report.WriteFileText(stdout, r)
 					fmt.Fprintln(stdout)
 				}
 			}
 		}
-		writeComparison(stdout, results)
+		report.WriteComparison(stdout, results)
 	}
 
 	if f.junit != "" {
-		err := writeFileAtomic(f.junit, func(w io.Writer) error { return writeJUnit(w, results) })
+		err := writeFileAtomic(f.junit, func(w io.Writer) error { return report.WriteJUnit(w, results) })
 		if err != nil {
 			return withCode(2, err)
 		}
@@ -163,8 +144,8 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 	if f.rep.wanted() {
 		var docs []report.Doc
 		for _, r := range results {
-			if r.err == nil {
-				docs = append(docs, report.Doc{Name: r.name, Summary: r.sum, Advice: r.adv})
+			if r.Err == nil {
+				docs = append(docs, report.Doc{Name: r.Name, Summary: r.Summary, Advice: r.Advice})
 			}
 		}
 		if len(docs) > 0 {
@@ -184,17 +165,17 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 
 // summarizeFile runs the whole-file pass over one file. err is set when the file cannot
 // be used: it cannot be opened or read to its end, or holds no sample.
-func summarizeFile(name string, stderr io.Writer, quiet bool, supplyTol float64) *fileResult {
-	r := &fileResult{name: name}
+func summarizeFile(name string, stderr io.Writer, quiet bool, supplyTol float64) *report.FileResult {
+	r := &report.FileResult{Name: name}
 	src, err := openWithProgress(name, stderr, quiet)
 	if err != nil {
-		r.err = err
+		r.Err = err
 		return r
 	}
 	defer src.Close()
 	sc := telemetry.NewScanner(src)
 	sc.Name = name
-	r.sum, err = analysis.Summarize(sc, analysis.Options{Source: name, SupplyTol: supplyTol})
+	r.Summary, err = analysis.Summarize(sc, analysis.Options{Source: name, SupplyTol: supplyTol})
 	switch {
 	case errors.Is(err, analysis.ErrNoSamples):
 		st := sc.Stats()
@@ -202,10 +183,10 @@ func summarizeFile(name string, stderr io.Writer, quiet bool, supplyTol float64)
 		if len(st.FirstRejects) > 0 {
 			msg += fmt.Sprintf(" (%d rejected; first: %v)", st.Rejected, st.FirstRejects[0])
 		}
-		r.err = errors.New("summary: " + msg)
+		r.Err = errors.New("summary: " + msg)
 	case err != nil:
 		line := sc.Stats().Lines
-		r.err = fmt.Errorf("summary: %s: read stopped after line %d: %w", name, line, err)
+		r.Err = fmt.Errorf("summary: %s: read stopped after line %d: %w", name, line, err)
 	}
 	return r
 }

@@ -205,7 +205,20 @@ func TestSummaryJUnit(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	var doc junitSuites
+	// The JUnit XML as a CI server reads it (the common testsuites/testsuite/testcase
+	// form, common practice with no single standard).
+	var doc struct {
+		Failures int `xml:"failures,attr"`
+		Suites   []struct {
+			Failures int `xml:"failures,attr"`
+			Cases    []struct {
+				Name    string `xml:"name,attr"`
+				Failure *struct {
+					Message string `xml:"message,attr"`
+				} `xml:"failure"`
+			} `xml:"testcase"`
+		} `xml:"testsuite"`
+	}
 	if err := xml.Unmarshal(b, &doc); err != nil {
 		t.Fatalf("JUnit XML: %v\n%s", err, b)
 	}

@@ -1,4 +1,4 @@
-package main
+package report
 
 import (
 	"encoding/xml"
@@ -7,48 +7,34 @@ import (
 	"math"
 	"strconv"
 
-	"github.com/spf13/pflag"
-
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/telemetry/si"
 )
 
-// gateFlags hold the gate limits as typed on the command line ("" = no gate).
-type gateFlags struct {
-	ripple, robust, rms, settle, errV, overshoot string
-	jumps, rejected, gaps                        string
+// GateText hold the gate limits as typed on the command line ("" = no gate).
+type GateText struct {
+	Ripple, Robust, RMS, Settle, Error, Overshoot string
+	Jumps, Rejected, Gaps                         string
 }
 
-func (g *gateFlags) register(fs *pflag.FlagSet) {
-	fs.StringVar(&g.ripple, "max-ripple", "", "gate: largest ripple peak-to-peak per segment (e.g. 20mV)")
-	fs.StringVar(&g.robust, "max-robust-ripple", "", "gate: largest robust ripple peak-to-peak per segment, glitches ignored (e.g. 20mV)")
-	fs.StringVar(&g.rms, "max-rms", "", "gate: largest ripple rms per segment (e.g. 5mV)")
-	fs.StringVar(&g.settle, "max-settle", "", "gate: longest settling time per setpoint step (e.g. 150ms)")
-	fs.StringVar(&g.errV, "max-error", "", "gate: largest |mean error| per segment (e.g. 5mV)")
-	fs.StringVar(&g.overshoot, "max-overshoot", "", "gate: largest overshoot per setpoint step (e.g. 50mV)")
-	fs.StringVar(&g.jumps, "max-jumps", "", "gate: most band jumps per segment (e.g. 0)")
-	fs.StringVar(&g.rejected, "max-rejected", "", "gate: most rejected lines per file (e.g. 0)")
-	fs.StringVar(&g.gaps, "max-gaps", "", "gate: most missing samples per file (e.g. 0)")
-}
-
-// gateSet is the parsed gates; NaN means no gate.
-type gateSet struct {
+// Gates is the parsed gates; NaN means no gate.
+type Gates struct {
 	ripple, robust, rms, settle, errV, overshoot float64
 	jumps, rejected, gaps                        float64
 }
 
-func (g *gateFlags) parse() (gateSet, error) {
-	s := gateSet{math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN()}
+func (g *GateText) Parse() (Gates, error) {
+	s := Gates{math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN()}
 	for _, p := range []struct {
 		flag, text, unit string
 		dst              *float64
 	}{
-		{"--max-ripple", g.ripple, "V", &s.ripple},
-		{"--max-robust-ripple", g.robust, "V", &s.robust},
-		{"--max-rms", g.rms, "V", &s.rms},
-		{"--max-settle", g.settle, "s", &s.settle},
-		{"--max-error", g.errV, "V", &s.errV},
-		{"--max-overshoot", g.overshoot, "V", &s.overshoot},
+		{"--max-ripple", g.Ripple, "V", &s.ripple},
+		{"--max-robust-ripple", g.Robust, "V", &s.robust},
+		{"--max-rms", g.RMS, "V", &s.rms},
+		{"--max-settle", g.Settle, "s", &s.settle},
+		{"--max-error", g.Error, "V", &s.errV},
+		{"--max-overshoot", g.Overshoot, "V", &s.overshoot},
 	} {
 		if p.text == "" {
 			continue
@@ -62,7 +48,7 @@ func (g *gateFlags) parse() (gateSet, error) {
 	for _, p := range []struct {
 		flag, text string
 		dst        *float64
-	}{{"--max-jumps", g.jumps, &s.jumps}, {"--max-rejected", g.rejected, &s.rejected}, {"--max-gaps", g.gaps, &s.gaps}} {
+	}{{"--max-jumps", g.Jumps, &s.jumps}, {"--max-rejected", g.Rejected, &s.rejected}, {"--max-gaps", g.Gaps, &s.gaps}} {
 		if p.text == "" {
 			continue
 		}
@@ -77,13 +63,13 @@ func (g *gateFlags) parse() (gateSet, error) {
 
 // Gate statuses.
 const (
-	gatePass = "pass"
-	gateFail = "fail"
-	gateSkip = "skipped"
+	GatePass = "pass"
+	GateFail = "fail"
+	GateSkip = "skipped"
 )
 
-// gateResult is one gate checked on one segment, step or file.
-type gateResult struct {
+// GateResult is one gate checked on one segment, step or file.
+type GateResult struct {
 	Gate    string   `json:"gate"`
 	Scope   string   `json:"scope"` // "segment 2 (2.93 V)", "step 1 (1.46 V -> 2.93 V)", "file"
 	Status  string   `json:"status"`
@@ -92,28 +78,28 @@ type gateResult struct {
 	Message string   `json:"message"`
 }
 
-// check evaluates every gate on s.
-func (g gateSet) check(s *analysis.Summary) []gateResult {
-	var out []gateResult
+// Check evaluates every gate on s.
+func (g Gates) Check(s *analysis.Summary) []GateResult {
+	var out []GateResult
 	add := func(gate, scope, unit string, v *float64, limit float64, why string) {
-		r := gateResult{Gate: gate, Scope: scope, Value: v, Limit: limit}
+		r := GateResult{Gate: gate, Scope: scope, Value: v, Limit: limit}
 		switch {
 		case v == nil && why != "":
-			r.Status, r.Message = gateFail, why
+			r.Status, r.Message = GateFail, why
 		case v == nil:
-			r.Status, r.Message = gateSkip, "no figure (no steady part or no step)"
+			r.Status, r.Message = GateSkip, "no figure (no steady part or no step)"
 		case *v <= limit:
-			r.Status = gatePass
+			r.Status = GatePass
 			r.Message = fmt.Sprintf("%s <= %s", fmtGate(*v, unit), fmtGate(limit, unit))
 		default:
-			r.Status = gateFail
+			r.Status = GateFail
 			r.Message = fmt.Sprintf("%s > %s", fmtGate(*v, unit), fmtGate(limit, unit))
 		}
 		out = append(out, r)
 	}
 	for i := range s.Segments {
 		seg := &s.Segments[i]
-		scope := fmt.Sprintf("segment %d (%s)", i+1, fmtCountsV(seg.SetpointCounts, seg.SetpointV))
+		scope := fmt.Sprintf("segment %d (%s)", i+1, levelText(seg.SetpointV, seg.SetpointCounts))
 		unreach := ""
 		if seg.Unreachable {
 			unreach = "setpoint unreachable"
@@ -142,7 +128,7 @@ func (g gateSet) check(s *analysis.Summary) []gateResult {
 	}
 	for i := range s.Steps {
 		st := &s.Steps[i]
-		scope := fmt.Sprintf("step %d (%s -> %s)", i+1, fmtCountsV(st.FromCounts, st.FromV), fmtCountsV(st.ToCounts, st.ToV))
+		scope := fmt.Sprintf("step %d (%s -> %s)", i+1, levelText(st.FromV, st.FromCounts), levelText(st.ToV, st.ToCounts))
 		if !math.IsNaN(g.settle) {
 			add("max-settle", scope, "s", st.SettleS, g.settle, "never settled")
 		}
@@ -166,14 +152,6 @@ func fmtGate(v float64, unit string) string {
 		return strconv.FormatFloat(v, 'f', -1, 64)
 	}
 	return si.FormatDigits(v, unit, 4)
-}
-
-// fmtCountsV shows a level in volts when known, else in counts.
-func fmtCountsV(counts float64, v *float64) string {
-	if v != nil {
-		return si.FormatDigits(*v, "V", 4)
-	}
-	return strconv.FormatFloat(counts, 'f', -1, 64) + " counts"
 }
 
 // JUnit XML, the common subset CI systems read: testsuites > testsuite > testcase with
@@ -209,23 +187,23 @@ type junitMessage struct {
 	Type    string `xml:"type,attr,omitempty"`
 }
 
-// writeJUnit writes one test suite per file and one test case per gate per segment or
+// WriteJUnit writes one test suite per file and one test case per gate per segment or
 // step; a file that could not be used is one test case with an error.
-func writeJUnit(w io.Writer, results []*fileResult) error {
+func WriteJUnit(w io.Writer, results []*FileResult) error {
 	all := junitSuites{Name: "caploop summary"}
 	for _, r := range results {
-		s := junitSuite{Name: r.name}
-		if r.err != nil {
-			s.Cases = append(s.Cases, junitCase{Name: "read", ClassName: r.name, Error: &junitMessage{Message: r.err.Error(), Type: "unusable input"}})
+		s := junitSuite{Name: r.Name}
+		if r.Err != nil {
+			s.Cases = append(s.Cases, junitCase{Name: "read", ClassName: r.Name, Error: &junitMessage{Message: r.Err.Error(), Type: "unusable input"}})
 			s.Errors++
 		}
-		for _, g := range r.gates {
-			c := junitCase{Name: g.Gate + " " + g.Scope, ClassName: r.name}
+		for _, g := range r.Gates {
+			c := junitCase{Name: g.Gate + " " + g.Scope, ClassName: r.Name}
 			switch g.Status {
-			case gateFail:
+			case GateFail:
 				c.Failure = &junitMessage{Message: g.Message, Type: g.Gate}
 				s.Failures++
-			case gateSkip:
+			case GateSkip:
 				c.Skipped = &junitMessage{Message: g.Message}
 				s.Skipped++
 			}

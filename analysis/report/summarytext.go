@@ -1,4 +1,4 @@
-package main
+package report
 
 import (
 	"fmt"
@@ -8,6 +8,7 @@ import (
 	"text/tabwriter"
 
 	"github.com/caploop/caploop/analysis"
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/si"
 )
@@ -15,59 +16,13 @@ import (
 // textRows is the most segments and steps the text lists (JSON lists them all).
 const textRows = 40
 
-// noFigure is printed where a figure does not apply.
-const noFigure = "-"
-
-func fv(p *float64, unit string) string {
-	if p == nil {
-		return noFigure
-	}
-	return si.FormatDigits(*p, unit, 3)
-}
-
-// fvc shows volts when known, else counts, else noFigure.
-func fvc(v, counts *float64) string {
-	switch {
-	case v != nil:
-		return si.FormatDigits(*v, "V", 3)
-	case counts != nil:
-		return fmt.Sprintf("%.4g counts", *counts)
-	}
-	return noFigure
-}
-
-// fss shows seconds when known, else samples, else noFigure.
-func fss(sec, samples *float64) string {
-	switch {
-	case sec != nil:
-		return si.FormatDigits(*sec, "s", 3)
-	case samples != nil:
-		return fmt.Sprintf("%.3g samples", *samples)
-	}
-	return noFigure
-}
-
-func ff(p *float64, format string) string {
-	if p == nil {
-		return noFigure
-	}
-	return fmt.Sprintf(format, *p)
-}
-
-func fci(p *[2]float64, unit string) string {
-	if p == nil {
-		return ""
-	}
-	return fmt.Sprintf("[%s .. %s]", si.FormatDigits(p[0], unit, 3), si.FormatDigits(p[1], unit, 3))
-}
-
-// writeFileText writes the human-readable summary of one file, then its advice and gates.
-func writeFileText(w io.Writer, r *fileResult) {
-	writeSummaryText(w, r.sum)
-	if r.adv != nil {
+// WriteFileText writes the human-readable summary of one file, then its advice and gates.
+func WriteFileText(w io.Writer, r *FileResult) {
+	WriteSummaryText(w, r.Summary)
+	if r.Advice != nil {
 		fmt.Fprintln(w, "\nadvice")
 		var b strings.Builder
-		if err := r.adv.WriteText(&b); err == nil {
+		if err := r.Advice.WriteText(&b); err == nil {
 			for _, line := range strings.Split(strings.TrimRight(b.String(), "\n"), "\n") {
 				if line == "" {
 					fmt.Fprintln(w)
@@ -76,32 +31,32 @@ func writeFileText(w io.Writer, r *fileResult) {
 				fmt.Fprintln(w, "  "+line)
 			}
 		}
-	} else if r.advErr != nil {
-		fmt.Fprintf(w, "\nadvice: none (%s)\n", telemetry.Sanitize([]byte(r.advErr.Error())))
+	} else if r.AdviceErr != nil {
+		fmt.Fprintf(w, "\nadvice: none (%s)\n", telemetry.Sanitize([]byte(r.AdviceErr.Error())))
 	}
-	if len(r.gates) > 0 {
+	if len(r.Gates) > 0 {
 		fmt.Fprintln(w, "\ngates")
 		tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
-		for _, g := range r.gates {
+		for _, g := range r.Gates {
 			fmt.Fprintf(tw, "  %s\t%s\t%s\t%s\n", strings.ToUpper(g.Status), g.Gate, g.Scope, g.Message)
 		}
 		tw.Flush()
 	}
 }
 
-// writeSummaryText writes the figures of s: header, plant, segments, steps, diagnostics.
-func writeSummaryText(w io.Writer, s *analysis.Summary) {
+// WriteSummaryText writes the figures of s: header, plant, segments, steps, diagnostics.
+func WriteSummaryText(w io.Writer, s *analysis.Summary) {
 	fmt.Fprintf(w, "%s\n", telemetry.Sanitize([]byte(s.Source)))
 	per := "unknown"
 	if s.SamplePeriodS != nil {
 		per = fmt.Sprintf("%s (from %s)", si.FormatDigits(*s.SamplePeriodS, "s", 4), s.PeriodFrom)
 	}
 	fmt.Fprintf(w, "  %d samples, %d rejected lines, %s, sample period %s, jitter %s, %d missing samples\n",
-		s.Samples, s.RejectedLines, si.FormatDigits(s.DurationS, "s", 4), per, fv(s.JitterS, "s"), s.Gaps)
+		s.Samples, s.RejectedLines, si.FormatDigits(s.DurationS, "s", 4), per, figure.SI(s.JitterS, "s"), s.Gaps)
 	b := s.Board
 	var parts []string
 	if b.VrefV != nil {
-		parts = append(parts, "vref "+fv(b.VrefV, "V"))
+		parts = append(parts, "vref "+figure.SI(b.VrefV, "V"))
 	}
 	if b.ADCBits != nil {
 		parts = append(parts, fmt.Sprintf("%d bits", *b.ADCBits))
@@ -111,16 +66,16 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 		parts = append(parts, fmt.Sprintf("deadband ±%g counts", *b.DeadbandCounts))
 	}
 	if b.SupplyV != nil {
-		parts = append(parts, "supply "+fv(b.SupplyV, "V"))
+		parts = append(parts, "supply "+figure.SI(b.SupplyV, "V"))
 	}
 	if b.ROhm != nil {
-		parts = append(parts, "R "+fv(b.ROhm, "Ω"))
+		parts = append(parts, "R "+figure.SI(b.ROhm, "Ω"))
 	}
 	if b.CF != nil {
-		parts = append(parts, "C "+fv(b.CF, "F"))
+		parts = append(parts, "C "+figure.SI(b.CF, "F"))
 	}
 	if b.LoadOhm != nil {
-		parts = append(parts, "load "+fv(b.LoadOhm, "Ω"))
+		parts = append(parts, "load "+figure.SI(b.LoadOhm, "Ω"))
 	}
 	fmt.Fprintf(w, "  board says: %s\n", strings.Join(parts, ", "))
 	if s.InferredDrive {
@@ -130,17 +85,17 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 	p := s.Plant
 	fmt.Fprintln(w, "\nplant (identified from the data)")
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
-	fmt.Fprintf(tw, "  tau charge\t%s\t%s\t%d pairs\n", fss(p.TauChargeS, p.TauChargeSamples), orWhy(fci(p.TauChargeCIS, "s"), p.TauChargeSReason), p.ChargePairs)
-	fmt.Fprintf(tw, "  tau discharge\t%s\t%s\t%d pairs\n", fss(p.TauDischargeS, p.TauDischargeSamples), orWhy(fci(p.TauDischargeCIS, "s"), p.TauDischargeSReason), p.DischargePairs)
-	fmt.Fprintf(tw, "  tau hold\t%s\t%s\t%d pairs\n", fss(p.TauHoldS, p.TauHoldSamples), orWhy(fci(p.TauHoldCIS, "s"), p.TauHoldSReason), p.HoldPairs)
-	fmt.Fprintf(tw, "  v_high\t%s\t%s\t\n", fvc(p.VHighV, p.VHighCounts), orWhy(fci(p.VHighCIV, "V"), p.VHighVReason))
-	fmt.Fprintf(tw, "  v_low\t%s\t%s\t\n", fvc(p.VLowV, p.VLowCounts), orWhy(fci(p.VLowCIV, "V"), p.VLowVReason))
-	fmt.Fprintf(tw, "  ADC noise\t%s counts rms\t\t\n", ff(p.NoiseRMSCounts, "%.2f"))
+	fmt.Fprintf(tw, "  tau charge\t%s\t%s\t%d pairs\n", figure.SecondsOrSamples(p.TauChargeS, p.TauChargeSamples), orWhy(interval(p.TauChargeCIS, "s"), p.TauChargeSReason), p.ChargePairs)
+	fmt.Fprintf(tw, "  tau discharge\t%s\t%s\t%d pairs\n", figure.SecondsOrSamples(p.TauDischargeS, p.TauDischargeSamples), orWhy(interval(p.TauDischargeCIS, "s"), p.TauDischargeSReason), p.DischargePairs)
+	fmt.Fprintf(tw, "  tau hold\t%s\t%s\t%d pairs\n", figure.SecondsOrSamples(p.TauHoldS, p.TauHoldSamples), orWhy(interval(p.TauHoldCIS, "s"), p.TauHoldSReason), p.HoldPairs)
+	fmt.Fprintf(tw, "  v_high\t%s\t%s\t\n", figure.VoltsOrCounts(p.VHighV, p.VHighCounts), orWhy(interval(p.VHighCIV, "V"), p.VHighVReason))
+	fmt.Fprintf(tw, "  v_low\t%s\t%s\t\n", figure.VoltsOrCounts(p.VLowV, p.VLowCounts), orWhy(interval(p.VLowCIV, "V"), p.VLowVReason))
+	fmt.Fprintf(tw, "  ADC noise\t%s counts rms\t\t\n", figure.NumP(p.NoiseRMSCounts))
 	if p.EffectiveROhm != nil {
-		fmt.Fprintf(tw, "  effective R\t%s\t(from tau, C and the load)\t\n", fv(p.EffectiveROhm, "Ω"))
+		fmt.Fprintf(tw, "  effective R\t%s\t(from tau, C and the load)\t\n", figure.SI(p.EffectiveROhm, "Ω"))
 	}
 	if p.EffectiveCF != nil {
-		fmt.Fprintf(tw, "  effective C\t%s\t(from tau, R and the load)\t\n", fv(p.EffectiveCF, "F"))
+		fmt.Fprintf(tw, "  effective C\t%s\t(from tau, R and the load)\t\n", figure.SI(p.EffectiveCF, "F"))
 	}
 	kind := "-"
 	if p.Kind != nil {
@@ -148,17 +103,17 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 	}
 	fmt.Fprintf(tw, "  load or buffer\t%s\t%s\t\n", kind, orWhy("", p.KindReason))
 	from := map[string]string{"hold_droop": "(from the hold droop)", "v_high": "(from v_high and the supply)", "v_low": "(from v_low below ground)"}
-	fmt.Fprintf(tw, "  load\t%s\t%s\t%s\n", fv(p.LoadOhm, "Ω"), orWhy(fci(p.LoadOhmCI, "Ω"), p.LoadOhmReason), from[p.LoadFrom])
+	fmt.Fprintf(tw, "  load\t%s\t%s\t%s\n", figure.SI(p.LoadOhm, "Ω"), orWhy(interval(p.LoadOhmCI, "Ω"), p.LoadOhmReason), from[p.LoadFrom])
 	if p.LoadRatio != nil {
 		fmt.Fprintf(tw, "  load / R\t%.3g\t[%.3g .. %.3g]\t\n", *p.LoadRatio, (*p.LoadRatioCI)[0], (*p.LoadRatioCI)[1])
 	}
-	fmt.Fprintf(tw, "  sense drop\t%s\t%s\t%s\n", fv(p.SenseDropV, "V"), orWhy(fci(p.SenseDropCIV, "V"), p.SenseDropVReason), from[p.SenseDropFrom])
+	fmt.Fprintf(tw, "  sense drop\t%s\t%s\t%s\n", figure.SI(p.SenseDropV, "V"), orWhy(interval(p.SenseDropCIV, "V"), p.SenseDropVReason), from[p.SenseDropFrom])
 	tw.Flush()
 	if len(p.MissingCodes) > 0 {
-		fmt.Fprintf(w, "  missing codes: %s\n", intList(p.MissingCodes))
+		fmt.Fprintf(w, "  missing codes: %s\n", figure.List(p.MissingCodes))
 	}
 	if len(p.StuckCodes) > 0 {
-		fmt.Fprintf(w, "  stuck codes: %s\n", intList(p.StuckCodes))
+		fmt.Fprintf(w, "  stuck codes: %s\n", figure.List(p.StuckCodes))
 	}
 
 	// The tracking figures whenever the setpoint moved in small steps; the short
@@ -194,15 +149,15 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 			break
 		}
 		listed++
-		sp := fmtCountsV(g.SetpointCounts, g.SetpointV)
+		sp := levelText(g.SetpointV, g.SetpointCounts)
 		if g.Unreachable {
 			sp += " !"
 		}
 		fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%d\t%d\t%d\t\n", i+1, sp,
 			si.FormatDigits(g.StartS, "s", 4), si.FormatDigits(g.EndS, "s", 4), g.SteadySamples,
-			fvc(g.MeanErrorV, g.MeanErrorCounts), fvc(g.RipplePPV, g.RipplePPCounts), fv(g.RippleRobustPPV, "V"), fvc(g.RippleRMSV, g.RippleRMSCounts),
-			ff(g.DutyCharge, "%.3f"), ff(g.DutyHold, "%.3f"), ff(g.DutyDischarge, "%.3f"),
-			fss(g.LimitCyclePeriodS, g.LimitCyclePeriodSamples), fv(g.SwitchingHz, "Hz"), g.DeadbandEntries, g.DeadbandExits, g.BandJumps)
+			figure.VoltsOrCounts(g.MeanErrorV, g.MeanErrorCounts), figure.VoltsOrCounts(g.RipplePPV, g.RipplePPCounts), figure.SI(g.RippleRobustPPV, "V"), figure.VoltsOrCounts(g.RippleRMSV, g.RippleRMSCounts),
+			figure.Pct(g.DutyCharge), figure.Pct(g.DutyHold), figure.Pct(g.DutyDischarge),
+			figure.SecondsOrSamples(g.LimitCyclePeriodS, g.LimitCyclePeriodSamples), figure.SI(g.SwitchingHz, "Hz"), g.DeadbandEntries, g.DeadbandExits, g.BandJumps)
 	}
 	tw.Flush()
 	if s.SegmentsOmitted > 0 {
@@ -229,8 +184,8 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 				break
 			}
 			fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n", i+1, si.FormatDigits(st.AtS, "s", 4),
-				fmtCountsV(st.FromCounts, st.FromV), fmtCountsV(st.ToCounts, st.ToV),
-				fv(st.RiseS, "s"), fv(st.SettleS, "s"), fv(st.OvershootV, "V"), fv(st.SlewVPerS, "V/s"))
+				levelText(st.FromV, st.FromCounts), levelText(st.ToV, st.ToCounts),
+				figure.SI(st.RiseS, "s"), figure.SI(st.SettleS, "s"), figure.SI(st.OvershootV, "V"), figure.SI(st.SlewVPerS, "V/s"))
 		}
 		tw.Flush()
 	}
@@ -246,21 +201,6 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 	}
 }
 
-func intList(v []int) string {
-	var b strings.Builder
-	for i, x := range v {
-		if i > 0 {
-			b.WriteString(", ")
-		}
-		if i == 16 {
-			fmt.Fprintf(&b, "... (%d in all)", len(v))
-			break
-		}
-		fmt.Fprint(&b, x)
-	}
-	return b.String()
-}
-
 // fileRow is the one-line digest of a file for the comparison table: the worst segment
 // and step figures and the plant.
 type fileRow struct {
@@ -269,10 +209,10 @@ type fileRow struct {
 	fails                                                 int
 }
 
-func rowOf(r *fileResult) fileRow {
+func rowOf(r *FileResult) fileRow {
 	nan := math.NaN()
 	row := fileRow{tau: nan, vHigh: nan, noise: nan, ripple: nan, robust: nan, err: nan, settle: nan, cycle: nan}
-	s := r.sum
+	s := r.Summary
 	row.samples, row.rejected = s.Samples, s.RejectedLines
 	get := func(p *float64) float64 {
 		if p == nil {
@@ -307,89 +247,51 @@ func rowOf(r *fileResult) fileRow {
 			row.settle = worst(row.settle, *st.SettleS)
 		}
 	}
-	for _, g := range r.gates {
-		if g.Status == gateFail {
+	for _, g := range r.Gates {
+		if g.Status == GateFail {
 			row.fails++
 		}
 	}
 	return row
 }
 
-func fnum(v float64, unit string) string {
-	if math.IsNaN(v) {
-		return noFigure
-	}
-	return si.FormatDigits(v, unit, 3)
-}
-
-// writeComparison writes one row per file (worst segment and step figures) and a
+// WriteComparison writes one row per file (worst segment and step figures) and a
 // comparison of every later file with the first (before and after tuning).
-func writeComparison(w io.Writer, results []*fileResult) {
+func WriteComparison(w io.Writer, results []*FileResult) {
 	fmt.Fprintln(w, "files (worst segment and step)")
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 	fmt.Fprintln(tw, "  file\tsamples\trejected\ttau charge\tv_high\tnoise\tripple p-p\trobust\t|mean err|\tsettle\tcycle\tjumps\tgates failed\t")
 	rows := make([]fileRow, len(results))
 	for i, r := range results {
-		name := telemetry.SanitizeN([]byte(r.name), 40)
-		if r.err != nil {
+		name := telemetry.SanitizeN([]byte(r.Name), 40)
+		if r.Err != nil {
 			fmt.Fprintf(tw, "  %s\tunusable\t\t\t\t\t\t\t\t\t\t\t\t\n", name)
 			continue
 		}
 		row := rowOf(r)
 		rows[i] = row
 		fmt.Fprintf(tw, "  %s\t%d\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%d\t%d\t\n", name, row.samples, row.rejected,
-			fnum(row.tau, "s"), fnum(row.vHigh, "V"), ff(nanPtr(row.noise), "%.2f"), fnum(row.ripple, "V"), fnum(row.robust, "V"),
-			fnum(row.err, "V"), fnum(row.settle, "s"), fnum(row.cycle, "s"), row.jumps, row.fails)
+			figure.Value(row.tau, "s"), figure.Value(row.vHigh, "V"), figure.Value(row.noise, ""), figure.Value(row.ripple, "V"), figure.Value(row.robust, "V"),
+			figure.Value(row.err, "V"), figure.Value(row.settle, "s"), figure.Value(row.cycle, "s"), row.jumps, row.fails)
 	}
 	tw.Flush()
-	if len(results) < 2 || results[0].err != nil {
+	if len(results) < 2 || results[0].Err != nil {
 		return
 	}
 	base := rows[0]
-	fmt.Fprintf(w, "\ncompared with %s (change, and in %% of the first)\n", telemetry.SanitizeN([]byte(results[0].name), 40))
+	fmt.Fprintf(w, "\ncompared with %s (change, and in %% of the first)\n", telemetry.SanitizeN([]byte(results[0].Name), 40))
 	tw = tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 	fmt.Fprintln(tw, "  file\tripple p-p\trobust\t|mean err|\tsettle\tcycle\tjumps\t")
 	for i := 1; i < len(results); i++ {
-		if results[i].err != nil {
+		if results[i].Err != nil {
 			continue
 		}
 		r := rows[i]
-		fmt.Fprintf(tw, "  %s\t%s\t%s\t%s\t%s\t%s\t%+d\t\n", telemetry.SanitizeN([]byte(results[i].name), 40),
-			change(base.ripple, r.ripple, "V"), change(base.robust, r.robust, "V"), change(base.err, r.err, "V"),
-			change(base.settle, r.settle, "s"), change(base.cycle, r.cycle, "s"), r.jumps-base.jumps)
+		fmt.Fprintf(tw, "  %s\t%s\t%s\t%s\t%s\t%s\t%+d\t\n", telemetry.SanitizeN([]byte(results[i].Name), 40),
+			figure.Change(base.ripple, r.ripple, "V"), figure.Change(base.robust, r.robust, "V"), figure.Change(base.err, r.err, "V"),
+			figure.Change(base.settle, r.settle, "s"), figure.Change(base.cycle, r.cycle, "s"), r.jumps-base.jumps)
 	}
 	tw.Flush()
-}
-
-func nanPtr(v float64) *float64 {
-	if math.IsNaN(v) {
-		return nil
-	}
-	return &v
-}
-
-// change shows after - before with its sign and the relative change.
-func change(before, after float64, unit string) string {
-	if math.IsNaN(before) || math.IsNaN(after) {
-		return noFigure
-	}
-	d := after - before
-	sign := "+"
-	if d < 0 {
-		sign = "-"
-	}
-	s := sign + si.FormatDigits(math.Abs(d), unit, 3)
-	if before != 0 {
-		s += fmt.Sprintf(" (%+.0f %%)", 100*d/before)
-	}
-	return s
-}
-
-// mostlyTracking says most samples of s were taken while the setpoint moved (see
-// analysis.Tracking): the text then shows the tracking figures and folds the short
-// segments into one line.
-func mostlyTracking(s *analysis.Summary) bool {
-	return s.Tracking != nil && 2*s.Tracking.Samples > s.Samples
 }
 
 // writeTrackingText writes the tracking block: how well the reading followed the
@@ -401,17 +303,25 @@ func writeTrackingText(w io.Writer, t *analysis.Tracking, total int64) {
 	}
 	fmt.Fprintln(w, ")")
 	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
-	fmt.Fprintf(tw, "  setpoint range\t%s .. %s\t\n", fmtCountsV(t.SPMinCounts, t.SPMinV), fmtCountsV(t.SPMaxCounts, t.SPMaxV))
-	fmt.Fprintf(tw, "  mean error\t%s\t\n", fvc(t.MeanErrorV, t.MeanErrorCounts))
-	fmt.Fprintf(tw, "  rms error\t%s\t\n", fvc(t.RMSErrorV, t.RMSErrorCounts))
-	fmt.Fprintf(tw, "  max |error|\t%s\t\n", fvc(t.MaxAbsErrorV, t.MaxAbsCounts))
-	fmt.Fprintf(tw, "  lag (pv behind sp)\t%s\t\n", fss(t.LagS, t.LagSamples))
-	fmt.Fprintf(tw, "  duty charge/hold/discharge\t%s / %s / %s\t\n", ff(t.DutyCharge, "%.3f"), ff(t.DutyHold, "%.3f"), ff(t.DutyDischarge, "%.3f"))
+	fmt.Fprintf(tw, "  setpoint range\t%s .. %s\t\n", levelText(t.SPMinV, t.SPMinCounts), levelText(t.SPMaxV, t.SPMaxCounts))
+	fmt.Fprintf(tw, "  mean error\t%s\t\n", figure.VoltsOrCounts(t.MeanErrorV, t.MeanErrorCounts))
+	fmt.Fprintf(tw, "  rms error\t%s\t\n", figure.VoltsOrCounts(t.RMSErrorV, t.RMSErrorCounts))
+	fmt.Fprintf(tw, "  max |error|\t%s\t\n", figure.VoltsOrCounts(t.MaxAbsErrorV, t.MaxAbsCounts))
+	fmt.Fprintf(tw, "  lag (pv behind sp)\t%s\t\n", figure.SecondsOrSamples(t.LagS, t.LagSamples))
+	fmt.Fprintf(tw, "  duty charge/hold/discharge\t%s / %s / %s\t\n", figure.Pct(t.DutyCharge), figure.Pct(t.DutyHold), figure.Pct(t.DutyDischarge))
 	fmt.Fprintf(tw, "  band jumps\t%d\t\n", t.BandJumps)
 	tw.Flush()
 }
 
 // orWhy returns the interval text, or the reason when the figure is null.
+// interval is a confidence interval in the text: nothing when there is none.
+func interval(p *[2]float64, unit string) string {
+	if p == nil {
+		return ""
+	}
+	return figure.Interval(p, unit)
+}
+
 func orWhy(interval, reason string) string {
 	if reason != "" {
 		return reason
