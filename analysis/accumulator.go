@@ -256,8 +256,17 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 				}
 			}
 		}
+		sg.tail[sg.n%tailLen] = pv
 		if !sg.steady && (in || (sg.n > 1 && sign(e) != sg.firstSign)) {
-			sg.steady, sg.steadyAt = true, tick
+			sg.steady, sg.steadyAt, sg.reachN = true, tick, sg.n
+		}
+		// The steady part starts over at the first drive onset (a charge or a discharge
+		// after another drive) after the reach: the level is then in its limit cycle,
+		// past the first traverse of the band.
+		restart := sg.steady && !sg.firm && sg.n > sg.reachN && u != sg.prevU && u != telemetry.Hold
+		if restart {
+			sg.clearSteady()
+			sg.firm, sg.steadyAt = true, tick
 		}
 		if u == sg.prevU && sg.n > 1 {
 			sg.endRun++
@@ -278,19 +287,29 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 			sg.hLo = min(sg.hLo, b)
 			sg.hHi = max(sg.hHi, b)
 			sg.duty[u+1]++
-			if sg.sn > 1 && u != sg.sprev {
-				sg.switches++
-				if (a.three || sg.sawHold) && u == -sg.sprev {
-					sg.jumps++
+			if (sg.sn > 1 && u != sg.sprev) || restart {
+				if !restart {
+					sg.switches++
+					if (a.three || sg.sawHold) && u == -sg.sprev {
+						sg.jumps++
+					}
 				}
-				// A charge onset: charge after anything else (so also a switch).
-				if u == telemetry.Charge {
+				// An onset: a charge (discharge) after anything else. The restart's
+				// sample is one by its definition.
+				switch u {
+				case telemetry.Charge:
 					if sg.onsets == 0 {
 						sg.firstOn = tick
 					}
 					sg.lastOn = tick
 					sg.onsets++
 					sg.trigJ = 0
+				case telemetry.Discharge:
+					if sg.dOnsets == 0 {
+						sg.firstDOn = tick
+					}
+					sg.lastDOn = tick
+					sg.dOnsets++
 				}
 			}
 			if j := sg.trigJ; j >= 0 && j < trigLen {

@@ -41,7 +41,7 @@ func (a *Accumulator) finishSegment(s *segState) {
 	f, a.buf = s.finish(&a.spec, a.buf)
 	a.keepSpectrum(s)
 	a.segs = append(a.segs, f)
-	if len(a.zooms) < maxZooms && s.sn > 0 {
+	if len(a.zooms) < maxZooms && (s.sn > 0 || s.n > 1) {
 		a.zooms = append(a.zooms, s.zoom(zoomLen))
 		a.zoomSeg = append(a.zoomSeg, s.index)
 	}

@@ -1,16 +1,24 @@
 package analysis
 
-// zoom returns the last n steady samples of s (ticks, counts, drive).
+// zoom returns the last n steady samples of s (ticks, counts, drive); when the steady
+// part holds fewer than two (a segment that never reached its setpoint, or one of the
+// short segments of a moving setpoint), the last of the segment's first stepKeep
+// samples instead.
 func (s *segState) zoom(n int) ZoomTrace {
+	if s.sn < 2 {
+		k := int(min(s.n, stepKeep))
+		from := max(0, k-n)
+		z := ZoomTrace{Segment: s.index, T: make([]float64, k-from), PV: make([]float64, k-from), U: make([]float64, k-from)}
+		for i := from; i < k; i++ {
+			z.T[i-from], z.PV[i-from], z.U[i-from] = s.stepT[i], s.stepPV[i], float64(s.stepU[i])
+		}
+		return z
+	}
 	m := int(min(s.sn, int64(len(s.ring)), int64(n)))
 	z := ZoomTrace{Segment: s.index, T: make([]float64, m), PV: make([]float64, m), U: make([]float64, m)}
-	start := s.rpos - m
-	if start < 0 {
-		start += len(s.ring)
-	}
 	for i := 0; i < m; i++ {
-		j := (start + i) % len(s.ring)
-		z.T[i], z.PV[i], z.U[i] = s.ring[j].t, s.ring[j].pv, float64(s.ring[j].u)
+		r := s.ringAt(i, m)
+		z.T[i], z.PV[i], z.U[i] = r.t, r.pv, float64(r.u)
 	}
 	return z
 }

@@ -1,0 +1,241 @@
+package analysis
+
+import (
+	"fmt"
+	"math"
+
+	"github.com/caploop/caploop/telemetry"
+)
+
+// cycPattern is the exact repeat of the drive pattern over the last steady samples:
+// its length in samples and the number of charge onsets (discharge onsets for a
+// discharge-only cycle) in one repeat; samples is NaN, with why, when there is none.
+type cycPattern struct {
+	samples float64
+	onsets  int
+	why     string
+}
+
+// outBreak is one step of a segment's "last sample outside" staircase: the last
+// sample number (1-based) whose rounded error was beyond k counts, for every threshold
+// from k up to the next break's k.
+type outBreak struct {
+	k    int32
+	last int64
+}
+
+// limitCycle returns the limit cycle of the steady part: the mean interval between
+// charge onsets (between discharge onsets when the cycle has no charge), in samples and
+// in ticks, or NaN with the reason.
+func (s *segState) limitCycle() (samples, ticks float64, why string) {
+	nan := math.NaN()
+	switch {
+	case s.switches == 0:
+		return nan, nan, "the drive never switched in the steady part: the loop rests"
+	case s.onsets >= 2:
+		ticks = (s.lastOn - s.firstOn) / float64(s.onsets-1)
+	case s.onsets == 0 && s.dOnsets >= 2:
+		ticks = (s.lastDOn - s.firstDOn) / float64(s.dOnsets-1)
+	default:
+		return nan, nan, "fewer than two charge onsets in the steady part"
+	}
+	return ticks / s.ticksPerSample(), ticks, ""
+}
+
+// ringAt returns the i-th of the last m steady ring entries, oldest first.
+func (s *segState) ringAt(i, m int) *ringEntry {
+	j := s.rpos - m + i
+	if j < 0 {
+		j += len(s.ring)
+	}
+	return &s.ring[j]
+}
+
+// pattern finds the shortest exact repeat of the drive over the last steady samples
+// kept (at least two whole repeats).
+func (s *segState) pattern() cycPattern {
+	m := int(min(s.sn, int64(len(s.ring))))
+	p := cycPattern{samples: math.NaN()}
+	if m < 16 {
+		p.why = "too few steady samples"
+		return p
+	}
+	if s.switches == 0 {
+		p.why = "the drive never switched in the steady part: the loop rests"
+		return p
+	}
+	for per := 1; per <= m/2; per++ {
+		ok := true
+		for i := 0; i+per < m; i++ {
+			if s.ringAt(i, m).u != s.ringAt(i+per, m).u {
+				ok = false
+				break
+			}
+		}
+		if !ok {
+			continue
+		}
+		on := func(d int8) int {
+			n := 0
+			for i := m - per; i < m; i++ {
+				if s.ringAt(i, m).u == d && s.ringAt(i-1, m).u != d {
+					n++
+				}
+			}
+			return n
+		}
+		n := on(int8(telemetry.Charge))
+		if n == 0 {
+			n = on(int8(telemetry.Discharge))
+		}
+		if n == 0 {
+			break // a constant drive over the window: no cycle to repeat
+		}
+		p.samples, p.onsets = float64(per), n
+		return p
+	}
+	p.why = fmt.Sprintf("the drive pattern does not repeat exactly within the last %d steady samples", m)
+	return p
+}
+
+// drives copies the drives of the last steady samples kept into dst, oldest first, and
+// returns the mean of their readings.
+func (s *segState) drives(dst []int8) ([]int8, float64) {
+	m := int(min(s.sn, int64(len(s.ring))))
+	dst = dst[:0]
+	var sum float64
+	for i := 0; i < m; i++ {
+		r := s.ringAt(i, m)
+		dst = append(dst, r.u)
+		sum += r.pv
+	}
+	if m == 0 {
+		return dst, math.NaN()
+	}
+	return dst, sum / float64(m)
+}
+
+// level returns the mean of the last readings of the segment, up to tailLen and within
+// the final run of one drive: where the level sits at the end.
+func (s *segState) level() float64 {
+	k := min(s.n, tailLen, max(s.endRun, 1))
+	if k <= 0 {
+		return math.NaN()
+	}
+	var sum float64
+	for i := s.n - k + 1; i <= s.n; i++ {
+		sum += s.tail[i%tailLen]
+	}
+	return sum / float64(k)
+}
+
+// outsideBreaks builds the staircase of the last sample outside +-k counts from the
+// last sample seen in each error bin (see outBreak), into dst, k rising.
+func (s *segState) outsideBreaks(dst []outBreak) []outBreak {
+	dst = dst[:0]
+	if s.n == 0 {
+		return dst
+	}
+	kmax := max(histHalf-s.lsLo, s.lsHi-histHalf)
+	var v int64
+	for k := kmax - 1; k >= 0; k-- {
+		nv := v
+		if b := histHalf + k + 1; b <= s.lsHi {
+			nv = max(nv, s.lastSeen[b])
+		}
+		if b := histHalf - k - 1; b >= s.lsLo {
+			nv = max(nv, s.lastSeen[b])
+		}
+		if nv != v {
+			dst = append(dst, outBreak{k: int32(k), last: nv})
+			v = nv
+		}
+	}
+	for i, j := 0, len(dst)-1; i < j; i, j = i+1, j-1 {
+		dst[i], dst[j] = dst[j], dst[i]
+	}
+	return dst
+}
+
+// lastOutside returns the last sample number (1-based) whose rounded error was beyond
+// tol counts, 0 when none was.
+func lastOutside(br []outBreak, tol float64) int64 {
+	k := int32(math.Floor(tol))
+	for _, b := range br {
+		if b.k >= k {
+			return b.last
+		}
+	}
+	return 0
+}
+
+// nodeRipple returns the noise-free peak-to-peak of the node, in counts: the identified
+// plant V[k+1] = a_u V[k] + b_u (the exact exponential step of each drive over one
+// period) driven by the observed drives, from the start value that gives the
+// trajectory the mean of the readings. The trajectory is V[k] = Phi[k] V0 + c[k], so
+// V0 = (mean - mean c) / mean Phi; samples while Phi > 0.05 (the start value still
+// matters) are left out when they are less than half the window.
+func nodeRipple(drv []int8, mean float64, pf plantFit) (float64, string) {
+	m := len(drv)
+	if m < 8 {
+		return math.NaN(), "too few steady samples"
+	}
+	var a, b [3]float64
+	for d := 0; d < 3; d++ {
+		switch {
+		case pf.ok[d] && !math.IsNaN(pf.fit[d].A) && pf.fit[d].A < 1 && pf.fit[d].A > 0:
+			a[d], b[d] = pf.fit[d].A, pf.fit[d].B
+		case d == 1:
+			a[d], b[d] = 1, 0 // no droop identified: the hold keeps the level
+		default:
+			a[d] = math.NaN()
+		}
+	}
+	for _, u := range drv[:m-1] {
+		if math.IsNaN(a[u+1]) {
+			return math.NaN(), fmt.Sprintf("no %s fit to drive the plant with", driveName(u))
+		}
+	}
+	var sPhi, sC float64
+	phi, c := 1.0, 0.0
+	skip := -1
+	for k := 0; k < m; k++ {
+		sPhi += phi
+		sC += c
+		if skip < 0 && phi <= 0.05 {
+			skip = k
+		}
+		if k < m-1 {
+			d := drv[k] + 1
+			phi, c = a[d]*phi, a[d]*c+b[d]
+		}
+	}
+	if skip < 0 || skip > m/2 {
+		skip = 0
+	}
+	if sPhi < 1e-9 {
+		return math.NaN(), "the plant forgets its start too fast to place it"
+	}
+	v := (mean*float64(m) - sC) / sPhi
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for k := 0; k < m; k++ {
+		if k >= skip {
+			lo, hi = min(lo, v), max(hi, v)
+		}
+		if k < m-1 {
+			d := drv[k] + 1
+			v = a[d]*v + b[d]
+		}
+	}
+	return hi - lo, ""
+}
+
+func driveName(u int8) string {
+	switch telemetry.Drive(u) {
+	case telemetry.Charge:
+		return "charge"
+	case telemetry.Discharge:
+		return "discharge"
+	}
+	return "hold"
+}
