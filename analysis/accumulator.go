@@ -267,6 +267,16 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 		if restart {
 			sg.clearSteady()
 			sg.firm, sg.steadyAt = true, tick
+		} else if sg.firm && !sg.envOK && u == telemetry.Charge && sg.prevU != telemetry.Charge && sg.blkN >= blockMin {
+			restart = a.envelopeDrifts(sg)
+			if restart {
+				sg.clearSteady()
+				sg.steadyAt = tick
+			}
+		}
+		if sg.firm && !sg.envOK {
+			sg.blkSum += e
+			sg.blkN++
 		}
 		if u == sg.prevU && sg.n > 1 {
 			sg.endRun++

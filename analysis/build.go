@@ -91,6 +91,7 @@ func (a *Accumulator) Summary() *Summary {
 	figs := a.segs
 	var cur segFig
 	if a.seg.n > 0 && a.kept < a.opts.MaxSegments {
+		a.seg.pf = pf
 		cur, a.buf = a.seg.finish(&a.spec, a.buf)
 		if a.bestSpec.sn == 0 || a.seg.sn > a.bestSpec.sn {
 			a.keepSpectrum(a.seg)

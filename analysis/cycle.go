@@ -98,23 +98,6 @@ func (s *segState) pattern() cycPattern {
 	return p
 }
 
-// drives copies the drives of the last steady samples kept into dst, oldest first, and
-// returns the mean of their readings.
-func (s *segState) drives(dst []int8) ([]int8, float64) {
-	m := int(min(s.sn, int64(len(s.ring))))
-	dst = dst[:0]
-	var sum float64
-	for i := 0; i < m; i++ {
-		r := s.ringAt(i, m)
-		dst = append(dst, r.u)
-		sum += r.pv
-	}
-	if m == 0 {
-		return dst, math.NaN()
-	}
-	return dst, sum / float64(m)
-}
-
 // level returns the mean of the last readings of the segment, up to tailLen and within
 // the final run of one drive: where the level sits at the end.
 func (s *segState) level() float64 {
@@ -169,63 +152,95 @@ func lastOutside(br []outBreak, tol float64) int64 {
 	return 0
 }
 
-// nodeRipple returns the noise-free peak-to-peak of the node, in counts: the identified
-// plant V[k+1] = a_u V[k] + b_u (the exact exponential step of each drive over one
-// period) driven by the observed drives, from the start value that gives the
-// trajectory the mean of the readings. The trajectory is V[k] = Phi[k] V0 + c[k], so
-// V0 = (mean - mean c) / mean Phi; samples while Phi > 0.05 (the start value still
-// matters) are left out when they are less than half the window.
-func nodeRipple(drv []int8, mean float64, pf plantFit) (float64, string) {
-	m := len(drv)
+// currentPlant returns the plant identified so far (see Summary).
+func (a *Accumulator) currentPlant() plantFit {
+	var pf plantFit
+	pf.fit[0], pf.ok[0] = a.fits[0].free()
+	pf.fit[2], pf.ok[2] = a.fits[2].free()
+	hc := 0.0
+	if pf.ok[0] && !math.IsNaN(pf.fit[0].VInf) {
+		hc = pf.fit[0].VInf
+	}
+	pf.fit[1], pf.ok[1] = a.holdFit(pf, hc)
+	return pf
+}
+
+// nodeRipple returns the noise-free peak-to-peak of the node over the last steady
+// samples kept, in counts: the plant identified when the segment closed,
+// V[k+1] = a_u V[k] + b_u (the exact exponential step of each drive over one period),
+// driven by the observed drives. The trajectory is V[k] = Phi[k] V0 + c[k] (+ g[k] h
+// when the hold droop is not identified: then the hold adds a constant h per sample),
+// and V0 (and h) are the least-squares fit of it to the readings, so the noise
+// averages out of the start value without smoothing the waveform. Samples while
+// Phi > 0.05 (the start value still matters) are left out when they are less than half
+// the window.
+func (s *segState) nodeRipple() (float64, string) {
+	m := int(min(s.sn, int64(len(s.ring))))
 	if m < 8 {
 		return math.NaN(), "too few steady samples"
 	}
+	pf := &s.pf
 	var a, b [3]float64
+	freeHold := false
 	for d := 0; d < 3; d++ {
 		switch {
-		case pf.ok[d] && !math.IsNaN(pf.fit[d].A) && pf.fit[d].A < 1 && pf.fit[d].A > 0:
+		case pf.ok[d] && pf.fit[d].A > 0 && pf.fit[d].A < 1:
 			a[d], b[d] = pf.fit[d].A, pf.fit[d].B
 		case d == 1:
-			a[d], b[d] = 1, 0 // no droop identified: the hold keeps the level
+			a[d], freeHold = 1, true
 		default:
 			a[d] = math.NaN()
 		}
 	}
-	for _, u := range drv[:m-1] {
-		if math.IsNaN(a[u+1]) {
-			return math.NaN(), fmt.Sprintf("no %s fit to drive the plant with", driveName(u))
-		}
-	}
-	var sPhi, sC float64
-	phi, c := 1.0, 0.0
+	// Pass 1: the normal equations of (V0, h).
+	var spp, spg, sgg, spy, sgy float64
+	phi, c, g := 1.0, 0.0, 0.0
 	skip := -1
 	for k := 0; k < m; k++ {
-		sPhi += phi
-		sC += c
+		r := s.ringAt(k, m)
+		y := r.pv - c
+		spp += phi * phi
+		spg += phi * g
+		sgg += g * g
+		spy += phi * y
+		sgy += g * y
 		if skip < 0 && phi <= 0.05 {
 			skip = k
 		}
+		d := r.u + 1
 		if k < m-1 {
-			d := drv[k] + 1
-			phi, c = a[d]*phi, a[d]*c+b[d]
+			if math.IsNaN(a[d]) {
+				return math.NaN(), fmt.Sprintf("no %s fit to drive the plant with", driveName(r.u))
+			}
+			phi, c, g = a[d]*phi, a[d]*c+b[d], a[d]*g
+			if d == 1 && freeHold {
+				g++
+			}
 		}
+	}
+	var v0, h float64
+	if det := spp*sgg - spg*spg; freeHold && sgg > 0 && det > 1e-12*spp*sgg {
+		v0, h = (spy*sgg-sgy*spg)/det, (spp*sgy-spg*spy)/det
+	} else if spp > 1e-9 {
+		v0 = spy / spp
+	} else {
+		return math.NaN(), "the plant forgets its start too fast to place it"
+	}
+	if freeHold {
+		b[1] = h
 	}
 	if skip < 0 || skip > m/2 {
 		skip = 0
 	}
-	if sPhi < 1e-9 {
-		return math.NaN(), "the plant forgets its start too fast to place it"
-	}
-	v := (mean*float64(m) - sC) / sPhi
+	// Pass 2: the trajectory.
+	v := v0
 	lo, hi := math.Inf(1), math.Inf(-1)
 	for k := 0; k < m; k++ {
 		if k >= skip {
 			lo, hi = min(lo, v), max(hi, v)
 		}
-		if k < m-1 {
-			d := drv[k] + 1
-			v = a[d]*v + b[d]
-		}
+		d := s.ringAt(k, m).u + 1
+		v = a[d]*v + b[d]
 	}
 	return hi - lo, ""
 }
@@ -238,4 +253,23 @@ func driveName(u int8) string {
 		return "discharge"
 	}
 	return "hold"
+}
+
+// envelopeDrifts closes the open block of whole cycles of sg (at a charge onset) and
+// says whether its mean error moved from the previous block's by more than a quarter
+// count plus 4 sigma of the noise of the two means: the level is still converging to
+// its limit cycle (a two-state loop near mid-duty creeps over many cycles), so the
+// steady part starts over here. The first block that matches ends the check.
+func (a *Accumulator) envelopeDrifts(sg *segState) bool {
+	m := sg.blkSum / float64(sg.blkN)
+	sigma := math.Sqrt(a.noiseEMA / 6)
+	drift := false
+	if sg.hasPrev {
+		thr := 0.25 + 4*sigma*math.Sqrt(2/float64(sg.blkN))
+		drift = math.Abs(m-sg.blkPrev) > thr
+		sg.envOK = !drift
+	}
+	sg.blkPrev, sg.hasPrev = m, true
+	sg.blkSum, sg.blkN = 0, 0
+	return drift
 }

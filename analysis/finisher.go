@@ -26,6 +26,7 @@ func (a *Accumulator) closeSegment() {
 	if a.kept >= a.opts.MaxSegments {
 		return
 	}
+	s.pf = a.currentPlant()
 	a.kept++
 	if a.fin != nil {
 		a.fin.work <- s

@@ -62,10 +62,9 @@ func (a *Accumulator) segment(f *segFig, pf plantFit, c conv) Segment {
 	}
 	if f.sn > 0 {
 		s.Rests = f.rests
-		pp, why := nodeRipple(f.drives, f.drvMean, pf)
-		s.RippleNodePPCounts, s.RippleNodePPV = ptr(pp), ptr(c.v(pp))
+		s.RippleNodePPCounts, s.RippleNodePPV = ptr(f.nodePP), ptr(c.v(f.nodePP))
 		if s.RippleNodePPCounts == nil {
-			s.RippleNodePPVReason = why
+			s.RippleNodePPVReason = f.nodeWhy
 		}
 		if f.rests {
 			s.HoldDroopVPerS, s.HoldDroopVPerSReason = holdDroop(f.sp+f.meanE, pf, c)

@@ -28,11 +28,18 @@ type segState struct {
 	steady     bool  // in the steady part (provisional until firm)
 	firm       bool  // the steady part restarted at the first onset after the reach
 	reachN     int64 // sample number (1-based) at which the setpoint was reached
-	steadyAt   float64
-	db         float64
-	sawHold    bool
-	rising     bool // a step whose 10 % or 90 % crossing is still to come
-	trk        bool // opened by a tracking move (see Tracking)
+	// Drift of the envelope after the first onset: the mean error over blocks of whole
+	// cycles (charge onset to charge onset, at least blockMin samples); while two blocks
+	// in a row differ by more than noise allows, the steady part starts over at the
+	// next block. envOK: a block matched its predecessor, the envelope has stopped.
+	blkSum, blkPrev float64
+	blkN            int64
+	hasPrev, envOK  bool
+	steadyAt        float64
+	db              float64
+	sawHold         bool
+	rising          bool // a step whose 10 % or 90 % crossing is still to come
+	trk             bool // opened by a tracking move (see Tracking)
 
 	// whole segment
 	minPV, maxPV   float64
@@ -70,7 +77,12 @@ type segState struct {
 	trigCnt         [trigLen]int32
 	trigMax         int
 	trigJ           int // offset since the last charge onset, -1 before the first
+
+	pf plantFit // the plant identified when the segment closed (for its node ripple)
 }
+
+// blockMin is the fewest samples in one block of whole cycles of the drift check.
+const blockMin = 64
 
 // tailLen is the number of last readings kept for the level of a segment.
 const tailLen = 64
@@ -105,6 +117,8 @@ func (s *segState) reset(window int) {
 	s.sp, s.from, s.hasFrom, s.index = 0, 0, false, 0
 	s.start, s.end, s.n, s.firstSign, s.steady, s.steadyAt, s.db, s.sawHold = 0, 0, 0, 0, false, 0, 0, false
 	s.firm, s.reachN = false, 0
+	s.blkSum, s.blkPrev, s.blkN, s.hasPrev, s.envOK = 0, 0, 0, false, false
+	s.blkSum, s.blkPrev, s.blkN, s.hasPrev, s.envOK = 0, 0, 0, false, false
 	s.minPV, s.maxPV, s.prevIn, s.prevU = math.Inf(1), math.Inf(-1), false, 0
 	s.trk = false
 	s.entries, s.exits, s.noiseExits = 0, 0, 0
@@ -210,10 +224,8 @@ type segFig struct {
 	lastPV                  float64
 	level                   float64 // mean of the last readings (up to tailLen, within the end run)
 	tps                     float64 // ticks per sample
-	// The last steady drives (oldest first) and the mean of their readings, for the
-	// node ripple from the identified plant.
-	drives  []int8
-	drvMean float64
+	nodePP                  float64 // noise-free node p-p from the plant and the drives
+	nodeWhy                 string
 	// outside[i] is the last sample number (1-based) whose error was beyond
 	// outside[i].k counts (rounded); k rises, last falls. For the settling time.
 	outside []outBreak
@@ -231,7 +243,7 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 		n: s.n, sn: s.sn, settled: s.steady,
 		meanE: math.NaN(), rmsE: math.NaN(), ppE: math.NaN(), robPP: math.NaN(), sigPP: math.NaN(),
 		duty: [3]float64{math.NaN(), math.NaN(), math.NaN()}, periodSamples: math.NaN(),
-		driveTicks: math.NaN(), freq: math.NaN(),
+		driveTicks: math.NaN(), freq: math.NaN(), nodePP: math.NaN(),
 		switches: s.switches, entries: s.entries, exits: s.exits, jumps: s.jumps, noiseExits: s.noiseExits,
 		lastU: s.prevU, endRun: s.endRun, lastPV: s.lastPV, trk: s.trk,
 		rise: math.NaN(), overshoot: math.NaN(), slewTicks: math.NaN(),
@@ -273,7 +285,7 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 		buf = s.window(buf)
 		f.freq = ws.analyse(buf)
 		f.pattern = s.pattern()
-		f.drives, f.drvMean = s.drives(f.drives)
+		f.nodePP, f.nodeWhy = s.nodeRipple()
 	}
 	f.tps = s.ticksPerSample()
 	f.level = s.level()
