@@ -183,7 +183,7 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 		// The residual of y - a x - b is n[k+1] - a n[k]: its variance is (1 + a^2) sigma^2.
 		p.NoiseRMSCounts = ptr(math.Sqrt(ssr / dof))
 	}
-	p.MissingCodes, p.StuckCodes = a.codeFaults()
+	p.MissingCodes, p.StuckCodes = a.codeFaults(pf)
 
 	m := a.meta
 	tau := math.NaN()
@@ -279,8 +279,9 @@ func (a *Accumulator) holdFit(pf plantFit, c float64) (fitResult, bool) {
 // codeFaults reads the code histogram: a missing code has no hits while both neighbours
 // have at least 16 (the reading swept across it many times); a stuck code has at least 50 hits and
 // 8 times the mean of its four nearest neighbours, none of which is within 3 counts of
-// a setpoint seen (where a settled loop sits on purpose).
-func (a *Accumulator) codeFaults() (missing, stuck []int) {
+// a setpoint seen (where a settled loop sits on purpose), and which is not a rail (see
+// railCode).
+func (a *Accumulator) codeFaults(pf plantFit) (missing, stuck []int) {
 	missing, stuck = []int{}, []int{}
 	h := a.codes
 	nearSP := func(code int) bool {
@@ -296,7 +297,7 @@ func (a *Accumulator) codeFaults() (missing, stuck []int) {
 			missing = append(missing, i)
 		}
 		nb := float64(h[i-2]+h[i-1]+h[i+1]+h[i+2]) / 4
-		if h[i] >= 50 && float64(h[i]) >= 8*nb && len(stuck) < 64 && !nearSP(i) && i != a.maxCode {
+		if h[i] >= 50 && float64(h[i]) >= 8*nb && len(stuck) < 64 && !nearSP(i) && !a.railCode(i, pf) {
 			stuck = append(stuck, i)
 		}
 	}

@@ -273,3 +273,32 @@ func (a *Accumulator) envelopeDrifts(sg *segState) bool {
 	sg.blkSum, sg.blkN = 0, 0
 	return drift
 }
+
+// railCode says the readings pile up on code because of the plant, not the converter:
+// it is the full-scale code, the highest or lowest code read, or within 2 counts and 4
+// sigma of noise of an identified asymptote (where a level tops out: a buffer's
+// saturation, a loaded divider, an unreachable setpoint).
+func (a *Accumulator) railCode(code int, pf plantFit) bool {
+	if code == a.maxCode {
+		return true
+	}
+	lo, hi := -1, -1
+	for i, n := range a.codes {
+		if n > 0 {
+			if lo < 0 {
+				lo = i
+			}
+			hi = i
+		}
+	}
+	if code == lo || code == hi {
+		return true
+	}
+	near := 2 + 4*math.Sqrt(a.noiseEMA/6)
+	for _, d := range []int{0, 2} {
+		if pf.ok[d] && math.Abs(float64(code)-pf.fit[d].VInf) <= near {
+			return true
+		}
+	}
+	return false
+}

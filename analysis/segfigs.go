@@ -131,15 +131,21 @@ func (a *Accumulator) unreachable(f *segFig, pf plantFit) bool {
 // leaves the band by up to one step of the drive that crossed it (a two-state loop
 // reads up to one discharge step below its setpoint every cycle), so a tolerance of
 // one charge step alone would call a loop chattering in its cycle unsettled.
-func (a *Accumulator) settleTol(sp, db float64, pf plantFit) float64 {
+//
+// Without a fit the running mean step of that drive stands in; the discharge step
+// counts only when the segment's steady part discharged.
+func (a *Accumulator) settleTol(f *segFig, pf plantFit) float64 {
+	sp, db := f.sp, f.db
 	step := a.stepNear(sp, pf)
 	if math.IsNaN(step) {
 		step = a.stepEMA[2] // the running mean charge step, before there is a fit
 	}
-	if pf.ok[0] && !math.IsNaN(pf.fit[0].VInf) {
-		step = max(step, (1-pf.fit[0].A)*(sp-pf.fit[0].VInf))
-	} else {
-		step = max(step, a.stepEMA[0])
+	if f.duty[0] > 0 {
+		if pf.ok[0] && !math.IsNaN(pf.fit[0].VInf) {
+			step = max(step, (1-pf.fit[0].A)*(sp-pf.fit[0].VInf))
+		} else {
+			step = max(step, a.stepEMA[0])
+		}
 	}
 	tol := db + max(0, step)
 	if a.meta.Has(telemetry.FieldADCBits) && a.meta.ADCBits > 0 {
@@ -163,7 +169,7 @@ func (a *Accumulator) stepOf(f *segFig, pf plantFit, c conv) StepFigures {
 	if math.IsNaN(c.perTick) {
 		st.AtS = 0
 	}
-	tol := a.settleTol(f.sp, f.db, pf)
+	tol := a.settleTol(f, pf)
 	st.SettleTolCounts, st.SettleTolV = ptr(tol), ptr(c.v(tol))
 	// The readings are judged against the tolerance widened by their quantisation (one
 	// count over two readings) and 4.5 sigma of the ADC noise, so that a reading's noise

@@ -176,9 +176,11 @@ type StepFigures struct {
 	OvershootV *float64 `json:"overshoot_v"`
 	SlewVPerS  *float64 `json:"slew_v_per_s"`
 	// SettleS is the time from the step until the error enters and stays within
-	// +-SettleTolCounts: the deadband plus one charge step at the new setpoint, at least
-	// 1 % of full scale. Null with SettleSReason when the step is within the tolerance
-	// or the level did not stay inside before the segment ended.
+	// +-SettleTolCounts: the deadband plus one step at the new setpoint (the larger of
+	// the charge and discharge steps there), at least 1 % of full scale. The readings
+	// are judged against it widened by one count of quantisation and 4.5 sigma of the
+	// ADC noise. Null with SettleSReason when the step is within the tolerance or the
+	// level did not stay inside before the segment ended.
 	SettleSReason   string   `json:"settle_s_reason,omitempty"`
 	SettleTolCounts *float64 `json:"settle_tol_counts"`
 	SettleTolV      *float64 `json:"settle_tol_v"`
