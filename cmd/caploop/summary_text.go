@@ -36,6 +36,14 @@ func fvc(v, counts *float64) string {
 	return noFigure
 }
 
+// tolText is the settling tolerance of a step, +-volts (else counts).
+func tolText(st analysis.StepFigures) string {
+	if st.SettleTolV == nil && st.SettleTolCounts == nil {
+		return noFigure
+	}
+	return "±" + fvc(st.SettleTolV, st.SettleTolCounts)
+}
+
 // fss shows seconds when known, else samples, else noFigure.
 func fss(sec, samples *float64) string {
 	switch {
@@ -176,7 +184,7 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 	}
 	tw = tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 	if others > 0 {
-		fmt.Fprintln(tw, "  #\tsetpoint\tfrom\tto\tsteady\tmean err\tripple p-p\trobust\trms\tcharge\thold\tdisch\tcycle\tswitch\tin\tout\tjumps\t")
+		fmt.Fprintln(tw, "  #\tsetpoint\tfrom\tto\tsteady\tmean err\tripple p-p\tnode p-p\trobust\trms\tcharge\thold\tdisch\tcycle\tswitch\tin\tout\tjumps\t")
 	}
 	listed := 0
 	for i, g := range s.Segments {
@@ -193,21 +201,30 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 		if g.Unreachable {
 			sp += " !"
 		}
-		fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%d\t%d\t%d\t\n", i+1, sp,
+		cycle := fss(g.LimitCyclePeriodS, g.LimitCyclePeriodSamples)
+		if g.Rests {
+			cycle = "rests"
+		}
+		fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%d\t%d\t%d\t\n", i+1, sp,
 			si.FormatDigits(g.StartS, "s", 4), si.FormatDigits(g.EndS, "s", 4), g.SteadySamples,
-			fvc(g.MeanErrorV, g.MeanErrorCounts), fvc(g.RipplePPV, g.RipplePPCounts), fv(g.RippleRobustPPV, "V"), fvc(g.RippleRMSV, g.RippleRMSCounts),
+			fvc(g.MeanErrorV, g.MeanErrorCounts), fvc(g.RipplePPV, g.RipplePPCounts), fvc(g.RippleNodePPV, g.RippleNodePPCounts),
+			fv(g.RippleRobustPPV, "V"), fvc(g.RippleRMSV, g.RippleRMSCounts),
 			ff(g.DutyCharge, "%.3f"), ff(g.DutyHold, "%.3f"), ff(g.DutyDischarge, "%.3f"),
-			fss(g.LimitCyclePeriodS, g.LimitCyclePeriodSamples), fv(g.SwitchingHz, "Hz"), g.DeadbandEntries, g.DeadbandExits, g.BandJumps)
+			cycle, fv(g.SwitchingHz, "Hz"), g.DeadbandEntries, g.DeadbandExits, g.BandJumps)
 	}
 	tw.Flush()
 	if s.SegmentsOmitted > 0 {
 		fmt.Fprintf(w, "  (%d more segments past the bounded list of %d; the plant, tracking and diagnostics still cover them)\n",
 			s.SegmentsOmitted, len(s.Segments))
 	}
-	for _, g := range s.Segments {
+	for i, g := range s.Segments {
 		if g.Unreachable {
-			fmt.Fprintln(w, "  ! the setpoint was not reachable")
-			break
+			fmt.Fprintf(w, "  ! segment %d: the setpoint was not reachable; the level sat at %s, %s short\n", i+1, fv(g.LevelV, "V"), fv(g.ShortfallV, "V"))
+		}
+	}
+	for i, g := range s.Segments {
+		if g.Rests && g.HoldDroopVPerS != nil {
+			fmt.Fprintf(w, "  segment %d rests (the drive never switched in its steady part); hold droop %s\n", i+1, fv(g.HoldDroopVPerS, "V/s"))
 		}
 	}
 
@@ -216,16 +233,16 @@ func writeSummaryText(w io.Writer, s *analysis.Summary) {
 	} else if len(s.Steps) > 0 {
 		fmt.Fprintln(w, "\nsteps")
 		tw = tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
-		fmt.Fprintln(tw, "  #\tat\tfrom\tto\trise 10-90 %\tsettle\tovershoot\tslew\t")
+		fmt.Fprintln(tw, "  #\tat\tfrom\tto\trise 10-90 %\tsettle\twithin\tovershoot\tslew\t")
 		for i, st := range s.Steps {
 			if i == textRows && len(s.Steps) > textRows+5 {
 				tw.Flush()
 				fmt.Fprintf(w, "  ... %d more steps (--json lists them all)\n", len(s.Steps)-textRows)
 				break
 			}
-			fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n", i+1, si.FormatDigits(st.AtS, "s", 4),
+			fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n", i+1, si.FormatDigits(st.AtS, "s", 4),
 				fmtCountsV(st.FromCounts, st.FromV), fmtCountsV(st.ToCounts, st.ToV),
-				fv(st.RiseS, "s"), fv(st.SettleS, "s"), fv(st.OvershootV, "V"), fv(st.SlewVPerS, "V/s"))
+				fv(st.RiseS, "s"), fv(st.SettleS, "s"), tolText(st), fv(st.OvershootV, "V"), fv(st.SlewVPerS, "V/s"))
 		}
 		tw.Flush()
 	}
