@@ -72,6 +72,8 @@ type Accumulator struct {
 
 	fits       [3]ivSums  // discharge, (unused), charge
 	noiseEMA   float64    // running mean of squared second differences, counts^2
+	sd2, sdN   float64    // squared second differences of hold triples well inside the band (see noiseRMS)
+	inner      float64    // 2 sigma of noise plus half a count: "well inside"
 	guard      float64    // 4 sigma of noise plus MarginCounts
 	stepEMA    [3]float64 // running mean of |pv[k+1] - pv[k]| per drive, counts
 	stepA      [3]float64
@@ -364,6 +366,10 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 					// exponential's own curvature is far below a count.
 					d2 := pv - 2*p1.pv + p2.pv
 					a.noiseEMA += (d2*d2 - a.noiseEMA) * (1.0 / 256)
+					if p1.u == telemetry.Hold && p1.db >= 2*a.inner && math.Abs(p1.pv-p1.sp) <= p1.db-a.inner {
+						a.sd2 += d2 * d2
+						a.sdN++
+					}
 				}
 				// Only a charge or a discharge pair can enter a fit, so only they need
 				// the reach of p2 (a hold pair, most of them, skips it).

@@ -181,7 +181,7 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 	}
 	if dof > 0 {
 		// The residual of y - a x - b is n[k+1] - a n[k]: its variance is (1 + a^2) sigma^2.
-		p.NoiseRMSCounts = ptr(math.Sqrt(ssr / dof))
+		p.NoiseRMSCounts = ptr(a.noiseRMS(ssr, dof))
 	}
 	p.MissingCodes, p.StuckCodes = a.codeFaults(pf)
 

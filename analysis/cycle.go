@@ -302,3 +302,20 @@ func (a *Accumulator) railCode(code int, pf plantFit) bool {
 	}
 	return false
 }
+
+// noiseRMS returns the ADC noise, rms counts with quantisation: the plant fits'
+// residual variance ssr/dof pooled with the second differences of hold triples whose
+// middle reading lay well inside the band (2 sigma and half a count from its edges). A
+// second difference of white noise has variance 6 sigma^2, and overlapping triples share
+// readings, so sdN triples count as sdN/3 degrees of freedom. In three-state captures
+// the fits see few pairs (a few dozen per step) while the hold triples number
+// thousands; the band's edges select the noise of the readings that chose a hold, so
+// only triples far from them enter, and only where the band is at least twice that
+// margin wide (a narrower band truncates the noise of every reading inside it).
+func (a *Accumulator) noiseRMS(ssr, dof float64) float64 {
+	if a.sdN < 64 {
+		return math.Sqrt(ssr / dof)
+	}
+	dsd := a.sdN / 3
+	return math.Sqrt((ssr + dsd*a.sd2/(6*a.sdN)) / (dof + dsd))
+}
