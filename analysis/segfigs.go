@@ -70,6 +70,10 @@ func (a *Accumulator) segment(f *segFig, pf plantFit, c conv) Segment {
 			s.HoldDroopVPerS, s.HoldDroopVPerSReason = holdDroop(f.sp+f.meanE, pf, c)
 		}
 	}
+	if f.sn == 0 {
+		const why = "no steady part: the setpoint was not reached"
+		s.LimitCyclePeriodSReason, s.PatternPeriodSReason, s.RippleNodePPVReason = why, why, why
+	}
 	s.Unreachable = a.unreachable(f, pf)
 	if s.Unreachable {
 		s.LevelV = ptr(c.v(f.level))

@@ -153,6 +153,19 @@ func TestSteadyPartAgreesWithLastHalf(t *testing.T) {
 				if p := seg.LimitCyclePeriodS; p != nil && !near(seg.RippleFreqHz, 1 / *p, 1e-9, 0) {
 					t.Errorf("segment %d ripple frequency %v Hz is not 1 / limit cycle %g s", j, deref(seg.RippleFreqHz), *p)
 				}
+				// The strongest line of the ripple spectrum is 1 / the limit cycle
+				// (CONVENTIONS.md), noise-free.
+				if tc.noise == 0 {
+					var f segFig
+					if j < len(r.acc.segs) {
+						f = r.acc.segs[j]
+					} else {
+						f, _ = r.acc.seg.finish(&spectral{}, nil)
+					}
+					if !near(seg.LimitCyclePeriodSamples, 1/f.freq, 0.05, 0) {
+						t.Errorf("segment %d: strongest spectral line at %.4g cycles/sample (1/%.4g), limit cycle %v samples", j, f.freq, 1/f.freq, deref(seg.LimitCyclePeriodSamples))
+					}
+				}
 				if tc.noise == 0 && h.pattern > 0 {
 					if seg.PatternPeriodSamples == nil || *seg.PatternPeriodSamples != float64(h.pattern) {
 						t.Errorf("segment %d pattern: got %v samples (%s), true %d", j, deref(seg.PatternPeriodSamples), seg.PatternPeriodSReason, h.pattern)
