@@ -7,10 +7,10 @@ type Options struct {
 	// MaxSegments bounds the listed segments and steps (0 = 4096). Later ones are
 	// counted in SegmentsOmitted and StepsOmitted.
 	MaxSegments int
-	// Window is the number of steady readings per segment kept for the autocorrelation
-	// and the spectrum (0 = 512: limit cycles up to 256 samples show in the
-	// autocorrelation, longer ones come from the drive pattern; a larger window costs
-	// more at each segment's end, two FFTs of twice its length).
+	// Window is the number of steady readings per segment kept for the spectrum, the
+	// drive pattern's exact repeat and the node ripple (0 = 512: patterns up to 256
+	// samples repeat twice in it; a larger window costs more at each segment's end, one
+	// FFT of twice its length).
 	Window int
 	// MarginCounts is the extra room, in counts, beyond one expected step and 4 sigma of
 	// noise, that the reading before a sample pair must keep from the controller's
