@@ -6,78 +6,6 @@ import (
 	"github.com/caploop/caploop/telemetry"
 )
 
-// Options tune the accumulator. The zero value picks the defaults.
-type Options struct {
-	// Source names the capture in the Summary (a file name, a port path).
-	Source string
-	// MaxSegments bounds the listed segments and steps (0 = 4096). Later ones are
-	// counted in SegmentsOmitted and StepsOmitted.
-	MaxSegments int
-	// Window is the number of steady readings per segment kept for the autocorrelation
-	// and the spectrum (0 = 512: limit cycles up to 256 samples show in the
-	// autocorrelation, longer ones come from the drive pattern; a larger window costs
-	// more at each segment's end, two FFTs of twice its length).
-	Window int
-	// MarginCounts is the extra room, in counts, beyond one expected step and 4 sigma of
-	// noise, that the reading before a sample pair must keep from the controller's
-	// switching threshold for the pair to enter the plant fit (0 = 2): readings near a
-	// threshold chose their drive partly by noise, which biases the fit.
-	MarginCounts float64
-	// TraceBuckets is the length of the overview trace (0 = 1024).
-	TraceBuckets int
-	// ConversionS is the ADC conversion time the sample period is compared with
-	// (0 = 104 µs: 13 ADC clocks at 125 kHz for a 10-bit successive-approximation ADC,
-	// classic 8-bit microcontroller datasheets, from memory).
-	ConversionS float64
-	// TrackSamples and TrackStepCounts set the tracking rule (see Tracking): a setpoint
-	// change of at most TrackStepCounts counts (0 = 16) less than TrackSamples samples
-	// (0 = 32) after the previous one is a tracking move, and the TrackSamples samples
-	// from it on are tracking samples.
-	TrackSamples    int
-	TrackStepCounts float64
-	// SupplyTol is the relative tolerance of the supply (0 = DefaultSupplyTol, 5 %): a
-	// load or a drop seen only in v_high must exceed it to be reported.
-	SupplyTol float64
-}
-
-func (o Options) withDefaults() Options {
-	if o.MaxSegments <= 0 {
-		o.MaxSegments = 4096
-	}
-	if o.Window <= 0 {
-		o.Window = 512
-	}
-	if o.MarginCounts <= 0 {
-		o.MarginCounts = 2
-	}
-	if o.TraceBuckets <= 0 {
-		o.TraceBuckets = 1024
-	}
-	if o.TraceBuckets%2 == 1 {
-		o.TraceBuckets++
-	}
-	if o.ConversionS <= 0 {
-		o.ConversionS = 104e-6
-	}
-	if o.TrackSamples <= 0 {
-		o.TrackSamples = 32
-	}
-	if o.TrackStepCounts <= 0 {
-		o.TrackStepCounts = 16
-	}
-	if o.SupplyTol <= 0 {
-		o.SupplyTol = DefaultSupplyTol
-	}
-	return o
-}
-
-// Kept traces: at most this many zoom windows, of this many samples, and step traces.
-const (
-	maxZooms      = 64
-	zoomLen       = 256
-	maxStepTraces = 16
-)
-
 // memo is what the plant fit remembers of the previous samples.
 type memo struct {
 	pv     float64
@@ -90,36 +18,8 @@ type memo struct {
 
 // balance holds the sums of the hold droop estimate over steady sample pairs: the sum
 // of the changes pv[k+1] - pv[k], and per drive the count and sum of pv[k].
-type balance struct {
-	delta float64
-	s, n  [3]float64
-}
-
-// Accumulator is the streaming analysis of one sample stream: feed it samples with Add
-// (and meta lines with SetMeta) and ask for the Summary at any time. It keeps bounded
-// memory whatever the stream's length, costs O(1) amortised per sample, and Summary's
-// cost does not grow with the samples seen, so the live screen and the headless summary
-// share it.
 //
-// The plant identification fits V[k+1] = a V[k] + b (counts) separately for each drive
-// over sample pairs where the drive was constant, with an instrumental variable: the
-// regressor V[k] is a noisy reading, and ordinary least squares would shrink a towards 0
-// by var(noise)/var(V) (errors in variables), which matters because tau = -T / ln a is
-// very sensitive to a near 1. The lagged reading V[k-1] is used as the instrument
-//
-//	a = sum (z - zbar)(y - ybar) / sum (z - zbar)(x - xbar),   z = V[k-1], x = V[k], y = V[k+1]
-//
-// which is consistent because the ADC noise of V[k-1] is independent of the noise in
-// V[k] and V[k+1]. The selection of pairs must not look at the noise of V[k] or
-// V[k+1] either: selecting "charge" selects negative noise in the reading that chose it.
-// So a pair enters only when V[k-1] was so far from the controller's switching
-// threshold that V[k] could not reach it: the range V[k] can take from V[k-1] under
-// the drive chosen after V[k-1] (from the fit so far, or from the running mean step
-// before there is one), widened by 4 sigma of the running noise estimate and
-// MarginCounts, stays below the threshold (above it for discharge). No reading may be
-// at an ADC rail, and no sample missing.
-//
-// The hold droop cannot be fitted the same way: inside the band the readings span a few
+// The hold droop cannot be fitted like charge and discharge (see ivSums): inside the band the readings span a few
 // counts, every hold decision selects its reading (so the noise of the regressor is
 // never independent of the selection), and the droop per sample is a fraction of a
 // count. It comes instead from the balance of the steady parts, where what the charges
@@ -133,6 +33,17 @@ type balance struct {
 //	1 - a_hold = [ (a_c - 1) S_c + b_c N_c + (a_d - 1) S_d + b_d N_d - sum (pv[k+1] - pv[k]) ] / (S_h - c N_h)
 //
 // which is linear in the readings, so their noise averages out instead of biasing it.
+type balance struct {
+	delta float64
+	s, n  [3]float64
+}
+
+// Accumulator is the streaming analysis of one sample stream: feed it samples with Add
+// (and meta lines with SetMeta) and ask for the Summary at any time. It keeps bounded
+// memory whatever the stream's length, costs O(1) amortised per sample, and Summary's
+// cost does not grow with the samples seen, so the live screen and the headless summary
+// share it. Its plant fits are explained beside their sums: ivSums (charge and
+// discharge) and balance (hold droop).
 type Accumulator struct {
 	opts  Options
 	meta  telemetry.Meta
@@ -161,6 +72,8 @@ type Accumulator struct {
 
 	fits       [3]ivSums  // discharge, (unused), charge
 	noiseEMA   float64    // running mean of squared second differences, counts^2
+	sd2, sdN   float64    // squared second differences of hold triples well inside the band (see noiseRMS)
+	inner      float64    // 2 sigma of noise plus half a count: "well inside"
 	guard      float64    // 4 sigma of noise plus MarginCounts
 	stepEMA    [3]float64 // running mean of |pv[k+1] - pv[k]| per drive, counts
 	stepA      [3]float64
@@ -364,8 +277,27 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 				}
 			}
 		}
+		sg.tail[sg.n%tailLen] = pv
 		if !sg.steady && (in || (sg.n > 1 && sign(e) != sg.firstSign)) {
-			sg.steady, sg.steadyAt = true, tick
+			sg.steady, sg.steadyAt, sg.reachN = true, tick, sg.n
+		}
+		// The steady part starts over at the first drive onset (a charge or a discharge
+		// after another drive) after the reach: the level is then in its limit cycle,
+		// past the first traverse of the band.
+		restart := sg.steady && !sg.firm && sg.n > sg.reachN && u != sg.prevU && u != telemetry.Hold
+		if restart {
+			sg.clearSteady()
+			sg.firm, sg.steadyAt = true, tick
+		} else if sg.firm && !sg.envOK && u == telemetry.Charge && sg.prevU != telemetry.Charge && sg.blkN >= blockMin {
+			restart = a.envelopeDrifts(sg)
+			if restart {
+				sg.clearSteady()
+				sg.steadyAt = tick
+			}
+		}
+		if sg.firm && !sg.envOK {
+			sg.blkSum += e
+			sg.blkN++
 		}
 		if u == sg.prevU && sg.n > 1 {
 			sg.endRun++
@@ -386,19 +318,29 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 			sg.hLo = min(sg.hLo, b)
 			sg.hHi = max(sg.hHi, b)
 			sg.duty[u+1]++
-			if sg.sn > 1 && u != sg.sprev {
-				sg.switches++
-				if (a.three || sg.sawHold) && u == -sg.sprev {
-					sg.jumps++
+			if (sg.sn > 1 && u != sg.sprev) || restart {
+				if !restart {
+					sg.switches++
+					if (a.three || sg.sawHold) && u == -sg.sprev {
+						sg.jumps++
+					}
 				}
-				// A charge onset: charge after anything else (so also a switch).
-				if u == telemetry.Charge {
+				// An onset: a charge (discharge) after anything else. The restart's
+				// sample is one by its definition.
+				switch u {
+				case telemetry.Charge:
 					if sg.onsets == 0 {
 						sg.firstOn = tick
 					}
 					sg.lastOn = tick
 					sg.onsets++
 					sg.trigJ = 0
+				case telemetry.Discharge:
+					if sg.dOnsets == 0 {
+						sg.firstDOn = tick
+					}
+					sg.lastDOn = tick
+					sg.dOnsets++
 				}
 			}
 			if j := sg.trigJ; j >= 0 && j < trigLen {
@@ -444,6 +386,10 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 					// exponential's own curvature is far below a count.
 					d2 := pv - 2*p1.pv + p2.pv
 					a.noiseEMA += (d2*d2 - a.noiseEMA) * (1.0 / 256)
+					if p1.u == telemetry.Hold && p1.db >= 2*a.inner && math.Abs(p1.pv-p1.sp) <= p1.db-a.inner {
+						a.sd2 += d2 * d2
+						a.sdN++
+					}
 				}
 				// Only a charge or a discharge pair can enter a fit, so only they need
 				// the reach of p2 (a hold pair, most of them, skips it).
@@ -487,315 +433,5 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 		} else {
 			o.add(tick, s.SP, pv)
 		}
-	}
-}
-
-// reach returns the range [lo, hi] the next reading can take, in counts, one period
-// after reading v under drive index d (0 discharge, 1 hold, 2 charge), noise aside:
-// with a fit, v + (1 - a)(VInf - v) within 10 % of the step plus half a count; without
-// one (and for hold) from v towards the drive's direction by up to twice the running
-// mean of |pv[k+1] - pv[k]| under that drive.
-func (a *Accumulator) reach(d int, v float64) (lo, hi float64) {
-	if d != 1 && a.stepOK[d] {
-		step := (1 - a.stepA[d]) * (a.stepV[d] - v)
-		slack := 0.1*math.Abs(step) + 0.5
-		return v + step - slack, v + step + slack
-	}
-	s := 2*a.stepEMA[d] + 0.5
-	switch d {
-	case 2:
-		return v, v + s
-	case 0:
-		return v - s, v
-	}
-	return v - s, v + 0.5
-}
-
-// refreshGuard updates the selection margin from the noise estimate and the step model
-// from the fits (every 64 samples, so its cost per sample is small).
-func (a *Accumulator) refreshGuard() {
-	// A second difference of white noise has variance 6 sigma^2.
-	a.guard = 4*math.Sqrt(a.noiseEMA/6) + a.opts.MarginCounts
-	for _, d := range []int{0, 2} {
-		if a.fits[d].n < 8 {
-			continue
-		}
-		if f, ok := a.fits[d].free(); ok && f.A > 0 && f.A < 1 && !math.IsNaN(f.VInf) && f.SeA < 0.2*(1-f.A) {
-			a.stepA[d], a.stepV[d], a.stepOK[d] = f.A, f.VInf, true
-		}
-	}
-}
-
-// codeSlow counts a reading in the ADC code histogram (when it is a code) and at the
-// rails, and reports whether it can enter the plant fit (off both rails).
-func (a *Accumulator) codeSlow(pv float64) bool {
-	code := int(pv)
-	ok := pv >= 0 && float64(code) == pv
-	if ok {
-		if code < len(a.codes) {
-			a.codes[code]++
-		} else if code < 1<<16 {
-			a.growCodes(code)
-			a.codes[code]++
-		}
-	}
-	if pv <= 0 {
-		a.railLo++
-		ok = false
-	} else if a.maxCode > 0 && pv >= float64(a.maxCode) {
-		a.railHi++
-		ok = false
-	}
-	return ok
-}
-
-// setCodeLim sets codeLim: the codes below it are in the histogram and below the top
-// rail.
-func (a *Accumulator) setCodeLim() {
-	a.codeLim = len(a.codes)
-	if a.maxCode > 0 {
-		a.codeLim = min(a.codeLim, a.maxCode)
-	}
-}
-
-func (a *Accumulator) growCodes(code int) {
-	n := 1024
-	for n <= code {
-		n <<= 1
-	}
-	c := make([]uint32, n)
-	copy(c, a.codes)
-	a.codes = c
-	a.setCodeLim()
-}
-
-func (a *Accumulator) openSegment(sp, tick float64, hasFrom bool, from float64) {
-	a.seg.reset(a.opts.Window)
-	a.seg.sp, a.seg.start, a.seg.end = sp, tick, tick
-	a.seg.hasFrom, a.seg.from = hasFrom, from
-	a.seg.rising = hasFrom && sp != from
-	a.seg.index = int(a.segSeen)
-	a.seg.db = a.db
-	a.segSeen++
-}
-
-// closeSegment finishes the open segment and keeps its figures (bounded). With a
-// finisher running (Summarize), the figures are worked out on the finisher's goroutine
-// and the accumulator carries on with a spare segment state.
-func (a *Accumulator) closeSegment() {
-	s := a.seg
-	if s.n == 0 {
-		return
-	}
-	s.foldHist(&a.steadyHist)
-	if a.kept >= a.opts.MaxSegments {
-		return
-	}
-	a.kept++
-	if a.fin != nil {
-		a.fin.work <- s
-		a.seg = <-a.fin.spare
-		return
-	}
-	a.finishSegment(s)
-}
-
-// finishSegment works out the figures, spectrum and traces of the closed segment s.
-func (a *Accumulator) finishSegment(s *segState) {
-	var f segFig
-	f, a.buf = s.finish(&a.spec, a.buf)
-	a.keepSpectrum(s)
-	a.segs = append(a.segs, f)
-	if len(a.zooms) < maxZooms && s.sn > 0 {
-		a.zooms = append(a.zooms, s.zoom(zoomLen))
-		a.zoomSeg = append(a.zoomSeg, s.index)
-	}
-	if f.hasStep && len(a.stepTr) < maxStepTraces {
-		k := int(min(s.n, stepKeep))
-		r := stepRaw{step: s.index, t: append([]float64(nil), s.stepT[:k]...),
-			pv: append([]float64(nil), s.stepPV[:k]...), u: append([]int8(nil), s.stepU[:k]...)}
-		a.stepTr = append(a.stepTr, r)
-	}
-}
-
-// finisher finishes closed segments on a goroutine of its own, in order, so that the
-// end of a segment (two FFTs and the figures) does not hold up the per-sample work of
-// a whole-file pass. Only finishSegment touches the kept figures while it runs: the
-// accumulator's Summary waits for it first.
-type finisher struct {
-	work  chan *segState // closed segments to finish; nil asks for an acknowledgement
-	spare chan *segState // finished segment states, to be reused
-	ack   chan struct{}
-	done  chan struct{}
-}
-
-// spareSegments is the number of closed segments that may wait for the finisher.
-const spareSegments = 2
-
-// startFinisher moves the finishing of closed segments to a goroutine of its own until
-// stopFinisher.
-func (a *Accumulator) startFinisher() {
-	if a.fin != nil {
-		return
-	}
-	f := &finisher{work: make(chan *segState, spareSegments), spare: make(chan *segState, spareSegments+1),
-		ack: make(chan struct{}), done: make(chan struct{})}
-	for range spareSegments {
-		f.spare <- new(segState)
-	}
-	go func() {
-		defer close(f.done)
-		for s := range f.work {
-			if s == nil {
-				f.ack <- struct{}{}
-				continue
-			}
-			a.finishSegment(s)
-			f.spare <- s
-		}
-	}()
-	a.fin = f
-}
-
-// syncFinisher waits until the finisher has finished every segment handed to it.
-func (a *Accumulator) syncFinisher() {
-	if a.fin != nil {
-		a.fin.work <- nil
-		<-a.fin.ack
-	}
-}
-
-// stopFinisher waits for the finisher and ends it; closed segments are then finished
-// on the caller's goroutine again.
-func (a *Accumulator) stopFinisher() {
-	if a.fin == nil {
-		return
-	}
-	close(a.fin.work)
-	<-a.fin.done
-	a.fin = nil
-}
-
-// keepSpectrum keeps the spectrum of s when its steady part is the longest so far. It
-// must follow s.finish, which left the power spectrum in the workspace.
-func (a *Accumulator) keepSpectrum(s *segState) {
-	if s.sn <= a.bestSpec.sn || s.sn < 16 || a.spec.n == 0 {
-		return
-	}
-	m := int(min(s.sn, int64(len(s.ring))))
-	nb := a.spec.n/2 + 1
-	step := max(1, nb/512)
-	a.bestSpec.sn = s.sn
-	a.bestSpec.freq = a.bestSpec.freq[:0]
-	a.bestSpec.amp = a.bestSpec.amp[:0]
-	for i := 1; i < nb; i += step {
-		p := real(a.spec.coef[i])
-		a.bestSpec.freq = append(a.bestSpec.freq, float64(i)/float64(a.spec.n))
-		a.bestSpec.amp = append(a.bestSpec.amp, 2*math.Sqrt(math.Max(p, 0))/float64(m))
-	}
-}
-
-// zoom returns the last n steady samples of s (ticks, counts, drive).
-func (s *segState) zoom(n int) ZoomTrace {
-	m := int(min(s.sn, int64(len(s.ring)), int64(n)))
-	z := ZoomTrace{Segment: s.index, T: make([]float64, m), PV: make([]float64, m), U: make([]float64, m)}
-	start := s.rpos - m
-	if start < 0 {
-		start += len(s.ring)
-	}
-	for i := 0; i < m; i++ {
-		j := (start + i) % len(s.ring)
-		z.T[i], z.PV[i], z.U[i] = s.ring[j].t, s.ring[j].pv, float64(s.ring[j].u)
-	}
-	return z
-}
-
-// overview is a min/max envelope of the whole stream in at most cap buckets: when full,
-// neighbouring buckets merge and each bucket covers twice as many samples. The open
-// bucket lives in scalars, so a sample costs a few comparisons.
-type overview struct {
-	capN        int
-	width, fill int64
-	t, sp, sum  []float64
-	lo, hi      []float64
-	cnt         []float64
-
-	open                          bool
-	ct, csp, csum, clo, chi, ccnt float64
-}
-
-func (o *overview) init(n int) {
-	o.capN, o.width = n, 1
-	o.t = make([]float64, 0, n)
-	o.sp = make([]float64, 0, n)
-	o.sum = make([]float64, 0, n)
-	o.lo = make([]float64, 0, n)
-	o.hi = make([]float64, 0, n)
-	o.cnt = make([]float64, 0, n)
-}
-
-func (o *overview) add(t, sp, pv float64) {
-	if o.open && o.fill < o.width {
-		o.csp = sp
-		o.csum += pv
-		o.ccnt++
-		if pv < o.clo {
-			o.clo = pv
-		}
-		if pv > o.chi {
-			o.chi = pv
-		}
-		o.fill++
-		return
-	}
-	if o.open {
-		o.flush()
-	}
-	o.open = true
-	o.ct, o.csp, o.csum, o.clo, o.chi, o.ccnt = t, sp, pv, pv, pv, 1
-	o.fill = 1
-}
-
-// flush closes the open bucket into the arrays, merging pairs when they are full.
-func (o *overview) flush() {
-	if len(o.t) == o.capN-1 {
-		// The open bucket makes the last one: merge to keep the total within capN.
-		o.t = append(o.t, o.ct)
-		o.sp = append(o.sp, o.csp)
-		o.sum = append(o.sum, o.csum)
-		o.lo = append(o.lo, o.clo)
-		o.hi = append(o.hi, o.chi)
-		o.cnt = append(o.cnt, o.ccnt)
-		h := o.capN / 2
-		for i := 0; i < h; i++ {
-			j, k := 2*i, 2*i+1
-			o.t[i] = o.t[j]
-			o.sp[i] = o.sp[k]
-			o.sum[i] = o.sum[j] + o.sum[k]
-			o.lo[i] = min(o.lo[j], o.lo[k])
-			o.hi[i] = max(o.hi[j], o.hi[k])
-			o.cnt[i] = o.cnt[j] + o.cnt[k]
-		}
-		o.t, o.sp, o.sum, o.lo, o.hi, o.cnt = o.t[:h], o.sp[:h], o.sum[:h], o.lo[:h], o.hi[:h], o.cnt[:h]
-		o.width *= 2
-		o.open = false
-		return
-	}
-	o.t = append(o.t, o.ct)
-	o.sp = append(o.sp, o.csp)
-	o.sum = append(o.sum, o.csum)
-	o.lo = append(o.lo, o.clo)
-	o.hi = append(o.hi, o.chi)
-	o.cnt = append(o.cnt, o.ccnt)
-	o.open = false
-}
-
-// each calls fn for every bucket, the open one last.
-func (o *overview) each(fn func(t, sp, mean, lo, hi float64)) {
-	for i := range o.t {
-		fn(o.t[i], o.sp[i], o.sum[i]/o.cnt[i], o.lo[i], o.hi[i])
-	}
-	if o.open {
-		fn(o.ct, o.csp, o.csum/o.ccnt, o.clo, o.chi)
 	}
 }

@@ -103,7 +103,8 @@ type truth struct {
 
 // truthOf computes the truth of segment seg from the model's steps: the ripple is the
 // peak-to-peak of the noise-free ADC input voltage, the duty and the limit cycle come
-// from the drives the model chose (period: mean interval between charge onsets), the
+// from the drives the model chose (period: mean interval between charge onsets, in
+// two-state loops too: the limit cycle, not the pattern's exact repeat), the
 // deadband entries from the model's readings with the definition of Segment.
 func truthOf(r *simRun, seg Segment) truth {
 	var tr truth
@@ -147,47 +148,7 @@ func truthOf(r *simRun, seg Segment) truth {
 	tr.ripplePP = hi - lo
 	tr.dutyC, tr.dutyH, tr.dutyD = float64(c)/float64(n), float64(h)/float64(n), float64(d)/float64(n)
 	tr.period = (last - first) / float64(onsets-1)
-	if r.cfg.Controller.Kind == loop.TwoState {
-		tr.period = acfPeriod(r, seg) * r.cfg.Period
-	}
 	return tr
-}
-
-// acfPeriod returns the lag, in samples, of the first major peak of the direct
-// autocorrelation sum (v[k]-mean)(v[k+L]-mean) of the model's noise-free ADC input over
-// the steady part: the fundamental period of the true waveform, computed without FFT.
-func acfPeriod(r *simRun, seg Segment) float64 {
-	var v []float64
-	for _, st := range r.steps {
-		if st.T >= *seg.SteadyStartS-1e-9 && st.T < seg.EndS-1e-9 {
-			v = append(v, st.Sense)
-		}
-	}
-	mean := 0.0
-	for _, x := range v {
-		mean += x
-	}
-	mean /= float64(len(v))
-	ac := make([]float64, 66)
-	for L := range ac {
-		for k := 0; k+L < len(v); k++ {
-			ac[L] += (v[k] - mean) * (v[k+L] - mean)
-		}
-	}
-	k := 1
-	for k < len(ac)-1 && ac[k+1] <= ac[k] {
-		k++
-	}
-	peak := 0.0
-	for j := k; j < len(ac); j++ {
-		peak = math.Max(peak, ac[j])
-	}
-	for j := k + 1; j < len(ac)-1; j++ {
-		if ac[j] >= 0.5*peak && ac[j] >= ac[j-1] && ac[j] >= ac[j+1] {
-			return float64(j) + parabola(ac[j-1], ac[j], ac[j+1])
-		}
-	}
-	return math.NaN()
 }
 
 // TestSegmentFigures checks the steady-segment figures against the model's truth.

@@ -94,6 +94,7 @@ func (a *Accumulator) Summary() *Summary {
 	figs := a.segs
 	var cur segFig
 	if a.seg.n > 0 && a.kept < a.opts.MaxSegments {
+		a.seg.pf = pf
 		cur, a.buf = a.seg.finish(&a.spec, a.buf)
 		if a.bestSpec.sn == 0 || a.seg.sn > a.bestSpec.sn {
 			a.keepSpectrum(a.seg)
@@ -105,7 +106,7 @@ func (a *Accumulator) Summary() *Summary {
 		seg := a.segment(f, pf, c)
 		sum.Segments = append(sum.Segments, seg)
 		if f.hasStep {
-			sum.Steps = append(sum.Steps, stepOf(f, c))
+			sum.Steps = append(sum.Steps, a.stepOf(f, pf, c))
 		}
 	}
 	if a.segSeen > int64(len(figs)) {
@@ -178,8 +179,9 @@ func (a *Accumulator) holdFit(pf plantFit, c float64) (fitResult, bool) {
 // codeFaults reads the code histogram: a missing code has no hits while both neighbours
 // have at least 16 (the reading swept across it many times); a stuck code has at least 50 hits and
 // 8 times the mean of its four nearest neighbours, none of which is within 3 counts of
-// a setpoint seen (where a settled loop sits on purpose).
-func (a *Accumulator) codeFaults() (missing, stuck []int) {
+// a setpoint seen (where a settled loop sits on purpose), and which is not a rail (see
+// railCode).
+func (a *Accumulator) codeFaults(pf plantFit) (missing, stuck []int) {
 	missing, stuck = []int{}, []int{}
 	h := a.codes
 	nearSP := func(code int) bool {
@@ -195,100 +197,11 @@ func (a *Accumulator) codeFaults() (missing, stuck []int) {
 			missing = append(missing, i)
 		}
 		nb := float64(h[i-2]+h[i-1]+h[i+1]+h[i+2]) / 4
-		if h[i] >= 50 && float64(h[i]) >= 8*nb && len(stuck) < 64 && !nearSP(i) && i != a.maxCode {
+		if h[i] >= 50 && float64(h[i]) >= 8*nb && len(stuck) < 64 && !nearSP(i) && !a.railCode(i, pf) {
 			stuck = append(stuck, i)
 		}
 	}
 	return missing, stuck
-}
-
-// segment converts one segment's figures.
-func (a *Accumulator) segment(f *segFig, pf plantFit, c conv) Segment {
-	s := Segment{
-		SetpointCounts:  f.sp,
-		SetpointV:       ptr(c.v(f.sp)),
-		StartS:          c.s(f.start),
-		EndS:            c.s(f.end) + c.ds(a.clk.periodTicks()),
-		SteadyStartS:    ptr(c.s(f.steadyAt)),
-		SteadySamples:   f.sn,
-		MeanErrorV:      ptr(c.v(f.meanE)),
-		MeanErrorCounts: ptr(f.meanE),
-		RipplePPV:       ptr(c.v(f.ppE)),
-		RipplePPCounts:  ptr(f.ppE),
-		RippleRobustPPV: ptr(c.v(f.robPP)),
-		RippleRMSV:      ptr(c.v(f.rmsE)),
-		RippleRMSCounts: ptr(f.rmsE),
-		DutyCharge:      ptr(f.duty[2]),
-		DutyHold:        ptr(f.duty[1]),
-		DutyDischarge:   ptr(f.duty[0]),
-		DeadbandEntries: f.entries,
-		DeadbandExits:   f.exits,
-		BandJumps:       f.jumps,
-		NoiseExits:      f.noiseExits,
-		Settled:         f.settled,
-		RippleSignalPPV: ptr(c.v(f.sigPP)),
-		Tracking:        f.trk,
-	}
-	if math.IsNaN(c.perTick) {
-		s.StartS, s.EndS = 0, 0
-	}
-	if a.three || f.db > 0 {
-		s.DeadbandCounts = ptr(f.db)
-	}
-	s.LimitCyclePeriodS = ptr(f.periodSamples * c.period)
-	s.LimitCyclePeriodSamples = ptr(f.periodSamples)
-	s.LimitCycleDriveS = ptr(c.ds(f.driveTicks))
-	if f.sn > 1 {
-		s.SwitchingHz = ptr(float64(f.switches) / (float64(f.sn) * c.period))
-		s.RippleFreqHz = ptr(f.freq / c.period)
-	}
-	s.Unreachable = a.unreachable(f, pf)
-	return s
-}
-
-// unreachable says a segment never reached its setpoint and could not: the setpoint is
-// beyond the identified asymptote of the drive that heads for it, or the loop kept one
-// drive for the last 5 time constants (or 2000 samples without a fit) without
-// reaching it.
-func (a *Accumulator) unreachable(f *segFig, pf plantFit) bool {
-	if f.settled || f.n < 16 {
-		return false
-	}
-	up := f.lastPV < f.sp
-	d := 0
-	if up {
-		d = 2
-	}
-	if pf.ok[d] && !math.IsNaN(pf.fit[d].VInf) {
-		vinf := pf.fit[d].VInf
-		if (up && f.sp > vinf-0.5) || (!up && f.sp < vinf+0.5) {
-			return true
-		}
-		if pf.fit[d].A > 0 && pf.fit[d].A < 1 {
-			tauS := -1 / math.Log(pf.fit[d].A)
-			return float64(f.endRun) > 5*tauS
-		}
-	}
-	return f.endRun > 2000
-}
-
-// stepOf converts the step into a segment.
-func stepOf(f *segFig, c conv) StepFigures {
-	st := StepFigures{
-		AtS:        c.s(f.start),
-		FromV:      ptr(c.v(f.from)),
-		ToV:        ptr(c.v(f.sp)),
-		FromCounts: f.from,
-		ToCounts:   f.sp,
-		RiseS:      ptr(c.ds(f.rise)),
-		SettleS:    ptr(c.ds(f.settle)),
-		OvershootV: ptr(c.v(f.overshoot)),
-		SlewVPerS:  ptr(c.v(f.slewTicks) / c.perTick),
-	}
-	if math.IsNaN(c.perTick) {
-		st.AtS = 0
-	}
-	return st
 }
 
 // traces builds the bounded waveforms.
@@ -322,7 +235,7 @@ func (a *Accumulator) traces(pf plantFit, c conv) *Traces {
 		}
 		tr.Zoom = append(tr.Zoom, zz)
 	}
-	if a.seg.sn > 0 && len(tr.Zoom) < maxZooms {
+	if (a.seg.sn > 0 || a.seg.n > 1) && len(tr.Zoom) < maxZooms {
 		z := a.seg.zoom(zoomLen)
 		for i := range z.T {
 			z.T[i], z.PV[i] = secs(z.T[i]), val(z.PV[i])

@@ -7,6 +7,12 @@
 // or few would start a segment too short for figures, the Tracking figures (error, lag,
 // duty, band jumps) say how well the reading followed it.
 //
+// The steady part of a segment starts at the first drive onset after the level reached
+// its setpoint, and again at a later onset while the cycle's mean level still drifts; its
+// limit cycle is the mean interval between charge onsets (between discharge onsets for a
+// discharge-only cycle), the ripple frequency its inverse, and the exact repeat of the
+// drive pattern is reported apart.
+//
 // One Accumulator serves the live screen and the headless summary, so a figure on the
 // screen and in `caploop summary` is the same number:
 //
@@ -21,7 +27,8 @@
 //	sum, err := analysis.Summarize(sc, analysis.Options{})
 //
 // Memory is bounded whatever the stream's length: running sums, fixed histograms, a
-// window of the last steady readings per segment for the autocorrelation and spectrum,
+// window of the last steady readings and drives per segment for the spectrum, the drive
+// pattern and the node ripple,
 // and lists bounded by Options.MaxSegments. Volts and seconds come from the meta lines
 // (vref, adc_bits, period_us) and the board time t; without them figures stay in counts
 // and samples, and the volt and second fields are null.

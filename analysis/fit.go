@@ -12,6 +12,24 @@ import (
 //
 // over sample triples taken while the drive was constant. Values are stored minus a fixed
 // offset to keep the sums small.
+//
+// The plant identification fits V[k+1] = a V[k] + b (counts) separately for each drive
+// over sample pairs where the drive was constant, with an instrumental variable: the
+// regressor V[k] is a noisy reading, and ordinary least squares would shrink a towards 0
+// by var(noise)/var(V) (errors in variables), which matters because tau = -T / ln a is
+// very sensitive to a near 1. The lagged reading V[k-1] is used as the instrument
+//
+//	a = sum (z - zbar)(y - ybar) / sum (z - zbar)(x - xbar),   z = V[k-1], x = V[k], y = V[k+1]
+//
+// which is consistent because the ADC noise of V[k-1] is independent of the noise in
+// V[k] and V[k+1]. The selection of pairs must not look at the noise of V[k] or
+// V[k+1] either: selecting "charge" selects negative noise in the reading that chose it.
+// So a pair enters only when V[k-1] was so far from the controller's switching
+// threshold that V[k] could not reach it: the range V[k] can take from V[k-1] under
+// the drive chosen after V[k-1] (from the fit so far, or from the running mean step
+// before there is one), widened by 4 sigma of the running noise estimate and
+// MarginCounts, stays below the threshold (above it for discharge). No reading may be
+// at an ADC rail, and no sample missing.
 type ivSums struct {
 	n             float64
 	sz, sx, sy    float64

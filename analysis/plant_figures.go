@@ -60,7 +60,7 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 	}
 	if dof > 0 {
 		// The residual of y - a x - b is n[k+1] - a n[k]: its variance is (1 + a^2) sigma^2.
-		p.NoiseRMSCounts = ptr(math.Sqrt(ssr / dof))
+		p.NoiseRMSCounts = ptr(a.noiseRMS(ssr, dof))
 	} else {
 		p.NoiseRMSCountsReason = "not identified: no charge or discharge run to fit"
 	}
@@ -179,7 +179,7 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 			p.VLowVReason = "needs vref and adc_bits"
 		}
 	}
-	p.MissingCodes, p.StuckCodes = a.codeFaults()
+	p.MissingCodes, p.StuckCodes = a.codeFaults(pf)
 
 	// Load or buffer.
 	ev := plantEvidence{tauC: tauC, tauH: tauH, holdPairs: holdPairs, supply: math.NaN(), supplyTol: a.opts.SupplyTol,

@@ -25,12 +25,21 @@ type segState struct {
 	start, end float64 // ticks
 	n          int64
 	firstSign  int8
-	steady     bool
-	steadyAt   float64
-	db         float64
-	sawHold    bool
-	rising     bool // a step whose 10 % or 90 % crossing is still to come
-	trk        bool // opened by a tracking move (see Tracking)
+	steady     bool  // in the steady part (provisional until firm)
+	firm       bool  // the steady part restarted at the first onset after the reach
+	reachN     int64 // sample number (1-based) at which the setpoint was reached
+	// Drift of the envelope after the first onset: the mean error over blocks of whole
+	// cycles (charge onset to charge onset, at least blockMin samples); while two blocks
+	// in a row differ by more than noise allows, the steady part starts over at the
+	// next block. envOK: a block matched its predecessor, the envelope has stopped.
+	blkSum, blkPrev float64
+	blkN            int64
+	hasPrev, envOK  bool
+	steadyAt        float64
+	db              float64
+	sawHold         bool
+	rising          bool // a step whose 10 % or 90 % crossing is still to come
+	trk             bool // opened by a tracking move (see Tracking)
 
 	// whole segment
 	minPV, maxPV   float64
@@ -46,6 +55,7 @@ type segState struct {
 	lastPV         float64
 	stepT, stepPV  [stepKeep]float64
 	stepU          [stepKeep]int8
+	tail           [tailLen]float64 // the last readings, for the level an unreachable setpoint sits at
 
 	// steady part
 	sn              int64
@@ -55,8 +65,11 @@ type segState struct {
 	hLo, hHi        int
 	duty            [3]int64 // discharge, hold, charge
 	switches, jumps int64
-	onsets          int64
+	onsets          int64 // charge onsets
 	firstOn, lastOn float64
+	dOnsets         int64 // discharge onsets
+	firstDOn        float64
+	lastDOn         float64
 	sprev           telemetry.Drive
 	ring            []ringEntry // last Window steady readings
 	rpos            int
@@ -64,7 +77,15 @@ type segState struct {
 	trigCnt         [trigLen]int32
 	trigMax         int
 	trigJ           int // offset since the last charge onset, -1 before the first
+
+	pf plantFit // the plant identified when the segment closed (for its node ripple)
 }
+
+// blockMin is the fewest samples in one block of whole cycles of the drift check.
+const blockMin = 64
+
+// tailLen is the number of last readings kept for the level of a segment.
+const tailLen = 64
 
 // ringEntry is one steady reading kept in the ring: counts, tick and drive.
 type ringEntry struct {
@@ -89,29 +110,40 @@ func (s *segState) reset(window int) {
 	for i := s.lsLo; i <= s.lsHi && s.n > 0; i++ {
 		s.lastSeen[i] = 0
 	}
-	for i := s.hLo; i <= s.hHi && s.sn > 0; i++ {
-		s.hist[i] = 0
-	}
-	for i := 0; i < s.trigMax; i++ {
-		s.trigSum[i], s.trigCnt[i] = 0, 0
-	}
 	if len(s.ring) != window {
 		s.ring = make([]ringEntry, window)
 	}
 	ring := s.ring
 	s.sp, s.from, s.hasFrom, s.index = 0, 0, false, 0
 	s.start, s.end, s.n, s.firstSign, s.steady, s.steadyAt, s.db, s.sawHold = 0, 0, 0, 0, false, 0, 0, false
+	s.firm, s.reachN = false, 0
+	s.blkSum, s.blkPrev, s.blkN, s.hasPrev, s.envOK = 0, 0, 0, false, false
+	s.blkSum, s.blkPrev, s.blkN, s.hasPrev, s.envOK = 0, 0, 0, false, false
 	s.minPV, s.maxPV, s.prevIn, s.prevU = math.Inf(1), math.Inf(-1), false, 0
 	s.trk = false
 	s.entries, s.exits, s.noiseExits = 0, 0, 0
 	s.t10, s.t90, s.has10, s.has90, s.rising = 0, 0, false, false, false
 	s.lsLo, s.lsHi = 2*histHalf, 0
 	s.endRun, s.lastPV = 0, 0
+	s.ring = ring
+	s.clearSteady()
+}
+
+// clearSteady empties the steady part's figures: at a new segment, and when the steady
+// part restarts at the first drive onset after the setpoint was reached.
+func (s *segState) clearSteady() {
+	for i := s.hLo; i <= s.hHi && s.sn > 0; i++ {
+		s.hist[i] = 0
+	}
+	for i := 0; i < s.trigMax; i++ {
+		s.trigSum[i], s.trigCnt[i] = 0, 0
+	}
 	s.sn, s.sumE, s.sumE2, s.minE, s.maxE = 0, 0, 0, math.Inf(1), math.Inf(-1)
 	s.hLo, s.hHi = 2*histHalf, 0
 	s.duty = [3]int64{}
 	s.switches, s.jumps, s.onsets, s.firstOn, s.lastOn, s.sprev = 0, 0, 0, 0, 0, 0
-	s.ring, s.rpos = ring, 0
+	s.dOnsets, s.firstDOn, s.lastDOn = 0, 0, 0
+	s.rpos = 0
 	s.trigMax, s.trigJ = 0, -1
 }
 
@@ -178,20 +210,30 @@ type segFig struct {
 	meanE, rmsE, ppE, robPP float64
 	sigPP                   float64
 	duty                    [3]float64
-	periodSamples           float64 // from the autocorrelation
-	driveTicks              float64 // mean interval between charge onsets
-	freq                    float64 // dominant ripple frequency, cycles per sample
+	periodSamples           float64 // limit cycle: mean interval between onsets, samples
+	periodWhy               string  // why periodSamples is NaN
+	driveTicks              float64 // mean interval between charge (else discharge) onsets
+	pattern                 cycPattern
+	rests                   bool    // the drive never switched in the steady part
+	freq                    float64 // strongest line of the ripple spectrum, cycles per sample
 	switches                int64
 	entries, exits, jumps   int64
 	noiseExits              int64
 	lastU                   telemetry.Drive
 	endRun                  int64
 	lastPV                  float64
+	level                   float64 // mean of the last readings (up to tailLen, within the end run)
+	tps                     float64 // ticks per sample
+	nodePP                  float64 // noise-free node p-p from the plant and the drives
+	nodeWhy                 string
+	// outside[i] is the last sample number (1-based) whose error was beyond
+	// outside[i].k counts (rounded); k rises, last falls. For the settling time.
+	outside []outBreak
 	// step into this segment
-	hasStep                            bool
-	from                               float64
-	rise, settle, overshoot, slewTicks float64
-	trk                                bool // opened by a tracking move
+	hasStep                    bool
+	from                       float64
+	rise, overshoot, slewTicks float64
+	trk                        bool // opened by a tracking move
 }
 
 // finish computes the figures of s without changing it (except the workspace sp).
@@ -201,10 +243,10 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 		n: s.n, sn: s.sn, settled: s.steady,
 		meanE: math.NaN(), rmsE: math.NaN(), ppE: math.NaN(), robPP: math.NaN(), sigPP: math.NaN(),
 		duty: [3]float64{math.NaN(), math.NaN(), math.NaN()}, periodSamples: math.NaN(),
-		driveTicks: math.NaN(), freq: math.NaN(),
+		driveTicks: math.NaN(), freq: math.NaN(), nodePP: math.NaN(),
 		switches: s.switches, entries: s.entries, exits: s.exits, jumps: s.jumps, noiseExits: s.noiseExits,
 		lastU: s.prevU, endRun: s.endRun, lastPV: s.lastPV, trk: s.trk,
-		rise: math.NaN(), settle: math.NaN(), overshoot: math.NaN(), slewTicks: math.NaN(),
+		rise: math.NaN(), overshoot: math.NaN(), slewTicks: math.NaN(),
 	}
 	if s.steady {
 		f.steadyAt = s.steadyAt
@@ -238,19 +280,16 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 				f.sigPP = hi - lo
 			}
 		}
-		if s.onsets >= 2 {
-			f.driveTicks = (s.lastOn - s.firstOn) / float64(s.onsets-1)
-		}
+		f.periodSamples, f.driveTicks, f.periodWhy = s.limitCycle()
+		f.rests = s.switches == 0
 		buf = s.window(buf)
-		resting := f.duty[1] >= 0.98 || s.switches < 4
-		per, fr, peakR := ws.analyse(buf)
-		if !resting {
-			f.periodSamples = limitCycle(per, peakR, f.driveTicks, s.ticksPerSample())
-		}
-		if f.ppE > 0 {
-			f.freq = fr
-		}
+		f.freq = ws.analyse(buf)
+		f.pattern = s.pattern()
+		f.nodePP, f.nodeWhy = s.nodeRipple()
 	}
+	f.tps = s.ticksPerSample()
+	f.level = s.level()
+	f.outside = s.outsideBreaks(f.outside)
 	if s.hasFrom && s.sp != s.from {
 		f.hasStep, f.from = true, s.from
 		if s.has10 && s.has90 {
@@ -264,21 +303,6 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 		} else {
 			f.overshoot = max(0, s.sp-s.minPV)
 		}
-		if s.sn > 0 {
-			lo, hi := s.quantile(0.005)-1, s.quantile(0.995)+1
-			lo, hi = min(lo, -s.db-1), max(hi, s.db+1)
-			var last int64
-			for b := s.lsLo; b <= s.lsHi; b++ {
-				e := float64(b - histHalf)
-				if (e < lo || e > hi) && s.lastSeen[b] > last {
-					last = s.lastSeen[b]
-				}
-			}
-			if last < s.n && s.n > 1 {
-				// The sample after the last one outside the envelope.
-				f.settle = float64(last) * (s.end - s.start) / float64(s.n-1)
-			}
-		}
 	}
 	return f, buf
 }
@@ -289,29 +313,4 @@ func (s *segState) ticksPerSample() float64 {
 		return 1
 	}
 	return (s.end - s.start) / float64(s.n-1)
-}
-
-// limitCycle combines the autocorrelation period acf (samples) with the drive pattern's
-// mean interval between charge onsets (ticks): when the autocorrelation peak lies within
-// 10 % of m onset intervals (a pattern with m charge onsets per period, m >= 1), the
-// period is m mean intervals, which averages over the whole steady part instead of the
-// window and is not tied to the lag grid. Without an autocorrelation peak, or with a
-// weak one (below 0.5 of lag 0: noise swamping a small ripple) that disagrees with the
-// drive pattern, the drive pattern gives it.
-func limitCycle(acf, peakR, driveTicks, tps float64) float64 {
-	drv := driveTicks / tps
-	switch {
-	case math.IsNaN(drv):
-		return acf
-	case math.IsNaN(acf):
-		return drv
-	}
-	m := math.Round(acf / drv)
-	if m >= 1 && math.Abs(acf-m*drv) <= 0.1*acf {
-		return m * drv
-	}
-	if peakR < 0.5 {
-		return drv
-	}
-	return acf
 }

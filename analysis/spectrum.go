@@ -7,31 +7,24 @@ import (
 	"gonum.org/v1/gonum/dsp/fourier"
 )
 
-// spectral is the workspace for the autocorrelation and the spectrum of one window.
+// spectral is the workspace for the spectrum of one window.
 // It is reused between calls so that the live screen does not allocate each frame.
 type spectral struct {
 	fft  *fourier.FFT
 	n    int
 	buf  []float64
 	coef []complex128
-	acf  []float64
 }
 
-// analyse computes, for the window w (counts, any mean), the normalised autocorrelation
-// of w minus its mean, its power spectrum, and from them:
-//
-//	period: the lag of the first major autocorrelation peak, in samples, refined by a
-//	        parabola through the peak and its neighbours (NaN when there is none);
-//	freq:   the frequency of the largest spectral line other than DC, in cycles per
-//	        sample (gonum's Freq), refined the same way (NaN for a flat window);
-//	peakR:  the autocorrelation at the peak (0..1).
-//
-// The autocorrelation is the inverse FFT of |FFT(w)|^2 with w zero-padded to twice its
-// length (so it is linear, not circular), divided by acf[0]. A peak is "major" when it
-// follows the first minimum, reaches at least 0.5 of the largest value beyond that
-// minimum, and is above 0.1.
-func (sp *spectral) analyse(w []float64) (period, freq, peakR float64) {
-	period, freq = math.NaN(), math.NaN()
+// analyse computes the power spectrum of the window w (counts, any mean) minus its
+// mean, zero-padded to a power of two at least twice its length, and returns the
+// frequency of its strongest line other than DC in cycles per sample (gonum's Freq),
+// refined by a parabola through the line and its neighbours (NaN for a flat or short
+// window). It leaves |X|^2 in coef for keepSpectrum. For a steady limit cycle the
+// strongest line is 1 / the mean interval between charge onsets, the limit cycle of the
+// Segment; a test holds the two together.
+func (sp *spectral) analyse(w []float64) (freq float64) {
+	freq = math.NaN()
 	m := len(w)
 	if m < 8 {
 		return
@@ -49,7 +42,6 @@ func (sp *spectral) analyse(w []float64) (period, freq, peakR float64) {
 		sp.n = n
 		sp.buf = make([]float64, n)
 		sp.coef = make([]complex128, n/2+1)
-		sp.acf = make([]float64, n)
 	}
 	mean := 0.0
 	for _, v := range w {
@@ -63,7 +55,6 @@ func (sp *spectral) analyse(w []float64) (period, freq, peakR float64) {
 		sp.buf[i] = v - mean
 	}
 	c := sp.fft.Coefficients(sp.coef, sp.buf)
-	// Dominant frequency: the largest |X|^2 after DC.
 	best, bi := 0.0, -1
 	for i := 1; i < len(c); i++ {
 		p := real(c[i])*real(c[i]) + imag(c[i])*imag(c[i])
@@ -81,35 +72,7 @@ func (sp *spectral) analyse(w []float64) (period, freq, peakR float64) {
 	for i := range c {
 		c[i] = complex(real(c[i])*real(c[i])+imag(c[i])*imag(c[i]), 0)
 	}
-	acf := sp.fft.Sequence(sp.acf, c)
-	if acf[0] <= 0 {
-		return
-	}
-	r := acf[:m/2+1]
-	r0 := acf[0]
-	// First local minimum after lag 0.
-	k := 1
-	for k < len(r)-1 && r[k+1] <= r[k] {
-		k++
-	}
-	if k >= len(r)-1 {
-		return
-	}
-	maxBeyond := 0.0
-	for j := k; j < len(r); j++ {
-		if r[j] > maxBeyond {
-			maxBeyond = r[j]
-		}
-	}
-	thr := math.Max(0.5*maxBeyond, 0.1*r0)
-	for j := k + 1; j < len(r)-1; j++ {
-		if r[j] >= thr && r[j] >= r[j-1] && r[j] >= r[j+1] {
-			period = float64(j) + parabola(r[j-1], r[j], r[j+1])
-			peakR = r[j] / r0
-			return
-		}
-	}
-	return
+	return freq
 }
 
 // parabola returns the offset (-0.5..0.5) of the vertex of the parabola through

@@ -186,6 +186,35 @@ type Segment struct {
 	// Tracking says the segment was opened by a tracking move (see Tracking): one of the
 	// short segments of a moving setpoint (absent from JSON when false).
 	Tracking bool `json:"tracking,omitempty"`
+
+	// LimitCyclePeriodSReason says why the limit cycle is null (then also its _samples
+	// twin and the ripple frequency).
+	LimitCyclePeriodSReason string `json:"limit_cycle_period_s_reason,omitempty"`
+	// PatternPeriodS is the exact repeat of the drive pattern over the last steady
+	// samples kept, PatternOnsets the charge onsets (discharge onsets for a
+	// discharge-only cycle) in one repeat: the pattern + - + - - repeats every 5
+	// samples with 2 onsets, a limit cycle of 2.5 samples.
+	PatternPeriodS       *float64 `json:"pattern_period_s"`
+	PatternPeriodSamples *float64 `json:"pattern_period_samples"`
+	PatternOnsets        *int     `json:"pattern_onsets"`
+	PatternPeriodSReason string   `json:"pattern_period_s_reason,omitempty"`
+	// Rests says the drive never switched in the steady part: no limit cycle; the
+	// level then moves only by the hold droop, HoldDroopVPerS (positive when the level
+	// falls), at the segment's mean level.
+	Rests                bool     `json:"rests"`
+	HoldDroopVPerS       *float64 `json:"hold_droop_v_per_s"`
+	HoldDroopVPerSReason string   `json:"hold_droop_v_per_s_reason,omitempty"`
+	// RippleNodePPV is the ripple at the node without ADC noise: the peak-to-peak of the
+	// identified plant driven by the observed drive sequence of the last steady samples.
+	// RipplePPV is the measured one, noise included.
+	RippleNodePPV       *float64 `json:"ripple_node_pp_v"`
+	RippleNodePPCounts  *float64 `json:"ripple_node_pp_counts"`
+	RippleNodePPVReason string   `json:"ripple_node_pp_v_reason,omitempty"`
+	// LevelV is where the level sits at the end of an unreachable segment (the mean of
+	// its last readings) and ShortfallV how far that is from the setpoint; null for a
+	// reachable one.
+	LevelV     *float64 `json:"level_v"`
+	ShortfallV *float64 `json:"shortfall_v"`
 }
 
 // StepFigures describe the response to one setpoint change.
@@ -199,6 +228,15 @@ type StepFigures struct {
 	SettleS    *float64 `json:"settle_s"`
 	OvershootV *float64 `json:"overshoot_v"`
 	SlewVPerS  *float64 `json:"slew_v_per_s"`
+	// SettleS is the time from the step until the error enters and stays within
+	// +-SettleTolCounts: the deadband plus one step at the new setpoint (the larger of
+	// the charge and discharge steps there), at least 1 % of full scale. The readings
+	// are judged against it widened by one count of quantisation and 4.5 sigma of the
+	// ADC noise. Null with SettleSReason when the step is within the tolerance or the
+	// level did not stay inside before the segment ended.
+	SettleSReason   string   `json:"settle_s_reason,omitempty"`
+	SettleTolCounts *float64 `json:"settle_tol_counts"`
+	SettleTolV      *float64 `json:"settle_tol_v"`
 }
 
 // Diagnostic is one finding, a plain sentence with the numbers behind it.

@@ -133,7 +133,7 @@ func (m FiguresModel) compactView() string {
 		fmtSPV(seg), fmtSI(seg.RipplePPV, "V"), fmtSI(seg.RippleRMSV, "V"), fmtSI(seg.MeanErrorV, "V"))
 	fmt.Fprintf(&b, "duty charge %s hold %s discharge %s  cycle %s  switching %s\n",
 		fmtPct(seg.DutyCharge), fmtPct(seg.DutyHold), fmtPct(seg.DutyDischarge),
-		fmtSI(seg.LimitCyclePeriodS, "s"), fmtSI(seg.SwitchingHz, "Hz"))
+		cycleText(seg), fmtSI(seg.SwitchingHz, "Hz"))
 	fmt.Fprintf(&b, "band %s  entries %d  exits %d  band jumps %d%s\n",
 		fmtBand(seg.DeadbandCounts), seg.DeadbandEntries, seg.DeadbandExits, seg.BandJumps, unreachable(seg))
 	p := m.sum.Plant
@@ -177,9 +177,9 @@ func segmentRows(seg *analysis.Segment) [][2]string {
 		{"ripple rms", fmtSI(seg.RippleRMSV, "V")},
 		{"mean error", fmtSI(seg.MeanErrorV, "V") + " (" + fmtCounts(seg.MeanErrorCounts) + " counts)"},
 		{"duty c/h/d", fmtPct(seg.DutyCharge) + " / " + fmtPct(seg.DutyHold) + " / " + fmtPct(seg.DutyDischarge)},
-		{"limit cycle", fmtSI(seg.LimitCyclePeriodS, "s")},
+		{"limit cycle", cycleText(seg)},
 		{"switching", fmtSI(seg.SwitchingHz, "Hz")},
-		{"ripple freq", fmtSI(seg.RippleFreqHz, "Hz")},
+		{"node p-p", nodeText(seg)},
 		{"band", fmtBand(seg.DeadbandCounts)},
 		{"entries/exits", fmt.Sprintf("%d / %d", seg.DeadbandEntries, seg.DeadbandExits)},
 		{"band jumps", fmt.Sprintf("%d", seg.BandJumps)},
@@ -250,4 +250,25 @@ func (m FiguresModel) fullView() string {
 		left = rowsBlock("tracking (moving setpoint)", trackingRows(m.sum.Tracking))
 	}
 	return sideBySide(left, plant, 3)
+}
+
+// cycleText is the limit cycle as the README defines it (the mean interval between
+// charge onsets) with its frequency, or "rests" when the drive never switched.
+func cycleText(seg *analysis.Segment) string {
+	if seg.Rests {
+		return "rests"
+	}
+	if seg.LimitCyclePeriodS == nil {
+		return fmtSI(nil, "s")
+	}
+	return fmtSI(seg.LimitCyclePeriodS, "s") + " = " + fmtSI(seg.RippleFreqHz, "Hz")
+}
+
+// nodeText is the node ripple without ADC noise (from the identified plant and the
+// drives), beside the measured p-p.
+func nodeText(seg *analysis.Segment) string {
+	if seg.RippleNodePPV == nil {
+		return fmtSI(nil, "V")
+	}
+	return fmtSI(seg.RippleNodePPV, "V") + " (no noise)"
 }

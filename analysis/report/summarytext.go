@@ -16,6 +16,14 @@ import (
 // textRows is the most segments and steps the text lists (JSON lists them all).
 const textRows = 40
 
+// tolText is the settling tolerance of a step, +-volts (else counts).
+func tolText(st analysis.StepFigures) string {
+	if st.SettleTolV == nil && st.SettleTolCounts == nil {
+		return figure.Missing
+	}
+	return "±" + figure.VoltsOrCounts(st.SettleTolV, st.SettleTolCounts)
+}
+
 // WriteFileText writes the human-readable summary of one file, then its advice and gates.
 func WriteFileText(w io.Writer, r *FileResult) {
 	WriteSummaryText(w, r.Summary)
@@ -136,7 +144,7 @@ func WriteSummaryText(w io.Writer, s *analysis.Summary) {
 	}
 	tw = tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 	if others > 0 {
-		fmt.Fprintln(tw, "  #\tsetpoint\tfrom\tto\tsteady\tmean err\tripple p-p\trobust\trms\tcharge\thold\tdisch\tcycle\tswitch\tin\tout\tjumps\t")
+		fmt.Fprintln(tw, "  #\tsetpoint\tfrom\tto\tsteady\tmean err\tripple p-p\tnode p-p\trobust\trms\tcharge\thold\tdisch\tcycle\tswitch\tin\tout\tjumps\t")
 	}
 	listed := 0
 	for i, g := range s.Segments {
@@ -153,21 +161,30 @@ func WriteSummaryText(w io.Writer, s *analysis.Summary) {
 		if g.Unreachable {
 			sp += " !"
 		}
-		fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%d\t%d\t%d\t\n", i+1, sp,
+		cycle := figure.SecondsOrSamples(g.LimitCyclePeriodS, g.LimitCyclePeriodSamples)
+		if g.Rests {
+			cycle = "rests"
+		}
+		fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%d\t%d\t%d\t\n", i+1, sp,
 			si.FormatDigits(g.StartS, "s", 4), si.FormatDigits(g.EndS, "s", 4), g.SteadySamples,
-			figure.VoltsOrCounts(g.MeanErrorV, g.MeanErrorCounts), figure.VoltsOrCounts(g.RipplePPV, g.RipplePPCounts), figure.SI(g.RippleRobustPPV, "V"), figure.VoltsOrCounts(g.RippleRMSV, g.RippleRMSCounts),
+			figure.VoltsOrCounts(g.MeanErrorV, g.MeanErrorCounts), figure.VoltsOrCounts(g.RipplePPV, g.RipplePPCounts), figure.VoltsOrCounts(g.RippleNodePPV, g.RippleNodePPCounts),
+			figure.SI(g.RippleRobustPPV, "V"), figure.VoltsOrCounts(g.RippleRMSV, g.RippleRMSCounts),
 			figure.Pct(g.DutyCharge), figure.Pct(g.DutyHold), figure.Pct(g.DutyDischarge),
-			figure.SecondsOrSamples(g.LimitCyclePeriodS, g.LimitCyclePeriodSamples), figure.SI(g.SwitchingHz, "Hz"), g.DeadbandEntries, g.DeadbandExits, g.BandJumps)
+			cycle, figure.SI(g.SwitchingHz, "Hz"), g.DeadbandEntries, g.DeadbandExits, g.BandJumps)
 	}
 	tw.Flush()
 	if s.SegmentsOmitted > 0 {
 		fmt.Fprintf(w, "  (%d more segments past the bounded list of %d; the plant, tracking and diagnostics still cover them)\n",
 			s.SegmentsOmitted, len(s.Segments))
 	}
-	for _, g := range s.Segments {
+	for i, g := range s.Segments {
 		if g.Unreachable {
-			fmt.Fprintln(w, "  ! the setpoint was not reachable")
-			break
+			fmt.Fprintf(w, "  ! segment %d: the setpoint was not reachable; the level sat at %s, %s short\n", i+1, figure.SI(g.LevelV, "V"), figure.SI(g.ShortfallV, "V"))
+		}
+	}
+	for i, g := range s.Segments {
+		if g.Rests && g.HoldDroopVPerS != nil {
+			fmt.Fprintf(w, "  segment %d rests (the drive never switched in its steady part); hold droop %s\n", i+1, figure.SI(g.HoldDroopVPerS, "V/s"))
 		}
 	}
 
@@ -176,16 +193,16 @@ func WriteSummaryText(w io.Writer, s *analysis.Summary) {
 	} else if len(s.Steps) > 0 {
 		fmt.Fprintln(w, "\nsteps")
 		tw = tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
-		fmt.Fprintln(tw, "  #\tat\tfrom\tto\trise 10-90 %\tsettle\tovershoot\tslew\t")
+		fmt.Fprintln(tw, "  #\tat\tfrom\tto\trise 10-90 %\tsettle\twithin\tovershoot\tslew\t")
 		for i, st := range s.Steps {
 			if i == textRows && len(s.Steps) > textRows+5 {
 				tw.Flush()
 				fmt.Fprintf(w, "  ... %d more steps (--json lists them all)\n", len(s.Steps)-textRows)
 				break
 			}
-			fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n", i+1, si.FormatDigits(st.AtS, "s", 4),
+			fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t%s\t\n", i+1, si.FormatDigits(st.AtS, "s", 4),
 				levelText(st.FromV, st.FromCounts), levelText(st.ToV, st.ToCounts),
-				figure.SI(st.RiseS, "s"), figure.SI(st.SettleS, "s"), figure.SI(st.OvershootV, "V"), figure.SI(st.SlewVPerS, "V/s"))
+				figure.SI(st.RiseS, "s"), figure.SI(st.SettleS, "s"), tolText(st), figure.SI(st.OvershootV, "V"), figure.SI(st.SlewVPerS, "V/s"))
 		}
 		tw.Flush()
 	}

@@ -1,0 +1,321 @@
+package analysis
+
+import (
+	"fmt"
+	"math"
+
+	"github.com/caploop/caploop/telemetry"
+)
+
+// cycPattern is the exact repeat of the drive pattern over the last steady samples:
+// its length in samples and the number of charge onsets (discharge onsets for a
+// discharge-only cycle) in one repeat; samples is NaN, with why, when there is none.
+type cycPattern struct {
+	samples float64
+	onsets  int
+	why     string
+}
+
+// outBreak is one step of a segment's "last sample outside" staircase: the last
+// sample number (1-based) whose rounded error was beyond k counts, for every threshold
+// from k up to the next break's k.
+type outBreak struct {
+	k    int32
+	last int64
+}
+
+// limitCycle returns the limit cycle of the steady part: the mean interval between
+// charge onsets (between discharge onsets when the cycle has no charge), in samples and
+// in ticks, or NaN with the reason.
+func (s *segState) limitCycle() (samples, ticks float64, why string) {
+	nan := math.NaN()
+	switch {
+	case s.switches == 0:
+		return nan, nan, "the drive never switched in the steady part: the loop rests"
+	case s.onsets >= 2:
+		ticks = (s.lastOn - s.firstOn) / float64(s.onsets-1)
+	case s.onsets == 0 && s.dOnsets >= 2:
+		ticks = (s.lastDOn - s.firstDOn) / float64(s.dOnsets-1)
+	default:
+		return nan, nan, "fewer than two charge onsets in the steady part"
+	}
+	return ticks / s.ticksPerSample(), ticks, ""
+}
+
+// ringAt returns the i-th of the last m steady ring entries, oldest first.
+func (s *segState) ringAt(i, m int) *ringEntry {
+	j := s.rpos - m + i
+	if j < 0 {
+		j += len(s.ring)
+	}
+	return &s.ring[j]
+}
+
+// pattern finds the shortest exact repeat of the drive over the last steady samples
+// kept (at least two whole repeats).
+func (s *segState) pattern() cycPattern {
+	m := int(min(s.sn, int64(len(s.ring))))
+	p := cycPattern{samples: math.NaN()}
+	if m < 16 {
+		p.why = "too few steady samples"
+		return p
+	}
+	if s.switches == 0 {
+		p.why = "the drive never switched in the steady part: the loop rests"
+		return p
+	}
+	for per := 1; per <= m/2; per++ {
+		ok := true
+		for i := 0; i+per < m; i++ {
+			if s.ringAt(i, m).u != s.ringAt(i+per, m).u {
+				ok = false
+				break
+			}
+		}
+		if !ok {
+			continue
+		}
+		on := func(d int8) int {
+			n := 0
+			for i := m - per; i < m; i++ {
+				if s.ringAt(i, m).u == d && s.ringAt(i-1, m).u != d {
+					n++
+				}
+			}
+			return n
+		}
+		n := on(int8(telemetry.Charge))
+		if n == 0 {
+			n = on(int8(telemetry.Discharge))
+		}
+		if n == 0 {
+			break // a constant drive over the window: no cycle to repeat
+		}
+		p.samples, p.onsets = float64(per), n
+		return p
+	}
+	p.why = fmt.Sprintf("the drive pattern does not repeat exactly within the last %d steady samples", m)
+	return p
+}
+
+// level returns the mean of the last readings of the segment, up to tailLen and within
+// the final run of one drive: where the level sits at the end.
+func (s *segState) level() float64 {
+	k := min(s.n, tailLen, max(s.endRun, 1))
+	if k <= 0 {
+		return math.NaN()
+	}
+	var sum float64
+	for i := s.n - k + 1; i <= s.n; i++ {
+		sum += s.tail[i%tailLen]
+	}
+	return sum / float64(k)
+}
+
+// outsideBreaks builds the staircase of the last sample outside +-k counts from the
+// last sample seen in each error bin (see outBreak), into dst, k rising.
+func (s *segState) outsideBreaks(dst []outBreak) []outBreak {
+	dst = dst[:0]
+	if s.n == 0 {
+		return dst
+	}
+	kmax := max(histHalf-s.lsLo, s.lsHi-histHalf)
+	var v int64
+	for k := kmax - 1; k >= 0; k-- {
+		nv := v
+		if b := histHalf + k + 1; b <= s.lsHi {
+			nv = max(nv, s.lastSeen[b])
+		}
+		if b := histHalf - k - 1; b >= s.lsLo {
+			nv = max(nv, s.lastSeen[b])
+		}
+		if nv != v {
+			dst = append(dst, outBreak{k: int32(k), last: nv})
+			v = nv
+		}
+	}
+	for i, j := 0, len(dst)-1; i < j; i, j = i+1, j-1 {
+		dst[i], dst[j] = dst[j], dst[i]
+	}
+	return dst
+}
+
+// lastOutside returns the last sample number (1-based) whose rounded error was beyond
+// tol counts, 0 when none was.
+func lastOutside(br []outBreak, tol float64) int64 {
+	k := int32(math.Floor(tol))
+	for _, b := range br {
+		if b.k >= k {
+			return b.last
+		}
+	}
+	return 0
+}
+
+// currentPlant returns the plant identified so far (see Summary).
+func (a *Accumulator) currentPlant() plantFit {
+	var pf plantFit
+	pf.fit[0], pf.ok[0] = a.fits[0].free()
+	pf.fit[2], pf.ok[2] = a.fits[2].free()
+	hc := 0.0
+	if pf.ok[0] && !math.IsNaN(pf.fit[0].VInf) {
+		hc = pf.fit[0].VInf
+	}
+	pf.fit[1], pf.ok[1] = a.holdFit(pf, hc)
+	return pf
+}
+
+// nodeRipple returns the noise-free peak-to-peak of the node over the last steady
+// samples kept, in counts: the plant identified when the segment closed,
+// V[k+1] = a_u V[k] + b_u (the exact exponential step of each drive over one period),
+// driven by the observed drives. The trajectory is V[k] = Phi[k] V0 + c[k] (+ g[k] h
+// when the hold droop is not identified: then the hold adds a constant h per sample),
+// and V0 (and h) are the least-squares fit of it to the readings, so the noise
+// averages out of the start value without smoothing the waveform. Samples while
+// Phi > 0.05 (the start value still matters) are left out when they are less than half
+// the window.
+func (s *segState) nodeRipple() (float64, string) {
+	m := int(min(s.sn, int64(len(s.ring))))
+	if m < 8 {
+		return math.NaN(), "too few steady samples"
+	}
+	pf := &s.pf
+	var a, b [3]float64
+	freeHold := false
+	for d := 0; d < 3; d++ {
+		switch {
+		case pf.ok[d] && pf.fit[d].A > 0 && pf.fit[d].A < 1:
+			a[d], b[d] = pf.fit[d].A, pf.fit[d].B
+		case d == 1:
+			a[d], freeHold = 1, true
+		default:
+			a[d] = math.NaN()
+		}
+	}
+	// Pass 1: the normal equations of (V0, h).
+	var spp, spg, sgg, spy, sgy float64
+	phi, c, g := 1.0, 0.0, 0.0
+	skip := -1
+	for k := 0; k < m; k++ {
+		r := s.ringAt(k, m)
+		y := r.pv - c
+		spp += phi * phi
+		spg += phi * g
+		sgg += g * g
+		spy += phi * y
+		sgy += g * y
+		if skip < 0 && phi <= 0.05 {
+			skip = k
+		}
+		d := r.u + 1
+		if k < m-1 {
+			if math.IsNaN(a[d]) {
+				return math.NaN(), fmt.Sprintf("no %s fit to drive the plant with", driveName(r.u))
+			}
+			phi, c, g = a[d]*phi, a[d]*c+b[d], a[d]*g
+			if d == 1 && freeHold {
+				g++
+			}
+		}
+	}
+	var v0, h float64
+	if det := spp*sgg - spg*spg; freeHold && sgg > 0 && det > 1e-12*spp*sgg {
+		v0, h = (spy*sgg-sgy*spg)/det, (spp*sgy-spg*spy)/det
+	} else if spp > 1e-9 {
+		v0 = spy / spp
+	} else {
+		return math.NaN(), "the plant forgets its start too fast to place it"
+	}
+	if freeHold {
+		b[1] = h
+	}
+	if skip < 0 || skip > m/2 {
+		skip = 0
+	}
+	// Pass 2: the trajectory.
+	v := v0
+	lo, hi := math.Inf(1), math.Inf(-1)
+	for k := 0; k < m; k++ {
+		if k >= skip {
+			lo, hi = min(lo, v), max(hi, v)
+		}
+		d := s.ringAt(k, m).u + 1
+		v = a[d]*v + b[d]
+	}
+	return hi - lo, ""
+}
+
+func driveName(u int8) string {
+	switch telemetry.Drive(u) {
+	case telemetry.Charge:
+		return "charge"
+	case telemetry.Discharge:
+		return "discharge"
+	}
+	return "hold"
+}
+
+// envelopeDrifts closes the open block of whole cycles of sg (at a charge onset) and
+// says whether its mean error moved from the previous block's by more than a quarter
+// count plus 4 sigma of the noise of the two means: the level is still converging to
+// its limit cycle (a two-state loop near mid-duty creeps over many cycles), so the
+// steady part starts over here. The first block that matches ends the check.
+func (a *Accumulator) envelopeDrifts(sg *segState) bool {
+	m := sg.blkSum / float64(sg.blkN)
+	sigma := math.Sqrt(a.noiseEMA / 6)
+	drift := false
+	if sg.hasPrev {
+		thr := 0.25 + 4*sigma*math.Sqrt(2/float64(sg.blkN))
+		drift = math.Abs(m-sg.blkPrev) > thr
+		sg.envOK = !drift
+	}
+	sg.blkPrev, sg.hasPrev = m, true
+	sg.blkSum, sg.blkN = 0, 0
+	return drift
+}
+
+// railCode says the readings pile up on code because of the plant, not the converter:
+// it is the full-scale code, the highest or lowest code read, or within 2 counts and 4
+// sigma of noise of an identified asymptote (where a level tops out: a buffer's
+// saturation, a loaded divider, an unreachable setpoint).
+func (a *Accumulator) railCode(code int, pf plantFit) bool {
+	if code == a.maxCode {
+		return true
+	}
+	lo, hi := -1, -1
+	for i, n := range a.codes {
+		if n > 0 {
+			if lo < 0 {
+				lo = i
+			}
+			hi = i
+		}
+	}
+	if code == lo || code == hi {
+		return true
+	}
+	near := 2 + 4*math.Sqrt(a.noiseEMA/6)
+	for _, d := range []int{0, 2} {
+		if pf.ok[d] && math.Abs(float64(code)-pf.fit[d].VInf) <= near {
+			return true
+		}
+	}
+	return false
+}
+
+// noiseRMS returns the ADC noise, rms counts with quantisation: the plant fits'
+// residual variance ssr/dof pooled with the second differences of hold triples whose
+// middle reading lay well inside the band (2 sigma and half a count from its edges). A
+// second difference of white noise has variance 6 sigma^2, and overlapping triples share
+// readings, so sdN triples count as sdN/3 degrees of freedom. In three-state captures
+// the fits see few pairs (a few dozen per step) while the hold triples number
+// thousands; the band's edges select the noise of the readings that chose a hold, so
+// only triples far from them enter, and only where the band is at least twice that
+// margin wide (a narrower band truncates the noise of every reading inside it).
+func (a *Accumulator) noiseRMS(ssr, dof float64) float64 {
+	if a.sdN < 64 {
+		return math.Sqrt(ssr / dof)
+	}
+	dsd := a.sdN / 3
+	return math.Sqrt((ssr + dsd*a.sd2/(6*a.sdN)) / (dof + dsd))
+}
