@@ -34,11 +34,12 @@ type pair struct {
 	res      simResult
 	simmed   bool
 	verified bool
-	score    float64  // third key of the ranking (see better)
-	meets    bool     // meets every goal in the last run
-	broken   []string // rules of the trade broken (see rules)
-	excess   float64  // how far beyond the rules' bounds, decades (see rules)
-	window   int      // steady window of the last run, samples
+	score    float64           // third key of the ranking (see better)
+	meets    bool              // meets every goal in the last run
+	broken   []string          // rules of the trade broken (see rules)
+	excess   float64           // how far beyond the rules' bounds, decades (see rules)
+	window   int               // steady window of the last run, samples
+	tv       *ToleranceVerdict // corners and Monte Carlo, shown pairs only
 }
 
 // tolFor is the settling band for a loop with deadband db: the output is settled when it
@@ -144,19 +145,20 @@ func (p *plant) checkPlan(pr *pair, kind loop.Kind, period float64, plan runPlan
 	tol := p.tolFor(pr.db)
 	var agg simResult
 	for i, seed := range seeds {
-		cfg := p.config(pr.ci, kind, pr.db, period, p.g.noise, seed)
-		r, err := simulate(cfg, p, tol, plan)
+		r, err := p.cachedRun(pr.ci, kind, pr.db, period, seed, tol, plan)
 		if err != nil {
 			return err
 		}
 		agg.rippleMean += r.ripplePP / float64(len(seeds))
 		agg.settleMean += r.settleS / float64(len(seeds))
+		agg.readMean += r.readPP / float64(len(seeds))
 		if i == 0 {
-			r.rippleMean, r.settleMean = agg.rippleMean, agg.settleMean
+			r.rippleMean, r.settleMean, r.readMean = agg.rippleMean, agg.settleMean, agg.readMean
 			agg = r
 			continue
 		}
 		agg.ripplePP = math.Max(agg.ripplePP, r.ripplePP)
+		agg.readPP = math.Max(agg.readPP, r.readPP)
 		agg.settleS = math.Max(agg.settleS, r.settleS)
 		agg.settled = agg.settled && r.settled
 		agg.staticErr = math.Max(agg.staticErr, r.staticErr)
@@ -330,6 +332,14 @@ func (p *plant) search(kind loop.Kind, period float64) (*searchResult, error) {
 		}
 		out.shown = append(out.shown, pr)
 	}
+	// Rank the shown pairs over the spread of real parts: each runs at the corners.
+	for _, pr := range out.shown {
+		tv, err := p.corners(pr, kind)
+		if err != nil {
+			return nil, err
+		}
+		pr.tv = tv
+	}
 	sort.SliceStable(out.shown, func(i, j int) bool { return p.better(out.shown[i], out.shown[j]) })
 	if len(out.shown) > 0 {
 		out.best = out.shown[0]
@@ -365,6 +375,13 @@ func (p *plant) candidate(pr *pair, kind loop.Kind) Candidate {
 		BandJumps:          pr.res.jumps,
 		Settled:            pr.res.settled,
 		WindowSamples:      pr.window,
+		ReadRipplePPV:      pr.res.readMean,
+		ReadWindowSamples:  pr.window,
+		Tolerance:          pr.tv,
+	}
+	c.SuggestedGateV, c.SuggestedGate = suggestGate(pr.res.readMean, p.lsb())
+	if pr.tv != nil {
+		pr.tv.Text = verdictText(pr.tv)
 	}
 	if kind == loop.ThreeState {
 		c.DeadbandCounts = pr.db
@@ -405,4 +422,54 @@ func (p *plant) trades(pr *pair, kind loop.Kind) string {
 		t = append(t, "a class-2 ceramic this size loses capacitance under DC bias: film or measure")
 	}
 	return strings.Join(t, "; ")
+}
+
+// runKey names one loop model run. Without a load, leak, follower or pin resistance the
+// run depends on R and C only through tau = R C, so pairs with the same product (10 kΩ
+// with 1 µF, 100 kΩ with 100 nF) share one run.
+type runKey struct {
+	a, b, supply, load, leak float64
+	kind                     loop.Kind
+	db                       int
+	period, tol              float64
+	plan                     runPlan
+	seed                     uint64
+}
+
+// cachedRun is simulate with a cache of model runs keyed by runKey.
+func (p *plant) cachedRun(ci loop.Circuit, kind loop.Kind, db int, period float64, seed uint64, tol float64, plan runPlan) (simResult, error) {
+	k := runKey{a: ci.R, b: ci.C, supply: ci.Supply, load: ci.Load, leak: ci.Leak, kind: kind, db: db,
+		period: period, tol: tol, plan: plan, seed: seed}
+	cacheable := !ci.HasFollower() && ci.RPin == 0 && (ci.RDischarge == 0 || ci.RDischarge == ci.R)
+	if cacheable && ci.Load == 0 && ci.Leak == 0 {
+		k.a, k.b = roundSig(ci.R*ci.C, 12), 1
+	}
+	if cacheable {
+		if r, ok := p.cache[k]; ok {
+			return r.clone(), nil
+		}
+	}
+	r, err := simulate(p.config(ci, kind, db, period, p.g.noise, seed), p, tol, plan)
+	if err != nil || !cacheable {
+		return r, err
+	}
+	if p.cache == nil {
+		p.cache = map[runKey]simResult{}
+	}
+	p.cache[k] = r.clone()
+	return r, nil
+}
+
+// clone copies a result with its own maps.
+func (r simResult) clone() simResult {
+	c := r
+	c.jumpsAt = make(map[int]int64, len(r.jumpsAt))
+	for k, v := range r.jumpsAt {
+		c.jumpsAt[k] = v
+	}
+	c.rippleAt = make(map[int]float64, len(r.rippleAt))
+	for k, v := range r.rippleAt {
+		c.rippleAt[k] = v
+	}
+	return c
 }

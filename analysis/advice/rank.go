@@ -106,6 +106,10 @@ func (p *plant) better(a, b *pair) bool {
 	if ma && rulesDiffer(a, b) {
 		return rulesBetter(a, b)
 	}
+	if ma && a.tv != nil && b.tv != nil && a.tv.CornersMeeting != b.tv.CornersMeeting {
+		// Key 2b: more tolerance corners meeting the goals first.
+		return a.tv.CornersMeeting > b.tv.CornersMeeting
+	}
 	if a.score != b.score {
 		return a.score > b.score
 	}
