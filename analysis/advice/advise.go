@@ -45,6 +45,13 @@ func FromSummaryPlant(s *analysis.Summary, in PlantInput, g Goals) (*Advice, err
 	if s == nil {
 		return nil, fmt.Errorf("advice: nil summary")
 	}
+	// The summary's advice runs on every summary (40 ms budget): its Monte Carlo checks
+	// the top pair only, with fewer builds, and fewer pairs get a short run, unless the
+	// caller asks for builds.
+	quick := g.Tol.Builds == 0
+	if quick {
+		g.Tol.Builds = summaryBuilds
+	}
 	req, cur, err := requestFromSummary(s, in, g)
 	if err != nil {
 		return nil, err
@@ -52,6 +59,9 @@ func FromSummaryPlant(s *analysis.Summary, in PlantInput, g Goals) (*Advice, err
 	p, err := req.resolve()
 	if err != nil {
 		return nil, err
+	}
+	if quick {
+		p.mcPairs, p.maxQuick = 1, summaryQuick
 	}
 	// A capture's advice checks with longer steady windows, so that figures driven by
 	// measured noise settle to their long-run values.

@@ -24,8 +24,6 @@ type pair struct {
 	r, c     float64 // marked values
 	ci       loop.Circuit
 	db       int
-	work     *DeadbandWorking
-	steps    []SetpointStep
 	cfSettle float64 // closed-form settling time, s
 	cfRipple float64 // closed-form ripple lower bound, V
 	pinA     float64
@@ -51,7 +49,9 @@ func (p *plant) tolFor(db int) float64 {
 // closedForm fills the closed-form bounds of a pair and the reasons it cannot meet the goals.
 func (p *plant) closedForm(pr *pair, kind loop.Kind, period float64) {
 	ci := pr.ci
-	pr.db, pr.work, pr.steps = deadband(ci, p, period)
+	var up, down float64
+	pr.db, up, down = bandOnly(ci, p, period)
+	staticV := float64(pr.db) * p.lsb()
 	if kind == loop.TwoState {
 		pr.db = 0
 	}
@@ -76,20 +76,17 @@ func (p *plant) closedForm(pr *pair, kind loop.Kind, period float64) {
 		pr.fail = append(pr.fail, "too slow")
 	}
 	var lb float64
-	droop := !math.IsInf(ci.Tau(loop.Hold), 1)
-	for _, s := range pr.steps {
-		switch {
-		case kind == loop.TwoState:
-			lb = math.Max(lb, math.Max(s.ChargeCounts, s.DischargeCounts))
-		case droop:
-			lb = math.Max(lb, s.ChargeCounts)
-		}
+	switch {
+	case kind == loop.TwoState:
+		lb = math.Max(up, down)
+	case !math.IsInf(ci.Tau(loop.Hold), 1): // the hold droops: each correction is a charge step
+		lb = up
 	}
 	pr.cfRipple = 0.8 * lb * p.lsb()
 	if pr.cfRipple > pruneFactor*p.g.rippleV {
 		pr.fail = append(pr.fail, "ripple too high")
 	}
-	if kind == loop.ThreeState && p.g.staticV > 0 && pr.work.StaticErrorV > p.g.staticV {
+	if kind == loop.ThreeState && p.g.staticV > 0 && staticV > p.g.staticV {
 		pr.fail = append(pr.fail, "static error too high")
 	}
 	pr.broken, pr.excess = p.rules(pr)
@@ -240,10 +237,16 @@ func (p *plant) search(kind loop.Kind, period float64) (*searchResult, error) {
 	}
 	out := &searchResult{}
 	var pass, nearMiss []*pair
+	var scratch pair
+	var fails []string
 	for _, r := range rs {
 		for _, c := range cs {
-			pr := &pair{r: r, c: c, ci: p.circuit(r, c)}
+			// Every pair is judged by closed forms in one scratch pair; only the survivors
+			// and the near misses are kept (an E96 search tries tens of thousands).
+			scratch = pair{r: r, c: c, ci: p.circuit(r, c), fail: fails[:0]}
+			pr := &scratch
 			p.closedForm(pr, kind, period)
+			fails = pr.fail
 			out.tried++
 			for _, f := range pr.fail {
 				if out.reasons == nil {
@@ -252,9 +255,14 @@ func (p *plant) search(kind loop.Kind, period float64) (*searchResult, error) {
 				out.reasons[f]++
 			}
 			if len(pr.fail) == 0 {
-				pass = append(pass, pr)
+				q := *pr
+				q.fail = nil
+				pass = append(pass, &q)
 			} else if !contains(pr.fail, "pin current too high") && !contains(pr.fail, "cannot reach the top setpoint") {
-				nearMiss = append(nearMiss, pr)
+				q := *pr
+				q.fail = append([]string(nil), pr.fail...)
+				q.broken = append([]string(nil), pr.broken...)
+				nearMiss = append(nearMiss, &q)
 			}
 		}
 	}
@@ -286,8 +294,8 @@ func (p *plant) search(kind loop.Kind, period float64) (*searchResult, error) {
 		}
 	}
 	pass = kept
-	if len(pass) > maxQuick {
-		pass = pass[:maxQuick]
+	if nq := p.quickCap(); len(pass) > nq {
+		pass = pass[:nq]
 	}
 	if len(pass) < p.g.top {
 		// Nothing (or little) passes the closed forms: run the closest misses too, so
@@ -472,4 +480,13 @@ func (r simResult) clone() simResult {
 		c.rippleAt[k] = v
 	}
 	return c
+}
+
+// quickCap is how many closed-form survivors get a short run: maxQuick, or fewer for a
+// summary's advice (see FromSummaryPlant).
+func (p *plant) quickCap() int {
+	if p.maxQuick > 0 {
+		return p.maxQuick
+	}
+	return maxQuick
 }

@@ -99,6 +99,8 @@ type plant struct {
 	plantIn              PlantInput
 	tol                  tolerances
 	cMeasured            bool // the capacitance ratio came from a capture
+	mcPairs              int  // how many top pairs get a Monte Carlo
+	maxQuick             int  // short runs at most; 0 = maxQuick
 	cache                map[runKey]simResult
 }
 
@@ -109,7 +111,12 @@ func (r Request) resolve() (*plant, error) {
 		p.supply = 5
 	}
 	if p.vref == 0 {
+		// The ADC reads the node up to its reference; above a logic supply the node is
+		// read through a divider or a buffer into a 5 V converter (assumed).
 		p.vref = p.supply
+		if p.supply > logicMaxV {
+			p.vref = 5
+		}
 	}
 	if p.bits == 0 {
 		p.bits = 10
@@ -262,6 +269,7 @@ func (r Request) resolve() (*plant, error) {
 	}
 	p.verifyWin, p.nSeeds = verifyWindow, 3
 	p.cMeasured = r.CRatio != 0
+	p.mcPairs = mcPairs
 	if err := p.resolveTol(g.Tol); err != nil {
 		return nil, err
 	}

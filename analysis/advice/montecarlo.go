@@ -195,7 +195,7 @@ func (p *plant) tolerance(sr *searchResult) error {
 	if p.tol.builds <= 0 {
 		return nil
 	}
-	n := min(mcPairs, len(sr.shown))
+	n := min(p.mcPairs, len(sr.shown))
 	for i := 0; i < n; i++ {
 		pr := sr.shown[i]
 		if pr.tv == nil {

@@ -66,7 +66,7 @@ func (p *plant) notes(a *Advice, sr *searchResult) []string {
 		p.lo, p.hi, fmtV(a.Goals.SettleTolV), p.sps))
 	if a.Tolerances != nil {
 		n = append(n, fmt.Sprintf("tolerance: every shown pair is run at the 16 corners of the spread, and the top %d through %d random builds each (%s); the reference error moves every level with it and is not counted against the goals",
-			mcPairs, a.Tolerances.Builds, a.Tolerances.Text))
+			p.mcPairs, a.Tolerances.Builds, a.Tolerances.Text))
 	}
 	n = append(n, p.ratingNote())
 	if len(a.Candidates) == 0 {
@@ -110,10 +110,8 @@ func (p *plant) fastProblem(ref *pair, present bool, top *Candidate) string {
 	}
 	tau := ref.ci.Tau(loop.Charge)
 	quarter := math.Ldexp(1, p.bits) / 4
-	var step float64
-	for _, s := range ref.steps {
-		step = math.Max(step, math.Max(s.ChargeCounts, s.DischargeCounts))
-	}
+	_, up, down := bandOnly(ref.ci, p, p.period)
+	step := math.Max(up, down)
 	if tau >= p.period && step+p.g.sigmaK*p.g.noise < 2*quarter+1 {
 		return ""
 	}

@@ -2,6 +2,7 @@ package advice
 
 import (
 	"math"
+	"sync"
 
 	"github.com/caploop/caploop/analysis/loop"
 )
@@ -53,8 +54,9 @@ func simulate(cfg loop.Config, p *plant, tol float64, plan runPlan) (simResult, 
 		}
 	}
 	prevE := math.NaN()
-	var buf []float64
-	var outside []bool
+	sb := simBufs.Get().(*simBuf)
+	buf, outside := sb.v[:0], sb.o[:0]
+	defer func() { sb.v, sb.o = buf, outside; simBufs.Put(sb) }()
 	a2 := 0.0
 	if plan.tau2 > 0 {
 		a2 = math.Exp(-cfg.Period / plan.tau2)
@@ -228,3 +230,12 @@ func smallCutSpread(v []float64, cut int) float64 {
 	}
 	return math.Max(highs[k-1]-lows[k-1], 0)
 }
+
+// simBuf holds the buffers of one simulate call, reused across calls (the tolerance runs
+// make thousands).
+type simBuf struct {
+	v []float64
+	o []bool
+}
+
+var simBufs = sync.Pool{New: func() any { return new(simBuf) }}

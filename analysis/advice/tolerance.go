@@ -27,6 +27,10 @@ const (
 	// (a regulated rail) and the ADC reference, +-% (assumed; give your parts' figures).
 	DefaultSupplyTolPct = 2
 	DefaultVrefTolPct   = 1
+	// summaryBuilds is the default number of builds of a summary's advice (top pair only).
+	summaryBuilds = 100
+	// summaryQuick is how many closed-form survivors a summary's advice runs.
+	summaryQuick = 64
 	// mcPairs is how many of the top pairs (after the corner ranking) get a Monte Carlo.
 	mcPairs = 3
 	// mcWindow is the steady window of each build's run, samples.
