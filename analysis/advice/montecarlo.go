@@ -70,13 +70,19 @@ func (p *plant) tolPlan(pr *pair) runPlan {
 	return p.plan(&q, p.period, mcWindow)
 }
 
-// corners runs the extreme combinations of R, C, supply and reference (16 runs, one seed).
+// nCorners is how many extreme combinations corners runs.
+const nCorners = 8
+
+// corners runs the extreme combinations of the spread, one seed each: every R and C
+// extreme, each with the supply high and the reference low (the largest steps against
+// the readings) and with the supply low and the reference high (the least headroom).
+// The reference on its own only moves the levels, so it is paired rather than crossed.
 func (p *plant) corners(pr *pair, kind loop.Kind) (*ToleranceVerdict, error) {
 	t := p.tol
 	v := &ToleranceVerdict{}
 	plan := p.tolPlan(pr)
-	for i := 0; i < 16; i++ {
-		b := build{rf: 1 - t.rTol, cf: 1 - t.cLo, sf: 1 - t.sTol, verr: -t.vTol, seed: p.g.seed + 7}
+	for i := 0; i < nCorners; i++ {
+		b := build{rf: 1 - t.rTol, cf: 1 - t.cLo, sf: 1 + t.sTol, verr: -t.vTol, seed: p.g.seed + 7}
 		if i&1 != 0 {
 			b.rf = 1 + t.rTol
 		}
@@ -84,10 +90,7 @@ func (p *plant) corners(pr *pair, kind loop.Kind) (*ToleranceVerdict, error) {
 			b.cf = 1 + t.cHi
 		}
 		if i&4 != 0 {
-			b.sf = 1 + t.sTol
-		}
-		if i&8 != 0 {
-			b.verr = t.vTol
+			b.sf, b.verr = 1-t.sTol, t.vTol
 		}
 		o, err := p.runBuild(pr, kind, b, plan)
 		if err != nil {

@@ -65,8 +65,8 @@ func (p *plant) notes(a *Advice, sr *searchResult) []string {
 	n = append(n, fmt.Sprintf("settling is timed on a step from %d to %d counts and back, to within %s of the setpoint, at each setpoint (counts %v) the largest ripple counts",
 		p.lo, p.hi, fmtV(a.Goals.SettleTolV), p.sps))
 	if a.Tolerances != nil {
-		n = append(n, fmt.Sprintf("tolerance: every shown pair is run at the 16 corners of the spread, and the top %d through %d random builds each (%s); the reference error moves every level with it and is not counted against the goals",
-			p.mcPairs, a.Tolerances.Builds, a.Tolerances.Text))
+		n = append(n, fmt.Sprintf("tolerance: every shown pair is run at %d corners of the spread (each R and C extreme with the supply high and the reference low, and the other way round), and the top %d through %d random builds each (%s); the reference error moves every level with it and is not counted against the goals",
+			nCorners, p.mcPairs, a.Tolerances.Builds, a.Tolerances.Text))
 	}
 	n = append(n, p.ratingNote())
 	if len(a.Candidates) == 0 {

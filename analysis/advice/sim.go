@@ -72,6 +72,7 @@ func simulate(cfg loop.Config, p *plant, tol float64, plan runPlan) (simResult, 
 			target *= plan.vScale
 		}
 		pvLo, pvHi := math.MaxInt, math.MinInt
+		steady, firstSign := false, 0
 		outside = outside[:0]
 		sum := 0.0
 		buf = buf[:0]
@@ -91,10 +92,21 @@ func simulate(cfg loop.Config, p *plant, tol float64, plan runPlan) (simResult, 
 				out = v2
 			}
 			outside = append(outside, math.Abs(out-target) > tol)
+			// The readings as a summary measures them: from the first reading inside
+			// the band (or across the setpoint) to the end of the setpoint.
+			if e := st.PV - sp; !steady {
+				sg := sgn(e)
+				if k == 0 {
+					firstSign = sg
+				}
+				steady = (e >= -db && e <= db) || (k > 0 && sg != firstSign)
+			}
+			if steady {
+				pvLo, pvHi = min(pvLo, st.PV), max(pvHi, st.PV)
+			}
 			if k >= n-plan.window {
 				buf = append(buf, out)
 				sum += out
-				pvLo, pvHi = min(pvLo, st.PV), max(pvHi, st.PV)
 			}
 			if three {
 				e := float64(st.PV - sp)
@@ -239,3 +251,13 @@ type simBuf struct {
 }
 
 var simBufs = sync.Pool{New: func() any { return new(simBuf) }}
+
+func sgn(x int) int {
+	switch {
+	case x > 0:
+		return 1
+	case x < 0:
+		return -1
+	}
+	return 0
+}

@@ -46,7 +46,7 @@ rules of the trade (load >= 10 R, pin current within half the limit, R from 1 kÎ
 
 Ripple may be given in volts (100mV) or as a percentage of full scale (2%).
 
-Every shown pair is checked over the spread of real parts: at the 16 corners of the
+Every shown pair is checked over the spread of real parts: at 8 corners of the
 resistor, capacitor, supply and reference tolerances, and the top three through random
 builds in the loop model ("meets goals in 99.7 % of 300 builds; worst ripple 31 mV").
 Resistors default to 5 % (E6 to E24) or 1 % (E96); capacitors follow --c-kind.
