@@ -426,8 +426,13 @@ func (p *plant) trades(pr *pair, kind loop.Kind) string {
 		t = append(t, fmt.Sprintf("static error up to %d counts (%s)", pr.db, fmtV(float64(pr.db)*p.lsb())))
 	}
 	t = append(t, p.ruleTrades(pr)...)
-	if pr.c >= 1e-6*(1-relTol) && pr.c <= ruleMaxC*(1+relTol) {
-		t = append(t, "a class-2 ceramic this size loses capacitance under DC bias: film or measure")
+	switch {
+	case p.tol.kind == CKindX7R && !p.cMeasured:
+		t = append(t, fmt.Sprintf("designed with the X7R DC-bias loss (%.0f %% of marked left at %s, common practice): measure yours", 100*p.tol.bias, fmtV(p.tol.biasAt)))
+	case p.tol.kind == CKindC0G && pr.c > 100e-9*(1+relTol):
+		t = append(t, "C0G is rare above 0.1 µF: film, or X7R with its DC-bias loss")
+	case p.tol.kind == CKindFilm && pr.c >= 1e-6*(1-relTol) && pr.c <= ruleMaxC*(1+relTol):
+		t = append(t, "film at this size; a class-2 ceramic instead loses capacitance under DC bias (--c-kind x7r)")
 	}
 	return strings.Join(t, "; ")
 }

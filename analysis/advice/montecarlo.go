@@ -172,10 +172,10 @@ func verdictText(v *ToleranceVerdict) string {
 		if math.IsInf(v.WorstSettleS, 1) {
 			settle = "some never settle"
 		}
-		return fmt.Sprintf("meets goals in %s %% of %d builds; worst ripple %s, worst settling %s",
+		return fmt.Sprintf("meets goals in %s %% of %d builds; worst ripple %s at the node, worst settling %s",
 			pctText(v.Yield), v.Builds, fmtV(v.WorstRipplePPV), settle)
 	}
-	return fmt.Sprintf("meets goals at %d of %d tolerance corners; worst corner ripple %s",
+	return fmt.Sprintf("meets goals at %d of %d tolerance corners; worst corner ripple %s at the node",
 		v.CornersMeeting, v.Corners, fmtV(v.WorstCornerPPV))
 }
 
