@@ -97,6 +97,7 @@ type plant struct {
 	verifyWin            int // steady window of the checking runs, samples
 	nSeeds               int // seeds of the checking runs
 	plantIn              PlantInput
+	bufLoad              float64 // a buffer's own input loading on the node, ohm; 0 = assumed
 	tol                  tolerances
 	cMeasured            bool // the capacitance ratio came from a capture
 	mcPairs              int  // how many top pairs get a Monte Carlo
@@ -305,9 +306,14 @@ func (p *plant) nodeV(counts int) float64 {
 func (p *plant) circuit(r, c float64) loop.Circuit {
 	ci := loop.Circuit{Supply: p.supply, R: r * p.rRatio, C: c * p.cRatio * p.tol.bias, Load: p.load, Leak: p.leakFor(c)}
 	if p.vbe > 0 {
-		// The emitter resistor is not known from the meta lines; 10 kOhm with beta 100
+		// The emitter resistor is not known from the meta lines: from the buffer's
+		// identified input loading (about beta x RE), else 10 kOhm with beta 100, which
 		// loads the node with about 1 MOhm (assumed).
-		ci.Follower = loop.Follower{VBE: p.vbe, Beta: loop.DefaultBeta, RE: 10e3}
+		re := 10e3
+		if p.bufLoad > 0 {
+			re = p.bufLoad / loop.DefaultBeta
+		}
+		ci.Follower = loop.Follower{VBE: p.vbe, Beta: loop.DefaultBeta, RE: re}
 	}
 	return ci
 }

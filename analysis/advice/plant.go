@@ -2,6 +2,7 @@ package advice
 
 import (
 	"fmt"
+	"math"
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/telemetry/si"
@@ -26,7 +27,9 @@ type PlantInput struct {
 	LoadOhm    float64 // Kind load: the resistive load on the node, ohm
 	LoadRatio  float64 // Kind load: load / R as identified (informative; 0 = unknown)
 	SenseDropV float64 // Kind buffer: the drop between the node and the sense point, V
-	Source     string  // where it came from: "identified from the capture", "given", ...
+	// Kind buffer: LoadOhm, when > 0, is the buffer's own input loading on the node
+	// (identified from the hold droop); 0 = a 10 kΩ emitter resistor with beta 100.
+	Source string // where it came from: "identified from the capture", "given", ...
 }
 
 // PlantUsed is the plant the advice assumed, as shown in the output.
@@ -44,10 +47,9 @@ func (k PlantKind) valid() bool {
 
 // PlantOf reads the one plant from a summary. It stands in for the summary's own plant
 // kind: where the present figures name both a load and a sense drop for the same shortfall
-// of v_high (no hold droop to tell them apart), a drop in the range of a follower's
-// base-emitter drop (0.3 to 1.2 V) is taken as a buffer, anything else as a load. Only a
-// hold droop that explains part of the shortfall as a load and leaves a drop beside it
-// counts as both (the data shows both).
+// of v_high, a drop in the range of a follower's base-emitter drop (0.3 to 1.2 V) is taken
+// as a buffer, anything else as a load. With a buffer, a hold droop is the buffer's own
+// input loading (kept as its LoadOhm), never a second load stacked on it.
 func PlantOf(s *analysis.Summary) PlantInput {
 	pl, b := s.Plant, s.Board
 	src := "identified from the capture"
@@ -56,8 +58,11 @@ func PlantOf(s *analysis.Summary) PlantInput {
 	holdShowsLoad := pl.TauHoldS != nil && pl.TauChargeS != nil && *pl.TauHoldS > *pl.TauChargeS
 	switch {
 	case load && buffer && holdShowsLoad:
-		// The load explains part of the shortfall and leaves a buffer-sized drop: both.
-		return PlantInput{Kind: PlantLoad, LoadOhm: *pl.LoadOhm, SenseDropV: *pl.SenseDropV, Source: src + " (load and buffer)"}
+		// A buffer's own input draws from the node as a load does: the hold droop is the
+		// buffer's input loading, not a second part. One plant: the buffer, its input
+		// loading taken from the droop.
+		return PlantInput{Kind: PlantBuffer, SenseDropV: *pl.SenseDropV, LoadOhm: *pl.LoadOhm,
+			Source: src + "; its input loading from the hold droop"}
 	case buffer:
 		return PlantInput{Kind: PlantBuffer, SenseDropV: *pl.SenseDropV, Source: src}
 	case load:
@@ -90,7 +95,7 @@ func (in PlantInput) apply(p *plant) error {
 		if !(in.SenseDropV > 0) {
 			return fmt.Errorf("advice: a buffer plant needs its sense drop > 0, got %g", in.SenseDropV)
 		}
-		p.vbe = in.SenseDropV
+		p.vbe, p.bufLoad = in.SenseDropV, math.Max(in.LoadOhm, 0)
 	}
 	p.plantIn = in
 	return nil
@@ -108,7 +113,11 @@ func (p *plant) used() *PlantUsed {
 		u.Text = fmt.Sprintf("resistive load %s on the node, no buffer", si.Format(p.load, "Ω"))
 	case p.vbe > 0:
 		u.Kind = string(PlantBuffer)
+		u.SenseDropV = p.vbe
 		u.Text = fmt.Sprintf("buffer with a %s drop between the node and the ADC, no load", fmtV(p.vbe))
+		if p.bufLoad > 0 {
+			u.Text += fmt.Sprintf(" beside the buffer's own input (%s on the node)", si.Format(p.bufLoad, "Ω"))
+		}
 	default:
 		u.Kind = string(PlantNone)
 		u.Text = "no load and no buffer: the ADC reads the capacitor directly"

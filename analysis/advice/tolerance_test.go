@@ -253,6 +253,15 @@ func TestPureLoadCaptureCarriesNoBuffer(t *testing.T) {
 	if !strings.Contains(b.String(), "plant assumed: resistive load") || strings.Contains(b.String(), "buffer with") {
 		t.Errorf("text does not state the load plant alone:\n%s", b.String())
 	}
+	// And the other way round: a buffered capture (a follower, no load in its truth
+	// file) gets the buffer alone, its hold droop taken as the buffer's own input.
+	fb, err := FromSummary(summarize(t, filepath.Join("..", "..", "testdata", "follower-limit.txt")), Goals{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if fb.Plant.Kind != "buffer" || fb.Goals.LoadOhm != 0 || fb.Goals.FollowerVBEV <= 0 {
+		t.Errorf("follower capture: plant %+v, load %g: want the buffer alone", fb.Plant, fb.Goals.LoadOhm)
+	}
 	// A summary with both figures for one shortfall and no hold droop gets one plant.
 	s2 := boardSummary()
 	s2.Plant.LoadOhm, s2.Plant.SenseDropV = fp(2e6), fp(0.65)
