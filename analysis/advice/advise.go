@@ -300,7 +300,8 @@ func (p *plant) fillGoals(a *Advice, noiseMeasured bool) {
 		PinCurrentA: p.g.pinA, MinPeriodS: p.g.minPeriod, NoiseRMSCounts: p.g.noise,
 		NoiseMeasured: noiseMeasured, SigmaMultiple: p.g.sigmaK,
 		SetpointCounts: append([]int(nil), p.sps...), StepFromCounts: p.lo, StepToCounts: p.hi,
-		CRatio: p.cRatio, RRatio: p.rRatio, LeakOhm: p.leak, FollowerVBEV: p.vbe, RParts: p.partsText(p.rParts, "Ω", 100, 1e6), CParts: p.partsText(p.cParts, "F", 10e-9, 100e-6),
+		PinCurrentWhy: p.g.pinWhy,
+		CRatio:        p.cRatio, RRatio: p.rRatio, LeakOhm: p.leak, FollowerVBEV: p.vbe, RParts: p.partsText(p.rParts, "Ω", 100, 1e6), CParts: p.partsText(p.cParts, "F", 10e-9, 100e-6),
 	}
 }
 

@@ -99,9 +99,10 @@ type Candidate struct {
 	MeetsGoals    bool     `json:"meets_goals"`           // every numeric goal met in the loop model (worst seed)
 	RulesBroken   []string `json:"rules_broken"`          // rules of the trade broken (RuleLoad, ...), empty = none
 
-	// Ripple as it will be measured: max - min of the ADC readings over the steady
-	// window (noise and quantisation included), the mean over the checking seeds, and a
-	// --max-ripple gate with margin for it.
+	// Ripple as it will be measured: max - min of the ADC readings over the steady part
+	// (from the first reading in the band, as a summary measures it) of a hold of the
+	// settling time plus ReadWindowSamples (noise and quantisation included), the mean
+	// over the checking seeds, and a --max-ripple gate with margin for it.
 	ReadRipplePPV     float64           `json:"predicted_read_ripple_pp_v"`
 	ReadWindowSamples int               `json:"read_window_samples"`
 	SuggestedGateV    float64           `json:"suggested_max_ripple_v"`
