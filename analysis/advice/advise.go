@@ -36,7 +36,23 @@ func FromSummary(s *analysis.Summary, g Goals) (*Advice, error) {
 	if s == nil {
 		return nil, fmt.Errorf("advice: nil summary")
 	}
-	req, cur, err := requestFromSummary(s, g)
+	return FromSummaryPlant(s, PlantOf(s), g)
+}
+
+// FromSummaryPlant is FromSummary with the plant given: the one the summary identified
+// (kind none, load or buffer), which the advice designs for and states.
+func FromSummaryPlant(s *analysis.Summary, in PlantInput, g Goals) (*Advice, error) {
+	if s == nil {
+		return nil, fmt.Errorf("advice: nil summary")
+	}
+	// The summary's advice runs on every summary (40 ms budget): its Monte Carlo checks
+	// the top pair only, with fewer builds, and fewer pairs get a short run, unless the
+	// caller asks for builds.
+	quick := g.Tol.Builds == 0
+	if quick {
+		g.Tol.Builds = summaryBuilds
+	}
+	req, cur, err := requestFromSummary(s, in, g)
 	if err != nil {
 		return nil, err
 	}
@@ -44,9 +60,11 @@ func FromSummary(s *analysis.Summary, g Goals) (*Advice, error) {
 	if err != nil {
 		return nil, err
 	}
-	// A capture's advice has no 200 ms budget: check with longer steady windows, so that
-	// figures driven by measured noise settle to their long-run values.
-	p.verifyWin, p.nSeeds = 4*verifyWindow, 6
+	if quick {
+		p.mcPairs, p.maxQuick = 1, summaryQuick
+	}
+	// A capture's advice checks with longer steady windows, so that figures driven by
+	// measured noise settle to their long-run values.
 	a, err := p.advise(cur, req.noiseMeasured)
 	if err != nil {
 		return nil, err
@@ -72,7 +90,7 @@ type present struct {
 	db   int
 }
 
-func requestFromSummary(s *analysis.Summary, g Goals) (Request, *present, error) {
+func requestFromSummary(s *analysis.Summary, in PlantInput, g Goals) (Request, *present, error) {
 	b, pl := s.Board, s.Plant
 	var req Request
 	var missing []string
@@ -94,8 +112,11 @@ func requestFromSummary(s *analysis.Summary, g Goals) (Request, *present, error)
 	if len(missing) > 0 {
 		return req, nil, fmt.Errorf("%w: no %s (send them in a meta line, e.g. # vref=5 adc_bits=10 period_us=1000)", ErrNoBoard, strings.Join(missing, ", "))
 	}
-	if pl.SenseDropV != nil && *pl.SenseDropV >= 0.3 && *pl.SenseDropV < 1.2 {
-		req.VBE = *pl.SenseDropV
+	// One plant: a load or a buffer, never a buffer drop stacked on a load.
+	req.Plant = &in
+	req.VBE = in.SenseDropV
+	if in.Kind == PlantNone {
+		req.VBE = 0
 	}
 	switch {
 	case b.SupplyV != nil:
@@ -105,11 +126,8 @@ func requestFromSummary(s *analysis.Summary, g Goals) (Request, *present, error)
 	default:
 		req.SupplyV = req.VrefV
 	}
-	switch {
-	case pl.LoadOhm != nil && *pl.LoadOhm > 0:
-		req.LoadOhm = *pl.LoadOhm
-	case b.LoadOhm != nil:
-		req.LoadOhm = *b.LoadOhm
+	if in.Kind == PlantLoad {
+		req.LoadOhm = in.LoadOhm
 	}
 	switch b.Mode {
 	case "three-state":
@@ -186,6 +204,10 @@ func (p *plant) advise(cur *present, noiseMeasured bool) (*Advice, error) {
 		return nil, err
 	}
 	a.Search = &SearchStats{PairsTried: sr.tried, PairsSimulated: sr.simmed, PairsMeeting: sr.meeting}
+	if err := p.tolerance(sr); err != nil {
+		return nil, err
+	}
+	a.Plant, a.Tolerances = p.used(), p.tolUsed()
 	for _, pr := range sr.shown {
 		a.Candidates = append(a.Candidates, p.candidate(pr, p.kind))
 	}
@@ -208,6 +230,15 @@ func (p *plant) advise(cur *present, noiseMeasured bool) (*Advice, error) {
 		a.Current = &c
 	}
 	if ref != nil {
+		var top *Candidate
+		if len(a.Candidates) > 0 {
+			top = &a.Candidates[0]
+		}
+		if msg := p.fastProblem(ref, cur != nil, top); msg != "" {
+			a.Problems = append(a.Problems, msg)
+		}
+	}
+	if ref != nil && p.kind == loop.ThreeState {
 		db, w, steps := deadband(ref.ci, p, p.period)
 		w.Steps = steps
 		// The band as run: the checking simulation of this very circuit at this band.
@@ -269,7 +300,8 @@ func (p *plant) fillGoals(a *Advice, noiseMeasured bool) {
 		PinCurrentA: p.g.pinA, MinPeriodS: p.g.minPeriod, NoiseRMSCounts: p.g.noise,
 		NoiseMeasured: noiseMeasured, SigmaMultiple: p.g.sigmaK,
 		SetpointCounts: append([]int(nil), p.sps...), StepFromCounts: p.lo, StepToCounts: p.hi,
-		CRatio: p.cRatio, RRatio: p.rRatio, LeakOhm: p.leak, FollowerVBEV: p.vbe, RParts: p.partsText(p.rParts, "Ω", 100, 1e6), CParts: p.partsText(p.cParts, "F", 10e-9, 100e-6),
+		PinCurrentWhy: p.g.pinWhy,
+		CRatio:        p.cRatio, RRatio: p.rRatio, LeakOhm: p.leak, FollowerVBEV: p.vbe, RParts: p.partsText(p.rParts, "Ω", 100, 1e6), CParts: p.partsText(p.cParts, "F", 10e-9, 100e-6),
 	}
 }
 
@@ -421,79 +453,6 @@ func (p *plant) topology(sr *searchResult) ([]TopologyAdvice, error) {
 	}
 	sort.SliceStable(out, func(i, j int) bool { return out[i].Meets && !out[j].Meets })
 	return out, nil
-}
-
-func (p *plant) cautions(a *Advice) []string {
-	maxI := 0.0
-	for _, c := range a.Candidates {
-		maxI = math.Max(maxI, c.PinCurrentA)
-	}
-	upTo := ""
-	if maxI > 0 {
-		upTo = fmt.Sprintf(" (up to %s in this table)", fmtA(maxI))
-	}
-	c := []string{
-		fmt.Sprintf("pin current: the first instant of a charge or discharge draws Vs / R%s; keep it inside the part's datasheet limit (about 20 mA per pin in normal use on classic 8-bit parts, from memory)",
-			upTo),
-	}
-	if p.kind == loop.ThreeState || len(a.Topology) > 0 {
-		c = append(c, "three-state with a high-side and a low-side switch: never turn both on together; give each path its own series resistor so that a firmware slip cannot short the supply")
-	}
-	for _, t := range a.Topology {
-		if len(t.Change) >= 6 && t.Change[:6] == "op-amp" {
-			c = append(c, "op-amp stage: if it runs from a higher supply it needs a common ground with the board, and its output range must suit the load and the ADC input")
-			break
-		}
-	}
-	c = append(c, "these are low-voltage circuits: defer to the parts' datasheets, and to local codes and licensed practice for anything mains-powered")
-	return c
-}
-
-func (p *plant) notes(a *Advice, sr *searchResult) []string {
-	var n []string
-	if p.cRatio < 0.85 || p.cRatio > 1.15 {
-		n = append(n, fmt.Sprintf("the identified tau says the capacitor is %.0f %% %s than marked (a class-2 ceramic under DC bias does this); every candidate is designed with the real one (marked C x %.2f)",
-			100*math.Abs(1-p.cRatio), map[bool]string{true: "lower", false: "higher"}[p.cRatio < 1], p.cRatio))
-	}
-	if p.rRatio != 1 {
-		n = append(n, fmt.Sprintf("resistors are taken as %.2f x marked (measured)", p.rRatio))
-	}
-	if tau := TauForStep(p.period, p.g.rippleV, p.supply); !math.IsNaN(tau) {
-		n = append(n, fmt.Sprintf("rule of the trade: one period's largest step is the ripple budget when R*C = T * Vs / dV = %s x %s / %s = %s (exact form -T / ln(1 - dV/Vs) = %s), e.g. %s with 1 µF; the table refines this with the loop model",
-			si.Format(p.period, "s"), fmtV(p.supply), fmtV(p.g.rippleV), si.FormatDigits(p.period*p.supply/p.g.rippleV, "s", 3),
-			si.FormatDigits(tau, "s", 3), si.FormatDigits(p.period*p.supply/p.g.rippleV/1e-6, "Ω", 3)))
-	}
-	n = append(n, fmt.Sprintf("ranking: pairs that meet the goals first; among them, those that keep the rules of the trade (load >= 10 R, pin current within half the %s limit, R from 1 kΩ to 100 kΩ, C from 10 nF to 10 µF) ahead of any that break one, named after the verdict; then the widest margin on the goals",
-		fmtA(p.g.pinA)))
-	if len(a.Candidates) > 0 && a.Candidates[0].MeetsGoals && len(a.Candidates[0].RulesBroken) > 0 {
-		m := fmt.Sprintf("no pair on hand meets the goals and keeps every rule of the trade; the top one breaks: %s",
-			strings.Join(a.Candidates[0].RulesBroken, ", "))
-		if contains(a.Candidates[0].RulesBroken, RuleLoad) {
-			m += "; a follower buffer before the load lifts the load rule"
-		}
-		n = append(n, m)
-	}
-	src := "assumed"
-	if a.Goals.NoiseMeasured {
-		src = "measured"
-	}
-	n = append(n, fmt.Sprintf("figures are from the loop model (ADC noise %.2f counts rms, %s), not from formulas: %d pairs tried, %d pruned by closed forms, %d run in closed loop, the best run again over %d samples per setpoint with %d other seeds (figures: their mean; verdict: the worst seed)",
-		p.g.noise, src, sr.tried, sr.tried-sr.simmed, sr.simmed, p.verifyWin, p.nSeeds))
-	n = append(n, fmt.Sprintf("settling is timed on a step from %d to %d counts and back, to within %s of the setpoint; ripple p-p is the spread of the output between its 0.5 %% and 99.5 %% points over the steady part at each setpoint (counts %v), the largest of them",
-		p.lo, p.hi, fmtV(a.Goals.SettleTolV), p.sps))
-	if len(a.Candidates) == 0 {
-		var rs []string
-		for _, k := range []string{"pin current too high", "cannot reach the top setpoint", "too slow", "ripple too high", "static error too high"} {
-			if sr.reasons[k] > 0 {
-				rs = append(rs, fmt.Sprintf("%d %s", sr.reasons[k], k))
-			}
-		}
-		n = append(n, fmt.Sprintf("no pair comes near the goals; of %d pairs (a pair may fail several ways): %s", sr.tried, strings.Join(rs, ", ")))
-	}
-	if p.kind == loop.TwoState && a.DeadbandCounts != nil {
-		n = append(n, "the deadband applies if you switch to three-state (hold)")
-	}
-	return n
 }
 
 func fmtV(v float64) string { return si.FormatDigits(v, "V", 3) }

@@ -56,7 +56,7 @@ func deadband(ci loop.Circuit, p *plant, period float64) (int, *DeadbandWorking,
 		steps = append(steps, SetpointStep{SetpointCounts: sp, ChargeCounts: up, DischargeCounts: down})
 		w.StepCounts = math.Max(w.StepCounts, math.Max(up, down))
 	}
-	db := bandFor(w.StepCounts + w.MarginCounts)
+	db := min(bandFor(w.StepCounts+w.MarginCounts), p.maxBand())
 	droop := !math.IsInf(ci.Tau(loop.Hold), 1) && ci.VInf(loop.Hold) < p.nodeV(p.lo)
 	for i := range steps {
 		edge := float64(2*(db-1) + 1)
@@ -105,4 +105,18 @@ func TauForStep(T, dV, Vs float64) float64 {
 		return math.NaN()
 	}
 	return -T / math.Log1p(-dV/Vs)
+}
+
+// maxBand is the widest deadband the advice gives: a quarter of full scale (the input
+// range table's limit). A circuit that needs more is far too fast for its sample period.
+func (p *plant) maxBand() int { return int(math.Ldexp(1, p.bits) / 4) }
+
+// bandOnly is the band of deadband without the working, for the closed-form pruning of
+// every pair: the band and the largest charge and discharge steps at the used setpoints.
+func bandOnly(ci loop.Circuit, p *plant, period float64) (db int, up, down float64) {
+	for _, sp := range p.sps {
+		u, d := stepsAt(ci, p, sp, period)
+		up, down = math.Max(up, u), math.Max(down, d)
+	}
+	return min(bandFor(math.Max(up, down)+p.g.sigmaK*p.g.noise), p.maxBand()), up, down
 }

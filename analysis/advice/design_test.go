@@ -327,10 +327,15 @@ func TestTopologyWhenNothingMeets(t *testing.T) {
 	if err := a.WriteText(&sb); err != nil {
 		t.Fatal(err)
 	}
-	for _, w := range []string{"both on together", "common ground", "datasheet"} {
+	for _, w := range []string{"common ground", "datasheet", "two switches"} {
 		if !strings.Contains(sb.String(), w) {
 			t.Errorf("text lacks caution %q", w)
 		}
+	}
+	// Two-state advice: no band and no two-switch caution (the three-state change of
+	// circuit names its switches in its own reason).
+	if strings.Contains(sb.String(), "both on together") || strings.Contains(sb.String(), "deadband:") {
+		t.Errorf("two-state text carries three-state matter:\n%s", sb.String())
 	}
 }
 

@@ -24,8 +24,6 @@ type pair struct {
 	r, c     float64 // marked values
 	ci       loop.Circuit
 	db       int
-	work     *DeadbandWorking
-	steps    []SetpointStep
 	cfSettle float64 // closed-form settling time, s
 	cfRipple float64 // closed-form ripple lower bound, V
 	pinA     float64
@@ -34,11 +32,12 @@ type pair struct {
 	res      simResult
 	simmed   bool
 	verified bool
-	score    float64  // third key of the ranking (see better)
-	meets    bool     // meets every goal in the last run
-	broken   []string // rules of the trade broken (see rules)
-	excess   float64  // how far beyond the rules' bounds, decades (see rules)
-	window   int      // steady window of the last run, samples
+	score    float64           // third key of the ranking (see better)
+	meets    bool              // meets every goal in the last run
+	broken   []string          // rules of the trade broken (see rules)
+	excess   float64           // how far beyond the rules' bounds, decades (see rules)
+	window   int               // steady window of the last run, samples
+	tv       *ToleranceVerdict // corners and Monte Carlo, shown pairs only
 }
 
 // tolFor is the settling band for a loop with deadband db: the output is settled when it
@@ -50,7 +49,9 @@ func (p *plant) tolFor(db int) float64 {
 // closedForm fills the closed-form bounds of a pair and the reasons it cannot meet the goals.
 func (p *plant) closedForm(pr *pair, kind loop.Kind, period float64) {
 	ci := pr.ci
-	pr.db, pr.work, pr.steps = deadband(ci, p, period)
+	var up, down float64
+	pr.db, up, down = bandOnly(ci, p, period)
+	staticV := float64(pr.db) * p.lsb()
 	if kind == loop.TwoState {
 		pr.db = 0
 	}
@@ -75,20 +76,17 @@ func (p *plant) closedForm(pr *pair, kind loop.Kind, period float64) {
 		pr.fail = append(pr.fail, "too slow")
 	}
 	var lb float64
-	droop := !math.IsInf(ci.Tau(loop.Hold), 1)
-	for _, s := range pr.steps {
-		switch {
-		case kind == loop.TwoState:
-			lb = math.Max(lb, math.Max(s.ChargeCounts, s.DischargeCounts))
-		case droop:
-			lb = math.Max(lb, s.ChargeCounts)
-		}
+	switch {
+	case kind == loop.TwoState:
+		lb = math.Max(up, down)
+	case !math.IsInf(ci.Tau(loop.Hold), 1): // the hold droops: each correction is a charge step
+		lb = up
 	}
 	pr.cfRipple = 0.8 * lb * p.lsb()
 	if pr.cfRipple > pruneFactor*p.g.rippleV {
 		pr.fail = append(pr.fail, "ripple too high")
 	}
-	if kind == loop.ThreeState && p.g.staticV > 0 && pr.work.StaticErrorV > p.g.staticV {
+	if kind == loop.ThreeState && p.g.staticV > 0 && staticV > p.g.staticV {
 		pr.fail = append(pr.fail, "static error too high")
 	}
 	pr.broken, pr.excess = p.rules(pr)
@@ -144,19 +142,20 @@ func (p *plant) checkPlan(pr *pair, kind loop.Kind, period float64, plan runPlan
 	tol := p.tolFor(pr.db)
 	var agg simResult
 	for i, seed := range seeds {
-		cfg := p.config(pr.ci, kind, pr.db, period, p.g.noise, seed)
-		r, err := simulate(cfg, p, tol, plan)
+		r, err := p.cachedRun(pr.ci, kind, pr.db, period, seed, tol, plan)
 		if err != nil {
 			return err
 		}
 		agg.rippleMean += r.ripplePP / float64(len(seeds))
 		agg.settleMean += r.settleS / float64(len(seeds))
+		agg.readMean += r.readPP / float64(len(seeds))
 		if i == 0 {
-			r.rippleMean, r.settleMean = agg.rippleMean, agg.settleMean
+			r.rippleMean, r.settleMean, r.readMean = agg.rippleMean, agg.settleMean, agg.readMean
 			agg = r
 			continue
 		}
 		agg.ripplePP = math.Max(agg.ripplePP, r.ripplePP)
+		agg.readPP = math.Max(agg.readPP, r.readPP)
 		agg.settleS = math.Max(agg.settleS, r.settleS)
 		agg.settled = agg.settled && r.settled
 		agg.staticErr = math.Max(agg.staticErr, r.staticErr)
@@ -238,10 +237,16 @@ func (p *plant) search(kind loop.Kind, period float64) (*searchResult, error) {
 	}
 	out := &searchResult{}
 	var pass, nearMiss []*pair
+	var scratch pair
+	var fails []string
 	for _, r := range rs {
 		for _, c := range cs {
-			pr := &pair{r: r, c: c, ci: p.circuit(r, c)}
+			// Every pair is judged by closed forms in one scratch pair; only the survivors
+			// and the near misses are kept (an E96 search tries tens of thousands).
+			scratch = pair{r: r, c: c, ci: p.circuit(r, c), fail: fails[:0]}
+			pr := &scratch
 			p.closedForm(pr, kind, period)
+			fails = pr.fail
 			out.tried++
 			for _, f := range pr.fail {
 				if out.reasons == nil {
@@ -250,9 +255,14 @@ func (p *plant) search(kind loop.Kind, period float64) (*searchResult, error) {
 				out.reasons[f]++
 			}
 			if len(pr.fail) == 0 {
-				pass = append(pass, pr)
+				q := *pr
+				q.fail = nil
+				pass = append(pass, &q)
 			} else if !contains(pr.fail, "pin current too high") && !contains(pr.fail, "cannot reach the top setpoint") {
-				nearMiss = append(nearMiss, pr)
+				q := *pr
+				q.fail = append([]string(nil), pr.fail...)
+				q.broken = append([]string(nil), pr.broken...)
+				nearMiss = append(nearMiss, &q)
 			}
 		}
 	}
@@ -284,8 +294,8 @@ func (p *plant) search(kind loop.Kind, period float64) (*searchResult, error) {
 		}
 	}
 	pass = kept
-	if len(pass) > maxQuick {
-		pass = pass[:maxQuick]
+	if nq := p.quickCap(); len(pass) > nq {
+		pass = pass[:nq]
 	}
 	if len(pass) < p.g.top {
 		// Nothing (or little) passes the closed forms: run the closest misses too, so
@@ -330,6 +340,14 @@ func (p *plant) search(kind loop.Kind, period float64) (*searchResult, error) {
 		}
 		out.shown = append(out.shown, pr)
 	}
+	// Rank the shown pairs over the spread of real parts: each runs at the corners.
+	for _, pr := range out.shown {
+		tv, err := p.corners(pr, kind)
+		if err != nil {
+			return nil, err
+		}
+		pr.tv = tv
+	}
 	sort.SliceStable(out.shown, func(i, j int) bool { return p.better(out.shown[i], out.shown[j]) })
 	if len(out.shown) > 0 {
 		out.best = out.shown[0]
@@ -365,6 +383,13 @@ func (p *plant) candidate(pr *pair, kind loop.Kind) Candidate {
 		BandJumps:          pr.res.jumps,
 		Settled:            pr.res.settled,
 		WindowSamples:      pr.window,
+		ReadRipplePPV:      pr.res.readMean,
+		ReadWindowSamples:  pr.window,
+		Tolerance:          pr.tv,
+	}
+	c.SuggestedGateV, c.SuggestedGate = suggestGate(pr.res.readMean, p.lsb())
+	if pr.tv != nil {
+		pr.tv.Text = verdictText(pr.tv)
 	}
 	if kind == loop.ThreeState {
 		c.DeadbandCounts = pr.db
@@ -401,8 +426,72 @@ func (p *plant) trades(pr *pair, kind loop.Kind) string {
 		t = append(t, fmt.Sprintf("static error up to %d counts (%s)", pr.db, fmtV(float64(pr.db)*p.lsb())))
 	}
 	t = append(t, p.ruleTrades(pr)...)
-	if pr.c >= 1e-6*(1-relTol) && pr.c <= ruleMaxC*(1+relTol) {
-		t = append(t, "a class-2 ceramic this size loses capacitance under DC bias: film or measure")
+	switch {
+	case p.tol.kind == CKindX7R && !p.cMeasured:
+		t = append(t, fmt.Sprintf("designed with the X7R DC-bias loss (%.0f %% of marked left at %s, common practice): measure yours", 100*p.tol.bias, fmtV(p.tol.biasAt)))
+	case p.tol.kind == CKindC0G && pr.c > 100e-9*(1+relTol):
+		t = append(t, "C0G is rare above 0.1 µF: film, or X7R with its DC-bias loss")
+	case p.tol.kind == CKindFilm && pr.c >= 1e-6*(1-relTol) && pr.c <= ruleMaxC*(1+relTol):
+		t = append(t, "film at this size; a class-2 ceramic instead loses capacitance under DC bias (--c-kind x7r)")
 	}
 	return strings.Join(t, "; ")
+}
+
+// runKey names one loop model run. Without a load, leak, follower or pin resistance the
+// run depends on R and C only through tau = R C, so pairs with the same product (10 kΩ
+// with 1 µF, 100 kΩ with 100 nF) share one run.
+type runKey struct {
+	a, b, supply, load, leak float64
+	kind                     loop.Kind
+	db                       int
+	period, tol              float64
+	plan                     runPlan
+	seed                     uint64
+}
+
+// cachedRun is simulate with a cache of model runs keyed by runKey.
+func (p *plant) cachedRun(ci loop.Circuit, kind loop.Kind, db int, period float64, seed uint64, tol float64, plan runPlan) (simResult, error) {
+	k := runKey{a: ci.R, b: ci.C, supply: ci.Supply, load: ci.Load, leak: ci.Leak, kind: kind, db: db,
+		period: period, tol: tol, plan: plan, seed: seed}
+	cacheable := !ci.HasFollower() && ci.RPin == 0 && (ci.RDischarge == 0 || ci.RDischarge == ci.R)
+	if cacheable && ci.Load == 0 && ci.Leak == 0 {
+		k.a, k.b = roundSig(ci.R*ci.C, 12), 1
+	}
+	if cacheable {
+		if r, ok := p.cache[k]; ok {
+			return r.clone(), nil
+		}
+	}
+	r, err := simulate(p.config(ci, kind, db, period, p.g.noise, seed), p, tol, plan)
+	if err != nil || !cacheable {
+		return r, err
+	}
+	if p.cache == nil {
+		p.cache = map[runKey]simResult{}
+	}
+	p.cache[k] = r.clone()
+	return r, nil
+}
+
+// clone copies a result with its own maps.
+func (r simResult) clone() simResult {
+	c := r
+	c.jumpsAt = make(map[int]int64, len(r.jumpsAt))
+	for k, v := range r.jumpsAt {
+		c.jumpsAt[k] = v
+	}
+	c.rippleAt = make(map[int]float64, len(r.rippleAt))
+	for k, v := range r.rippleAt {
+		c.rippleAt[k] = v
+	}
+	return c
+}
+
+// quickCap is how many closed-form survivors get a short run: maxQuick, or fewer for a
+// summary's advice (see FromSummaryPlant).
+func (p *plant) quickCap() int {
+	if p.maxQuick > 0 {
+		return p.maxQuick
+	}
+	return maxQuick
 }

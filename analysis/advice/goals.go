@@ -4,15 +4,16 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"strings"
 
 	"github.com/caploop/caploop/analysis/loop"
 )
 
 // Defaults used when a Goals or Request field is zero.
 const (
-	// DefaultPinCurrentA is the per-pin current limit: about 20 mA in normal use on classic
-	// 8-bit parts (datasheet absolute maximum ratings, from memory; 40 mA absolute maximum).
-	DefaultPinCurrentA = 0.020
+	// DefaultPinCurrentA is the per-pin current limit of a 5 V part: about 20 mA in normal
+	// use (common practice). A 3.3 V board gets less by default (see defaultPinCurrent).
+	DefaultPinCurrentA = pinClassicA
 	// DefaultMinPeriodS is the ADC conversion time that bounds the sample period from below:
 	// 13 ADC clocks at 125 kHz for a 10-bit successive-approximation converter, 104 us
 	// (classic 8-bit microcontroller datasheets, from memory).
@@ -41,27 +42,31 @@ type Goals struct {
 	StaticErrorV  float64   // allowed static error, V; 0 = the ripple goal (the level may rest anywhere in the band)
 	R             Parts     // resistors on hand; zero = E12 from 100 ohm to 1 Mohm
 	C             Parts     // capacitors on hand; zero = E12 from 10 nF to 100 uF
-	PinCurrentA   float64   // pin current limit, A; 0 = DefaultPinCurrentA
+	PinCurrentA   float64   // pin current limit, A; 0 = by supply (see defaultPinCurrent)
 	MinPeriodS    float64   // ADC conversion time, s; 0 = DefaultMinPeriodS
 	SigmaMultiple float64   // deadband noise margin in sigmas; 0 = DefaultSigmaMultiple
 	NoiseRMSCount float64   // ADC noise, counts rms, when not measured; 0 = DefaultNoiseRMSCounts
 	Setpoints     []float64 // used setpoints, counts; empty = from the capture, else 10/50/90 % of full scale
 	Top           int       // candidates to show; 0 = DefaultTop
 	Seed          uint64    // seed of the checking simulations; 0 = a fixed default
+	Tol           Tolerances
 }
 
 // Request is a design question asked without a board: the circuit's constraints and the goals.
 type Request struct {
-	SupplyV       float64   // pin high level, V; 0 = 5
-	VrefV         float64   // ADC reference, V; 0 = SupplyV
-	Bits          int       // ADC resolution; 0 = 10
-	PeriodS       float64   // sample period, s; 0 = 1 ms
-	Mode          loop.Kind // loop.TwoState or loop.ThreeState (the zero value is two-state)
-	LoadOhm       float64   // resistive load on the node, ohm; 0 = none
-	LeakOhm       float64   // capacitor leakage, ohm; 0 = none
-	VBE           float64   // emitter follower drop between node and sense point, V; 0 = none
-	CRatio        float64   // real / marked capacitance (measured), 0 = 1
-	RRatio        float64   // real / marked resistance (measured), 0 = 1
+	SupplyV float64   // pin high level, V; 0 = 5
+	VrefV   float64   // ADC reference, V; 0 = SupplyV
+	Bits    int       // ADC resolution; 0 = 10
+	PeriodS float64   // sample period, s; 0 = 1 ms
+	Mode    loop.Kind // loop.TwoState or loop.ThreeState (the zero value is two-state)
+	LoadOhm float64   // resistive load on the node, ohm; 0 = none
+	LeakOhm float64   // capacitor leakage, ohm; 0 = none
+	VBE     float64   // emitter follower drop between node and sense point, V; 0 = none
+	CRatio  float64   // real / marked capacitance (measured), 0 = 1
+	RRatio  float64   // real / marked resistance (measured), 0 = 1
+	// Plant, when set, is the one plant to design for and replaces LoadOhm and VBE (a
+	// load or a buffer, never a buffer drop stacked on a load the data did not show).
+	Plant         *PlantInput
 	Goals         Goals
 	noiseMeasured bool    // the noise came from the capture
 	ignoredCRatio float64 // an identified C ratio outside the plausible range
@@ -72,6 +77,7 @@ type goals struct {
 	rippleV, settleS, staticV float64
 	rippleSaid, settleSaid    bool
 	pinA, minPeriod, sigmaK   float64
+	pinWhy                    string // the pin limit and where it comes from
 	noise                     float64
 	top                       int
 	seed                      uint64
@@ -90,6 +96,13 @@ type plant struct {
 	rParts, cParts       Parts
 	verifyWin            int // steady window of the checking runs, samples
 	nSeeds               int // seeds of the checking runs
+	plantIn              PlantInput
+	bufLoad              float64 // a buffer's own input loading on the node, ohm; 0 = assumed
+	tol                  tolerances
+	cMeasured            bool // the capacitance ratio came from a capture
+	mcPairs              int  // how many top pairs get a Monte Carlo
+	maxQuick             int  // short runs at most; 0 = maxQuick
+	cache                map[runKey]simResult
 }
 
 func (r Request) resolve() (*plant, error) {
@@ -99,7 +112,12 @@ func (r Request) resolve() (*plant, error) {
 		p.supply = 5
 	}
 	if p.vref == 0 {
+		// The ADC reads the node up to its reference; above a logic supply the node is
+		// read through a divider or a buffer into a 5 V converter (assumed).
 		p.vref = p.supply
+		if p.supply > logicMaxV {
+			p.vref = 5
+		}
 	}
 	if p.bits == 0 {
 		p.bits = 10
@@ -127,6 +145,23 @@ func (r Request) resolve() (*plant, error) {
 	if p.bits < 4 || p.bits > 24 {
 		return nil, fmt.Errorf("advice: adc bits must be 4..24, got %d", p.bits)
 	}
+	if r.Plant != nil {
+		if err := r.Plant.apply(p); err != nil {
+			return nil, err
+		}
+	} else {
+		in := PlantInput{Kind: PlantNone, Source: "given"}
+		switch {
+		case p.load > 0:
+			in = PlantInput{Kind: PlantLoad, LoadOhm: p.load, SenseDropV: p.vbe, Source: "given"}
+		case p.vbe > 0:
+			in = PlantInput{Kind: PlantBuffer, SenseDropV: p.vbe, Source: "given"}
+		}
+		p.plantIn = in
+	}
+	if err := p.checkRanges(); err != nil {
+		return nil, err
+	}
 	if p.kind != loop.TwoState && p.kind != loop.ThreeState {
 		return nil, fmt.Errorf("advice: mode must be two-state or three-state, got %s", p.kind)
 	}
@@ -152,7 +187,13 @@ func (r Request) resolve() (*plant, error) {
 		// trade equates the two: dV -> dV * full-scale / vref counts).
 		p.g.staticV = p.g.rippleV
 	}
-	p.g.pinA = orDefault(g.PinCurrentA, DefaultPinCurrentA)
+	if g.PinCurrentA < 0 || math.IsNaN(g.PinCurrentA) {
+		return nil, fmt.Errorf("advice: pin current limit must be > 0, got %g", g.PinCurrentA)
+	}
+	p.g.pinA, p.g.pinWhy = defaultPinCurrent(p.supply)
+	if g.PinCurrentA > 0 {
+		p.g.pinA, p.g.pinWhy = g.PinCurrentA, fmtA(g.PinCurrentA)+" (given)"
+	}
 	p.g.minPeriod = orDefault(g.MinPeriodS, DefaultMinPeriodS)
 	p.g.sigmaK = orDefault(g.SigmaMultiple, DefaultSigmaMultiple)
 	p.g.noise = orDefault(g.NoiseRMSCount, DefaultNoiseRMSCounts)
@@ -224,7 +265,15 @@ func (r Request) resolve() (*plant, error) {
 		}
 	}
 	p.rParts, p.cParts = g.R, g.C
+	if len(p.cParts.List) == 0 && strings.EqualFold(p.cParts.Series, "E96") {
+		return nil, fmt.Errorf("advice: capacitors in E96: capacitors are rarely made beyond E24 (E12 is the common range); give the series E24 or a list of the values on hand")
+	}
 	p.verifyWin, p.nSeeds = verifyWindow, 3
+	p.cMeasured = r.CRatio != 0
+	p.mcPairs = mcPairs
+	if err := p.resolveTol(g.Tol); err != nil {
+		return nil, err
+	}
 	return p, nil
 }
 
@@ -255,11 +304,16 @@ func (p *plant) nodeV(counts int) float64 {
 
 // circuit builds the loop model circuit of a marked R and C, applying the measured ratios.
 func (p *plant) circuit(r, c float64) loop.Circuit {
-	ci := loop.Circuit{Supply: p.supply, R: r * p.rRatio, C: c * p.cRatio, Load: p.load, Leak: p.leak}
+	ci := loop.Circuit{Supply: p.supply, R: r * p.rRatio, C: c * p.cRatio * p.tol.bias, Load: p.load, Leak: p.leakFor(c)}
 	if p.vbe > 0 {
-		// The emitter resistor is not known from the meta lines; 10 kOhm with beta 100
+		// The emitter resistor is not known from the meta lines: from the buffer's
+		// identified input loading (about beta x RE), else 10 kOhm with beta 100, which
 		// loads the node with about 1 MOhm (assumed).
-		ci.Follower = loop.Follower{VBE: p.vbe, Beta: loop.DefaultBeta, RE: 10e3}
+		re := 10e3
+		if p.bufLoad > 0 {
+			re = p.bufLoad / loop.DefaultBeta
+		}
+		ci.Follower = loop.Follower{VBE: p.vbe, Beta: loop.DefaultBeta, RE: re}
 	}
 	return ci
 }

@@ -106,6 +106,10 @@ func (p *plant) better(a, b *pair) bool {
 	if ma && rulesDiffer(a, b) {
 		return rulesBetter(a, b)
 	}
+	if ma && a.tv != nil && b.tv != nil && a.tv.CornersMeeting != b.tv.CornersMeeting {
+		// Key 2b: more tolerance corners meeting the goals first.
+		return a.tv.CornersMeeting > b.tv.CornersMeeting
+	}
 	if a.score != b.score {
 		return a.score > b.score
 	}
@@ -200,7 +204,7 @@ func (p *plant) ruleTrades(pr *pair) []string {
 		case RuleLowR:
 			t = append(t, fmt.Sprintf("R under 1 kΩ draws %s at every switch for no gain", fmtA(pr.pinA)))
 		case RuleHighR:
-			t = append(t, fmt.Sprintf("R over 100 kΩ charges with %s at most, so 1 µA of leakage or ADC input current (from memory) is %.0f %% of it; the node also picks up noise",
+			t = append(t, fmt.Sprintf("R over 100 kΩ charges with %s at most, so 1 µA of leakage or ADC input current (a typical figure, common practice) is %.0f %% of it; the node also picks up noise",
 				fmtA(pr.pinA), 100*1e-6/pr.pinA))
 		case RuleBigC:
 			t = append(t, "electrolytic size: leaks and has -20/+80 % tolerance")

@@ -2,6 +2,7 @@ package advice
 
 import (
 	"math"
+	"sync"
 
 	"github.com/caploop/caploop/analysis/loop"
 )
@@ -11,6 +12,7 @@ type runPlan struct {
 	settleLen int     // samples allowed for settling after each setpoint change
 	window    int     // samples of steady state measured after it
 	tau2      float64 // > 0: measure the output of a second RC stage of this time constant
+	vScale    float64 // the levels the board regulates to, as a share of nominal (reference error); 0 = 1
 }
 
 // simResult is what one checking simulation measured.
@@ -25,6 +27,10 @@ type simResult struct {
 	jumps                  int64           // band jumps (three-state) over the whole run
 	jumpsAt                map[int]int64   // band jumps per setpoint
 	rippleAt               map[int]float64 // ripple p-p per setpoint, V
+	// readPP is the ripple as the ADC reads it: max - min of the readings (noise and
+	// quantisation included) over the steady window, the largest over the setpoints, V
+	// (worst seed); readMean is its mean over the seeds.
+	readPP, readMean float64
 }
 
 // simulate runs the loop model through the plant's setpoint sequence: steady at the lowest
@@ -48,8 +54,9 @@ func simulate(cfg loop.Config, p *plant, tol float64, plan runPlan) (simResult, 
 		}
 	}
 	prevE := math.NaN()
-	var buf []float64
-	var outside []bool
+	sb := simBufs.Get().(*simBuf)
+	buf, outside := sb.v[:0], sb.o[:0]
+	defer func() { sb.v, sb.o = buf, outside; simBufs.Put(sb) }()
 	a2 := 0.0
 	if plan.tau2 > 0 {
 		a2 = math.Exp(-cfg.Period / plan.tau2)
@@ -61,6 +68,11 @@ func simulate(cfg loop.Config, p *plant, tol float64, plan runPlan) (simResult, 
 			n = plan.window + plan.window/4
 		}
 		target := p.senseV(sp)
+		if plan.vScale > 0 {
+			target *= plan.vScale
+		}
+		pvLo, pvHi := math.MaxInt, math.MinInt
+		steady, firstSign := false, 0
 		outside = outside[:0]
 		sum := 0.0
 		buf = buf[:0]
@@ -80,6 +92,18 @@ func simulate(cfg loop.Config, p *plant, tol float64, plan runPlan) (simResult, 
 				out = v2
 			}
 			outside = append(outside, math.Abs(out-target) > tol)
+			// The readings as a summary measures them: from the first reading inside
+			// the band (or across the setpoint) to the end of the setpoint.
+			if e := st.PV - sp; !steady {
+				sg := sgn(e)
+				if k == 0 {
+					firstSign = sg
+				}
+				steady = (e >= -db && e <= db) || (k > 0 && sg != firstSign)
+			}
+			if steady {
+				pvLo, pvHi = min(pvLo, st.PV), max(pvHi, st.PV)
+			}
 			if k >= n-plan.window {
 				buf = append(buf, out)
 				sum += out
@@ -96,6 +120,9 @@ func simulate(cfg loop.Config, p *plant, tol float64, plan runPlan) (simResult, 
 		pp := spread(buf)
 		res.rippleAt[sp] = math.Max(res.rippleAt[sp], pp)
 		res.ripplePP = math.Max(res.ripplePP, pp)
+		if pvHi >= pvLo {
+			res.readPP = math.Max(res.readPP, float64(pvHi-pvLo)*p.lsb())
+		}
 		res.staticErr = math.Max(res.staticErr, math.Abs(sum/float64(plan.window)-target))
 		if i == 1 || i == 2 {
 			k := settleIndex(outside, int(RippleTail*float64(plan.window)))
@@ -147,6 +174,13 @@ func spread(v []float64) float64 {
 	if hi == lo {
 		return 0
 	}
+	cut := int(math.Floor(RippleTail * float64(len(v))))
+	if cut == 0 {
+		return hi - lo
+	}
+	if cut <= 8 {
+		return smallCutSpread(v, cut)
+	}
 	const bins = 4096
 	var h [bins]int32
 	w := (hi - lo) / bins
@@ -157,7 +191,6 @@ func spread(v []float64) float64 {
 		}
 		h[i]++
 	}
-	cut := int(math.Floor(RippleTail * float64(len(v))))
 	qlo, qhi := lo, hi
 	n := 0
 	for i := 0; i < bins; i++ {
@@ -176,4 +209,55 @@ func spread(v []float64) float64 {
 		}
 	}
 	return math.Max(qhi-qlo, 0)
+}
+
+// smallCutSpread is the exact trimmed p-p when only a few samples (cut <= 8) are left out
+// at each end: the (cut+1)-th smallest to the (cut+1)-th largest, kept in two short
+// sorted lists.
+func smallCutSpread(v []float64, cut int) float64 {
+	var lows, highs [9]float64
+	k := cut + 1
+	nl, nh := 0, 0
+	for _, x := range v {
+		// lows ascending: the k smallest so far.
+		if nl < k || x < lows[nl-1] {
+			i := min(nl, k-1)
+			for i > 0 && lows[i-1] > x {
+				lows[i] = lows[i-1]
+				i--
+			}
+			lows[i] = x
+			nl = min(nl+1, k)
+		}
+		// highs descending: the k largest so far.
+		if nh < k || x > highs[nh-1] {
+			i := min(nh, k-1)
+			for i > 0 && highs[i-1] < x {
+				highs[i] = highs[i-1]
+				i--
+			}
+			highs[i] = x
+			nh = min(nh+1, k)
+		}
+	}
+	return math.Max(highs[k-1]-lows[k-1], 0)
+}
+
+// simBuf holds the buffers of one simulate call, reused across calls (the tolerance runs
+// make thousands).
+type simBuf struct {
+	v []float64
+	o []bool
+}
+
+var simBufs = sync.Pool{New: func() any { return new(simBuf) }}
+
+func sgn(x int) int {
+	switch {
+	case x > 0:
+		return 1
+	case x < 0:
+		return -1
+	}
+	return 0
 }

@@ -16,6 +16,9 @@ import (
 func (a *Advice) WriteText(w io.Writer) error {
 	var b strings.Builder
 	g := a.Goals
+	for _, pb := range a.Problems {
+		fmt.Fprintf(&b, "FIRST: %s\n\n", pb)
+	}
 	if g != nil {
 		fmt.Fprintf(&b, "goals: ripple <= %s p-p, settling <= %s for a full-scale step (%d -> %d counts and back, to within %s)",
 			fmtV(g.RipplePPV), si.Format(g.SettleS, "s"), g.StepFromCounts, g.StepToCounts, fmtV(g.SettleTolV))
@@ -29,6 +32,12 @@ func (a *Advice) WriteText(w io.Writer) error {
 		}
 		fmt.Fprintf(&b, "board: %s, supply %s, vref %s, %d bits, period %s, %s; R from %s, C from %s\n",
 			g.Mode, fmtV(g.SupplyV), fmtV(g.VrefV), g.ADCBits, si.Format(g.PeriodS, "s"), load, g.RParts, g.CParts)
+	}
+	if a.Plant != nil {
+		fmt.Fprintf(&b, "plant assumed: %s (%s)\n", a.Plant.Text, a.Plant.Source)
+	}
+	if a.Tolerances != nil {
+		fmt.Fprintf(&b, "tolerances: %s\n", a.Tolerances.Text)
 	}
 	if a.Current != nil {
 		c := a.Current
@@ -49,15 +58,34 @@ func (a *Advice) WriteText(w io.Writer) error {
 		b.WriteString("  no pair on hand comes near the goals\n")
 	} else {
 		tw := tabwriter.NewWriter(&b, 0, 0, 2, ' ', 0)
-		fmt.Fprintln(tw, "  #\tR\tC\ttau\tband\tripple p-p\tsettling\tpin I\tV_inf sag\tverdict")
+		three := g == nil || g.Mode == "three-state"
+		band := "band\t"
+		if !three {
+			band = ""
+		}
+		fmt.Fprintf(tw, "  #\tR\tC\ttau\t%snode p-p\tADC p-p\tgate\tsettling\tpin I\tV_inf sag\tverdict\n", band)
 		for i, c := range a.Candidates {
-			fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%d\t%s\t%s\t%s\t%s\t%s\n", i+1,
-				si.Format(c.ROhm, "Ω"), si.Format(c.CF, "F"), si.FormatDigits(c.TauS, "s", 3), c.DeadbandCounts,
-				fmtV(c.PredictedRipplePPV), settleText(&c), fmtA(c.PinCurrentA), fmtV(c.VInfSagV), c.Verdict)
+			band = fmt.Sprintf("%d\t", c.DeadbandCounts)
+			if !three {
+				band = ""
+			}
+			fmt.Fprintf(tw, "  %d\t%s\t%s\t%s\t%s%s\t%s\t%s\t%s\t%s\t%s\t%s\n", i+1,
+				si.Format(c.ROhm, "Ω"), si.Format(c.CF, "F"), si.FormatDigits(c.TauS, "s", 3), band,
+				fmtV(c.PredictedRipplePPV), fmtV(c.ReadRipplePPV), c.SuggestedGate, settleText(&c), fmtA(c.PinCurrentA), fmtV(c.VInfSagV), c.Verdict)
 		}
 		tw.Flush()
 		for i, c := range a.Candidates {
+			if c.Tolerance != nil {
+				fmt.Fprintf(&b, "  %d over the spread of parts: %s\n", i+1, c.Tolerance.Text)
+			}
+		}
+		for i, c := range a.Candidates {
 			fmt.Fprintf(&b, "  %d trades: %s\n", i+1, c.Trades)
+		}
+		if g != nil && len(a.Candidates) > 0 {
+			c := a.Candidates[0]
+			fmt.Fprintf(&b, "  ADC p-p is the ripple as the board will read it (max - min over the steady part of a hold of the settling time plus %d samples, %.2f counts rms noise); gate suggestion for the top pair: --max-ripple %s\n",
+				c.ReadWindowSamples, g.NoiseRMSCounts, c.SuggestedGate)
 		}
 	}
 	if p := a.SamplePeriod; p != nil {
@@ -122,8 +150,19 @@ func writeBand(b *strings.Builder, db int, w *DeadbandWorking, g *GoalsUsed) {
 	fmt.Fprintf(b, "  cost: static error up to %d counts = %s\n", db, fmtV(w.StaticErrorV))
 	if w.FromVoltageBand != nil {
 		fs := math.Ldexp(1, g.ADCBits) - 1
-		fmt.Fprintf(b, "  trade rule: a %s band is %s x %.0f / %s = %.2f -> %d counts\n",
-			fmtV(g.RipplePPV), fmtV(g.RipplePPV), fs, fmtV(g.VrefV), g.RipplePPV*fs/g.VrefV, *w.FromVoltageBand)
+		rb := *w.FromVoltageBand
+		fmt.Fprintf(b, "  trade rule: a %s band is %s x %.0f / %s = %.2f -> %d counts", fmtV(g.RipplePPV),
+			fmtV(g.RipplePPV), fs, fmtV(g.VrefV), g.RipplePPV*fs/g.VrefV, rb)
+		switch {
+		case db < rb:
+			fmt.Fprintf(b, "; the band above (%d) is narrower: it is the smallest band one step plus noise cannot jump, so the level rests within %s rather than anywhere in the %s budget\n",
+				db, fmtV(w.StaticErrorV), fmtV(g.RipplePPV))
+		case db > rb:
+			fmt.Fprintf(b, "; the band above (%d) is wider: one step of these parts plus noise would jump the rule's band, so the static error (%s) exceeds the ripple budget; a larger R*C or a shorter period narrows it\n",
+				db, fmtV(w.StaticErrorV))
+		default:
+			b.WriteString("; the same as the band above\n")
+		}
 	}
 	fmt.Fprintf(b, "  model check: %d band jumps at %d", w.VerifiedJumps, db)
 	if db >= 1 {

@@ -15,6 +15,12 @@ type Advice struct {
 	Goals   *GoalsUsed   `json:"goals"`   // the goals and assumptions the advice was made for
 	Current *Candidate   `json:"current"` // the board's present R and C as the model predicts them (summary only)
 	Search  *SearchStats `json:"search"`  // how many pairs were tried, run and verified
+
+	// Problems come first: what must change before any tuning helps (a circuit far too
+	// fast for the sample period).
+	Problems   []string        `json:"problems"`
+	Plant      *PlantUsed      `json:"plant"`      // the one plant the advice assumed
+	Tolerances *TolerancesUsed `json:"tolerances"` // the spread of real parts the verdicts use
 }
 
 // GoalsUsed are the resolved goals and assumptions, defaults filled in.
@@ -43,6 +49,7 @@ type GoalsUsed struct {
 	FollowerVBEV   float64 `json:"follower_vbe_v"` // follower drop between node and ADC, 0 = none
 	RParts         string  `json:"r_parts"`
 	CParts         string  `json:"c_parts"`
+	PinCurrentWhy  string  `json:"pin_current_basis"` // where the pin limit comes from
 }
 
 // SearchStats say how much work the search did.
@@ -91,6 +98,16 @@ type Candidate struct {
 	WindowSamples int      `json:"steady_window_samples"` // samples per setpoint the ripple is measured over
 	MeetsGoals    bool     `json:"meets_goals"`           // every numeric goal met in the loop model (worst seed)
 	RulesBroken   []string `json:"rules_broken"`          // rules of the trade broken (RuleLoad, ...), empty = none
+
+	// Ripple as it will be measured: max - min of the ADC readings over the steady part
+	// (from the first reading in the band, as a summary measures it) of a hold of the
+	// settling time plus ReadWindowSamples (noise and quantisation included), the mean
+	// over the checking seeds, and a --max-ripple gate with margin for it.
+	ReadRipplePPV     float64           `json:"predicted_read_ripple_pp_v"`
+	ReadWindowSamples int               `json:"read_window_samples"`
+	SuggestedGateV    float64           `json:"suggested_max_ripple_v"`
+	SuggestedGate     string            `json:"suggested_max_ripple"` // as the flag takes it: "40mV"
+	Tolerance         *ToleranceVerdict `json:"tolerance"`            // corners and Monte Carlo over the spread of real parts
 }
 
 // PeriodAdvice says whether another sample period would serve the goal better.

@@ -87,7 +87,7 @@ func TestDesignCommand(t *testing.T) {
 		for i, l := range lines {
 			if strings.Contains(l, "R and C, best first") {
 				for _, r := range lines[i+2:] {
-					if strings.Contains(r, "trades:") || strings.TrimSpace(r) == "" {
+					if strings.Contains(r, "trades:") || strings.Contains(r, "over the spread of parts") || strings.TrimSpace(r) == "" {
 						break
 					}
 					rows = append(rows, r)
