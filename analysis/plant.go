@@ -97,6 +97,7 @@ type plantDecision struct {
 	dropFrom         string   // "v_low" or "v_high"
 	droop            interval // R_load / R from the hold droop before the 10 % rule (unknown without a droop)
 	notes            []string
+	estimate         float64 // the load's central value, ohm, even when not identifiable (0 = none)
 }
 
 // decidePlant says whether a load, a buffer or nothing explains the top of the range.
@@ -210,6 +211,9 @@ func decidePlant(ev plantEvidence) plantDecision {
 	hasLoad := d.loadFrom != "" && d.ratio.known()
 	buffer := lowDrop || highDrop
 	if hasLoad {
+		if !math.IsNaN(ev.r) && ev.r > 0 {
+			d.estimate = d.ratio.v * ev.r
+		}
 		if ok, why := scaleOK(d.ratio); !ok {
 			d.ratioReason = why
 			if math.IsInf(d.ratio.hi, 1) {

@@ -215,6 +215,9 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 		p.SenseDropCIV, p.SenseDropVReason, p.SenseDropFrom = ci(dec.drop.lo, dec.drop.hi), "", dec.dropFrom
 	}
 	p.notes = append(p.notes, dec.notes...)
+	if dec.kind == KindLoad {
+		p.loadEstimate = dec.estimate
+	}
 	p.notes = append(p.notes, metaLoadCheck(m, ev, dec, tauC, tauH)...)
 
 	a.effective(&p, m)
@@ -305,6 +308,9 @@ type PlantModel struct {
 	TauChargeS float64
 	// Identified says Kind, LoadOhm and SenseDropV come from the data (not only the meta lines).
 	Identified bool
+	// Rough says LoadOhm is the central value of a load whose interval is too wide to
+	// show as a figure (the data show a load, not its size within 10 %).
+	Rough bool
 }
 
 // Model returns the summary's plant as one consistent PlantModel: a load and a buffer
@@ -327,6 +333,8 @@ func (s *Summary) Model() PlantModel {
 		pm.LoadOhm = *p.LoadOhm
 	case pm.Kind != KindNone && b.LoadOhm != nil:
 		pm.LoadOhm = *b.LoadOhm
+	case pm.Kind == KindLoad && p.loadEstimate > 0:
+		pm.LoadOhm, pm.Rough = p.loadEstimate, true
 	}
 	if pm.LoadRatio == 0 && pm.LoadOhm > 0 && b.ROhm != nil && *b.ROhm > 0 {
 		pm.LoadRatio = pm.LoadOhm / *b.ROhm

@@ -137,6 +137,9 @@ type Plant struct {
 	EffectiveCFReason         string `json:"effective_c_f_reason,omitempty"`
 
 	notes []string // disagreements found while deciding the kind (diagnostics)
+	// loadEstimate is the load's central value, ohm, kept for the advice when its
+	// interval is too wide to show it (0 = none).
+	loadEstimate float64
 }
 
 // Segment holds the figures of one run of samples with one setpoint, over its steady part.

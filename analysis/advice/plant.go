@@ -45,34 +45,36 @@ func (k PlantKind) valid() bool {
 	return k == PlantNone || k == PlantLoad || k == PlantBuffer
 }
 
-// PlantOf reads the one plant from a summary. It stands in for the summary's own plant
-// kind: where the present figures name both a load and a sense drop for the same shortfall
-// of v_high, a drop in the range of a follower's base-emitter drop (0.3 to 1.2 V) is taken
-// as a buffer, anything else as a load. With a buffer, a hold droop is the buffer's own
-// input loading (kept as its LoadOhm), never a second load stacked on it.
+// PlantOf reads the one plant the summary identified (Summary.Model): a load, a buffer
+// or neither, never a buffer drop stacked on a load. With a buffer, a hold droop is the
+// buffer's own input loading (kept as its LoadOhm).
 func PlantOf(s *analysis.Summary) PlantInput {
-	pl, b := s.Plant, s.Board
+	m := s.Model()
 	src := "identified from the capture"
-	buffer := pl.SenseDropV != nil && *pl.SenseDropV >= 0.3 && *pl.SenseDropV < 1.2
-	load := pl.LoadOhm != nil && *pl.LoadOhm > 0
-	holdShowsLoad := pl.TauHoldS != nil && pl.TauChargeS != nil && *pl.TauHoldS > *pl.TauChargeS
-	switch {
-	case load && buffer && holdShowsLoad:
-		// A buffer's own input draws from the node as a load does: the hold droop is the
-		// buffer's input loading, not a second part. One plant: the buffer, its input
-		// loading taken from the droop.
-		return PlantInput{Kind: PlantBuffer, SenseDropV: *pl.SenseDropV, LoadOhm: *pl.LoadOhm,
-			Source: src + "; its input loading from the hold droop"}
-	case buffer:
-		return PlantInput{Kind: PlantBuffer, SenseDropV: *pl.SenseDropV, Source: src}
-	case load:
-		in := PlantInput{Kind: PlantLoad, LoadOhm: *pl.LoadOhm, Source: src}
-		if b.ROhm != nil && *b.ROhm > 0 {
-			in.LoadRatio = *pl.LoadOhm / *b.ROhm
+	if !m.Identified {
+		src = "from the capture's meta lines"
+	}
+	switch m.Kind {
+	case analysis.KindBuffer:
+		in := PlantInput{Kind: PlantBuffer, SenseDropV: m.SenseDropV, Source: src}
+		if m.LoadOhm > 0 {
+			in.LoadOhm = m.LoadOhm
+			in.Source += "; its input loading from the hold droop"
 		}
 		return in
-	case b.LoadOhm != nil && *b.LoadOhm > 0:
-		return PlantInput{Kind: PlantLoad, LoadOhm: *b.LoadOhm, Source: "from the capture's meta lines"}
+	case analysis.KindLoad:
+		if m.LoadOhm > 0 {
+			if m.Rough {
+				src += " (the load's central value: its interval is wider than ±10 %)"
+			}
+			return PlantInput{Kind: PlantLoad, LoadOhm: m.LoadOhm, LoadRatio: m.LoadRatio, Source: src}
+		}
+	}
+	if m.Kind == "" && m.LoadOhm > 0 {
+		return PlantInput{Kind: PlantLoad, LoadOhm: m.LoadOhm, LoadRatio: m.LoadRatio, Source: "from the capture's meta lines (the data cannot tell load from buffer)"}
+	}
+	if m.Kind == "" {
+		return PlantInput{Kind: PlantNone, Source: "the data cannot tell a load or a buffer; none assumed"}
 	}
 	return PlantInput{Kind: PlantNone, Source: "the capture shows neither a load nor a buffer drop"}
 }

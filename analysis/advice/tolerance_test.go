@@ -262,15 +262,17 @@ func TestPureLoadCaptureCarriesNoBuffer(t *testing.T) {
 	if fb.Plant.Kind != "buffer" || fb.Goals.LoadOhm != 0 || fb.Goals.FollowerVBEV <= 0 {
 		t.Errorf("follower capture: plant %+v, load %g: want the buffer alone", fb.Plant, fb.Goals.LoadOhm)
 	}
-	// A summary with both figures for one shortfall and no hold droop gets one plant.
+	// The summary decides the kind; the advice takes that one plant even when both
+	// figures are present.
 	s2 := boardSummary()
-	s2.Plant.LoadOhm, s2.Plant.SenseDropV = fp(2e6), fp(0.65)
-	if in := PlantOf(s2); in.Kind != PlantBuffer || in.LoadOhm != 0 {
-		t.Errorf("ambiguous shortfall: %+v, want a buffer alone", in)
+	buffer, load := "buffer", "load"
+	s2.Plant.Kind, s2.Plant.LoadOhm, s2.Plant.SenseDropV = &buffer, nil, fp(0.65)
+	if in := PlantOf(s2); in.Kind != PlantBuffer || in.SenseDropV != 0.65 {
+		t.Errorf("buffer kind: %+v, want a buffer alone", in)
 	}
-	s2.Plant.SenseDropV = fp(0.05)
-	if in := PlantOf(s2); in.Kind != PlantLoad || in.SenseDropV != 0 {
-		t.Errorf("small shortfall: %+v, want a load alone", in)
+	s2.Plant.Kind, s2.Plant.LoadOhm, s2.Plant.SenseDropV = &load, fp(2e6), nil
+	if in := PlantOf(s2); in.Kind != PlantLoad || in.SenseDropV != 0 || in.LoadOhm != 2e6 {
+		t.Errorf("load kind: %+v, want a load alone", in)
 	}
 }
 
