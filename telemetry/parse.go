@@ -2,6 +2,7 @@ package telemetry
 
 import (
 	"bytes"
+	"math"
 	"time"
 )
 
@@ -34,23 +35,33 @@ const captureSlack = 40
 // A meta line is '#' and then key=value words (separated by spaces, tabs or commas).
 // Known keys: vref (V), adc_bits, period_us (µs), mode (two-state or three-state),
 // deadband (counts, half-width), supply (V), r (Ω), c (F), load (Ω); values take SI
-// prefixes and units (47k, 4k7, 1u, 4.7µ, 3300mV). Unknown keys are ignored; a bad value
-// rejects the whole line. A meta line may come again at any time: its fields apply from
-// there on. A '#' line whose first word is not key=value is a comment.
+// prefixes and units (47k, 4k7, 1u, 4.7µ, 3300mV). Unknown keys are ignored. Each value
+// is held to the input range table (Ranges, CheckDeadband): a value outside its range, or
+// one that cannot be read, drops only that key, with a reason in Stats.FirstDrops; a
+// word that is not key=value, or a key given twice, rejects the whole line. A meta line
+// may come again at any time: its fields apply from there on. A '#' line whose first
+// word is not key=value is a comment.
 //
 // A data line is key=value pairs separated by spaces, tabs or commas, in any order:
 // t (board time, µs, unsigned; a 32-bit clock that wraps is unwrapped), n (sequence
 // number, unsigned), sp and pv (counts, any decimal number), u (drive: 1, 0, -1, or +,
-// 0, -). sp and pv are required. Other keys (a letter or '_' then letters, digits, '_'
-// or '.') are kept as extra channels; keys are case-sensitive.
+// 0, -). sp and pv are required; once adc_bits is known they must lie within
+// 0..2^adc_bits-1, else the line is rejected (ErrCountRange). Other keys (a letter or
+// '_' then letters, digits, '_' or '.') are kept as extra channels; keys are
+// case-sensitive. An extra that cannot be taken (a 257th distinct name, a key with
+// other characters, a value that is not a number) is dropped and counted, and the
+// sample is kept.
 //
 // A header line of column names without '=' ("t,sp,pv,u", "sp pv u", with n and extra
 // names too; sp and pv required) makes later lines that start with a number rows of a
 // numeric table (CSV or TSV: "1000,512,498,1").
 //
-// The first line decides capture mode: a line starting with CaptureMagic makes every
-// later line a capture record whose host time replaces the one given to Parse; board
-// lines ('<') are read as above, '>' and '!' lines become Events.
+// A UTF-8 byte order mark at the start of the first line (spreadsheet exports) is
+// skipped. The first line decides capture mode: a line starting with CaptureMagic makes
+// every later line a capture record whose host time replaces the one given to Parse;
+// board lines ('<') are read as above, '>' and '!' lines become Events. A capture header
+// of another version than CaptureVersion is refused (ErrCaptureVersion), and so is
+// every later line: a Scanner stops there.
 //
 // Anything else is rejected with a reason (a *ParseError wrapping one of the Err*
 // sentinels), counted in Stats, and never fatal to the Parser.
@@ -77,6 +88,17 @@ type Parser struct {
 	tPrev  uint32
 	tWraps int64
 	tSeen  bool
+
+	// countMax is 2^adc_bits-1 when the meta gave adc_bits (countCheck set): sp and pv
+	// beyond it, or below 0, reject their line.
+	countMax   float64
+	countCheck bool
+	// refused is the error of a capture header of an unknown version; every later line
+	// is rejected with it.
+	refused error
+	// drops are the values dropped from the line being parsed, recorded in Stats when
+	// the line is kept.
+	drops []pendingDrop
 
 	noFast bool // tests: always take the general data line path
 
@@ -140,6 +162,13 @@ func (p *Parser) LastError() *ParseError {
 func (p *Parser) parse(line []byte, host int64, hasHost bool, cut bool) RecordKind {
 	p.line++
 	p.stats.Lines++
+	p.drops = p.drops[:0]
+	if p.line == 1 && bytes.HasPrefix(line, utf8BOM) {
+		line = line[len(utf8BOM):]
+	}
+	if p.refused != nil {
+		return p.reject(p.refused, "", line[:min(len(line), MaxLineLen)])
+	}
 	if n := len(line); n > 0 && line[n-1] == '\r' {
 		line = line[:n-1]
 	}
@@ -169,7 +198,7 @@ func (p *Parser) parse(line []byte, host int64, hasHost bool, cut bool) RecordKi
 func (p *Parser) parseBoard(line []byte, host int64, hasHost bool) RecordKind {
 	if len(line) > 0 && (line[0] == 't' || line[0] == 's') && !p.noFast {
 		if _, ok := p.fastLine(line, false); ok {
-			return p.accept(host, hasHost)
+			return p.accept(host, hasHost, line)
 		}
 	}
 	i := 0
@@ -192,9 +221,19 @@ func (p *Parser) parseBoard(line []byte, host int64, hasHost bool) RecordKind {
 	return p.reject(ErrSyntax, "", line)
 }
 
-// accept completes p.sample and counts it.
-func (p *Parser) accept(host int64, hasHost bool) RecordKind {
+// utf8BOM is the byte order mark some programs write at the start of a UTF-8 file.
+var utf8BOM = []byte{0xEF, 0xBB, 0xBF}
+
+// accept completes p.sample and counts it, or rejects line when sp or pv lies outside
+// the converter's range. The values dropped from the line are recorded when it is kept.
+func (p *Parser) accept(host int64, hasHost bool, line []byte) RecordKind {
 	s := &p.sample
+	if p.countCheck && (s.SP < 0 || s.SP > p.countMax || s.PV < 0 || s.PV > p.countMax) {
+		return p.rejectCount(line)
+	}
+	if len(p.drops) > 0 {
+		p.commitDrops(line)
+	}
 	if hasHost {
 		s.Host = host
 		s.Flags |= HasHost
@@ -260,9 +299,60 @@ func (p *Parser) unwrap(raw uint64) int64 {
 	return p.tWraps<<32 + int64(r)
 }
 
+// rejectCount rejects a line whose sp or pv lies outside 0..2^adc_bits-1.
+func (p *Parser) rejectCount(line []byte) RecordKind {
+	line = bytes.TrimRight(line, "\r\n")
+	s := &p.sample
+	field, v := "sp", s.SP
+	if s.SP >= 0 && s.SP <= p.countMax {
+		field, v = "pv", s.PV
+	}
+	err := CheckCount(field, v, p.meta.ADCBits)
+	return p.reject(&detailError{sentinel: ErrCountRange, cause: err, msg: "telemetry: " + err.Error()}, field, line)
+}
+
+// setCountRange updates the sp and pv range after the meta changed.
+func (p *Parser) setCountRange() {
+	b := p.meta.ADCBits
+	p.countCheck = p.meta.Has(FieldADCBits) && b > 0 && b <= 32
+	p.countMax = math.Ldexp(1, b) - 1
+}
+
+// pendingDrop is a value dropped from the line being parsed: its field is
+// line[from:to] (or name when set).
+type pendingDrop struct {
+	name     string
+	from, to int
+	err      error
+}
+
+// drop notes that the field line[from:to] (or name) of the current line is dropped.
+func (p *Parser) drop(name string, from, to int, err error) {
+	p.drops = append(p.drops, pendingDrop{name: name, from: from, to: to, err: err})
+}
+
+// commitDrops records the values dropped from line, which is kept.
+func (p *Parser) commitDrops(line []byte) {
+	for _, d := range p.drops {
+		p.stats.Dropped++
+		if len(p.stats.FirstDrops) >= MaxRejectsKept {
+			continue
+		}
+		name := d.name
+		if name == "" {
+			name = SanitizeN(line[d.from:d.to], 32)
+		}
+		text := bytes.TrimRight(line, "\r\n")
+		p.stats.FirstDrops = append(p.stats.FirstDrops, &ParseError{Name: p.Name, Line: p.line, Field: name,
+			Text: SanitizeN(text, 80), Err: d.err, Dropped: true})
+	}
+	p.drops = p.drops[:0]
+}
+
 // reject counts a rejected line and remembers why. A line with control bytes or invalid
 // UTF-8 is reported as ErrBinary whatever else was wrong with it.
 func (p *Parser) reject(err error, field string, line []byte) RecordKind {
+	p.drops = p.drops[:0]
 	if err != ErrTooLong && err != ErrBinary && !printableText(line) {
 		err, field = ErrBinary, ""
 	}

@@ -2,14 +2,32 @@ package telemetry
 
 import (
 	"bytes"
+	"strconv"
 	"strings"
 	"time"
 )
 
+// parseCaptureHeader reads "#caploop-capture v1 start=... source=...". A header of
+// another version is refused, and with it the rest of the input.
 func (p *Parser) parseCaptureHeader(line []byte) RecordKind {
+	rest := string(line[len(CaptureMagic):])
+	fields := strings.Fields(rest)
+	want := "v" + strconv.Itoa(CaptureVersion)
+	if len(fields) == 0 || fields[0] != want || (rest[0] != ' ' && rest[0] != '\t') {
+		msg := "telemetry: capture header names no format version; this caploop reads " + want
+		if len(fields) > 0 {
+			v := fields[0]
+			if rest[0] != ' ' && rest[0] != '\t' {
+				v = CaptureMagic + v
+			}
+			msg = "telemetry: capture format \"" + SanitizeN([]byte(v), 24) + "\" is not one this caploop reads (" + want + ")"
+		}
+		p.refused = &detailError{sentinel: ErrCaptureVersion, msg: msg}
+		return p.reject(p.refused, "", line)
+	}
 	p.capture = true
 	p.stats.Headers++
-	for _, f := range strings.Fields(string(line[len(CaptureMagic):])) {
+	for _, f := range fields[1:] {
 		if v, ok := strings.CutPrefix(f, "start="); ok {
 			if t, err := time.Parse(time.RFC3339Nano, v); err == nil {
 				p.captureStart = t

@@ -13,6 +13,7 @@ const (
 type column struct {
 	kind int
 	name string // interned name for colExtra
+	skip bool   // a colExtra past the 256 names: read, then dropped from every row
 }
 
 var fieldNames = [...]string{colExtra: "", colT: "t", colN: "n", colSP: "sp", colPV: "pv", colU: "u"}
@@ -56,7 +57,7 @@ func (p *Parser) parseHeader(line []byte, i int) RecordKind {
 		} else {
 			var ok bool
 			if c.name, ok = p.intern(name); !ok {
-				return p.reject(ErrTooManyKeys, "", line)
+				c.name, c.skip = string(name), true
 			}
 			for _, o := range cols {
 				if o.kind == colExtra && o.name == c.name {
@@ -124,7 +125,14 @@ func (p *Parser) parseRow(line []byte, i int, host int64, hasHost bool) RecordKi
 			}
 		default:
 			var v float64
-			if v, i, ok = parseNum(line, i); ok {
+			v, i, ok = parseNum(line, i)
+			switch {
+			case !ok:
+				p.drop(c.name, 0, 0, ErrBadNumber)
+				ok = true
+			case c.skip:
+				p.drop(c.name, 0, 0, ErrTooManyKeys)
+			default:
 				p.extras = append(p.extras, Extra{Name: c.name, Value: v})
 			}
 		}
@@ -142,5 +150,8 @@ func (p *Parser) parseRow(line []byte, i int, host int64, hasHost bool) RecordKi
 	if i < n {
 		return p.reject(ErrFieldCount, "", line)
 	}
-	return p.accept(host, hasHost)
+	if len(p.drops) > 0 && !printableText(line) {
+		return p.reject(ErrBinary, "", line)
+	}
+	return p.accept(host, hasHost, line)
 }

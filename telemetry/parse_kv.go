@@ -96,39 +96,14 @@ func (p *Parser) parseKV(line []byte, i int, host int64, hasHost bool) RecordKin
 				return p.rejectValue(ErrBadDrive, "u", line)
 			}
 		default:
-			k0 := i
-			if !isKeyStart(line[i]) {
-				return p.reject(ErrBadKey, "", line)
+			var k RecordKind
+			if i, k, ok = p.parseExtra(line, i); ok {
+				return k
 			}
-			for i < n && isKeyByte(line[i]) {
-				i++
-			}
-			if i >= n || line[i] != '=' {
-				if bytes.IndexByte(line, '=') < 0 {
-					return p.parseHeader(line, k0)
-				}
-				if i < n && !isSep(line[i]) {
-					return p.reject(ErrBadKey, "", line)
-				}
-				return p.reject(ErrSyntax, "", line)
-			}
-			name, ok := p.intern(line[k0:i])
-			if !ok {
-				return p.reject(ErrTooManyKeys, "", line)
-			}
-			for _, e := range p.extras {
-				if e.Name == name {
-					p.stats.Partial++
-					return p.reject(ErrDuplicateKey, name, line)
-				}
-			}
-			var v float64
-			v, i, ok = parseNum(line, i+1)
-			if !ok {
-				return p.rejectValue(ErrBadNumber, name, line)
-			}
-			p.extras = append(p.extras, Extra{Name: name, Value: v})
 		}
+	}
+	if len(p.drops) > 0 && !printableText(line) {
+		return p.reject(ErrBinary, "", line)
 	}
 	const need = 1<<colSP | 1<<colPV
 	if seen&need != need {
@@ -142,5 +117,58 @@ func (p *Parser) parseKV(line []byte, i int, host int64, hasHost bool) RecordKin
 		return p.reject(ErrMissingField, field, line)
 	}
 	s.Flags = SampleFlags(seen>>colT&1)*HasT | SampleFlags(seen>>colN&1)*HasN | SampleFlags(seen>>colU&1)*HasU
-	return p.accept(host, hasHost)
+	return p.accept(host, hasHost, line)
+}
+
+// parseExtra reads one extra channel word ("temp=21.5") at line[i:] into p.extras and
+// returns the index after it. An extra the parser cannot take (a key with other
+// characters, a 257th distinct name, a value that is not a number) is dropped with a
+// reason and the line read on. It returns the index after the word, or done and the
+// kind of the line when that is decided here (rejected, or a column header).
+func (p *Parser) parseExtra(line []byte, i int) (next int, k RecordKind, done bool) {
+	n := len(line)
+	k0 := i
+	for i < n && isKeyByte(line[i]) {
+		i++
+	}
+	if !isKeyStart(line[k0]) || (i < n && line[i] != '=' && !isSep(line[i])) {
+		// A key with other characters: dropped when the word is key=value.
+		end := i
+		for end < n && !isSep(line[end]) {
+			end++
+		}
+		eq := bytes.IndexByte(line[k0:end], '=')
+		if eq <= 0 {
+			return i, p.reject(ErrBadKey, "", line), true
+		}
+		p.drop("", k0, k0+eq, ErrBadKey)
+		return end, 0, false
+	}
+	if i >= n || line[i] != '=' {
+		if bytes.IndexByte(line, '=') < 0 {
+			return i, p.parseHeader(line, k0), true
+		}
+		return i, p.reject(ErrSyntax, "", line), true
+	}
+	name, known := p.intern(line[k0:i])
+	if known {
+		for _, e := range p.extras {
+			if e.Name == name {
+				p.stats.Partial++
+				return i, p.reject(ErrDuplicateKey, name, line), true
+			}
+		}
+	}
+	v, j, ok := parseNum(line, i+1)
+	switch {
+	case !ok && glued(line):
+		return j, p.rejectValue(ErrBadNumber, name, line), true
+	case !ok:
+		p.drop(name, k0, i, ErrBadNumber)
+	case !known:
+		p.drop("", k0, i, ErrTooManyKeys)
+	default:
+		p.extras = append(p.extras, Extra{Name: name, Value: v})
+	}
+	return j, 0, false
 }

@@ -29,6 +29,7 @@ func (p *Parser) parseHash(line []byte, i int) RecordKind {
 	}
 	words := bytes.FieldsFunc(rest, func(r rune) bool { return r == ' ' || r == '\t' || r == ',' })
 	var m Meta
+	var said MetaField // keys given on this line, dropped or not
 	for _, w := range words {
 		k, v, ok := bytes.Cut(w, []byte{'='})
 		key := string(k)
@@ -36,49 +37,72 @@ func (p *Parser) parseHash(line []byte, i int) RecordKind {
 			return p.reject(ErrBadMeta, SanitizeN(k, 32), line)
 		}
 		f, err := m.setField(key, string(v))
-		if err != nil {
-			return p.reject(ErrBadMeta, key, line)
+		if f == 0 {
+			continue
 		}
-		if f != 0 {
-			if m.Set&f != 0 {
-				return p.reject(ErrDuplicateKey, key, line)
-			}
-			m.Set |= f
+		if said&f != 0 {
+			return p.reject(ErrDuplicateKey, key, line)
+		}
+		said |= f
+		if err != nil {
+			p.drop(key, 0, 0, err)
+			continue
+		}
+		m.Set |= f
+	}
+	if !printableText(line) {
+		return p.reject(ErrBinary, "", line)
+	}
+	// The deadband's range depends on the ADC resolution, from this line or before.
+	bits := p.meta.ADCBits
+	if m.Has(FieldADCBits) {
+		bits = m.ADCBits
+	} else if !p.meta.Has(FieldADCBits) {
+		bits = 0
+	}
+	merged := p.meta.Merge(m)
+	if merged.Has(FieldDeadband) {
+		if err := CheckDeadband(merged.Deadband, bits); err != nil {
+			p.drop("deadband", 0, 0, err)
+			m.Set &^= FieldDeadband
+			merged.Set &^= FieldDeadband
+			merged.Deadband = 0
 		}
 	}
-	p.delta = m
-	p.meta = p.meta.Merge(m)
+	p.delta = Meta{}.Merge(m) // without the values of dropped keys
+	p.meta = merged
+	p.setCountRange()
+	p.commitDrops(line)
 	p.stats.Metas++
 	return RecMeta
 }
 
 // setField stores one meta key=value in m and returns its field bit (0 for an unknown
-// key, which is ignored so newer firmware can send more).
+// key, which is ignored so newer firmware can send more). The error is ErrBadMeta for a
+// value that cannot be read, or a *RangeError for one outside the input range table.
 func (m *Meta) setField(key, val string) (MetaField, error) {
-	positive := func(unit string) (float64, error) {
+	num := func(unit, rangeKey string, scale float64) (float64, error) {
 		v, err := si.ParseUnit(val, unit)
-		if err == nil && v <= 0 {
-			err = ErrBadMeta
+		if err != nil {
+			return 0, ErrBadMeta
 		}
-		return v, err
+		v *= scale
+		return v, CheckRange(rangeKey, v)
 	}
 	var err error
 	switch key {
 	case "vref":
-		m.Vref, err = positive("V")
+		m.Vref, err = num("V", "vref", 1)
 		return FieldVref, err
 	case "adc_bits":
-		var b int
-		b, err = strconv.Atoi(val)
-		if err == nil && (b < 1 || b > 32) {
-			err = ErrBadMeta
+		b, aerr := strconv.Atoi(val)
+		if aerr != nil {
+			return FieldADCBits, ErrBadMeta
 		}
 		m.ADCBits = b
-		return FieldADCBits, err
+		return FieldADCBits, CheckRange("adc_bits", float64(b))
 	case "period_us":
-		var us float64
-		us, err = positive("")
-		m.Period = us * 1e-6
+		m.Period, err = num("", "period", 1e-6)
 		return FieldPeriod, err
 	case "mode":
 		switch val {
@@ -92,21 +116,21 @@ func (m *Meta) setField(key, val string) (MetaField, error) {
 		return FieldMode, err
 	case "deadband":
 		m.Deadband, err = si.Parse(val)
-		if err == nil && m.Deadband < 0 {
-			err = ErrBadMeta
+		if err != nil {
+			return FieldDeadband, ErrBadMeta
 		}
-		return FieldDeadband, err
+		return FieldDeadband, CheckDeadband(m.Deadband, 0)
 	case "supply":
-		m.Supply, err = positive("V")
+		m.Supply, err = num("V", "supply", 1)
 		return FieldSupply, err
 	case "r":
-		m.R, err = positive("Ω")
+		m.R, err = num("Ω", "r", 1)
 		return FieldR, err
 	case "c":
-		m.C, err = positive("F")
+		m.C, err = num("F", "c", 1)
 		return FieldC, err
 	case "load":
-		m.Load, err = positive("Ω")
+		m.Load, err = num("Ω", "load", 1)
 		return FieldLoad, err
 	}
 	return 0, nil

@@ -60,6 +60,13 @@ type Stats struct {
 
 	// FirstRejects holds the first MaxRejectsKept rejected lines, in order.
 	FirstRejects []*ParseError
+
+	// Dropped counts the values dropped from lines that were kept: a meta value outside
+	// its range or unreadable, an extra channel beyond the 256 names or unreadable. The
+	// line itself counts as a sample or meta line. FirstDrops holds the first
+	// MaxRejectsKept of them, in order, with Dropped set.
+	Dropped    int64
+	FirstDrops []*ParseError
 }
 
 // Record is what Parser.Parse makes of one line.
