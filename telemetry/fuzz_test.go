@@ -36,6 +36,9 @@ func FuzzScanner(f *testing.F) {
 		"\r\n\r\r\n,,,\n= = =\n#=\n",
 		"#caploop-capture v1\n1.5 < " + strings.Repeat("z", 1100) + "\n9999999999999.999999999 < sp=1 pv=1\n",
 		"x\nt=1 sp=2 pv=3 u=1\r\nt=2 n=5 sp=2 pv=3 u=-1\nsp=1 pv=2 u=+1\nsp=1 pv=2 u=11\nsp=1 pv=2\r\r\n",
+		"\xEF\xBB\xBFt,sp,pv,temp\r\n1,2,3,warm\r\n",
+		"#caploop-capture v2\n0.1 < sp=1 pv=2\n",
+		"# adc_bits=10 vref=1e308 deadband=5000\nsp=99999 pv=1\nt=1 sp=1 pv=1024\nsp=1 pv=2 temp°C=3 x=warm\n",
 	}
 	for _, s := range seeds {
 		f.Add([]byte(s))
