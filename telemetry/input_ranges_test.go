@@ -129,6 +129,12 @@ func TestInputRanges(t *testing.T) {
 			err:     `in.txt:1: telemetry: capture format "v2" is not one this caploop reads (v1): "#caploop-capture v2 start=2026-12-01T00:00:00Z"`,
 		},
 		{
+			name:    "capture header with a control byte keeps its reason",
+			in:      "#caploop-capture\x03\n",
+			rejects: []string{`in.txt:1: telemetry: capture format "#caploop-capture\x03" is not one this caploop reads (v1): "#caploop-capture\x03"`},
+			err:     `in.txt:1: telemetry: capture format "#caploop-capture\x03" is not one this caploop reads (v1): "#caploop-capture\x03"`,
+		},
+		{
 			name:    "capture without a version is refused",
 			in:      "\xEF\xBB\xBF#caploop-capture\n0.1 < sp=1 pv=2\n",
 			rejects: []string{`in.txt:1: telemetry: capture header names no format version; this caploop reads v1: "#caploop-capture"`},

@@ -350,10 +350,11 @@ func (p *Parser) commitDrops(line []byte) {
 }
 
 // reject counts a rejected line and remembers why. A line with control bytes or invalid
-// UTF-8 is reported as ErrBinary whatever else was wrong with it.
+// UTF-8 is reported as ErrBinary whatever else was wrong with it, except a refused
+// capture header, which keeps its reason (it ends the scan).
 func (p *Parser) reject(err error, field string, line []byte) RecordKind {
 	p.drops = p.drops[:0]
-	if err != ErrTooLong && err != ErrBinary && !printableText(line) {
+	if err != ErrTooLong && err != ErrBinary && (p.refused == nil || err != p.refused) && !printableText(line) {
 		err, field = ErrBinary, ""
 	}
 	p.stats.Rejected++
