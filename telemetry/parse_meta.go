@@ -53,14 +53,13 @@ func (p *Parser) parseHash(line []byte, i int) RecordKind {
 	if !printableText(line) {
 		return p.reject(ErrBinary, "", line)
 	}
-	// The deadband's range depends on the ADC resolution, from this line or before.
-	bits := p.meta.ADCBits
-	if m.Has(FieldADCBits) {
-		bits = m.ADCBits
-	} else if !p.meta.Has(FieldADCBits) {
-		bits = 0
-	}
+	// The deadband's range depends on the ADC resolution, from this line or before: a
+	// deadband said before the resolution is checked again when the resolution comes.
 	merged := p.meta.Merge(m)
+	bits := 0
+	if merged.Has(FieldADCBits) {
+		bits = merged.ADCBits
+	}
 	if merged.Has(FieldDeadband) {
 		if err := CheckDeadband(merged.Deadband, bits); err != nil {
 			p.drop("deadband", 0, 0, err)
