@@ -52,6 +52,8 @@ func (a *Accumulator) Summary() *Summary {
 		Samples:       a.n,
 		RejectedLines: a.stats.Rejected,
 		FirstRejects:  []Reject{},
+		DroppedValues: a.stats.Dropped,
+		FirstDrops:    []Reject{},
 		SamplePeriodS: ptr(period),
 		PeriodFrom:    from,
 		JitterS:       ptr(a.clk.jitter()),
@@ -65,6 +67,11 @@ func (a *Accumulator) Summary() *Summary {
 	for _, r := range a.stats.FirstRejects {
 		if r != nil {
 			sum.FirstRejects = append(sum.FirstRejects, Reject{Line: r.Line, Reason: r.Error()})
+		}
+	}
+	for _, r := range a.stats.FirstDrops {
+		if r != nil {
+			sum.FirstDrops = append(sum.FirstDrops, Reject{Line: r.Line, Reason: r.Error()})
 		}
 	}
 	if a.n > 0 {

@@ -21,6 +21,7 @@ const (
 	DiagRailSaturation  = "rail_saturation"
 	DiagPeriodBelowADC  = "period_below_conversion"
 	DiagRejectedLines   = "rejected_lines"
+	DiagDroppedValues   = "dropped_values"
 	DiagNoIdentify      = "plant_not_identified"
 	DiagInferredDrive   = "inferred_drive"
 	DiagMissingCodes    = "missing_codes"
@@ -55,6 +56,13 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 			msg += "; the first: " + sum.FirstRejects[0].Reason
 		}
 		add(DiagRejectedLines, "warning", "%s.", msg)
+	}
+	if sum.DroppedValues > 0 {
+		msg := fmt.Sprintf("%d values were dropped from lines that were otherwise read", sum.DroppedValues)
+		if len(sum.FirstDrops) > 0 {
+			msg += "; the first: " + sum.FirstDrops[0].Reason
+		}
+		add(DiagDroppedValues, "warning", "%s.", msg)
 	}
 	if sum.SamplePeriodS == nil && a.n > 1 {
 		add(DiagNoPeriod, "warning", "The sample period is unknown (no t on the data lines, no period_us meta line, no host times): times and time constants cannot be given.")

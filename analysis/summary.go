@@ -5,10 +5,15 @@ package analysis
 // JSON where a figure does not apply or could not be measured; every key carries its
 // unit as a suffix (_s, _v, _hz, _counts, _ohm, _f).
 type Summary struct {
-	Source        string        `json:"source"`
-	Samples       int64         `json:"samples"`
-	RejectedLines int64         `json:"rejected_lines"`
-	FirstRejects  []Reject      `json:"first_rejects"`
+	Source        string   `json:"source"`
+	Samples       int64    `json:"samples"`
+	RejectedLines int64    `json:"rejected_lines"`
+	FirstRejects  []Reject `json:"first_rejects"`
+	// DroppedValues counts the values dropped from lines that were otherwise read (a meta
+	// value outside the input range table, an extra channel that could not be taken);
+	// FirstDrops says where and why for the first ones.
+	DroppedValues int64         `json:"dropped_values"`
+	FirstDrops    []Reject      `json:"first_drops"`
 	DurationS     float64       `json:"duration_s"`
 	SamplePeriodS *float64      `json:"sample_period_s"`
 	PeriodFrom    string        `json:"sample_period_from"` // "t", "period_us", "host" or ""

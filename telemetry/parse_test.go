@@ -71,6 +71,14 @@ func checkStats(t testing.TB, st Stats) {
 			t.Errorf("reject text not sanitised: %q", e.Error())
 		}
 	}
+	if want := min(st.Dropped, MaxRejectsKept); int64(len(st.FirstDrops)) != want {
+		t.Errorf("kept %d drops, want %d", len(st.FirstDrops), want)
+	}
+	for _, e := range st.FirstDrops {
+		if !e.Dropped || e.Field == "" || !safeText(e.Text) || !safeText(e.Error()) {
+			t.Errorf("bad drop record %+v: %q", e, e.Error())
+		}
+	}
 }
 
 // rej is the part of a ParseError a test case checks.
@@ -196,12 +204,12 @@ func TestScannerLines(t *testing.T) {
 			metas: []Meta{{Vref: 3.3, Set: FieldVref}},
 		},
 		{
-			name: "bad meta values",
-			in:   "# vref=abc\n# mode=four-state\n# adc_bits=40\n# r=-1\n# vref=5 vref=3\n# vref=5 stray\n",
-			rejects: []rej{
-				{1, "vref", ErrBadMeta}, {2, "mode", ErrBadMeta}, {3, "adc_bits", ErrBadMeta},
-				{4, "r", ErrBadMeta}, {5, "vref", ErrDuplicateKey}, {6, "stray", ErrBadMeta},
-			},
+			// A bad value drops its key (see TestInputRanges); a malformed word or a key
+			// given twice rejects the line.
+			name:    "bad meta values",
+			in:      "# vref=abc\n# mode=four-state\n# adc_bits=40\n# r=-1\n# vref=5 vref=3\n# vref=5 stray\n",
+			metas:   []Meta{{}, {}, {}, {}},
+			rejects: []rej{{5, "vref", ErrDuplicateKey}, {6, "stray", ErrBadMeta}},
 		},
 		{
 			name: "missing and bad fields",
@@ -377,7 +385,7 @@ func TestScannerLines(t *testing.T) {
 			}
 			var rejects []rej
 			for _, e := range got.stats.FirstRejects {
-				rejects = append(rejects, rej{e.Line, e.Field, e.Err})
+				rejects = append(rejects, rej{e.Line, e.Field, reasons[reasonIndex(e.Err)]})
 				if !errors.Is(e, e.Err) {
 					t.Errorf("errors.Is(%v, its own sentinel) = false", e)
 				}
@@ -460,9 +468,13 @@ func TestExtraNamesBounded(t *testing.T) {
 		fmt.Fprintf(&b, "sp=1 pv=2 ch%d=%d\n", k, k)
 	}
 	got := scanAll(t, b.String())
-	if len(got.samples) != maxExtraNames || got.stats.Rejects(ErrTooManyKeys) != 44 {
-		t.Errorf("%d samples, %d rejected for too many keys; want %d and 44",
-			len(got.samples), got.stats.Rejects(ErrTooManyKeys), maxExtraNames)
+	// Every sample is kept; the 44 extras past the table are dropped and counted.
+	if len(got.samples) != maxExtraNames+44 || got.stats.Rejected != 0 || got.stats.Dropped != 44 {
+		t.Errorf("%d samples, %d rejected, %d dropped; want %d, 0 and 44",
+			len(got.samples), got.stats.Rejected, got.stats.Dropped, maxExtraNames+44)
+	}
+	if n := len(got.extras[maxExtraNames]); n != 0 {
+		t.Errorf("sample past the table has %d extras, want 0", n)
 	}
 	// Names already known keep working.
 	if got := scanAll(t, b.String()+"sp=1 pv=2 ch7=3\n"); got.extras[len(got.extras)-1][0] != (Extra{"ch7", 3}) {

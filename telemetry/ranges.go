@@ -22,6 +22,7 @@ type Range struct {
 	Max     float64 // highest accepted value (+Inf: no upper limit)
 	MinOpen bool    // Min itself is refused (load > 0)
 	Note    string  // what else applies inside the range (a caution, a stage needed)
+	Scale   string  // what the bounds are, when they follow from another value ("counts of a 10-bit converter")
 }
 
 // Ranges is the one input range table. Deadband and the sp/pv readings depend on the ADC
@@ -49,13 +50,19 @@ func (e *RangeError) Error() string {
 	r := e.Range
 	v := formatRangeValue(e.Value, r.Unit)
 	lo := formatRangeValue(r.Min, r.Unit)
+	var msg string
 	switch {
 	case math.IsInf(r.Max, 1) && r.MinOpen:
-		return fmt.Sprintf("%s %s is %s: it must be above %s", r.Name, v, ErrOutOfRange, lo)
+		msg = fmt.Sprintf("%s %s is %s: it must be above %s", r.Name, v, ErrOutOfRange, lo)
 	case math.IsInf(r.Max, 1):
-		return fmt.Sprintf("%s %s is %s: it must be at least %s", r.Name, v, ErrOutOfRange, lo)
+		msg = fmt.Sprintf("%s %s is %s: it must be at least %s", r.Name, v, ErrOutOfRange, lo)
+	default:
+		msg = fmt.Sprintf("%s %s is %s %s to %s", r.Name, v, ErrOutOfRange, lo, formatRangeValue(r.Max, r.Unit))
 	}
-	return fmt.Sprintf("%s %s is %s %s to %s", r.Name, v, ErrOutOfRange, lo, formatRangeValue(r.Max, r.Unit))
+	if r.Scale != "" {
+		msg += " (" + r.Scale + ")"
+	}
+	return msg
 }
 
 // Unwrap returns ErrOutOfRange.
@@ -105,7 +112,7 @@ func CheckDeadband(db float64, bits int) error {
 	r := Range{Key: "deadband", Name: "deadband", Unit: "", Min: 0, Max: math.Inf(1)}
 	if bits > 0 {
 		r.Max = math.Ldexp(1, bits) / 4
-		r.Name = fmt.Sprintf("deadband (counts, a quarter of the %d-bit full scale at most)", bits)
+		r.Scale = fmt.Sprintf("counts, a quarter of the %d-bit full scale at most", bits)
 	}
 	if math.IsNaN(db) || math.IsInf(db, 0) || db < r.Min || db > r.Max {
 		return &RangeError{Key: "deadband", Value: db, Range: r}
@@ -119,7 +126,7 @@ func CheckCount(name string, v float64, bits int) error {
 	r := Range{Key: name, Name: name, Unit: "", Min: 0, Max: math.Inf(1)}
 	if bits > 0 {
 		r.Max = math.Ldexp(1, bits) - 1
-		r.Name = fmt.Sprintf("%s (counts of a %d-bit converter)", name, bits)
+		r.Scale = fmt.Sprintf("counts of a %d-bit converter", bits)
 	}
 	if math.IsNaN(v) || math.IsInf(v, 0) || v < r.Min || v > r.Max {
 		return &RangeError{Key: name, Value: v, Range: r}

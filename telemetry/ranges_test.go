@@ -3,6 +3,8 @@ package telemetry
 import (
 	"errors"
 	"math"
+	"os"
+	"strings"
 	"testing"
 )
 
@@ -53,5 +55,38 @@ func TestCheckDeadbandAndCount(t *testing.T) {
 	}
 	if err := CheckCount("pv", 1023, 10); err != nil {
 		t.Errorf("pv 1023 of 10 bits: %v", err)
+	}
+}
+
+// TestReadmeRangeTable checks that the README's "Input ranges" table shows the bounds of
+// the one range table (Ranges), so the two cannot drift apart.
+func TestReadmeRangeTable(t *testing.T) {
+	b, err := os.ReadFile("../README.md")
+	if err != nil {
+		t.Skipf("README not found: %v", err)
+	}
+	readme := string(b)
+	for _, r := range Ranges {
+		key := r.Key
+		if key == "period" {
+			key = "period_us"
+		}
+		var row string
+		for _, l := range strings.Split(readme, "\n") {
+			if strings.HasPrefix(l, "| `"+key+"` |") {
+				row = l
+			}
+		}
+		if row == "" {
+			t.Errorf("README has no input range row for %s", key)
+			continue
+		}
+		want := formatRangeValue(r.Min, r.Unit) + " to " + formatRangeValue(r.Max, r.Unit)
+		if math.IsInf(r.Max, 1) {
+			want = "above " + formatRangeValue(r.Min, r.Unit)
+		}
+		if !strings.Contains(row, want) {
+			t.Errorf("README row %q lacks %q", row, want)
+		}
 	}
 }

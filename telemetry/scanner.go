@@ -39,7 +39,7 @@ type Scanner struct {
 	eof      bool
 	err      error
 	skipping bool
-	done     bool
+	finished bool
 	kind     RecordKind
 	p        Parser
 	bufSize  int // 0: scanBufSize; tests use small buffers to exercise refills
@@ -51,7 +51,7 @@ func NewScanner(r io.Reader) *Scanner { return &Scanner{r: r} }
 // Scan advances to the next sample, meta or event record. It returns false at the end
 // of the input, after a read error, or (with Strict) at the first rejected line.
 func (s *Scanner) Scan() bool {
-	if s.done {
+	if s.finished {
 		return false
 	}
 	if s.buf == nil {
@@ -74,8 +74,10 @@ func (s *Scanner) Scan() bool {
 					s.start += next
 					p.line++
 					p.stats.Lines++
-					s.kind = p.accept(0, false)
-					return true
+					if s.emit(p.accept(0, false, b[:next])) {
+						return s.kind != RecRejected
+					}
+					continue
 				}
 			} else if p.capture && !p.noFast {
 				// The same inside a capture: a board line behind its host time.
@@ -84,8 +86,10 @@ func (s *Scanner) Scan() bool {
 						s.start += k + 1 + next
 						p.line++
 						p.stats.Lines++
-						s.kind = p.accept(host, true)
-						return true
+						if s.emit(p.accept(host, true, b[k+1:k+1+next])) {
+							return s.kind != RecRejected
+						}
+						continue
 					}
 				}
 			}
@@ -141,7 +145,7 @@ func (s *Scanner) Scan() bool {
 				}
 				continue
 			}
-			s.done = true
+			s.finished = true
 			return false
 		}
 		s.fill()
@@ -160,16 +164,22 @@ func (s *Scanner) limit() int {
 // handle parses one line and reports whether Scan should return: for a record, or for a
 // rejected line in Strict mode (then it also ends the scan).
 func (s *Scanner) handle(line []byte, cut bool) bool {
-	k := s.p.parse(line, 0, false, cut)
+	return s.emit(s.p.parse(line, 0, false, cut))
+}
+
+// emit takes the kind of the line just parsed and reports whether Scan should return:
+// for a record, or for a rejected line in Strict mode or of a refused capture version
+// (then it also ends the scan).
+func (s *Scanner) emit(k RecordKind) bool {
 	switch k {
 	case RecNone:
 		return false
 	case RecRejected:
-		if !s.Strict {
+		if !s.Strict && s.p.refused == nil {
 			return false
 		}
 		s.err = s.p.LastError()
-		s.done = true
+		s.finished = true
 	}
 	s.kind = k
 	return true
@@ -236,6 +246,8 @@ func (s *Scanner) Stats() Stats { return s.p.stats }
 // Capture reports whether the input is a capture, and its start time when known.
 func (s *Scanner) Capture() (bool, time.Time) { return s.p.Capture() }
 
-// Err returns the first error that stopped the scan: a read error or, with Strict, the
-// *ParseError of the first rejected line. It returns nil at a clean end of input.
+// Err returns the first error that stopped the scan: a read error, the *ParseError of a
+// capture header of an unknown version (ErrCaptureVersion) or, with Strict, of the first
+// rejected line. It returns nil at a clean end of input. A dropped value (see
+// Stats.FirstDrops) never stops the scan.
 func (s *Scanner) Err() error { return s.err }
