@@ -2,31 +2,9 @@ package tui
 
 import "github.com/charmbracelet/bubbles/key"
 
-// Mode is what the screen is doing with its source.
-type Mode int
-
-// Screen modes: following a live source, frozen (the source keeps running and the
-// analysis keeps every sample), or replaying a file.
-const (
-	ModeLive Mode = iota
-	ModePaused
-	ModeReplay
-)
-
-// String returns "live", "paused" or "replay".
-func (m Mode) String() string {
-	switch m {
-	case ModePaused:
-		return "paused"
-	case ModeReplay:
-		return "replay"
-	}
-	return "live"
-}
-
 // KeyMap holds every key binding of the screen, each with its help text. It provides
-// ShortHelp and FullHelp for bubbles/help; SetMode turns bindings on and off so the help
-// shows only what works in the current mode.
+// ShortHelp and FullHelp for bubbles/help; SetState turns bindings on and off so the help
+// shows only what works in the current state.
 type KeyMap struct {
 	Quit      key.Binding
 	Help      key.Binding
@@ -84,14 +62,14 @@ func DefaultKeyMap() KeyMap {
 	}
 }
 
-// SetMode enables the bindings that work in mode: replay controls only in replay, the
+// SetState enables the bindings that work now: replay controls only in replay, the
 // deadband key only on a source that accepts commands, stepping only while held.
-func (k *KeyMap) SetMode(m Mode, replay, canSend bool) {
+func (k *KeyMap) SetState(held, replay, canSend bool) {
 	k.Faster.SetEnabled(replay)
 	k.Slower.SetEnabled(replay)
 	k.SeekBack.SetEnabled(replay)
 	k.SeekAhead.SetEnabled(replay)
-	k.StepOnce.SetEnabled(replay && m == ModePaused)
+	k.StepOnce.SetEnabled(replay && held)
 	k.Apply.SetEnabled(canSend)
 	k.Forward.SetEnabled(true)
 	k.Confirm.SetEnabled(false)

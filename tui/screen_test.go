@@ -13,6 +13,7 @@ import (
 
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/wire"
+	"github.com/caploop/caploop/tui/live"
 )
 
 // TestResize checks that every view fills the terminal exactly through a series of
@@ -97,8 +98,8 @@ func isValidUTF8(s string) bool { return strings.ToValidUTF8(s, "\uFFFD") == s }
 // sought back to the start.
 func TestReplayControls(t *testing.T) {
 	const n = 20000 // 2 s at 10 kS/s
-	p, err := NewReplay(ReplayOptions{Path: "generated", Speed: 1, Paused: true,
-		open: func() (telemetry.Source, error) { return newGenSource(t, n, 1e-4), nil }})
+	p, err := live.NewReplay(live.ReplayOptions{Path: "generated", Speed: 1, Paused: true,
+		Open: func() (telemetry.Source, error) { return newGenSource(t, n, 1e-4), nil }})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -107,9 +108,9 @@ func TestReplayControls(t *testing.T) {
 	last := time.Time{}
 	frame := func() {
 		t.Helper()
-		switch msg := p.wait(last)().(type) {
+		switch msg := wait(p, last)().(type) {
 		case samplesMsg:
-			m.takeFrame(msg.box)
+			m.takeFrame(msg.snap)
 		case sourceErrMsg:
 			t.Fatalf("replay: %v", msg.err)
 		}
@@ -127,8 +128,7 @@ func TestReplayControls(t *testing.T) {
 	if got := m.status.st.Samples; got > 1 {
 		t.Fatalf("held replay analysed %d samples, want at most 1", got)
 	}
-	m.mode = ModePaused
-	m.keys.SetMode(ModePaused, true, false)
+	m.setHeld(true)
 	m = press(t, m, "n") // one step: a tenth of the 0.5 s window
 	waitUntil("step of 50 ms", func() bool { return m.status.st.Position >= 0.05 })
 	time.Sleep(100 * time.Millisecond)
@@ -162,15 +162,15 @@ func TestMarkRecorded(t *testing.T) {
 	}
 	defer pt.Close()
 	rec := filepath.Join(t.TempDir(), "marks.cap")
-	p := NewLive(LiveOptions{Serial: wire.SerialConfig{Path: pt.Path()}, Record: rec, SourceOptions: SourceOptions{NoAdvice: true}})
+	p := live.NewPort(live.PortOptions{Serial: wire.SerialConfig{Path: pt.Path()}, Record: rec, Options: live.Options{NoAdvice: true}})
 	m := New(p, Options{})
 	last := time.Time{}
 	for deadline := time.Now().Add(5 * time.Second); m.status.st.State != "connected"; {
 		if time.Now().After(deadline) {
 			t.Fatalf("link did not connect; state %q", m.status.st.State)
 		}
-		if msg, ok := p.wait(last)().(samplesMsg); ok {
-			m.takeFrame(msg.box)
+		if msg, ok := wait(p, last)().(samplesMsg); ok {
+			m.takeFrame(msg.snap)
 		}
 		last = time.Now()
 	}
@@ -179,8 +179,8 @@ func TestMarkRecorded(t *testing.T) {
 		if time.Now().After(deadline) {
 			t.Fatalf("samples %d, capture size %d after 5 s", m.status.st.Samples, m.status.st.RecordBytes)
 		}
-		if msg, ok := p.wait(last)().(samplesMsg); ok {
-			m.takeFrame(msg.box)
+		if msg, ok := wait(p, last)().(samplesMsg); ok {
+			m.takeFrame(msg.snap)
 		}
 		last = time.Now()
 	}
@@ -232,45 +232,5 @@ func TestKeysInOneMessage(t *testing.T) {
 	m = mm.(Model)
 	if !m.noting || string(m.note) != "fan" {
 		t.Errorf("after \"mfan\": noting %v, note %q; want true, \"fan\"", m.noting, string(m.note))
-	}
-}
-
-// TestReplayBoardReset replays, in real time, a plain file whose board clock restarts
-// (a reset: t goes back, which the parser reads as a wrap of the 32-bit clock, 71 min
-// ahead). The replay must not sit through the false gap, and the plot's clock goes on.
-func TestReplayBoardReset(t *testing.T) {
-	path := filepath.Join(t.TempDir(), "reset.txt")
-	var b strings.Builder
-	b.WriteString("# vref=5 adc_bits=10 period_us=1000 mode=three-state deadband=4\n")
-	for run := 0; run < 2; run++ {
-		for k := 0; k < 200; k++ {
-			fmt.Fprintf(&b, "t=%d sp=400 pv=%d u=0\n", 5000+k*1000, 399+k%3)
-		}
-	}
-	if err := os.WriteFile(path, []byte(b.String()), 0o600); err != nil {
-		t.Fatal(err)
-	}
-	p, err := NewReplay(ReplayOptions{Path: path, Speed: 1, SourceOptions: SourceOptions{NoAdvice: true}})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer p.Close()
-	m := New(p, Options{})
-	start := time.Now()
-	last := time.Time{}
-	for !m.ended {
-		if time.Since(start) > 5*time.Second {
-			t.Fatalf("replay of 0.4 s of data still running after 5 s: %+v", m.status.st)
-		}
-		if msg, ok := p.wait(last)().(samplesMsg); ok {
-			m.takeFrame(msg.box)
-		}
-		last = time.Now()
-	}
-	if got := m.plot.Latest(); got > 1 {
-		t.Errorf("last point at %.3f s on the screen's clock, want under 1 s (the reset is no gap)", got)
-	}
-	if got := m.plot.ring.Len(); got != 400 {
-		t.Errorf("points = %d, want 400", got)
 	}
 }

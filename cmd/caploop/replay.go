@@ -8,7 +8,7 @@ import (
 
 	"github.com/spf13/cobra"
 
-	"github.com/caploop/caploop/tui"
+	"github.com/caploop/caploop/tui/live"
 )
 
 func init() { commands = append(commands, newReplayCmd) }
@@ -36,7 +36,7 @@ ahead, ? shows every key. Marks and sent commands of a capture appear on the plo
 			if err != nil {
 				return withCode(2, err)
 			}
-			p, err := tui.NewReplay(tui.ReplayOptions{Path: args[0], Speed: sp, Paused: paused})
+			p, err := live.NewReplay(live.ReplayOptions{Path: args[0], Speed: sp, Paused: paused})
 			if err != nil {
 				return withCode(2, fmt.Errorf("replay: %w", err))
 			}
