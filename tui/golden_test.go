@@ -52,6 +52,10 @@ func press(t testing.TB, m Model, keys ...string) Model {
 			msg = tea.KeyMsg{Type: tea.KeyRight}
 		case " ":
 			msg = tea.KeyMsg{Type: tea.KeySpace, Runes: []rune{' '}}
+		case "home":
+			msg = tea.KeyMsg{Type: tea.KeyHome}
+		case "S-tab":
+			msg = tea.KeyMsg{Type: tea.KeyShiftTab}
 		default:
 			msg = tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune(k)}
 		}
@@ -91,7 +95,8 @@ func TestViews(t *testing.T) {
 		{"help", []string{"?"}},
 		{"zoomed_back", []string{"+", "+", "left"}},
 		{"confirm", []string{"d"}},
-		{"note", []string{"m", "f", "a", "n"}},
+		{"note", []string{"<live>", "m", "f", "a", "n"}},
+		{"help_live", []string{"<live>", "?"}},
 		{"after_change", []string{"d", "y", "<change>", "2"}},
 		{"after_change_trace", []string{"d", "y", "<change>"}},
 	}
@@ -100,6 +105,10 @@ func TestViews(t *testing.T) {
 			t.Run(fmt.Sprintf("%dx%d/%s", sz[0], sz[1], v.name), func(t *testing.T) {
 				m := fixtureModel(t, sz[0], sz[1])
 				for _, k := range v.keys {
+					if k == "<live>" {
+						m = liveFixtureSized(t, sz[0], sz[1])
+						continue
+					}
 					if k == "<change>" {
 						m = confirmChange(t, m)
 						continue

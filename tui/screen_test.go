@@ -94,8 +94,8 @@ func TestUntrustedText(t *testing.T) {
 
 func isValidUTF8(s string) bool { return strings.ToValidUTF8(s, "\uFFFD") == s }
 
-// TestReplayControls drives a replay: held at the start, stepped, run at max speed,
-// sought back to the start.
+// TestReplayControls drives a replay: held at the start (the first space runs it),
+// advanced while held, run at max speed, rewound after its end.
 func TestReplayControls(t *testing.T) {
 	const n = 20000 // 2 s at 10 kS/s
 	p, err := live.NewReplay(live.ReplayOptions{Path: "generated", Speed: 1, Paused: true,
@@ -105,51 +105,62 @@ func TestReplayControls(t *testing.T) {
 	}
 	defer p.Close()
 	m := New(p, Options{Span: 0.5})
-	last := time.Time{}
-	frame := func() {
-		t.Helper()
-		switch msg := wait(p, last)().(type) {
-		case samplesMsg:
-			m.takeFrame(msg.snap)
-		case sourceErrMsg:
-			t.Fatalf("replay: %v", msg.err)
-		}
-		last = time.Now()
+	if !m.held || !strings.HasPrefix(m.status.View(), "HELD") {
+		t.Errorf("a replay started held shows %q", m.status.View())
 	}
-	waitUntil := func(what string, ok func() bool) {
-		t.Helper()
-		for deadline := time.Now().Add(10 * time.Second); !ok(); frame() {
-			if time.Now().After(deadline) {
-				t.Fatalf("%s: not reached; status %+v", what, m.status.st)
-			}
-		}
-	}
-	waitUntil("held at the start", func() bool { return strings.HasPrefix(m.status.st.State, "held") })
+	pump := framePump(t, &m)
+	pump("held at the start", func() bool { return m.status.st.State == live.StateHeld })
 	if got := m.status.st.Samples; got > 1 {
 		t.Fatalf("held replay analysed %d samples, want at most 1", got)
 	}
-	m.setHeld(true)
-	m = press(t, m, "n") // one step: a tenth of the 0.5 s window
-	waitUntil("step of 50 ms", func() bool { return m.status.st.Position >= 0.05 })
+	m = press(t, m, "n") // advance a tenth of the 0.5 s window
+	pump("advance of 50 ms", func() bool { return m.status.st.Position >= 0.05 })
 	time.Sleep(100 * time.Millisecond)
-	frame()
+	pump("a frame", func() bool { return true })
 	if pos := m.status.st.Position; pos > 0.06 {
-		t.Errorf("after one step the replay is at %.3f s, want 0.05 s and held", pos)
+		t.Errorf("after one advance the replay is at %.3f s, want 0.05 s and held", pos)
 	}
-	m = press(t, m, "]", "]", "]", " ") // max speed, run
-	waitUntil("end", func() bool { return m.status.st.State == "ended" })
+	m = press(t, m, "x", "x", "x", " ") // max speed, run: one space from a held start
+	if m.held {
+		t.Fatal("the first space did not run a replay started held")
+	}
+	pump("end", func() bool { return m.status.st.State == live.StateEnded })
 	if got := m.status.st.Samples; got != n {
 		t.Errorf("samples analysed = %d, want %d", got, n)
 	}
 	if m.status.st.Speed != 0 {
 		t.Errorf("speed = %g, want 0 (max)", m.status.st.Speed)
 	}
-	m = press(t, m, "[", "[", "[", ",") // real time, then 10 s back: the start
-	waitUntil("restart", func() bool { return m.status.st.State != "ended" && m.plot.ring.Len() < n })
-	m = press(t, m, "]", "]", "]") // max speed to the end
-	waitUntil("end again", func() bool { return m.status.st.State == "ended" && m.status.st.Samples == n })
+	m = press(t, m, "X", "X", "X", "home") // real time, rewind after the end
+	pump("restart", func() bool { return m.status.st.State != live.StateEnded && m.plot.ring.Len() < n })
+	m = press(t, m, "x", "x", "x") // max speed to the end
+	pump("end again", func() bool { return m.status.st.State == live.StateEnded && m.status.st.Samples == n })
 	if got := m.plot.ring.Len(); got != n {
-		t.Errorf("points after seeking back and replaying = %d, want %d (no duplicates)", got, n)
+		t.Errorf("points after rewinding and replaying = %d, want %d (no duplicates)", got, n)
+	}
+}
+
+// framePump returns a function that applies the pipeline's frames to *m until ok holds,
+// failing after 10 s.
+func framePump(t *testing.T, m *Model) func(what string, ok func() bool) {
+	last := time.Time{}
+	return func(what string, ok func() bool) {
+		t.Helper()
+		for deadline := time.Now().Add(10 * time.Second); ; {
+			switch msg := wait(m.src, last)().(type) {
+			case samplesMsg:
+				m.takeFrame(msg.snap)
+			case sourceErrMsg:
+				t.Fatalf("replay: %v", msg.err)
+			}
+			last = time.Now()
+			if ok() {
+				return
+			}
+			if time.Now().After(deadline) {
+				t.Fatalf("%s: not reached; status %+v", what, m.status.st)
+			}
+		}
 	}
 }
 
@@ -228,7 +239,7 @@ func TestKeysInOneMessage(t *testing.T) {
 	if m.plot.span != 0.75 {
 		t.Errorf("span after \"++\" = %g s, want 0.75 s (3 s halved twice)", m.plot.span)
 	}
-	mm, _ = m.Update(tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("mfan")})
+	mm, _ = liveFixture(t).Update(tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("mfan")})
 	m = mm.(Model)
 	if !m.noting || string(m.note) != "fan" {
 		t.Errorf("after \"mfan\": noting %v, note %q; want true, \"fan\"", m.noting, string(m.note))

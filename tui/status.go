@@ -49,7 +49,7 @@ func (m StatusModel) View() string {
 	var mode string
 	switch {
 	case m.held:
-		mode = "PAUSED"
+		mode = "HELD"
 	case m.replay:
 		mode = "REPLAY " + speedText(st.Speed)
 	default:

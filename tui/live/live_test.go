@@ -2,6 +2,7 @@ package live
 
 import (
 	"fmt"
+	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -22,6 +23,7 @@ type reader struct {
 	stats  Stats
 	done   bool
 	resets int
+	events []Event
 }
 
 func (r *reader) take() {
@@ -36,6 +38,7 @@ func (r *reader) take() {
 		r.resets++
 	}
 	r.points = append(r.points, s.Points...)
+	r.events = append(r.events, s.Events...)
 	if s.Stats != nil {
 		r.stats = *s.Stats
 	}
@@ -107,6 +110,63 @@ func TestReplayControls(t *testing.T) {
 			t.Fatalf("point %d at %.4f s comes before point %d at %.4f s", i, r.points[i].T, i-1, r.points[i-1].T)
 		}
 	}
+}
+
+// lastJump returns the newest jump event.
+func (r *reader) lastJump() (Event, bool) {
+	for i := len(r.events) - 1; i >= 0; i-- {
+		if r.events[i].Kind == EventJump {
+			return r.events[i], true
+		}
+	}
+	return Event{}, false
+}
+
+// TestReplayJumps jumps through a generated capture whose setpoint steps at 1 s and
+// 2 s (3 s at 10 kS/s): from a held start to each step, past the last (none), back,
+// to a tenth of the capture, and back to the start after the end.
+func TestReplayJumps(t *testing.T) {
+	t.Parallel()
+	const n = 30000
+	p := genReplay(t, n, ReplayOptions{Speed: 1, Paused: true, Options: Options{NoAdvice: true}})
+	if !p.Held() {
+		t.Fatal("a replay opened with Paused does not report itself held")
+	}
+	r := &reader{t: t, p: p}
+	r.until("held at the start", func() bool { return r.stats.State == StateHeld })
+	at := func(what string, want float64) {
+		t.Helper()
+		r.until(what, func() bool { return r.stats.State == StateHeld && math.Abs(r.stats.Position-want) < 1e-9 })
+	}
+	p.Next(LandmarkStep)
+	at("first step", 1)
+	p.Next(LandmarkStep)
+	at("second step", 2)
+	p.Next(LandmarkStep)
+	r.until("no later step", func() bool { ev, ok := r.lastJump(); return ok && ev.Value < 0 })
+	if ev, _ := r.lastJump(); ev.Text != "no later setpoint step" {
+		t.Errorf("jump past the last step says %q", ev.Text)
+	}
+	p.Prev(LandmarkStep)
+	at("back to the first step", 1)
+	if len(r.points) != 10001 {
+		t.Errorf("points after jumping back = %d, want 10001 (0 to 1 s, no duplicates)", len(r.points))
+	}
+	p.Prev(LandmarkSegment)
+	at("back to the first segment", 0)
+	p.SeekFraction(0.5)
+	at("half way", 1.5)
+	p.SetSpeed(0)
+	p.Run()
+	r.until("end", func() bool { return r.stats.State == StateEnded && r.stats.Samples == n })
+	p.Hold()
+	p.SeekFraction(0)
+	at("rewound after the end", 0)
+	if r.stats.Samples != 1 {
+		t.Errorf("samples after rewinding = %d, want 1", r.stats.Samples)
+	}
+	p.Step(0.25)
+	at("a step ahead from the rewound start", 0.25)
 }
 
 // TestReplayBoardReset replays, in real time, a plain file whose board clock restarts

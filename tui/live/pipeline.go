@@ -72,6 +72,7 @@ const (
 	EventReset                     // the source restarted from the beginning (replay seek back)
 	EventDeadband                  // the board confirmed a deadband (Value, counts)
 	EventInfo                      // a notice for the message line only
+	EventJump                      // a replay jumped (Text: the landmark; Value: the time, or -1 and Text says none was found)
 )
 
 // Event is something that happened at a moment of the source: shown on the plot or in
@@ -129,6 +130,7 @@ type Pipeline struct {
 	canSend bool
 	replay  bool
 	speed   float64 // initial replay speed (0 = as fast as possible)
+	held    bool    // the replay starts held
 	maxPts  int
 
 	mu     sync.Mutex
@@ -194,6 +196,9 @@ func (p *Pipeline) CanSend() bool { return p.canSend }
 
 // Replay reports whether the source is a replayed file with speed and seek controls.
 func (p *Pipeline) Replay() bool { return p.replay }
+
+// Held reports whether the replay started held.
+func (p *Pipeline) Held() bool { return p.held }
 
 // Speed returns the replay speed the pipeline started with (0 = as fast as possible).
 func (p *Pipeline) Speed() float64 { return p.speed }
@@ -318,13 +323,18 @@ func (p *Pipeline) requestAdvice(s *analysis.Summary) {
 }
 
 // control is a request from the screen to a replay: hold (1) or run (-1), change the
-// speed, step ahead by some seconds while held, or seek by some seconds.
+// speed, step ahead by some seconds while held, seek by some seconds, or jump to the
+// next (dir 1) or previous (dir -1) landmark or to a fraction of the capture (>= 0).
 type control struct {
 	pause    int
 	speed    float64
 	setSpeed bool
 	step     float64
 	seek     float64
+	jump     bool
+	landmark Landmark
+	dir      int
+	fraction float64
 }
 
 // control hands c to the replay goroutine without blocking the screen; live sources
@@ -350,6 +360,21 @@ func (p *Pipeline) SetSpeed(speed float64) { p.control(control{speed: speed, set
 
 // Step plays a held replay ahead by the given seconds of capture time and holds again.
 func (p *Pipeline) Step(seconds float64) { p.control(control{step: seconds}) }
+
+// Next jumps a replay to the next landmark of kind l; the snapshot's EventJump says
+// where it went, or that there is none.
+func (p *Pipeline) Next(l Landmark) {
+	p.control(control{jump: true, landmark: l, dir: 1, fraction: -1})
+}
+
+// Prev jumps a replay back to the previous landmark of kind l.
+func (p *Pipeline) Prev(l Landmark) {
+	p.control(control{jump: true, landmark: l, dir: -1, fraction: -1})
+}
+
+// SeekFraction moves a replay to a fraction f (0..1) of the way through the capture,
+// back or ahead, also after its end: 0 rewinds it.
+func (p *Pipeline) SeekFraction(f float64) { p.control(control{jump: true, fraction: f}) }
 
 // Seek moves a replay by the given seconds: ahead (positive) or back (negative, which
 // restarts the analysis from the start of the capture and plays up to the target).

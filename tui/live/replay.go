@@ -3,11 +3,9 @@ package live
 import (
 	"fmt"
 	"path/filepath"
-	"strings"
 	"time"
 
 	"github.com/caploop/caploop/telemetry"
-	"github.com/caploop/caploop/telemetry/wire"
 )
 
 // ReplayOptions configure NewReplay.
@@ -36,6 +34,7 @@ func NewReplay(o ReplayOptions) (*Pipeline, error) {
 	p := newPipeline(name, o.Retain, o.adviser())
 	p.replay = true
 	p.speed = o.Speed
+	p.held = o.Paused
 	p.ctl = make(chan control, 16)
 	c := newEngine(p, o.analyzer(name))
 	go p.runReplay(o, src, c)
@@ -58,6 +57,8 @@ func (p *Pipeline) runReplay(o ReplayOptions, src telemetry.Source, c *engine) {
 	var wallStart time.Time
 	var tStart float64
 	paced := false
+	var outline *Outline // read on the first jump
+	var jumped *Event    // said once the jump has landed
 	setState := func() {
 		switch {
 		case ended:
@@ -69,6 +70,72 @@ func (p *Pipeline) runReplay(o ReplayOptions, src telemetry.Source, c *engine) {
 		}
 		c.stats.Speed = speed
 		c.stats.Position = c.lastT
+	}
+	// rewind starts the capture again from its first line.
+	rewind := func() bool {
+		src.Close()
+		s, err := o.Open()
+		if err != nil {
+			c.p.deliver(nil, nil, func(b *Snapshot) { b.Err = err })
+			return false
+		}
+		src = s
+		open()
+		c.restart()
+		ended = false
+		return true
+	}
+	readOutline := func() *Outline {
+		s, err := o.Open()
+		if err == nil {
+			var ol *Outline
+			if ol, err = buildOutline(s, p.quit); err == nil {
+				return ol
+			}
+		}
+		c.event(EventInfo, "cannot read the capture's landmarks: "+telemetry.SanitizeN([]byte(err.Error()), 120))
+		return nil
+	}
+	// jump seeks to a landmark or a fraction of the capture and says where it went.
+	jump := func(ol *Outline, ctl control) {
+		var target float64
+		found := true
+		name := ctl.landmark.String()
+		switch {
+		case ctl.fraction >= 0:
+			target, name = ol.Fraction(ctl.fraction), "fraction"
+		case ctl.dir > 0:
+			target, found = ol.Next(ctl.landmark, c.lastT)
+		default:
+			eps := 0.0 // a running replay has moved on from the landmark it jumped to
+			if !paused && speed > 0 {
+				eps = speed / 2
+			}
+			target, found = ol.Prev(ctl.landmark, c.lastT-eps)
+		}
+		if !found {
+			word := "later"
+			if ctl.dir < 0 {
+				word = "earlier"
+			}
+			c.event(EventJump, "no "+word+" "+name)
+			c.evs[len(c.evs)-1].Value = -1
+			return
+		}
+		jumped = &Event{Kind: EventJump, Text: name, Value: target}
+		switch {
+		case target > c.lastT && !ended:
+			seekTo = target
+		case target < c.lastT:
+			if !rewind() {
+				return
+			}
+			seekTo = target
+		default:
+			jumped.T = c.lastT
+			c.evs = append(c.evs, *jumped)
+			jumped = nil
+		}
 	}
 	apply := func(ctl control) {
 		switch {
@@ -83,22 +150,25 @@ func (p *Pipeline) runReplay(o ReplayOptions, src telemetry.Source, c *engine) {
 				stepUntil = c.lastT + ctl.step
 			}
 		case ctl.seek > 0:
+			jumped = nil
 			if !ended {
 				seekTo = c.lastT + ctl.seek
 			}
 		case ctl.seek < 0:
+			jumped = nil
 			target := max(c.lastT+ctl.seek, 0)
-			src.Close()
-			s, err := o.Open()
-			if err != nil {
-				c.p.deliver(nil, nil, func(b *Snapshot) { b.Err = err })
+			if !rewind() {
 				return
 			}
-			src = s
-			open()
-			c.restart()
-			ended = false
 			seekTo = target
+		case ctl.jump:
+			if outline == nil {
+				outline = readOutline()
+				if outline == nil {
+					return
+				}
+			}
+			jump(outline, ctl)
 		}
 		paced = false
 	}
@@ -146,6 +216,11 @@ func (p *Pipeline) runReplay(o ReplayOptions, src telemetry.Source, c *engine) {
 			case seekTo >= 0:
 				if t >= seekTo {
 					seekTo, paced = -1, false
+					if jumped != nil {
+						jumped.T = t
+						c.evs = append(c.evs, *jumped)
+						jumped = nil
+					}
 				}
 			case stepUntil >= 0:
 				if t >= stepUntil {
@@ -171,24 +246,8 @@ func (p *Pipeline) runReplay(o ReplayOptions, src telemetry.Source, c *engine) {
 					timer.Stop()
 				}
 			}
-		case telemetry.RecMeta:
-			c.setMeta(sc.Delta())
-		case telemetry.RecEvent:
-			ev := sc.Event()
-			if ev.Dir == telemetry.ToBoard {
-				c.event(EventSent, ev.Text)
-				break
-			}
-			word, rest, _ := strings.Cut(ev.Text, " ")
-			switch word {
-			case "mark":
-				c.event(EventMark, rest)
-			case wire.EventUnplugged, wire.EventReconnected:
-				c.event(EventState, word)
-			case wire.EventConnected, wire.EventWaiting, wire.EventPartial:
-			default:
-				c.event(EventNote, ev.Text)
-			}
+		default:
+			replayRecord(c, sc)
 		}
 		if len(c.pts) >= 8192 {
 			setState()
