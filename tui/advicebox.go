@@ -44,7 +44,7 @@ func (m AdviceModel) Suggested() (int, bool) {
 
 // Update takes advice and summary snapshots.
 func (m AdviceModel) Update(msg tea.Msg) (AdviceModel, tea.Cmd) {
-	if msg, ok := msg.(snapshotMsg); ok {
+	if msg, ok := msg.(frameMsg); ok {
 		if msg.advice != nil {
 			m.adv, m.err = msg.advice, ""
 		}

@@ -6,72 +6,20 @@ import (
 	"testing"
 	"time"
 
-	"github.com/caploop/caploop/analysis/loop"
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/wire"
+	"github.com/caploop/caploop/tui/internal/gen"
+	"github.com/caploop/caploop/tui/live"
 )
 
-// genSource is an endless-looking telemetry stream made by the loop model on the fly:
-// meta lines, then n data lines "t= n= sp= pv= u=" of a three-state loop at the given
-// sample period, stepping between two setpoints every second. Memory stays constant.
-type genSource struct {
-	sim    *loop.Sim
-	n, k   int64
-	period float64
-	buf    []byte
-	off    int
-	meta   bool
-}
-
-func newGenSource(tb testing.TB, n int64, period float64) *genSource {
+// newGenSource returns the generated stream of gen.NewSource or fails tb.
+func newGenSource(tb testing.TB, n int64, period float64) *gen.Source {
 	tb.Helper()
-	sim, err := loop.New(loop.Config{
-		Circuit:    loop.Circuit{Supply: 5, R: 47e3, C: 1e-6, Load: 1e6},
-		ADC:        loop.ADC{Vref: 5, Bits: 10, Noise: 0.5},
-		Controller: loop.Controller{Kind: loop.ThreeState, Deadband: 4},
-		Period:     period,
-		Seed:       3,
-		V0:         1,
-	})
+	g, err := gen.NewSource(n, period)
 	if err != nil {
-		tb.Fatalf("loop.New: %v", err)
+		tb.Fatalf("gen.NewSource: %v", err)
 	}
-	return &genSource{sim: sim, n: n, period: period}
-}
-
-func (g *genSource) Name() string { return "generated" }
-func (g *genSource) Close() error { return nil }
-
-func (g *genSource) Read(p []byte) (int, error) {
-	if g.off >= len(g.buf) {
-		g.buf, g.off = g.buf[:0], 0
-		if !g.meta {
-			g.meta = true
-			g.buf = telemetry.AppendMeta(g.buf, telemetry.Meta{Vref: 5, ADCBits: 10, Period: g.period, Mode: telemetry.ThreeState, Deadband: 4,
-				Set: telemetry.FieldVref | telemetry.FieldADCBits | telemetry.FieldPeriod | telemetry.FieldMode | telemetry.FieldDeadband})
-			g.buf = append(g.buf, '\n')
-		}
-		per := int64(1 / g.period) // samples per second
-		for i := 0; i < 512 && g.k < g.n; i++ {
-			sp := 400
-			if (g.k/per)%2 == 1 {
-				sp = 600
-			}
-			st := g.sim.Next(sp)
-			g.buf = telemetry.AppendData(g.buf, telemetry.Sample{
-				T: int64(float64(g.k) * g.period * 1e6), N: g.k, SP: float64(sp), PV: float64(st.PV), U: telemetry.Drive(st.U),
-				Flags: telemetry.HasT | telemetry.HasN | telemetry.HasU,
-			})
-			g.buf = append(g.buf, '\n')
-			g.k++
-		}
-		if len(g.buf) == 0 {
-			return 0, io.EOF
-		}
-	}
-	n := copy(p, g.buf[g.off:])
-	g.off += n
-	return n, nil
+	return g
 }
 
 // screenLoop plays the part of the bubbletea program: it waits for frames with the
@@ -86,11 +34,11 @@ func screenLoop(tb testing.TB, m Model, want int64, timeout time.Duration) (Mode
 		if time.Now().After(deadline) {
 			tb.Fatalf("pipeline analysed %d of %d samples in %s", m.status.st.Samples, want, timeout)
 		}
-		msg := m.src.wait(last)()
+		msg := wait(m.src, last)()
 		last = time.Now()
 		switch msg := msg.(type) {
 		case samplesMsg:
-			m.takeFrame(msg.box)
+			m.takeFrame(msg.snap)
 		case sourceErrMsg:
 			tb.Fatalf("source error: %v", msg.err)
 		}
@@ -105,8 +53,8 @@ func screenLoop(tb testing.TB, m Model, want int64, timeout time.Duration) (Mode
 func BenchmarkReplayMax(b *testing.B) {
 	const n = 1_000_000
 	for i := 0; i < b.N; i++ {
-		p, err := NewReplay(ReplayOptions{Speed: 0, Path: "generated",
-			open: func() (telemetry.Source, error) { return newGenSource(b, n, 1e-3), nil }})
+		p, err := live.NewReplay(live.ReplayOptions{Speed: 0, Path: "generated",
+			Open: func() (telemetry.Source, error) { return newGenSource(b, n, 1e-3), nil }})
 		if err != nil {
 			b.Fatal(err)
 		}
@@ -133,7 +81,7 @@ func BenchmarkLivePTY(b *testing.B) {
 		if err != nil {
 			b.Skipf("no pseudo-terminal: %v", err)
 		}
-		p := NewLive(LiveOptions{Serial: wire.SerialConfig{Path: pt.Path()}})
+		p := live.NewPort(live.PortOptions{Serial: wire.SerialConfig{Path: pt.Path()}})
 		m := New(p, Options{})
 		m.width, m.height = 120, 40
 		m.layout()
@@ -142,8 +90,8 @@ func BenchmarkLivePTY(b *testing.B) {
 			if time.Now().After(deadline) {
 				b.Fatalf("link did not connect; state %q", m.status.st.State)
 			}
-			if msg, ok := p.wait(time.Time{})().(samplesMsg); ok {
-				m.takeFrame(msg.box)
+			if msg, ok := wait(p, time.Time{})().(samplesMsg); ok {
+				m.takeFrame(msg.snap)
 			}
 		}
 		g := newGenSource(b, n, 1e-4)
@@ -175,8 +123,8 @@ func BenchmarkLivePTY(b *testing.B) {
 func BenchmarkHourAt10k(b *testing.B) {
 	const n = 36_000_000
 	for i := 0; i < b.N; i++ {
-		p, err := NewReplay(ReplayOptions{Speed: 0, Path: "generated", SourceOptions: SourceOptions{NoAdvice: true},
-			open: func() (telemetry.Source, error) { return newGenSource(b, n, 1e-4), nil }})
+		p, err := live.NewReplay(live.ReplayOptions{Speed: 0, Path: "generated", Options: live.Options{NoAdvice: true},
+			Open: func() (telemetry.Source, error) { return newGenSource(b, n, 1e-4), nil }})
 		if err != nil {
 			b.Fatal(err)
 		}

@@ -41,7 +41,7 @@ func (m *ChartModel) SetSize(width, height int) { m.width, m.height = width, hei
 
 // Update takes summary snapshots.
 func (m ChartModel) Update(msg tea.Msg) (ChartModel, tea.Cmd) {
-	if msg, ok := msg.(snapshotMsg); ok && msg.summary != nil {
+	if msg, ok := msg.(frameMsg); ok && msg.summary != nil {
 		m.sum = msg.summary
 	}
 	return m, nil

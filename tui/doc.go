@@ -2,13 +2,12 @@
 // (plot, figures, advice, status, help and the chart views) that shows a live board, a
 // replayed capture or the built-in virtual board the same way.
 //
-// Data flows one way. A Pipeline goroutine reads lines from its source, parses them,
-// feeds every sample to the analysis accumulator (never dropping one) and leaves display
-// batches and summary snapshots in a mailbox; the screen's Model collects them with a
-// re-armed command at most about 30 times a second and redraws from that snapshot. The
-// advice, which simulates candidate designs, runs in a goroutine of its own.
+// The engine is package tui/live: a live.Pipeline reads its source, analyses every
+// sample and leaves a live.Snapshot (display points, events, summary, advice, counters);
+// the screen's Model takes it with a re-armed command at most about 30 times a second
+// and redraws from it. This package holds the models and views only.
 //
-//	p, err := tui.NewReplay(tui.ReplayOptions{Path: "bench.cap", Speed: 1})
+//	p, err := live.NewReplay(live.ReplayOptions{Path: "bench.cap", Speed: 1})
 //	if err != nil {
 //		return err
 //	}

@@ -7,11 +7,12 @@ import (
 	tea "github.com/charmbracelet/bubbletea"
 
 	"github.com/caploop/caploop/analysis"
+	"github.com/caploop/caploop/tui/live"
 )
 
-// Change is one deadband change sent from the screen, with the figures of the steady
-// segment before it and the newest figures after it.
-type Change struct {
+// DeadbandChange is one deadband change confirmed by the board, with the figures of the
+// steady segment before it and the newest figures after it.
+type DeadbandChange struct {
 	At       float64 // seconds, when the board confirmed
 	From, To float64 // deadband half-width, counts (From < 0: not known)
 	Before   *analysis.Segment
@@ -25,7 +26,7 @@ type Change struct {
 // compact under the trace or in full on its own view with a before/after table.
 type FiguresModel struct {
 	sum     *analysis.Summary
-	change  *Change
+	change  *DeadbandChange
 	width   int
 	height  int
 	compact bool
@@ -42,7 +43,7 @@ func (m *FiguresModel) SetSize(width, height int, compact bool) {
 // Update takes summary snapshots and deadband changes.
 func (m FiguresModel) Update(msg tea.Msg) (FiguresModel, tea.Cmd) {
 	switch msg := msg.(type) {
-	case snapshotMsg:
+	case frameMsg:
 		if msg.summary != nil {
 			m.sum = msg.summary
 		}
@@ -52,19 +53,6 @@ func (m FiguresModel) Update(msg tea.Msg) (FiguresModel, tea.Cmd) {
 		}
 	}
 	return m, nil
-}
-
-// currentSegment returns the newest segment with a steady part, or the newest one.
-func currentSegment(s *analysis.Summary) *analysis.Segment {
-	if s == nil || len(s.Segments) == 0 {
-		return nil
-	}
-	for i := len(s.Segments) - 1; i >= 0; i-- {
-		if s.Segments[i].SteadySamples > 0 {
-			return &s.Segments[i]
-		}
-	}
-	return &s.Segments[len(s.Segments)-1]
 }
 
 // View renders the block.
@@ -124,7 +112,7 @@ func (m FiguresModel) compactView() string {
 			fmtSI(p.VHighV, "V"), fmtCounts(p.NoiseRMSCounts))
 		return b.String()
 	}
-	seg := currentSegment(m.sum)
+	seg := live.CurrentSegment(m.sum)
 	if seg == nil {
 		return "figures: waiting for a steady segment…"
 	}
@@ -210,7 +198,7 @@ func rowsBlock(title string, rows [][2]string) string {
 }
 
 // compareBlock puts two segments' figures side by side with a title.
-func compareBlock(c *Change) string {
+func compareBlock(c *DeadbandChange) string {
 	before, after := segmentRows(c.Before), segmentRows(c.After)
 	var b strings.Builder
 	from := "?"
@@ -245,7 +233,7 @@ func (m FiguresModel) fullView() string {
 		}
 		return cmp
 	}
-	left := rowsBlock("current segment", segmentRows(currentSegment(m.sum)))
+	left := rowsBlock("current segment", segmentRows(live.CurrentSegment(m.sum)))
 	if showTracking(m.sum) {
 		left = rowsBlock("tracking (moving setpoint)", trackingRows(m.sum.Tracking))
 	}

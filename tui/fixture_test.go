@@ -7,6 +7,7 @@ import (
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/advice"
 	"github.com/caploop/caploop/analysis/loop"
+	"github.com/caploop/caploop/tui/live"
 )
 
 // The synthetic fixture: a bench reference made by the loop model (10-bit ADC, 5 V,
@@ -18,7 +19,7 @@ import (
 func fp(v float64) *float64 { return &v }
 func ip(v int) *int         { return &v }
 
-func fixturePoints(t testing.TB) []Point {
+func fixturePoints(t testing.TB) []live.Point {
 	t.Helper()
 	cfg := loop.Config{
 		Circuit:    loop.Circuit{Supply: 5, R: 47e3, C: 1e-6, Load: 1e6},
@@ -33,14 +34,14 @@ func fixturePoints(t testing.TB) []Point {
 		t.Fatalf("loop.New: %v", err)
 	}
 	lsb := 5.0 / 1024
-	var pts []Point
+	var pts []live.Point
 	for k := 0; k < 3000; k++ {
 		sp := 400
 		if k >= 1500 {
 			sp = 600
 		}
 		st := sim.Next(sp)
-		pts = append(pts, Point{T: float64(k) * 1e-3, SP: float32(float64(sp) * lsb), PV: float32(float64(st.PV) * lsb), DB: float32(2 * lsb), U: int8(st.U)})
+		pts = append(pts, live.Point{T: float64(k) * 1e-3, SP: float32(float64(sp) * lsb), PV: float32(float64(st.PV) * lsb), DB: float32(2 * lsb), U: int8(st.U)})
 	}
 	return pts
 }
@@ -109,21 +110,19 @@ func fixtureAdvice() *advice.Advice {
 // fixtureModel returns a screen at the given size holding the fixture.
 func fixtureModel(t testing.TB, width, height int) Model {
 	t.Helper()
-	p := newPipeline("bench.cap", 0, nil)
-	p.replay = true
-	p.canSend = true
-	p.sendFn = func(string) error { return nil }
+	p := live.NewIdle("bench.cap", live.IdleOptions{Replay: true, Send: func(string) error { return nil }})
+	t.Cleanup(func() { p.Close() })
 	m := New(p, Options{Span: 3})
 	mm, _ := m.Update(tea_WindowSize(width, height))
 	m = mm.(Model)
-	st := SourceStats{Name: "bench.cap", State: "playing", Samples: 3000, Rate: 1000, Rejected: 2, Gaps: 0, Speed: 1}
-	box := mailbox{
-		points:  fixturePoints(t),
-		events:  []Event{{T: 0.75, Kind: EventMark, Text: "fan on"}},
-		summary: fixtureSummary(),
-		advice:  fixtureAdvice(),
-		stats:   &st,
+	st := live.Stats{Name: "bench.cap", State: "playing", Samples: 3000, Rate: 1000, Rejected: 2, Gaps: 0, Speed: 1}
+	snap := live.Snapshot{
+		Points:  fixturePoints(t),
+		Events:  []live.Event{{T: 0.75, Kind: live.EventMark, Text: "fan on"}},
+		Summary: fixtureSummary(),
+		Advice:  fixtureAdvice(),
+		Stats:   &st,
 	}
-	mm, _ = m.Update(samplesMsg{src: p, box: box})
+	mm, _ = m.Update(samplesMsg{src: p, snap: snap})
 	return mm.(Model)
 }

@@ -9,6 +9,8 @@ import (
 	tea "github.com/charmbracelet/bubbletea"
 	"github.com/charmbracelet/x/ansi"
 	"github.com/charmbracelet/x/exp/golden"
+
+	"github.com/caploop/caploop/tui/live"
 )
 
 func tea_WindowSize(w, h int) tea.WindowSizeMsg { return tea.WindowSizeMsg{Width: w, Height: h} }
@@ -27,9 +29,9 @@ func confirmChange(t testing.TB, m Model) Model {
 	seg.SwitchingHz, seg.LimitCyclePeriodS = fp(12.5), fp(0.081)
 	sum.Segments = append(sum.Segments, seg)
 	before := fixtureSummary().Segments[1]
-	box := mailbox{events: []Event{{T: 2.9, Kind: EventDeadband, Text: "deadband 2→4", Value: 4, Segment: &before, SegStartS: before.StartS}}}
-	mm, _ := m.Update(samplesMsg{src: m.src, box: box})
-	mm, _ = mm.(Model).Update(samplesMsg{src: m.src, box: mailbox{summary: &sum}})
+	snap := live.Snapshot{Events: []live.Event{{T: 2.9, Kind: live.EventDeadband, Text: "deadband 2→4", Value: 4, Segment: &before, SegStartS: before.StartS}}}
+	mm, _ := m.Update(samplesMsg{src: m.src, snap: snap})
+	mm, _ = mm.(Model).Update(samplesMsg{src: m.src, snap: live.Snapshot{Summary: &sum}})
 	return mm.(Model)
 }
 
@@ -50,6 +52,10 @@ func press(t testing.TB, m Model, keys ...string) Model {
 			msg = tea.KeyMsg{Type: tea.KeyRight}
 		case " ":
 			msg = tea.KeyMsg{Type: tea.KeySpace, Runes: []rune{' '}}
+		case "home":
+			msg = tea.KeyMsg{Type: tea.KeyHome}
+		case "S-tab":
+			msg = tea.KeyMsg{Type: tea.KeyShiftTab}
 		default:
 			msg = tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune(k)}
 		}
@@ -89,7 +95,8 @@ func TestViews(t *testing.T) {
 		{"help", []string{"?"}},
 		{"zoomed_back", []string{"+", "+", "left"}},
 		{"confirm", []string{"d"}},
-		{"note", []string{"m", "f", "a", "n"}},
+		{"note", []string{"<live>", "m", "f", "a", "n"}},
+		{"help_live", []string{"<live>", "?"}},
 		{"after_change", []string{"d", "y", "<change>", "2"}},
 		{"after_change_trace", []string{"d", "y", "<change>"}},
 	}
@@ -98,6 +105,10 @@ func TestViews(t *testing.T) {
 			t.Run(fmt.Sprintf("%dx%d/%s", sz[0], sz[1], v.name), func(t *testing.T) {
 				m := fixtureModel(t, sz[0], sz[1])
 				for _, k := range v.keys {
+					if k == "<live>" {
+						m = liveFixtureSized(t, sz[0], sz[1])
+						continue
+					}
 					if k == "<change>" {
 						m = confirmChange(t, m)
 						continue
@@ -117,9 +128,9 @@ func TestViews(t *testing.T) {
 // rate, which depends on the machine, is zeroed for golden comparisons.
 func replayToEnd(t *testing.T, path string, width, height int, withAdvice bool) Model {
 	t.Helper()
-	p, err := NewReplay(ReplayOptions{Path: path, Speed: 0, SourceOptions: SourceOptions{NoAdvice: !withAdvice}})
+	p, err := live.NewReplay(live.ReplayOptions{Path: path, Speed: 0, Options: live.Options{NoAdvice: !withAdvice}})
 	if err != nil {
-		t.Fatalf("NewReplay: %v", err)
+		t.Fatalf("live.NewReplay: %v", err)
 	}
 	t.Cleanup(func() { p.Close() })
 	m := New(p, Options{Span: 2})
@@ -131,11 +142,11 @@ func replayToEnd(t *testing.T, path string, width, height int, withAdvice bool) 
 		if time.Now().After(deadline) {
 			t.Fatalf("replay of %s did not end in 30 s", path)
 		}
-		msg := p.wait(last)()
+		msg := wait(p, last)()
 		last = time.Now()
 		switch msg := msg.(type) {
 		case samplesMsg:
-			m.takeFrame(msg.box)
+			m.takeFrame(msg.snap)
 		case sourceErrMsg:
 			t.Fatalf("replay: %v", msg.err)
 		case sourceDoneMsg:

@@ -1,26 +1,20 @@
 package tui
 
 import (
-	"errors"
 	"fmt"
 	"math"
-	"strconv"
 	"strings"
 	"time"
 
 	"github.com/charmbracelet/bubbles/help"
-	"github.com/charmbracelet/bubbles/key"
 	tea "github.com/charmbracelet/bubbletea"
 	"github.com/charmbracelet/lipgloss"
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/advice"
 	"github.com/caploop/caploop/telemetry"
+	"github.com/caploop/caploop/tui/live"
 )
-
-var errNoSend = errors.New("tui: this source does not take commands")
-
-func ftoa(v float64) string { return strconv.FormatFloat(v, 'f', -1, 64) }
 
 // View is one screen of the bench screen.
 type View int
@@ -44,17 +38,17 @@ func (v View) String() string { return viewNames[v] }
 type Options struct {
 	Color   bool          // colour the plot and the header (false honours NO_COLOR)
 	Span    float64       // initial time window, s (0 = 2 s)
-	Retain  int           // points kept for scrolling back (0 = DefaultRetain)
+	Retain  int           // points kept for scrolling back (0 = live.DefaultRetain)
 	Timeout time.Duration // how long to wait for the board to confirm a command (0 = 5 s)
 }
 
-// snapshotMsg is what the root model forwards to its children after each frame.
-type snapshotMsg struct {
+// frameMsg is what the root model forwards to its children after each frame.
+type frameMsg struct {
 	summary   *analysis.Summary
 	advice    *advice.Advice
 	adviceErr string
-	stats     *SourceStats
-	change    *Change
+	stats     *live.Stats
+	change    *DeadbandChange
 }
 
 // confirmTimeoutMsg fires when the board did not answer a command in time.
@@ -75,11 +69,11 @@ type pendingChange struct {
 // Model is the bench screen: the root bubbletea model that owns the small models and
 // the retained window of points.
 type Model struct {
-	src  *Pipeline
+	src  *live.Pipeline
 	opts Options
 	keys KeyMap
 	help help.Model
-	mode Mode
+	held bool // the screen is held: a replay holds, a live plot freezes
 	view View
 	full bool // full help shown
 	plot PlotModel
@@ -92,11 +86,12 @@ type Model struct {
 	charts  [3]ChartModel
 
 	sum     *analysis.Summary
-	confirm int // deadband waiting for y/n; 0 = none
+	confirm int  // deadband waiting for y/n; 0 = none
+	tenth   bool // j was pressed: a digit picks the tenth of the capture to jump to
 	noting  bool
 	note    []rune
 	pending *pendingChange
-	change  *Change
+	change  *DeadbandChange
 	nextID  int
 	message string
 	ended   bool
@@ -106,12 +101,12 @@ type Model struct {
 }
 
 // New returns the screen for a pipeline.
-func New(src *Pipeline, opts Options) Model {
+func New(src *live.Pipeline, opts Options) Model {
 	if opts.Span <= 0 {
 		opts.Span = 2
 	}
 	if opts.Retain <= 0 {
-		opts.Retain = DefaultRetain
+		opts.Retain = live.DefaultRetain
 	}
 	if opts.Timeout <= 0 {
 		opts.Timeout = 5 * time.Second
@@ -131,20 +126,21 @@ func New(src *Pipeline, opts Options) Model {
 		speeds:  []float64{1, 2, 10, 0},
 	}
 	if src.Replay() {
-		m.mode = ModeReplay
+		m.held = src.Held()
+		m.status.SetHeld(m.held)
 		for i, v := range m.speeds {
-			if v == src.speed || (v > 0 && src.speed > v) {
+			if v == src.Speed() || (v > 0 && src.Speed() > v) {
 				m.speedIx = i
 			}
 		}
 	}
-	m.keys.SetMode(m.mode, src.Replay(), src.CanSend())
+	m.keys.SetState(m.held, src.Replay(), src.CanSend())
 	m.layout()
 	return m
 }
 
 // Init starts waiting for the source.
-func (m Model) Init() tea.Cmd { return m.src.wait(time.Time{}) }
+func (m Model) Init() tea.Cmd { return wait(m.src, time.Time{}) }
 
 // Ring returns the retained window (for tests and benchmarks).
 func (m Model) Ring() *Ring { return m.plot.ring }
@@ -173,10 +169,10 @@ func (m *Model) layout() {
 	}
 }
 
-func (m *Model) setMode(mode Mode) {
-	m.mode = mode
-	m.status.SetMode(mode)
-	m.keys.SetMode(mode, m.src.Replay(), m.src.CanSend())
+func (m *Model) setHeld(held bool) {
+	m.held = held
+	m.status.SetHeld(held)
+	m.keys.SetState(held, m.src.Replay(), m.src.CanSend())
 	if m.confirm != 0 {
 		m.keys.SetConfirming(true)
 	}
@@ -193,20 +189,20 @@ func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
 		if msg.src != m.src {
 			return m, nil
 		}
-		cmd := m.takeFrame(msg.box)
+		cmd := m.takeFrame(msg.snap)
 		m.last = time.Now()
-		return m, tea.Batch(cmd, m.src.wait(m.last))
+		return m, tea.Batch(cmd, wait(m.src, m.last))
 	case sourceErrMsg:
 		m.message = "source: " + telemetry.Sanitize([]byte(msg.err.Error()))
 		m.ended = true
 		if m.src.Replay() {
-			return m, m.src.wait(time.Now())
+			return m, wait(m.src, time.Now())
 		}
 		return m, nil
 	case sourceDoneMsg:
 		m.ended = true
 		if m.src.Replay() {
-			return m, m.src.wait(time.Now())
+			return m, wait(m.src, time.Now())
 		}
 		return m, nil
 	case sentMsg:
@@ -227,38 +223,38 @@ func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
 	return m, nil
 }
 
-// takeFrame applies one mailbox to the model.
-func (m *Model) takeFrame(b mailbox) tea.Cmd {
-	if b.reset {
+// takeFrame applies one snapshot of the pipeline to the model.
+func (m *Model) takeFrame(b live.Snapshot) tea.Cmd {
+	if b.Reset {
 		m.change, m.pending = nil, nil
 	}
 	var marks []Mark
-	for _, e := range b.events {
+	for _, e := range b.Events {
 		if mk, ok := m.event(e); ok {
 			marks = append(marks, mk)
 		}
 	}
-	m.plot, _ = m.plot.Update(pointsMsg{points: b.points, marks: marks, reset: b.reset})
-	if b.summary != nil {
-		m.sum = b.summary
+	m.plot, _ = m.plot.Update(pointsMsg{points: b.Points, marks: marks, reset: b.Reset})
+	if b.Summary != nil {
+		m.sum = b.Summary
 		if m.change != nil {
-			m.change.After = afterSegment(b.summary, m.change)
+			m.change.After = afterSegment(b.Summary, m.change)
 		}
 	}
-	if b.stats != nil {
-		st := *b.stats
-		st.Dropped = b.dropped
-		b.stats = &st
+	if b.Stats != nil {
+		st := *b.Stats
+		st.Dropped = b.Dropped
+		b.Stats = &st
 	}
-	if b.done {
+	if b.Done {
 		m.ended = true
-	} else if len(b.points) > 0 {
+	} else if len(b.Points) > 0 {
 		m.ended = false
 	}
-	if b.err != nil {
-		m.message = "source: " + telemetry.Sanitize([]byte(b.err.Error()))
+	if b.Err != nil {
+		m.message = "source: " + telemetry.Sanitize([]byte(b.Err.Error()))
 	}
-	snap := snapshotMsg{summary: b.summary, advice: b.advice, adviceErr: b.adviceErr, stats: b.stats, change: m.change}
+	snap := frameMsg{summary: b.Summary, advice: b.Advice, adviceErr: b.AdviceErr, stats: b.Stats, change: m.change}
 	m.plot, _ = m.plot.Update(snap)
 	m.figures, _ = m.figures.Update(snap)
 	m.advice, _ = m.advice.Update(snap)
@@ -273,7 +269,7 @@ func (m *Model) takeFrame(b mailbox) tea.Cmd {
 // segments that started after the change (so none of their samples ran under the old
 // band) and have a steady part, the newest with the setpoint of the "before" segment,
 // else the newest one. Nil while there is none yet.
-func afterSegment(s *analysis.Summary, c *Change) *analysis.Segment {
+func afterSegment(s *analysis.Summary, c *DeadbandChange) *analysis.Segment {
 	var best *analysis.Segment
 	for i := len(s.Segments) - 1; i >= 0; i-- {
 		seg := &s.Segments[i]
@@ -299,29 +295,29 @@ func afterSegment(s *analysis.Summary, c *Change) *analysis.Segment {
 }
 
 // event applies one source event and returns the mark it puts on the plot, if any.
-func (m *Model) event(e Event) (Mark, bool) {
+func (m *Model) event(e live.Event) (Mark, bool) {
 	switch e.Kind {
-	case EventMark:
+	case live.EventMark:
 		return Mark{T: e.T, Label: cut(e.Text, 20)}, true
-	case EventState:
+	case live.EventState:
 		m.message = "link: " + e.Text
 		return Mark{T: e.T, Label: cut(e.Text, 12)}, true
-	case EventNote:
+	case live.EventNote:
 		return Mark{T: e.T, Label: cut(e.Text, 16)}, true
-	case EventInfo:
+	case live.EventInfo:
 		m.message = e.Text
-	case EventSent:
+	case live.EventSent:
 		if e.Text == "info" {
 			m.message = "asked the board for its settings (info)"
 		} else {
 			m.message = "sent: " + e.Text
 		}
-	case EventDeadband:
+	case live.EventDeadband:
 		from := -1.0
 		if e.Segment != nil && e.Segment.DeadbandCounts != nil {
 			from = *e.Segment.DeadbandCounts
 		}
-		m.change = &Change{At: e.T, From: from, To: e.Value, Before: e.Segment, CutS: e.SegStartS}
+		m.change = &DeadbandChange{At: e.T, From: from, To: e.Value, Before: e.Segment, CutS: e.SegStartS}
 		if m.pending != nil && int(math.Round(e.Value)) == m.pending.to {
 			m.message = fmt.Sprintf("the board confirmed deadband %d; figures before and after on view 2", m.pending.to)
 			m.pending = nil
@@ -329,6 +325,15 @@ func (m *Model) event(e Event) (Mark, bool) {
 			m.message = "the board reports " + e.Text + "; figures before and after on view 2"
 		}
 		return Mark{T: e.T, Label: "db " + strings.TrimPrefix(e.Text, "deadband ")}, true
+	case live.EventJump:
+		switch {
+		case e.Value < 0:
+			m.message = e.Text
+		case e.Text == "fraction":
+			m.message = "jumped to " + formatSeconds(e.Value)
+		default:
+			m.message = "jumped to the " + e.Text + " at " + formatSeconds(e.Value)
+		}
 	}
 	return Mark{}, false
 }
@@ -339,170 +344,6 @@ func cut(s string, n int) string {
 		return string(r[:n-1]) + "…"
 	}
 	return s
-}
-
-func (m Model) key(msg tea.KeyMsg) (tea.Model, tea.Cmd) {
-	// Keys typed quickly (or sent by a script) arrive as one message with several runes:
-	// outside the note prompt, take them one at a time.
-	if msg.Type == tea.KeyRunes && len(msg.Runes) > 1 && !msg.Paste && !m.noting {
-		var cmds []tea.Cmd
-		var mm tea.Model = m
-		for _, r := range msg.Runes {
-			var cmd tea.Cmd
-			mm, cmd = mm.(Model).key(tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune{r}})
-			cmds = append(cmds, cmd)
-		}
-		return mm, tea.Batch(cmds...)
-	}
-	if m.noting {
-		switch msg.Type {
-		case tea.KeyEnter:
-			m.noting = false
-			note := telemetry.Sanitize([]byte(strings.TrimSpace(string(m.note))))
-			if note == "" {
-				note = "mark"
-			}
-			m.note = nil
-			t := m.plot.Latest()
-			m.plot, _ = m.plot.Update(pointsMsg{marks: []Mark{{T: t, Label: cut(note, 20)}}})
-			m.message = "marked " + formatSeconds(t) + ": " + note
-			src := m.src
-			return m, func() tea.Msg {
-				if err := src.Mark(note); err != nil {
-					return sentMsg{cmd: "mark", err: err}
-				}
-				return nil
-			}
-		case tea.KeyEsc:
-			m.noting = false
-			m.note = nil
-			return m, nil
-		case tea.KeyCtrlC:
-			return m, tea.Quit
-		case tea.KeyBackspace:
-			if len(m.note) > 0 {
-				m.note = m.note[:len(m.note)-1]
-			}
-		case tea.KeyRunes, tea.KeySpace:
-			if len(m.note)+len(msg.Runes) <= 60 {
-				m.note = append(m.note, msg.Runes...)
-			}
-		}
-		return m, nil
-	}
-	if m.confirm != 0 {
-		switch {
-		case key.Matches(msg, m.keys.Confirm):
-			return m.sendDeadband()
-		case key.Matches(msg, m.keys.Quit) && msg.String() == "ctrl+c":
-			return m, tea.Quit
-		default:
-			m.confirm = 0
-			m.keys.SetConfirming(false)
-			m.message = "not sent"
-			return m, nil
-		}
-	}
-	k := m.keys
-	switch {
-	case key.Matches(msg, k.Quit):
-		return m, tea.Quit
-	case key.Matches(msg, k.Help):
-		m.full = !m.full
-	case key.Matches(msg, k.Pause):
-		m.togglePause()
-	case key.Matches(msg, k.ZoomIn):
-		m.plot.Zoom(0.5)
-	case key.Matches(msg, k.ZoomOut):
-		m.plot.Zoom(2)
-	case key.Matches(msg, k.Back):
-		m.plot.Scroll(-0.25, m.mode == ModePaused)
-	case key.Matches(msg, k.Forward):
-		m.plot.Scroll(0.25, m.mode == ModePaused)
-	case key.Matches(msg, k.Latest):
-		m.plot.Follow()
-	case key.Matches(msg, k.NextView):
-		m.view = (m.view + 1) % numViews
-		m.layout()
-	case key.Matches(msg, k.PrevView):
-		m.view = (m.view + numViews - 1) % numViews
-		m.layout()
-	case key.Matches(msg, k.Trace), key.Matches(msg, k.Figures), key.Matches(msg, k.Spread),
-		key.Matches(msg, k.Ripple), key.Matches(msg, k.Step):
-		m.view = View(msg.Runes[0] - '1')
-		m.layout()
-	case key.Matches(msg, k.Apply):
-		n, ok := m.advice.Suggested()
-		if !ok {
-			m.message = "no suggested deadband yet"
-			return m, nil
-		}
-		if m.pending != nil {
-			m.message = "still waiting for the board to confirm the last change"
-			return m, nil
-		}
-		m.confirm = n
-		m.keys.SetConfirming(true)
-		m.message = fmt.Sprintf("send \"set deadband=%d\" to the board? y/n", n)
-	case key.Matches(msg, k.Mark):
-		m.noting = true
-		m.note = nil
-		return m, nil
-	case key.Matches(msg, k.Faster):
-		m.setSpeed(+1)
-	case key.Matches(msg, k.Slower):
-		m.setSpeed(-1)
-	case key.Matches(msg, k.StepOnce):
-		m.src.control(control{step: m.plot.Span() / 10})
-	case key.Matches(msg, k.SeekBack):
-		m.src.control(control{seek: -10})
-		m.plot.Follow()
-	case key.Matches(msg, k.SeekAhead):
-		m.src.control(control{seek: 10})
-		m.plot.Follow()
-	}
-	return m, nil
-}
-
-func (m Model) sendDeadband() (tea.Model, tea.Cmd) {
-	n := m.confirm
-	m.confirm = 0
-	m.keys.SetConfirming(false)
-	m.nextID++
-	m.pending = &pendingChange{id: m.nextID, to: n}
-	cmd := fmt.Sprintf("set deadband=%d", n)
-	m.message = "sent \"" + cmd + "\", waiting for the board…"
-	src, id, timeout := m.src, m.nextID, m.opts.Timeout
-	return m, tea.Batch(
-		func() tea.Msg { return sentMsg{cmd: cmd, err: src.Send(cmd)} },
-		tea.Tick(timeout, func(time.Time) tea.Msg { return confirmTimeoutMsg{id: id} }),
-	)
-}
-
-func (m *Model) togglePause() {
-	if m.mode == ModePaused {
-		if m.src.Replay() {
-			m.src.control(control{pause: -1})
-			m.setMode(ModeReplay)
-		} else {
-			m.setMode(ModeLive)
-		}
-		m.plot.Follow()
-		return
-	}
-	if m.src.Replay() {
-		// The playback holds; the plot keeps following it so steps show.
-		m.src.control(control{pause: 1})
-	} else {
-		// The board keeps sending and the analysis keeps every sample; the plot freezes.
-		m.plot.Freeze()
-	}
-	m.setMode(ModePaused)
-}
-
-func (m *Model) setSpeed(d int) {
-	m.speedIx = min(max(m.speedIx+d, 0), len(m.speeds)-1)
-	m.src.control(control{speed: m.speeds[m.speedIx], setSpeed: true})
 }
 
 // View draws the screen: header, body of the current view, message, status, help.

@@ -8,11 +8,13 @@ import (
 	tea "github.com/charmbracelet/bubbletea"
 	"github.com/charmbracelet/x/ansi"
 	"github.com/guptarohit/asciigraph"
+
+	"github.com/caploop/caploop/tui/live"
 )
 
 // pointsMsg carries new points and marks to the plot; reset empties it first.
 type pointsMsg struct {
-	points []Point
+	points []live.Point
 	marks  []Mark
 	reset  bool
 }
@@ -25,9 +27,9 @@ const maxMarks = 256
 type PlotModel struct {
 	ring   *Ring
 	marks  []Mark
-	buf    *[]Point // reused across frames (the model is copied by value)
-	span   float64  // seconds shown
-	end    float64  // right edge when not following the newest point
+	buf    *[]live.Point // reused across frames (the model is copied by value)
+	span   float64       // seconds shown
+	end    float64       // right edge when not following the newest point
 	follow bool
 	volts  bool
 	color  bool
@@ -37,7 +39,7 @@ type PlotModel struct {
 
 // NewPlot returns a plot that retains retain points and shows span seconds.
 func NewPlot(retain int, span float64, color bool) PlotModel {
-	return PlotModel{ring: NewRing(retain), buf: new([]Point), span: span, follow: true, color: color}
+	return PlotModel{ring: NewRing(retain), buf: new([]live.Point), span: span, follow: true, color: color}
 }
 
 // SetSize sets the plot size in cells.
@@ -61,7 +63,7 @@ func (m PlotModel) Update(msg tea.Msg) (PlotModel, tea.Cmd) {
 		if len(m.marks) > maxMarks {
 			m.marks = append(m.marks[:0:0], m.marks[len(m.marks)-maxMarks/2:]...)
 		}
-	case snapshotMsg:
+	case frameMsg:
 		if s := msg.summary; s != nil {
 			if s.Traces != nil {
 				m.volts = s.Traces.Volts
@@ -154,12 +156,12 @@ func (m PlotModel) View() string {
 // decimate appends to dst the points of r in [from, to), keeping for each of cols equal
 // time columns only its lowest-pv and highest-pv points (in time order), so the plot of
 // the result equals the plot of all points while the work per frame stays bounded.
-func decimate(r *Ring, from, to float64, cols int, dst []Point) []Point {
+func decimate(r *Ring, from, to float64, cols int, dst []live.Point) []live.Point {
 	i := r.Search(from)
 	n := r.Len()
 	span := to - from
 	cur := -1
-	var lo, hi Point
+	var lo, hi live.Point
 	var loI, hiI int
 	emit := func() {
 		if cur < 0 {
@@ -197,14 +199,14 @@ func decimate(r *Ring, from, to float64, cols int, dst []Point) []Point {
 
 // Mark is a moment shown on the plot as a dotted vertical line with a short label.
 type Mark struct {
-	T     float64 // seconds, same clock as Point.T
+	T     float64 // seconds, same clock as live.Point.T
 	Label string  // sanitised, short
 }
 
 // Window is what one plot shows: the points of a time span, the marks in it and the units.
 type Window struct {
-	From, To float64 // time span, s
-	Points   []Point // in time order, inside [From, To)
+	From, To float64      // time span, s
+	Points   []live.Point // in time order, inside [From, To)
 	Marks    []Mark
 	Volts    bool // values are volts (else counts)
 	Color    bool // colour the series (false under NO_COLOR and in golden tests)

@@ -1,20 +1,11 @@
 package tui
 
-// Point is one sample as the screen keeps it: time in seconds from the start of the
-// source, setpoint, measurement and deadband half-width in display units (volts, or
-// counts when the board did not say its reference), and the drive.
-type Point struct {
-	T  float64
-	SP float32
-	PV float32
-	DB float32 // half-width of the band around SP; negative when unknown
-	U  int8
-}
+import "github.com/caploop/caploop/tui/live"
 
 // Ring is a fixed-capacity buffer of the newest points: the retained window the plot can
 // scroll back through. Memory is capacity * 24 bytes whatever the session length.
 type Ring struct {
-	buf   []Point
+	buf   []live.Point
 	start int // index of the oldest point
 	n     int
 }
@@ -24,7 +15,7 @@ func NewRing(capacity int) *Ring {
 	if capacity < 16 {
 		capacity = 16
 	}
-	return &Ring{buf: make([]Point, capacity)}
+	return &Ring{buf: make([]live.Point, capacity)}
 }
 
 // Cap returns the capacity.
@@ -37,7 +28,7 @@ func (r *Ring) Len() int { return r.n }
 func (r *Ring) Reset() { r.start, r.n = 0, 0 }
 
 // Push appends p, dropping the oldest point when full.
-func (r *Ring) Push(p Point) {
+func (r *Ring) Push(p live.Point) {
 	if r.n < len(r.buf) {
 		r.buf[(r.start+r.n)%len(r.buf)] = p
 		r.n++
@@ -48,7 +39,7 @@ func (r *Ring) Push(p Point) {
 }
 
 // At returns the i-th point, 0 being the oldest. It panics when i is out of range.
-func (r *Ring) At(i int) Point {
+func (r *Ring) At(i int) live.Point {
 	if i < 0 || i >= r.n {
 		panic("tui: ring index out of range")
 	}
@@ -56,9 +47,9 @@ func (r *Ring) At(i int) Point {
 }
 
 // Last returns the newest point and whether there is one.
-func (r *Ring) Last() (Point, bool) {
+func (r *Ring) Last() (live.Point, bool) {
 	if r.n == 0 {
-		return Point{}, false
+		return live.Point{}, false
 	}
 	return r.At(r.n - 1), true
 }
@@ -79,7 +70,7 @@ func (r *Ring) Search(t float64) int {
 }
 
 // Slice appends the points with from <= T < to to dst and returns it.
-func (r *Ring) Slice(dst []Point, from, to float64) []Point {
+func (r *Ring) Slice(dst []live.Point, from, to float64) []live.Point {
 	for i := r.Search(from); i < r.n; i++ {
 		p := r.At(i)
 		if p.T >= to {

@@ -13,6 +13,7 @@ import (
 
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/wire"
+	"github.com/caploop/caploop/tui/live"
 )
 
 // TestResize checks that every view fills the terminal exactly through a series of
@@ -93,63 +94,73 @@ func TestUntrustedText(t *testing.T) {
 
 func isValidUTF8(s string) bool { return strings.ToValidUTF8(s, "\uFFFD") == s }
 
-// TestReplayControls drives a replay: held at the start, stepped, run at max speed,
-// sought back to the start.
+// TestReplayControls drives a replay: held at the start (the first space runs it),
+// advanced while held, run at max speed, rewound after its end.
 func TestReplayControls(t *testing.T) {
 	const n = 20000 // 2 s at 10 kS/s
-	p, err := NewReplay(ReplayOptions{Path: "generated", Speed: 1, Paused: true,
-		open: func() (telemetry.Source, error) { return newGenSource(t, n, 1e-4), nil }})
+	p, err := live.NewReplay(live.ReplayOptions{Path: "generated", Speed: 1, Paused: true,
+		Open: func() (telemetry.Source, error) { return newGenSource(t, n, 1e-4), nil }})
 	if err != nil {
 		t.Fatal(err)
 	}
 	defer p.Close()
 	m := New(p, Options{Span: 0.5})
-	last := time.Time{}
-	frame := func() {
-		t.Helper()
-		switch msg := p.wait(last)().(type) {
-		case samplesMsg:
-			m.takeFrame(msg.box)
-		case sourceErrMsg:
-			t.Fatalf("replay: %v", msg.err)
-		}
-		last = time.Now()
+	if !m.held || !strings.HasPrefix(m.status.View(), "HELD") {
+		t.Errorf("a replay started held shows %q", m.status.View())
 	}
-	waitUntil := func(what string, ok func() bool) {
-		t.Helper()
-		for deadline := time.Now().Add(10 * time.Second); !ok(); frame() {
-			if time.Now().After(deadline) {
-				t.Fatalf("%s: not reached; status %+v", what, m.status.st)
-			}
-		}
-	}
-	waitUntil("held at the start", func() bool { return strings.HasPrefix(m.status.st.State, "held") })
+	pump := framePump(t, &m)
+	pump("held at the start", func() bool { return m.status.st.State == live.StateHeld })
 	if got := m.status.st.Samples; got > 1 {
 		t.Fatalf("held replay analysed %d samples, want at most 1", got)
 	}
-	m.mode = ModePaused
-	m.keys.SetMode(ModePaused, true, false)
-	m = press(t, m, "n") // one step: a tenth of the 0.5 s window
-	waitUntil("step of 50 ms", func() bool { return m.status.st.Position >= 0.05 })
+	m = press(t, m, "n") // advance a tenth of the 0.5 s window
+	pump("advance of 50 ms", func() bool { return m.status.st.Position >= 0.05 })
 	time.Sleep(100 * time.Millisecond)
-	frame()
+	pump("a frame", func() bool { return true })
 	if pos := m.status.st.Position; pos > 0.06 {
-		t.Errorf("after one step the replay is at %.3f s, want 0.05 s and held", pos)
+		t.Errorf("after one advance the replay is at %.3f s, want 0.05 s and held", pos)
 	}
-	m = press(t, m, "]", "]", "]", " ") // max speed, run
-	waitUntil("end", func() bool { return m.status.st.State == "ended" })
+	m = press(t, m, "x", "x", "x", " ") // max speed, run: one space from a held start
+	if m.held {
+		t.Fatal("the first space did not run a replay started held")
+	}
+	pump("end", func() bool { return m.status.st.State == live.StateEnded })
 	if got := m.status.st.Samples; got != n {
 		t.Errorf("samples analysed = %d, want %d", got, n)
 	}
 	if m.status.st.Speed != 0 {
 		t.Errorf("speed = %g, want 0 (max)", m.status.st.Speed)
 	}
-	m = press(t, m, "[", "[", "[", ",") // real time, then 10 s back: the start
-	waitUntil("restart", func() bool { return m.status.st.State != "ended" && m.plot.ring.Len() < n })
-	m = press(t, m, "]", "]", "]") // max speed to the end
-	waitUntil("end again", func() bool { return m.status.st.State == "ended" && m.status.st.Samples == n })
+	m = press(t, m, "X", "X", "X", "home") // real time, rewind after the end
+	pump("restart", func() bool { return m.status.st.State != live.StateEnded && m.plot.ring.Len() < n })
+	m = press(t, m, "x", "x", "x") // max speed to the end
+	pump("end again", func() bool { return m.status.st.State == live.StateEnded && m.status.st.Samples == n })
 	if got := m.plot.ring.Len(); got != n {
-		t.Errorf("points after seeking back and replaying = %d, want %d (no duplicates)", got, n)
+		t.Errorf("points after rewinding and replaying = %d, want %d (no duplicates)", got, n)
+	}
+}
+
+// framePump returns a function that applies the pipeline's frames to *m until ok holds,
+// failing after 10 s.
+func framePump(t *testing.T, m *Model) func(what string, ok func() bool) {
+	last := time.Time{}
+	return func(what string, ok func() bool) {
+		t.Helper()
+		for deadline := time.Now().Add(10 * time.Second); ; {
+			switch msg := wait(m.src, last)().(type) {
+			case samplesMsg:
+				m.takeFrame(msg.snap)
+			case sourceErrMsg:
+				t.Fatalf("replay: %v", msg.err)
+			}
+			last = time.Now()
+			if ok() {
+				return
+			}
+			if time.Now().After(deadline) {
+				t.Fatalf("%s: not reached; status %+v", what, m.status.st)
+			}
+		}
 	}
 }
 
@@ -162,15 +173,15 @@ func TestMarkRecorded(t *testing.T) {
 	}
 	defer pt.Close()
 	rec := filepath.Join(t.TempDir(), "marks.cap")
-	p := NewLive(LiveOptions{Serial: wire.SerialConfig{Path: pt.Path()}, Record: rec, SourceOptions: SourceOptions{NoAdvice: true}})
+	p := live.NewPort(live.PortOptions{Serial: wire.SerialConfig{Path: pt.Path()}, Record: rec, Options: live.Options{NoAdvice: true}})
 	m := New(p, Options{})
 	last := time.Time{}
 	for deadline := time.Now().Add(5 * time.Second); m.status.st.State != "connected"; {
 		if time.Now().After(deadline) {
 			t.Fatalf("link did not connect; state %q", m.status.st.State)
 		}
-		if msg, ok := p.wait(last)().(samplesMsg); ok {
-			m.takeFrame(msg.box)
+		if msg, ok := wait(p, last)().(samplesMsg); ok {
+			m.takeFrame(msg.snap)
 		}
 		last = time.Now()
 	}
@@ -179,8 +190,8 @@ func TestMarkRecorded(t *testing.T) {
 		if time.Now().After(deadline) {
 			t.Fatalf("samples %d, capture size %d after 5 s", m.status.st.Samples, m.status.st.RecordBytes)
 		}
-		if msg, ok := p.wait(last)().(samplesMsg); ok {
-			m.takeFrame(msg.box)
+		if msg, ok := wait(p, last)().(samplesMsg); ok {
+			m.takeFrame(msg.snap)
 		}
 		last = time.Now()
 	}
@@ -228,49 +239,9 @@ func TestKeysInOneMessage(t *testing.T) {
 	if m.plot.span != 0.75 {
 		t.Errorf("span after \"++\" = %g s, want 0.75 s (3 s halved twice)", m.plot.span)
 	}
-	mm, _ = m.Update(tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("mfan")})
+	mm, _ = liveFixture(t).Update(tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("mfan")})
 	m = mm.(Model)
 	if !m.noting || string(m.note) != "fan" {
 		t.Errorf("after \"mfan\": noting %v, note %q; want true, \"fan\"", m.noting, string(m.note))
-	}
-}
-
-// TestReplayBoardReset replays, in real time, a plain file whose board clock restarts
-// (a reset: t goes back, which the parser reads as a wrap of the 32-bit clock, 71 min
-// ahead). The replay must not sit through the false gap, and the plot's clock goes on.
-func TestReplayBoardReset(t *testing.T) {
-	path := filepath.Join(t.TempDir(), "reset.txt")
-	var b strings.Builder
-	b.WriteString("# vref=5 adc_bits=10 period_us=1000 mode=three-state deadband=4\n")
-	for run := 0; run < 2; run++ {
-		for k := 0; k < 200; k++ {
-			fmt.Fprintf(&b, "t=%d sp=400 pv=%d u=0\n", 5000+k*1000, 399+k%3)
-		}
-	}
-	if err := os.WriteFile(path, []byte(b.String()), 0o600); err != nil {
-		t.Fatal(err)
-	}
-	p, err := NewReplay(ReplayOptions{Path: path, Speed: 1, SourceOptions: SourceOptions{NoAdvice: true}})
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer p.Close()
-	m := New(p, Options{})
-	start := time.Now()
-	last := time.Time{}
-	for !m.ended {
-		if time.Since(start) > 5*time.Second {
-			t.Fatalf("replay of 0.4 s of data still running after 5 s: %+v", m.status.st)
-		}
-		if msg, ok := p.wait(last)().(samplesMsg); ok {
-			m.takeFrame(msg.box)
-		}
-		last = time.Now()
-	}
-	if got := m.plot.Latest(); got > 1 {
-		t.Errorf("last point at %.3f s on the screen's clock, want under 1 s (the reset is no gap)", got)
-	}
-	if got := m.plot.ring.Len(); got != 400 {
-		t.Errorf("points = %d, want 400", got)
 	}
 }

@@ -5,28 +5,14 @@ import (
 	"strings"
 
 	tea "github.com/charmbracelet/bubbletea"
-)
 
-// SourceStats are the counters of a source the status line shows.
-type SourceStats struct {
-	Name        string  // source name: port path, file name, "virtual board"
-	State       string  // "connected", "unplugged", "reconnecting", "playing", "ended"...
-	Samples     int64   // samples analysed
-	Rate        float64 // samples per second, recent
-	Rejected    int64   // rejected lines
-	Gaps        int64   // missing samples seen from t or n
-	Dropped     int64   // points not delivered to the display (the analysis has them all)
-	Lost        int64   // lines the link could not hand over in time (recorded, not analysed)
-	Recording   string  // capture path, "" when not recording
-	RecordBytes int64   // capture size so far
-	Speed       float64 // replay speed, 0 = as fast as possible
-	Position    float64 // replay position, s
-}
+	"github.com/caploop/caploop/tui/live"
+)
 
 // StatusModel is the bottom status line.
 type StatusModel struct {
-	st      SourceStats
-	mode    Mode
+	st      live.Stats
+	held    bool
 	replay  bool
 	message string
 	width   int
@@ -38,12 +24,12 @@ func NewStatus(replay bool) StatusModel { return StatusModel{replay: replay} }
 // SetWidth sets the line width.
 func (m *StatusModel) SetWidth(w int) { m.width = w }
 
-// SetMode sets the screen mode shown first on the line.
-func (m *StatusModel) SetMode(mode Mode) { m.mode = mode }
+// SetHeld says whether the screen is held (the first word on the line).
+func (m *StatusModel) SetHeld(held bool) { m.held = held }
 
 // Update takes source counters.
 func (m StatusModel) Update(msg tea.Msg) (StatusModel, tea.Cmd) {
-	if msg, ok := msg.(snapshotMsg); ok && msg.stats != nil {
+	if msg, ok := msg.(frameMsg); ok && msg.stats != nil {
 		m.st = *msg.stats
 	}
 	return m, nil
@@ -60,12 +46,22 @@ func speedText(s float64) string {
 func (m StatusModel) View() string {
 	st := m.st
 	short := m.width < 100
-	mode := strings.ToUpper(m.mode.String())
-	if m.replay && m.mode != ModePaused {
+	var mode string
+	switch {
+	case m.held:
+		mode = "HELD"
+	case m.replay:
 		mode = "REPLAY " + speedText(st.Speed)
+	default:
+		mode = "LIVE"
 	}
 	parts := []string{mode, st.Name}
-	if st.State != "" {
+	switch {
+	case m.replay && st.State == live.StateHeld:
+		parts = append(parts, "held at "+formatSeconds(st.Position))
+	case m.replay && st.State == live.StateRunning:
+		parts = append(parts, "at "+formatSeconds(st.Position))
+	case st.State != "":
 		parts = append(parts, st.State)
 	}
 	rej, gaps := "rejected", "gaps"

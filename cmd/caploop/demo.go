@@ -1,26 +1,62 @@
 package main
 
 import (
+	"context"
+	"errors"
+	"time"
+
 	"github.com/spf13/cobra"
 
 	"github.com/caploop/caploop/analysis/loop/virtual"
-	"github.com/caploop/caploop/tui"
+	"github.com/caploop/caploop/telemetry/wire"
+	"github.com/caploop/caploop/tui/live"
 )
 
 func init() { rootRun = runDemo }
 
 // runDemo is caploop with no command: the bench screen on the built-in virtual board
 // (the default scenario of caploop sim), served on a pseudo-terminal inside this process
-// so the screen reads it exactly as it reads a board on USB.
+// so the screen reads it exactly as it reads a board on USB (and the board answers
+// "set deadband=N" the same way).
 func runDemo(cmd *cobra.Command, args []string) error {
 	if len(args) > 0 {
 		return withCode(2, errUnknownCommand(args[0]))
 	}
-	p, err := tui.NewDemo(virtual.DefaultScenario(), tui.SourceOptions{})
+	path, stop, err := serveBoard(virtual.DefaultScenario())
 	if err != nil {
 		return withCode(2, err)
 	}
+	defer stop()
+	p := live.NewPort(live.PortOptions{Serial: wire.SerialConfig{Path: path}, Name: "virtual board"})
 	return runScreen(p, 0)
+}
+
+// serveBoard runs the virtual board of scenario sc on a pseudo-terminal in this process
+// and returns the terminal's path and a function that stops the board and waits for it.
+func serveBoard(sc virtual.Scenario) (path string, stop func(), err error) {
+	board, err := virtual.NewBoard(sc)
+	if err != nil {
+		return "", nil, err
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	ready := make(chan string, 1)
+	served := make(chan error, 1)
+	go func() {
+		served <- wire.Serve(ctx, board, wire.ServeOptions{Ready: func(path string) { ready <- path }})
+	}()
+	select {
+	case path = <-ready:
+	case err := <-served:
+		cancel()
+		if err == nil {
+			err = errors.New("the virtual board stopped before it was ready")
+		}
+		return "", nil, err
+	case <-time.After(5 * time.Second):
+		cancel()
+		return "", nil, errors.New("the virtual board did not start within 5 s")
+	}
+	return path, func() { cancel(); <-served }, nil
 }
 
 type errUnknownCommand string

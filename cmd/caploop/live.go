@@ -17,7 +17,7 @@ import (
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/si"
 	"github.com/caploop/caploop/telemetry/wire"
-	"github.com/caploop/caploop/tui"
+	"github.com/caploop/caploop/tui/live"
 )
 
 func init() { commands = append(commands, newLiveCmd) }
@@ -69,7 +69,7 @@ their USB ids and asks which one (on a terminal). The screen reconnects by itsel
 				}
 			}
 			cfg := wire.SerialConfig{Path: port, Baud: int(baud), DataBits: f.dataBits, Parity: f.parity, StopBits: f.stopBits}
-			p := tui.NewLive(tui.LiveOptions{Serial: cfg, Record: f.record})
+			p := live.NewPort(live.PortOptions{Serial: cfg, Record: f.record})
 			return runScreen(p, f.span)
 		},
 	}

@@ -8,7 +8,7 @@ import (
 
 	"github.com/spf13/cobra"
 
-	"github.com/caploop/caploop/tui"
+	"github.com/caploop/caploop/tui/live"
 )
 
 func init() { commands = append(commands, newReplayCmd) }
@@ -24,9 +24,11 @@ func newReplayCmd() *cobra.Command {
 		Short: "the bench screen on a capture or telemetry file",
 		Long: `replay plays a capture (from caploop record or live --record) or a plain telemetry file
 (.gz too) on the bench screen, the same screen as live: in real time, faster or as fast
-as possible, held, stepped and seeking. On the screen: space holds and runs, [ and ]
-change the speed (1x, 2x, 10x, max), n steps while held, , and . seek 10 s back and
-ahead, ? shows every key. Marks and sent commands of a capture appear on the plot.`,
+as possible, held and advanced, or jumping by landmark. On the screen: space holds and
+runs, x and X change the speed (1x, 2x, 10x, max), n advances while held, s/S go to the
+next/previous setpoint, g/G segment, m/M mark, e/E event, j and a digit to that tenth of
+the capture, home to its start; ? shows every key. Marks and sent commands of a capture
+appear on the plot.`,
 		Example: `  caploop replay bench.cap
   caploop replay greenhouse.cap.gz --speed 10
   caploop replay log.txt --speed max --paused`,
@@ -36,7 +38,7 @@ ahead, ? shows every key. Marks and sent commands of a capture appear on the plo
 			if err != nil {
 				return withCode(2, err)
 			}
-			p, err := tui.NewReplay(tui.ReplayOptions{Path: args[0], Speed: sp, Paused: paused})
+			p, err := live.NewReplay(live.ReplayOptions{Path: args[0], Speed: sp, Paused: paused})
 			if err != nil {
 				return withCode(2, fmt.Errorf("replay: %w", err))
 			}
@@ -45,7 +47,7 @@ ahead, ? shows every key. Marks and sent commands of a capture appear on the plo
 	}
 	fl := cmd.Flags()
 	fl.StringVar(&speed, "speed", "1", "replay speed: 1, 2, 10 (times real time) or max")
-	fl.BoolVar(&paused, "paused", false, "start held (space runs, n steps)")
+	fl.BoolVar(&paused, "paused", false, "start held (space runs, n advances)")
 	fl.DurationVar(&span, "window", 2*time.Second, "time window of the plot at start (+/- change it)")
 	return cmd
 }

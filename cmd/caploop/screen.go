@@ -9,11 +9,12 @@ import (
 	"golang.org/x/term"
 
 	"github.com/caploop/caploop/tui"
+	"github.com/caploop/caploop/tui/live"
 )
 
 // runScreen shows the bench screen on p until the user quits (q, Ctrl-C) or a SIGTERM
 // arrives, then stops the source (flushing any recording) and restores the terminal.
-func runScreen(p *tui.Pipeline, span time.Duration) error {
+func runScreen(p *live.Pipeline, span time.Duration) error {
 	if !term.IsTerminal(int(os.Stdout.Fd())) {
 		p.Close()
 		return withCode(2, errors.New("the bench screen needs a terminal; without one, use `caploop record` to capture or `caploop summary` to measure"))

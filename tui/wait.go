@@ -1,0 +1,48 @@
+package tui
+
+import (
+	"time"
+
+	tea "github.com/charmbracelet/bubbletea"
+
+	"github.com/caploop/caploop/tui/live"
+)
+
+// frameInterval is the shortest time between two frames: the screen redraws at most
+// about 30 times a second, however fast the source.
+const frameInterval = time.Second / 30
+
+// Messages from the pipeline to the screen.
+type (
+	samplesMsg struct {
+		src  *live.Pipeline
+		snap live.Snapshot
+	}
+	sourceErrMsg struct {
+		src *live.Pipeline
+		err error
+	}
+	sourceDoneMsg struct{ src *live.Pipeline }
+)
+
+// wait returns the command that waits for the next frame's worth of data from p, no
+// sooner than frameInterval after the previous frame (since).
+func wait(p *live.Pipeline, since time.Time) tea.Cmd {
+	return func() tea.Msg {
+		if d := time.Until(since.Add(frameInterval)); d > 0 {
+			time.Sleep(d)
+		}
+		select {
+		case <-p.Ready():
+		case <-p.Done():
+		}
+		s := p.Take()
+		switch {
+		case s.Err != nil && len(s.Points) == 0 && s.Summary == nil:
+			return sourceErrMsg{p, s.Err}
+		case s.Done && s.Empty():
+			return sourceDoneMsg{p}
+		}
+		return samplesMsg{p, s}
+	}
+}
