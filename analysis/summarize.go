@@ -79,7 +79,7 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 			// Field by field (see Scanner.SampleRef), into the batch in place.
 			n := len(b.samples)
 			b.samples = b.samples[:n+1]
-			d, p := &b.samples[n], sc.SampleRef()
+			d, p := &b.samples[n], sc.CurrentSample()
 			d.Line, d.Index, d.T, d.N, d.Host = p.Line, p.Index, p.T, p.N, p.Host
 			d.SP, d.PV, d.U, d.Flags = p.SP, p.PV, p.U, p.Flags
 			lastLine = p.Line

@@ -7,7 +7,7 @@ import "testing"
 // AppendMeta, and malformed lists rejected whole.
 func TestMetaAccepts(t *testing.T) {
 	var p Parser
-	r := p.Parse([]byte("# accepts=sp,mode,deadband,period_us"), 0, false)
+	r := p.Parse([]byte("# accepts=sp,mode,deadband,period_us"))
 	if r.Kind != RecMeta {
 		t.Fatalf("kind %v, want meta (%v)", r.Kind, p.LastError())
 	}
@@ -28,25 +28,25 @@ func TestMetaAccepts(t *testing.T) {
 	}
 
 	var q Parser
-	r = q.Parse([]byte("# accepts=sp,deadband deadband=4"), 0, false)
+	r = q.Parse([]byte("# accepts=sp,deadband deadband=4"))
 	if r.Kind != RecMeta || r.Meta.Accepts != "sp,deadband" || r.Meta.Deadband != 4 {
 		t.Fatalf("list then a key: kind %v meta %+v (%v)", r.Kind, r.Meta, q.LastError())
 	}
 	// A later accepts line replaces the list.
-	r = q.Parse([]byte("# accepts=mode"), 0, false)
+	r = q.Parse([]byte("# accepts=mode"))
 	if r.Meta.Accepts != "mode" || r.Meta.AcceptsKey("sp") {
 		t.Errorf("second accepts line: %q", r.Meta.Accepts)
 	}
 
 	for _, bad := range []string{"# accepts=sp,Mode", "# accepts=sp,m\x01", "# deadband=4 accepts=sp,a-b"} {
 		var b Parser
-		if r := b.Parse([]byte(bad), 0, false); r.Kind != RecRejected {
+		if r := b.Parse([]byte(bad)); r.Kind != RecRejected {
 			t.Errorf("%q: kind %v, want rejected", bad, r.Kind)
 		}
 	}
 	// Without accepts= a bare word is still an error, as before.
 	var c Parser
-	if r := c.Parse([]byte("# deadband=4 mode"), 0, false); r.Kind != RecRejected {
+	if r := c.Parse([]byte("# deadband=4 mode")); r.Kind != RecRejected {
 		t.Errorf("bare word after a key: kind %v, want rejected", r.Kind)
 	}
 }

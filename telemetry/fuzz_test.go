@@ -132,7 +132,7 @@ func FuzzParseLine(f *testing.F) {
 		var fast, slow Parser
 		slow.noFast = true
 		for range 2 { // twice, so the clock unwrapping state is compared too
-			a, b := fast.Parse(line, 7, true), slow.Parse(line, 7, true)
+			a, b := fast.ParseReceived(line, 7), slow.ParseReceived(line, 7)
 			if a.Kind != b.Kind || a.Sample != b.Sample || len(a.Extras) != len(b.Extras) {
 				t.Fatalf("line %q: fast path gives %v %+v %v, general parser %v %+v %v", line, a.Kind, a.Sample, a.Extras, b.Kind, b.Sample, b.Extras)
 			}
@@ -162,7 +162,7 @@ func FuzzMetaLine(f *testing.F) {
 	f.Fuzz(func(t *testing.T, data []byte, count float64) {
 		var p Parser
 		for _, l := range bytes.Split(data, []byte{'\n'}) {
-			r := p.Parse(append([]byte{'#'}, l...), 0, false)
+			r := p.Parse(append([]byte{'#'}, l...))
 			checkMeta(t, r.Meta, r.Meta.ADCBits)
 			if r.Kind == RecMeta {
 				checkMeta(t, r.Delta, r.Meta.ADCBits)
@@ -173,7 +173,7 @@ func FuzzMetaLine(f *testing.F) {
 			return
 		}
 		line := []byte("sp=0 pv=" + strconv.FormatFloat(count, 'g', -1, 64))
-		r := p.Parse(line, 0, false)
+		r := p.Parse(line)
 		if r.Kind == RecSample && m.Has(FieldADCBits) && CheckCount("pv", r.Sample.PV, m.ADCBits) != nil {
 			t.Fatalf("pv %g kept with %d bits", r.Sample.PV, m.ADCBits)
 		}

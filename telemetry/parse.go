@@ -108,11 +108,17 @@ type Parser struct {
 	errLineNo int64
 }
 
-// Parse reads one line (with or without its "\n" or "\r\n"). host is the host receive
-// time in ns since the source started, used when hasHost is true (and replaced by the
-// record's own time in a capture). The returned Record's Extras slice is reused by the
-// next call.
-func (p *Parser) Parse(line []byte, host int64, hasHost bool) Record {
+// Parse reads one line (with or without its "\n" or "\r\n") that has no host receive
+// time. The returned Record's Extras slice is reused by the next call.
+func (p *Parser) Parse(line []byte) Record { return p.parseLine(line, 0, false) }
+
+// ParseReceived is Parse for a line the host received host ns after the source started
+// (a capture's own time replaces it).
+func (p *Parser) ParseReceived(line []byte, host int64) Record {
+	return p.parseLine(line, host, true)
+}
+
+func (p *Parser) parseLine(line []byte, host int64, hasHost bool) Record {
 	if n := len(line); n > 0 && line[n-1] == '\n' {
 		line = line[:n-1]
 	}

@@ -439,7 +439,7 @@ func TestParseErrorMessage(t *testing.T) {
 func TestParserParse(t *testing.T) {
 	var p Parser
 	p.Name = "/dev/ttyACM0"
-	r := p.Parse([]byte("t=10 sp=512 pv=498 u=1 temp=20\r\n"), 123, true)
+	r := p.ParseReceived([]byte("t=10 sp=512 pv=498 u=1 temp=20\r\n"), 123)
 	want := Sample{Line: 1, T: 10, Host: 123, SP: 512, PV: 498, U: Charge, Flags: HasT | HasU | HasHost}
 	if r.Kind != RecSample || r.Sample != want {
 		t.Errorf("Parse = %v %+v, want sample %+v", r.Kind, r.Sample, want)
@@ -447,17 +447,17 @@ func TestParserParse(t *testing.T) {
 	if len(r.Extras) != 1 || r.Extras[0] != (Extra{"temp", 20}) {
 		t.Errorf("extras = %v, want [temp 20]", r.Extras)
 	}
-	r = p.Parse([]byte("# deadband=14"), 200, true)
+	r = p.ParseReceived([]byte("# deadband=14"), 200)
 	if r.Kind != RecMeta || r.Delta.Deadband != 14 || r.Meta.Deadband != 14 {
 		t.Errorf("Parse(meta) = %v %+v", r.Kind, r)
 	}
-	r = p.Parse([]byte("sp=1"), 300, true)
+	r = p.ParseReceived([]byte("sp=1"), 300)
 	if r.Kind != RecRejected || r.Err == nil || !errors.Is(r.Err, ErrMissingField) || r.Err.Line != 3 || r.Err.Name != "/dev/ttyACM0" {
 		t.Errorf("Parse(bad) = %v %v", r.Kind, r.Err)
 	}
 	// Extra names are interned: the same key gives the same string without allocating.
 	line := []byte("sp=1 pv=2 temp=21 hum=40")
-	if n := testing.AllocsPerRun(100, func() { p.Parse(line, 0, false) }); n != 0 {
+	if n := testing.AllocsPerRun(100, func() { p.Parse(line) }); n != 0 {
 		t.Errorf("Parse of a data line with extras allocates %v times, want 0", n)
 	}
 }

@@ -221,11 +221,11 @@ func (s *Scanner) Kind() RecordKind { return s.kind }
 // Sample returns the current sample (valid when Kind is RecSample).
 func (s *Scanner) Sample() Sample { return s.p.sample }
 
-// SampleRef returns the current sample in place (valid when Kind is RecSample, until the
+// CurrentSample returns the current sample in place (valid when Kind is RecSample, until the
 // next Scan; do not keep it). Copying its fields one by one is cheaper right after Scan
 // than copying the whole struct: the parser has just stored them one by one, and a wider
 // load of stores still in flight stalls.
-func (s *Scanner) SampleRef() *Sample { return &s.p.sample }
+func (s *Scanner) CurrentSample() *Sample { return &s.p.sample }
 
 // Extras returns the extra channels of the current sample; the slice is reused by the
 // next Scan.
@@ -234,8 +234,8 @@ func (s *Scanner) Extras() []Extra { return s.p.extras }
 // Meta returns the meta merged from every meta line read so far.
 func (s *Scanner) Meta() Meta { return s.p.meta }
 
-// Delta returns the fields the current meta line set (valid when Kind is RecMeta).
-func (s *Scanner) Delta() Meta { return s.p.delta }
+// MetaChange returns the fields the current meta line set (valid when Kind is RecMeta).
+func (s *Scanner) MetaChange() Meta { return s.p.delta }
 
 // Event returns the current event (valid when Kind is RecEvent).
 func (s *Scanner) Event() Event { return s.p.event }

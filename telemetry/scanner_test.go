@@ -243,7 +243,7 @@ func TestFormatRoundTrip(t *testing.T) {
 				t.Errorf("AppendData = %q, want %q", line, tc.want)
 			}
 			var p Parser
-			r := p.Parse(line, 0, false)
+			r := p.Parse(line)
 			back := r.Sample
 			back.Line = 0
 			if r.Kind != RecSample || back != tc.s {
@@ -259,7 +259,7 @@ func TestFormatRoundTrip(t *testing.T) {
 		t.Errorf("AppendMeta = %q, want %q", line, want)
 	}
 	var p Parser
-	if r := p.Parse(line, 0, false); r.Kind != RecMeta || !metasEqual([]Meta{r.Meta}, []Meta{m}) {
+	if r := p.Parse(line); r.Kind != RecMeta || !metasEqual([]Meta{r.Meta}, []Meta{m}) {
 		t.Errorf("meta read back %v %+v, want %+v", r.Kind, r.Meta, m)
 	}
 	if got := string(AppendMeta(nil, Meta{Period: 0.1234567e-3, Set: FieldPeriod})); got != "# period_us=123.457" {

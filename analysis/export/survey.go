@@ -49,7 +49,7 @@ func Survey(sc *telemetry.Scanner) (*Layout, error) {
 		if sc.Kind() != telemetry.RecSample {
 			continue
 		}
-		s := sc.SampleRef()
+		s := sc.CurrentSample()
 		if l.Samples == 0 {
 			switch {
 			case s.Flags&telemetry.HasT != 0:

@@ -65,7 +65,7 @@ func Write(w io.Writer, sc *telemetry.Scanner, l *Layout, opts Options) (Result,
 				res.Beyond++
 				continue
 			}
-			buf = r.appendRow(buf, sc.SampleRef(), sc.Extras())
+			buf = r.appendRow(buf, sc.CurrentSample(), sc.Extras())
 			buf = append(buf, eol...)
 			res.Rows++
 			if len(buf) >= flushAt {

@@ -125,7 +125,7 @@ func TestBrowserRendersReport(t *testing.T) {
 	a.Advice = fixtureAdvice()
 	a.Summary.FirstRejects = fixtureSummary().FirstRejects
 	a.Summary.RejectedLines = 3
-	docs := []Doc{a, synth(benchAfter)}
+	docs := []Capture{a, synth(benchAfter)}
 	// A capture from the module's testdata through the real analysis, when present.
 	if m, _ := filepath.Glob(filepath.Join("..", "..", "testdata", "tuned.cap")); len(m) == 1 {
 		docs = append(docs, summarizeCapture(t, m[0]))

@@ -22,7 +22,7 @@ func ExampleWriteHTML() {
 		},
 	}
 	var page bytes.Buffer
-	err := report.WriteHTML(&page, []report.Doc{{Name: "greenhouse-bias.txt", Summary: s}}, report.Options{Title: "greenhouse bias"})
+	err := report.WriteHTML(&page, []report.Capture{{Name: "greenhouse-bias.txt", Summary: s}}, report.Options{Title: "greenhouse bias"})
 	fmt.Println(err)
 	fmt.Println(strings.Count(page.String(), "<table"), "tables")
 	fmt.Println(strings.Contains(page.String(), "<script"))

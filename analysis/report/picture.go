@@ -14,7 +14,7 @@ import (
 // setpoint and measurement of each capture, one row each, and a bottom row with the
 // steady ripple (overlaid when there are several captures), the error histogram and the
 // ripple spectrum of the first capture.
-func WritePicture(w io.Writer, docs []Doc, format string) error {
+func WritePicture(w io.Writer, docs []Capture, format string) error {
 	format = strings.ToLower(format)
 	if format != "svg" && format != "png" {
 		return fmt.Errorf("report: picture format %q: want svg or png", format)

@@ -12,9 +12,9 @@ import (
 	"github.com/caploop/caploop/analysis/advice"
 )
 
-// Doc is one capture in a report: its name (the file name, or a label such as
+// Capture is one capture in a report: its name (the file name, or a label such as
 // "before"), its summary and, when computed, its advice.
-type Doc struct {
+type Capture struct {
 	Name    string
 	Summary *analysis.Summary
 	Advice  *advice.Advice
@@ -60,7 +60,7 @@ type pageHTML struct {
 // script and no outside fetch (a Content-Security-Policy forbids them), so it opens
 // offline. With two or more docs the page starts with a side-by-side table of their
 // figures and an overlay of their steady ripple.
-func WriteHTML(w io.Writer, docs []Doc, opts Options) error {
+func WriteHTML(w io.Writer, docs []Capture, opts Options) error {
 	if len(docs) == 0 {
 		return ErrNoDocs
 	}
@@ -86,7 +86,7 @@ func render(c chart) (figureHTML, error) {
 	return figureHTML{Kind: c.kind, Caption: c.caption, SVG: template.HTML(s), Wide: c.kind == "overview"}, nil
 }
 
-func buildPage(docs []Doc, opts Options) (*pageHTML, error) {
+func buildPage(docs []Capture, opts Options) (*pageHTML, error) {
 	if opts.Title == "" {
 		opts.Title = "caploop report"
 	}

@@ -42,10 +42,10 @@ func golden(t *testing.T, got []byte) {
 }
 
 func TestTablesGolden(t *testing.T) {
-	before := Doc{Name: "before", Summary: fixtureSummary(), Advice: fixtureAdvice()}
-	after := Doc{Name: "after", Summary: fixtureAfter()}
+	before := Capture{Name: "before", Summary: fixtureSummary(), Advice: fixtureAdvice()}
+	after := Capture{Name: "after", Summary: fixtureAfter()}
 	tables := DocTables(before, "")
-	tables = append(tables, CompareTable([]Doc{before, after}))
+	tables = append(tables, CompareTable([]Capture{before, after}))
 	var ids []string
 	for _, tb := range tables {
 		ids = append(ids, tb.ID)
@@ -68,11 +68,11 @@ func TestTablesGolden(t *testing.T) {
 var links = regexp.MustCompile(`(?i)\b(src|href|xlink:href|action|srcset)\s*=|url\(|@import`)
 
 func TestWriteHTML(t *testing.T) {
-	one := []Doc{synth(benchBefore)}
-	two := []Doc{synth(benchBefore), synth(benchAfter)}
+	one := []Capture{synth(benchBefore)}
+	two := []Capture{synth(benchBefore), synth(benchAfter)}
 	tests := []struct {
 		name  string
-		docs  []Doc
+		docs  []Capture
 		plots map[string]int // data-plot kind -> count
 		ids   []string       // table ids that must be present
 	}{
@@ -80,11 +80,11 @@ func TestWriteHTML(t *testing.T) {
 			[]string{"capture", "segments", "diagnostics"}},
 		{"before and after", two, map[string]int{"overview": 2, "zoom": 6, "histogram": 2, "spectrum": 2, "step": 4, "ripple": 1},
 			[]string{"compare", "c1-capture", "c2-segments"}},
-		{"counts only (no vref)", []Doc{inCounts(synth(benchBefore))}, map[string]int{"overview": 1, "zoom": 3, "histogram": 1, "spectrum": 1, "step": 2},
+		{"counts only (no vref)", []Capture{inCounts(synth(benchBefore))}, map[string]int{"overview": 1, "zoom": 3, "histogram": 1, "spectrum": 1, "step": 2},
 			[]string{"capture", "segments"}},
-		{"volts and counts compared", []Doc{synth(benchBefore), inCounts(synth(benchAfter))}, map[string]int{"overview": 2, "ripple": 1},
+		{"volts and counts compared", []Capture{synth(benchBefore), inCounts(synth(benchAfter))}, map[string]int{"overview": 2, "ripple": 1},
 			[]string{"compare"}},
-		{"no waveforms", []Doc{{Name: "bare", Summary: fixtureSummary(), Advice: fixtureAdvice()}},
+		{"no waveforms", []Capture{{Name: "bare", Summary: fixtureSummary(), Advice: fixtureAdvice()}},
 			map[string]int{"overview": 0, "zoom": 0}, []string{"capture", "advice-parts"}},
 	}
 	for _, tc := range tests {
@@ -127,7 +127,7 @@ func TestWriteHTML(t *testing.T) {
 
 // inCounts turns a synthetic doc into one whose board never said vref: traces in counts,
 // no volts anywhere.
-func inCounts(d Doc) Doc {
+func inCounts(d Capture) Capture {
 	s := d.Summary
 	q, _ := lsb(s)
 	scale := func(v []float64) {
@@ -176,7 +176,7 @@ func TestHostileText(t *testing.T) {
 	a.Summary.Board.Mode = hostile
 	b := synth(benchAfter)
 	b.Name = "after " + hostile
-	docs := []Doc{a, b}
+	docs := []Capture{a, b}
 	var html, svg bytes.Buffer
 	if err := WriteHTML(&html, docs, Options{Title: hostile, Note: hostile}); err != nil {
 		t.Fatal(err)
@@ -207,14 +207,14 @@ func TestHostileText(t *testing.T) {
 func TestWritePicture(t *testing.T) {
 	tests := []struct {
 		name   string
-		docs   []Doc
+		docs   []Capture
 		format string
 		wantW  int // PNG width in pixels: 30 cm at 96 dpi
 	}{
-		{"svg one", []Doc{synth(benchBefore)}, "svg", 0},
-		{"svg two", []Doc{synth(benchBefore), synth(benchAfter)}, "SVG", 0},
-		{"png one", []Doc{synth(benchBefore)}, "png", 1134},
-		{"png two", []Doc{synth(benchBefore), synth(benchAfter)}, "png", 1134},
+		{"svg one", []Capture{synth(benchBefore)}, "svg", 0},
+		{"svg two", []Capture{synth(benchBefore), synth(benchAfter)}, "SVG", 0},
+		{"png one", []Capture{synth(benchBefore)}, "png", 1134},
+		{"png two", []Capture{synth(benchBefore), synth(benchAfter)}, "png", 1134},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
@@ -273,13 +273,13 @@ func TestWritePicture(t *testing.T) {
 func TestWritePictureErrors(t *testing.T) {
 	tests := []struct {
 		name   string
-		docs   []Doc
+		docs   []Capture
 		format string
 		want   string
 	}{
-		{"bad format", []Doc{synth(benchBefore)}, "gif", "want svg or png"},
+		{"bad format", []Capture{synth(benchBefore)}, "gif", "want svg or png"},
 		{"no docs", nil, "svg", "no capture"},
-		{"no traces", []Doc{{Name: "bare", Summary: fixtureSummary()}}, "png", "nothing to draw"},
+		{"no traces", []Capture{{Name: "bare", Summary: fixtureSummary()}}, "png", "nothing to draw"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
@@ -409,7 +409,7 @@ func TestTablesBounded(t *testing.T) {
 		s.Steps = append(s.Steps, analysis.StepFigures{AtS: float64(i)})
 	}
 	s.SegmentsOmitted = 7
-	d := Doc{Name: "ramp", Summary: s}
+	d := Capture{Name: "ramp", Summary: s}
 	tests := []struct {
 		name     string
 		table    Table
@@ -418,7 +418,7 @@ func TestTablesBounded(t *testing.T) {
 	}{
 		{"segments", segmentsTable(s, ""), maxRows + 2, "7 more segments seen but not kept by the analysis (the list is bounded)"},
 		{"steps", stepsTable(s, ""), maxRows + 1, "460 more steps not shown here (caploop summary --json lists them)"},
-		{"compare", CompareTable([]Doc{d, d}), 0, "488 more setpoints not compared here"},
+		{"compare", CompareTable([]Capture{d, d}), 0, "488 more setpoints not compared here"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
@@ -441,17 +441,17 @@ func TestCompareUnits(t *testing.T) {
 		}
 		return g
 	}
-	doc := func(name string, segs ...analysis.Segment) Doc {
-		return Doc{Name: name, Summary: &analysis.Summary{Segments: segs}}
+	doc := func(name string, segs ...analysis.Segment) Capture {
+		return Capture{Name: name, Summary: &analysis.Summary{Segments: segs}}
 	}
 	tests := []struct {
 		name string
-		docs []Doc
+		docs []Capture
 		want string // the mean error cell of the first capture
 	}{
-		{"volts in both", []Doc{doc("a", seg(100, true)), doc("b", seg(100, true))}, "-7.3 mV"},
-		{"setpoint only in the first: still volts", []Doc{doc("a", seg(100, true)), doc("b", seg(200, true))}, "-7.3 mV"},
-		{"volts missing in one: counts", []Doc{doc("a", seg(100, true)), doc("b", seg(100, false))}, "-1.5 counts"},
+		{"volts in both", []Capture{doc("a", seg(100, true)), doc("b", seg(100, true))}, "-7.3 mV"},
+		{"setpoint only in the first: still volts", []Capture{doc("a", seg(100, true)), doc("b", seg(200, true))}, "-7.3 mV"},
+		{"volts missing in one: counts", []Capture{doc("a", seg(100, true)), doc("b", seg(100, false))}, "-1.5 counts"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {

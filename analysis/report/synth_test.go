@@ -26,7 +26,7 @@ func ptr[T any](v T) *T { return &v }
 
 // synth simulates the loop (exact first-order update per period, 10-bit ADC at 5 V,
 // 1 ms period, 0.4 count rms noise) and fills a Summary with its traces and figures.
-func synth(sc synthCase) Doc {
+func synth(sc synthCase) Capture {
 	const (
 		vref   = 5.0
 		bits   = 10
@@ -175,7 +175,7 @@ func synth(sc synthCase) Doc {
 		tr.SpecAmp = append(tr.SpecAmp, 2*cmplx.Abs(coef[i])/float64(len(x)))
 	}
 	s.Diagnostics = append(s.Diagnostics, analysis.Diagnostic{Code: "band_ok", Severity: "info", Message: "the loop settles into hold"})
-	return Doc{Name: sc.name, Summary: s}
+	return Capture{Name: sc.name, Summary: s}
 }
 
 // benchBefore and benchAfter are a bench reference before and after widening the band.

@@ -42,7 +42,7 @@ const maxCompareSetpoints = 12
 // DocTables returns the tables of one capture, in page order: capture, board, plant,
 // segments, steps, diagnostics, rejected lines and, when the doc has advice, the advice
 // tables. prefix makes the table ids unique when the page holds several captures.
-func DocTables(d Doc, prefix string) []Table {
+func DocTables(d Capture, prefix string) []Table {
 	s := d.Summary
 	if s == nil {
 		return nil
@@ -485,7 +485,7 @@ func fmtDiff(a, b *float64, unit string) string {
 // CompareTable puts the figures of several captures side by side, with the difference of
 // each later capture from the first. Segments are matched by setpoint (in counts): the
 // first segment of each capture at that setpoint.
-func CompareTable(docs []Doc) Table {
+func CompareTable(docs []Capture) Table {
 	t := Table{ID: "compare", Caption: "Side by side (differences from the first capture)", Head: []string{"figure"}}
 	for _, d := range docs {
 		t.Head = append(t.Head, clean(d.Name))

@@ -29,7 +29,7 @@ func captures(tb testing.TB) []string {
 
 // summarizeCapture runs the whole-file pass and the advice over one capture, as
 // `caploop summary` does.
-func summarizeCapture(tb testing.TB, path string) Doc {
+func summarizeCapture(tb testing.TB, path string) Capture {
 	tb.Helper()
 	src, err := telemetry.OpenFile(path)
 	if err != nil {
@@ -42,7 +42,7 @@ func summarizeCapture(tb testing.TB, path string) Doc {
 	if err != nil {
 		tb.Fatalf("%s: %v", path, err)
 	}
-	d := Doc{Name: sc.Name, Summary: s}
+	d := Capture{Name: sc.Name, Summary: s}
 	if a, err := advice.FromSummary(s, advice.Goals{}); err == nil {
 		d.Advice = a
 	}
@@ -60,7 +60,7 @@ func TestTestdataReports(t *testing.T) {
 		t.Run(filepath.Base(path), func(t *testing.T) {
 			d := summarizeCapture(t, path)
 			var page bytes.Buffer
-			if err := WriteHTML(&page, []Doc{d}, Options{}); err != nil {
+			if err := WriteHTML(&page, []Capture{d}, Options{}); err != nil {
 				t.Fatal(err)
 			}
 			for _, kind := range []string{"overview", "zoom"} {
@@ -68,7 +68,7 @@ func TestTestdataReports(t *testing.T) {
 					t.Errorf("no %s plot", kind)
 				}
 			}
-			if err := WritePicture(io.Discard, []Doc{d}, "png"); err != nil {
+			if err := WritePicture(io.Discard, []Capture{d}, "png"); err != nil {
 				t.Errorf("picture: %v", err)
 			}
 		})
@@ -89,7 +89,7 @@ func BenchmarkReport(b *testing.B) {
 		b.Run(name+"/full", func(b *testing.B) {
 			for b.Loop() {
 				d := summarizeCapture(b, path)
-				if err := WriteHTML(io.Discard, []Doc{d}, Options{}); err != nil {
+				if err := WriteHTML(io.Discard, []Capture{d}, Options{}); err != nil {
 					b.Fatal(err)
 				}
 			}
@@ -99,7 +99,7 @@ func BenchmarkReport(b *testing.B) {
 			var n int
 			for b.Loop() {
 				var buf bytes.Buffer
-				if err := WriteHTML(&buf, []Doc{d}, Options{}); err != nil {
+				if err := WriteHTML(&buf, []Capture{d}, Options{}); err != nil {
 					b.Fatal(err)
 				}
 				n = buf.Len()
@@ -108,7 +108,7 @@ func BenchmarkReport(b *testing.B) {
 		})
 		b.Run(name+"/png", func(b *testing.B) {
 			for b.Loop() {
-				if err := WritePicture(io.Discard, []Doc{d}, "png"); err != nil {
+				if err := WritePicture(io.Discard, []Capture{d}, "png"); err != nil {
 					b.Fatal(err)
 				}
 			}

@@ -27,7 +27,7 @@ func TestTrackingTables(t *testing.T) {
 	if err != nil {
 		t.Fatalf("Summarize: %v", err)
 	}
-	tables := DocTables(Doc{Name: "ramp", Summary: sum}, "")
+	tables := DocTables(Capture{Name: "ramp", Summary: sum}, "")
 	var ids []string
 	for _, tb := range tables {
 		ids = append(ids, tb.ID)

@@ -171,7 +171,7 @@ loop:
 		return withCode(1, fmt.Errorf("record: capture %s may be incomplete: %w", f.out, err))
 	}
 	fmt.Fprintf(stderr, "%s: recorded %d lines in %s to %s (%d partial dropped, %d unplugs)\n",
-		reason, stats.Lines, time.Since(link.Start()).Round(time.Millisecond), clean(f.out), stats.Partial, stats.Unplugs)
+		reason, stats.Lines, time.Since(link.StartedAt()).Round(time.Millisecond), clean(f.out), stats.Partial, stats.Unplugs)
 	return nil
 }
 

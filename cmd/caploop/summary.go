@@ -142,10 +142,10 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 		}
 	}
 	if f.rep.wanted() {
-		var docs []report.Doc
+		var docs []report.Capture
 		for _, r := range results {
 			if r.Err == nil {
-				docs = append(docs, report.Doc{Name: r.Name, Summary: r.Summary, Advice: r.Advice})
+				docs = append(docs, report.Capture{Name: r.Name, Summary: r.Summary, Advice: r.Advice})
 			}
 		}
 		if len(docs) > 0 {

@@ -58,7 +58,7 @@ func (f *reportFlags) wanted() bool { return f.report != "" || f.plot != "" }
 
 // write writes the HTML report and the picture asked for. note goes under the report's
 // title (e.g. the command line). A failure to write is exit code 2.
-func (f *reportFlags) write(docs []report.Doc, note string) error {
+func (f *reportFlags) write(docs []report.Capture, note string) error {
 	docs = shortNames(docs)
 	if f.report != "" {
 		err := writeFileAtomic(f.report, func(w io.Writer) error {
@@ -83,8 +83,8 @@ func (f *reportFlags) write(docs []report.Doc, note string) error {
 
 // shortNames names each doc by its file's base name when the base names are distinct
 // (they head the columns of the comparison), and keeps the paths otherwise.
-func shortNames(docs []report.Doc) []report.Doc {
-	out := make([]report.Doc, len(docs))
+func shortNames(docs []report.Capture) []report.Capture {
+	out := make([]report.Capture, len(docs))
 	seen := map[string]bool{}
 	for i, d := range docs {
 		out[i] = d

@@ -168,8 +168,8 @@ func Dial(cfg SerialConfig, opt LinkOptions) *Link {
 // Path returns the port path the Link opens.
 func (l *Link) Path() string { return l.cfg.Path }
 
-// Start returns the time the Link was made; capture times count from it.
-func (l *Link) Start() time.Time { return l.start }
+// StartedAt returns the time the Link was made; capture times count from it.
+func (l *Link) StartedAt() time.Time { return l.start }
 
 // Batches returns the channel of line batches, in order. It is closed after Close, or when
 // the Link stops by itself (FailFirst, recording file not creatable; see Err).
@@ -608,7 +608,7 @@ func wholeRecord(line []byte) bool {
 		return false
 	}
 	var p telemetry.Parser
-	switch p.Parse(line, 0, false).Kind {
+	switch p.Parse(line).Kind {
 	case telemetry.RecSample, telemetry.RecMeta:
 		return true
 	}

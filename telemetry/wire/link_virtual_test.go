@@ -73,7 +73,7 @@ func TestLinkOnVirtualBoard(t *testing.T) {
 						events = append(events, k)
 					}
 				case telemetry.FromBoard:
-					rec := p.Parse(ln.Raw, 0, false)
+					rec := p.Parse(ln.Raw)
 					if rec.Kind == telemetry.RecSample {
 						if strings.Contains(strings.Join(events, " "), wire.EventReconnected) {
 							after++

@@ -149,7 +149,7 @@ func buildOutline(src telemetry.Source, quit <-chan struct{}) (*Outline, error) 
 func replayRecord(c *engine, sc *telemetry.Scanner) {
 	switch sc.Kind() {
 	case telemetry.RecMeta:
-		c.setMeta(sc.Delta())
+		c.setMeta(sc.MetaChange())
 	case telemetry.RecEvent:
 		ev := sc.Event()
 		if ev.Dir == telemetry.ToBoard {

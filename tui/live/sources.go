@@ -89,7 +89,7 @@ const askMetaAfter = 500 * time.Millisecond
 
 func (p *Pipeline) runLive(link *wire.Link, parser *telemetry.Parser, c *engine) {
 	defer close(p.closed)
-	start := link.Start()
+	start := link.StartedAt()
 	tick := time.NewTicker(summaryInterval)
 	defer tick.Stop()
 	for {
@@ -124,7 +124,7 @@ func (p *Pipeline) runLive(link *wire.Link, parser *telemetry.Parser, c *engine)
 func (c *engine) line(parser *telemetry.Parser, ln wire.Line, start time.Time) {
 	switch ln.Dir {
 	case telemetry.FromBoard:
-		rec := parser.Parse(ln.Raw, ln.Host.Sub(start).Nanoseconds(), true)
+		rec := parser.ParseReceived(ln.Raw, ln.Host.Sub(start).Nanoseconds())
 		switch rec.Kind {
 		case telemetry.RecSample:
 			c.sample(rec.Sample)

@@ -192,7 +192,7 @@ func parseAll(t *testing.T, lines [][]byte) (recs []parsed, samples []int) {
 	t.Helper()
 	var p telemetry.Parser
 	for _, ln := range lines {
-		r := p.Parse(ln, 0, false)
+		r := p.Parse(ln)
 		if r.Kind == telemetry.RecRejected {
 			t.Errorf("the parser rejects firmware line %q: %v", telemetry.Sanitize(ln), p.LastError())
 		}
@@ -512,7 +512,7 @@ func TestFirmwareHostLines(t *testing.T) {
 	for i := 0; i < 200; i++ {
 		l := want("t=")
 		var p telemetry.Parser
-		r := p.Parse([]byte(l[len(l)-1]), 0, false)
+		r := p.Parse([]byte(l[len(l)-1]))
 		if r.Kind != telemetry.RecSample || r.Sample.SP != 700 || r.Sample.U == telemetry.Hold {
 			t.Fatalf("after set sp=700 mode=two-state: %q", l[len(l)-1])
 		}
