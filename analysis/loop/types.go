@@ -1,16 +1,20 @@
 package loop
 
-// Drive is the state of the charging pin for one sample period.
-type Drive int8
+import "github.com/caploop/caploop/telemetry"
+
+// Drive is the state of the charging pin for one sample period: the protocol's own
+// telemetry.Drive (one word for one concept, from the line protocol down to the plant).
+type Drive = telemetry.Drive
 
 // Drive values, the same numbers as u= in the line protocol.
 const (
-	Discharge Drive = -1
-	Hold      Drive = 0
-	Charge    Drive = 1
+	Discharge = telemetry.Discharge
+	Hold      = telemetry.Hold
+	Charge    = telemetry.Charge
 )
 
-// Kind is the controller (or open-loop drive) that picks the drive after each sample.
+// Kind is the drive law of the model: the closed-loop controllers a board announces as
+// telemetry.Mode (TwoState, ThreeState) and the open-loop drives the model also runs.
 type Kind uint8
 
 // Controller kinds.

@@ -482,7 +482,7 @@ func (b *Board) dataLine(st loop.Step) []byte {
 		N:     b.seq,
 		SP:    float64(st.SP),
 		PV:    float64(st.PV),
-		U:     telemetry.Drive(st.U),
+		U:     st.U,
 		Flags: telemetry.HasT | telemetry.HasN | telemetry.HasU,
 	}
 	b.line = telemetry.AppendData(b.line[:0], s)

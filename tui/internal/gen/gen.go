@@ -61,7 +61,7 @@ func (g *Source) Read(p []byte) (int, error) {
 			}
 			st := g.sim.Next(sp)
 			g.buf = telemetry.AppendData(g.buf, telemetry.Sample{
-				T: int64(float64(g.k) * g.period * 1e6), N: g.k, SP: float64(sp), PV: float64(st.PV), U: telemetry.Drive(st.U),
+				T: int64(float64(g.k) * g.period * 1e6), N: g.k, SP: float64(sp), PV: float64(st.PV), U: st.U,
 				Flags: telemetry.HasT | telemetry.HasN | telemetry.HasU,
 			})
 			g.buf = append(g.buf, '\n')
