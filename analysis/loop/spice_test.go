@@ -37,6 +37,9 @@ const (
 
 func needNgspice(t *testing.T) string {
 	t.Helper()
+	if testing.Short() {
+		t.Skip("-short: skips the SPICE cross-check (it runs ngspice)")
+	}
 	p, err := exec.LookPath("ngspice")
 	if err != nil {
 		if os.Getenv("CI") == "true" {

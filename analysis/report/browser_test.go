@@ -19,6 +19,9 @@ import (
 // (installed by .ci/run). Without it the test skips, except under CI=true where it fails.
 func findChromium(t *testing.T) string {
 	t.Helper()
+	if testing.Short() {
+		t.Skip("-short: skips the report browser test (it runs chromium)")
+	}
 	for _, name := range []string{"chromium", "chromium-browser", "/usr/bin/chromium"} {
 		if p, err := exec.LookPath(name); err == nil {
 			return p

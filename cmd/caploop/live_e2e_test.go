@@ -211,6 +211,9 @@ func TestReplayScreenQuits(t *testing.T) {
 // installs tmux.
 func needTmux(t *testing.T) {
 	t.Helper()
+	if testing.Short() {
+		t.Skip("-short: skips the end-to-end screen test (it runs tmux)")
+	}
 	if _, err := exec.LookPath("tmux"); err != nil {
 		if os.Getenv("CI") == "true" {
 			t.Fatalf("tmux is required in CI: %v", err)
