@@ -212,14 +212,18 @@ func openPort(cfg SerialConfig) (serial.Port, error) {
 // SerialSource is an open serial port read as a telemetry Source; OpenSerial returns one.
 //
 // Right after the port is opened the board may be half-way through a line (it was
-// running, or it just reset), so SerialSource drops every byte up to and including the
-// first newline and counts that line in Partial. A Read after an unplug returns an error
-// wrapping ErrUnplugged; a Read after Close returns io.EOF.
+// running, or it just reset). SerialSource follows the first-line rule of Link: the
+// bytes up to the first newline are kept only when they read on their own as a whole
+// data or meta line (wholeRecord); otherwise they are dropped and counted in Partial. A
+// Read after an unplug returns an error wrapping ErrUnplugged; a Read after Close returns
+// io.EOF.
 type SerialSource struct {
 	cfg     SerialConfig
 	port    serial.Port
-	synced  bool // the first newline after open has been seen
-	skipped int  // bytes of the partial first line seen so far
+	synced  bool   // the first newline after open has been seen
+	skipped int    // bytes of the first line seen so far
+	first   []byte // the first line's bytes (up to telemetry.MaxLineLen)
+	pending []byte // a whole first line, kept, still to be returned
 	partial atomic.Int64
 	dropped atomic.Int64
 	closed  atomic.Bool
@@ -250,24 +254,50 @@ func (s *SerialSource) Partial() int64 { return s.partial.Load() }
 // newline included.
 func (s *SerialSource) DroppedBytes() int64 { return s.dropped.Load() }
 
-// Read reads bytes from the board, after the partial first line has been dropped.
+// Read reads bytes from the board, after the first line has been kept or dropped by the
+// first-line rule (see SerialSource).
 func (s *SerialSource) Read(p []byte) (int, error) {
+	if len(s.pending) > 0 {
+		n := copy(p, s.pending)
+		s.pending = s.pending[n:]
+		return n, nil
+	}
 	for {
 		n, err := s.port.Read(p)
 		if n > 0 && !s.synced {
 			i := bytes.IndexByte(p[:n], '\n')
+			seg := p[:n]
+			if i >= 0 {
+				seg = p[:i]
+			}
+			s.skipped += len(seg)
+			if room := telemetry.MaxLineLen - len(s.first); room > 0 {
+				s.first = append(s.first, seg[:min(room, len(seg))]...)
+			}
 			if i < 0 {
-				s.skipped += n
 				s.dropped.Add(int64(n))
 				n = 0
 			} else {
 				s.synced = true
-				s.dropped.Add(int64(i + 1))
-				// An empty remainder ("\n" or "\r\n" alone) drops no data: not counted.
-				if s.skipped+len(bytes.TrimSuffix(p[:i], []byte{'\r'})) > 0 {
+				head := bytes.TrimSuffix(s.first, []byte{'\r'})
+				rest := p[i+1 : n]
+				switch {
+				case len(head) == 0:
+					// "\n" or "\r\n" alone: nothing lost.
+					s.dropped.Add(int64(i + 1))
+				case s.skipped <= telemetry.MaxLineLen && wholeRecord(head):
+					// The port opened at a line start: the first line is whole.
+					s.pending = append(append(append([]byte(nil), head...), '\n'), rest...)
+				default:
+					s.dropped.Add(int64(i + 1))
 					s.partial.Add(1)
 				}
-				n = copy(p, p[i+1:n])
+				s.first = nil
+				n = copy(p, rest)
+				if len(s.pending) > 0 {
+					n = copy(p, s.pending)
+					s.pending = s.pending[n:]
+				}
 			}
 		}
 		if err != nil {

@@ -98,8 +98,9 @@ func TestSerialReopenOverPTY(t *testing.T) {
 	}
 }
 
-// TestSerialPartialAcrossReset writes half a line while the port is closed (a board reset
-// mid-line), then the rest after reopening: exactly that one line is dropped.
+// TestSerialPartialAcrossReset writes the cut end of a line while the port is closed (a
+// board reset mid-line), then the rest after reopening: exactly that one line is dropped,
+// by the same first-line rule as Link (a fragment that does not read on its own).
 func TestSerialPartialAcrossReset(t *testing.T) {
 	p, err := OpenPTY()
 	if err != nil {
@@ -107,7 +108,7 @@ func TestSerialPartialAcrossReset(t *testing.T) {
 	}
 	defer p.Close()
 	// Half a line while nobody has the port open; it waits in the input queue.
-	if _, err := io.WriteString(p.Master(), "t=99 sp=5"); err != nil {
+	if _, err := io.WriteString(p.Master(), "=99 sp=5"); err != nil {
 		t.Fatal(err)
 	}
 	src, err := OpenSerial(SerialConfig{Path: p.Path()})
@@ -125,6 +126,29 @@ func TestSerialPartialAcrossReset(t *testing.T) {
 	}
 	if n := src.(*SerialSource).Partial(); n != 1 {
 		t.Errorf("Partial() = %d, want 1", n)
+	}
+}
+
+// TestSerialWholeFirstLineKept: a first line that reads whole on its own (the port opened
+// at a line start) is kept, as Link keeps it.
+func TestSerialWholeFirstLineKept(t *testing.T) {
+	p, err := OpenPTY()
+	if err != nil {
+		t.Fatalf("OpenPTY: %v", err)
+	}
+	defer p.Close()
+	src, err := OpenSerial(SerialConfig{Path: p.Path()})
+	if err != nil {
+		t.Fatalf("OpenSerial: %v", err)
+	}
+	defer src.Close()
+	go io.WriteString(p.Master(), "# vref=5 adc_bits=10\n"+dataLine(1)+"\n")
+	got := readLines(t, bufio.NewScanner(src), 2)
+	if want := []string{"# vref=5 adc_bits=10", dataLine(1)}; got[0] != want[0] || got[1] != want[1] {
+		t.Errorf("got %q, want %q", got, want)
+	}
+	if n := src.(*SerialSource).Partial(); n != 0 {
+		t.Errorf("Partial() = %d, want 0", n)
 	}
 }
 
