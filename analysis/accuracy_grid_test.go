@@ -1152,7 +1152,7 @@ func TestAccuracyTruth(t *testing.T) {
 		Period:     p.period,
 	}
 	c := &capture{name: "square wave", p: p}
-	err := loop.Run(cfg, nil, 4000, func(st loop.Step) {
+	err := loop.Run(cfg, nil, 4000, func(st loop.Sample) {
 		c.recs = append(c.recs, rec{t: st.T, pv: st.PV, u: st.U, sense: st.Sense})
 	})
 	if err != nil {

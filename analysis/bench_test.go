@@ -13,7 +13,7 @@ import (
 func benchSamples(b *testing.B, n int) []telemetry.Sample {
 	b.Helper()
 	out := make([]telemetry.Sample, 0, n)
-	err := loop.Run(benchCfg(loop.ThreeState, 6, 1, 1), schedule(3000, 300, 600, 800), int64(n), func(st loop.Step) {
+	err := loop.Run(benchCfg(loop.ThreeState, 6, 1, 1), schedule(3000, 300, 600, 800), int64(n), func(st loop.Sample) {
 		out = append(out, telemetry.Sample{
 			Index: st.K, T: int64(st.T*1e6 + 0.5), N: st.K, SP: float64(st.SP), PV: float64(st.PV),
 			U: telemetry.Drive(st.U), Flags: telemetry.HasT | telemetry.HasN | telemetry.HasU,
@@ -89,7 +89,7 @@ func BenchmarkAccumulatorSteady(b *testing.B) {
 	const n = batchLen
 	var samples []telemetry.Sample
 	cfg := benchCfg(loop.ThreeState, 6, 1, 1)
-	err := loop.Run(cfg, func(int64) int { return 600 }, n, func(st loop.Step) {
+	err := loop.Run(cfg, func(int64) int { return 600 }, n, func(st loop.Sample) {
 		samples = append(samples, telemetry.Sample{
 			Index: st.K, T: int64(st.T*1e6 + 0.5), N: st.K, SP: float64(st.SP), PV: float64(st.PV),
 			U: telemetry.Drive(st.U), Flags: telemetry.HasT | telemetry.HasN | telemetry.HasU,

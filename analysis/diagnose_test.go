@@ -181,7 +181,7 @@ func TestBounded(t *testing.T) {
 func TestSummaryRepeatable(t *testing.T) {
 	cfg := benchCfg(loop.ThreeState, 6, 1, 21)
 	var samples []telemetry.Sample
-	loop.Run(cfg, schedule(3000, 300, 700), 9000, func(st loop.Step) {
+	loop.Run(cfg, schedule(3000, 300, 700), 9000, func(st loop.Sample) {
 		samples = append(samples, telemetry.Sample{Index: st.K, T: int64(st.T*1e6 + 0.5), SP: float64(st.SP), PV: float64(st.PV),
 			U: telemetry.Drive(st.U), Flags: telemetry.HasT | telemetry.HasU})
 	})

@@ -14,7 +14,7 @@ import (
 // capture is a text capture made from the loop model, with the truth beside it.
 type capture struct {
 	cfg   loop.Config
-	steps []loop.Step
+	steps []loop.Sample
 	text  strings.Builder
 	line  int64 // lines written so far
 }
@@ -40,7 +40,7 @@ func (c *capture) metaLine() {
 // n0 offset the board time (µs) and the sequence number.
 func (c *capture) run(t *testing.T, sp func(k int64) int, n int64, t0, n0 int64, edit func(k int64, pv *int, fields *string)) {
 	t.Helper()
-	err := loop.Run(c.cfg, sp, n, func(st loop.Step) {
+	err := loop.Run(c.cfg, sp, n, func(st loop.Sample) {
 		c.steps = append(c.steps, st)
 		pv := st.PV
 		fields := "t n sp pv u"
@@ -248,7 +248,7 @@ func TestTauTooShort(t *testing.T) {
 
 // truthRipple returns the peak-to-peak of the model's noise-free sense voltage over
 // samples [from, to).
-func truthRipple(steps []loop.Step, from, to int) float64 {
+func truthRipple(steps []loop.Sample, from, to int) float64 {
 	lo, hi := math.Inf(1), math.Inf(-1)
 	for _, st := range steps[from:to] {
 		lo, hi = math.Min(lo, st.Sense), math.Max(hi, st.Sense)

@@ -11,7 +11,7 @@ import (
 // accumulator was fed.
 type simRun struct {
 	cfg   loop.Config
-	steps []loop.Step
+	steps []loop.Sample
 	acc   *Accumulator
 	sum   *Summary
 }
@@ -42,7 +42,7 @@ func simulate(t testing.TB, cfg loop.Config, sp func(k int64) int, n int64, noU 
 	r := &simRun{cfg: cfg.WithDefaults(), acc: New(Options{Source: "sim"})}
 	r.acc.SetMeta(metaOf(cfg))
 	var idx int64
-	err := loop.Run(cfg, sp, n, func(st loop.Step) {
+	err := loop.Run(cfg, sp, n, func(st loop.Sample) {
 		r.steps = append(r.steps, st)
 		if st.Dropped {
 			return

@@ -21,8 +21,8 @@ type lastHalf struct {
 }
 
 // segSteps returns the model steps inside segment seg (by time).
-func segSteps(r *simRun, seg Segment) []loop.Step {
-	var out []loop.Step
+func segSteps(r *simRun, seg Segment) []loop.Sample {
+	var out []loop.Sample
 	for _, st := range r.steps {
 		if st.T >= seg.StartS-1e-9 && st.T < seg.EndS-1e-9 {
 			out = append(out, st)

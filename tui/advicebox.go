@@ -113,7 +113,7 @@ func (m AdviceModel) Lines() int { return len(m.fullLines()) }
 func (m AdviceModel) fullLines() []string {
 	lines := []string{m.deadbandLine()}
 	if m.adv != nil {
-		if w := m.adv.Deadband; w != nil {
+		if w := m.adv.DeadbandWorking; w != nil {
 			lines = append(lines, fmt.Sprintf("  step near setpoint %.1f counts, noise %.2f counts rms × %.1f = margin %.1f counts",
 				w.StepCounts, w.NoiseRMSCounts, w.SigmaMultiple, w.MarginCounts))
 			lines = append(lines, fmt.Sprintf("  static error it costs %s; band jumps in the check run: %d",

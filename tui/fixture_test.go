@@ -97,7 +97,7 @@ func fixtureSummary() *analysis.Summary {
 func fixtureAdvice() *advice.Advice {
 	return &advice.Advice{
 		DeadbandCounts: ip(4),
-		Deadband: &advice.DeadbandWorking{StepCounts: 5.1, NoiseRMSCounts: 0.42, SigmaMultiple: 3, MarginCounts: 1.3,
+		DeadbandWorking: &advice.DeadbandWorking{StepCounts: 5.1, NoiseRMSCounts: 0.42, SigmaMultiple: 3, MarginCounts: 1.3,
 			StaticErrorV: 0.0195, Rule: "the band must hold one step near the setpoint plus a noise margin", VerifiedJumps: 0},
 		Candidates: []advice.Candidate{
 			{ROhm: 47e3, CF: 2.2e-6, Series: "E12", DeadbandCounts: 3, PredictedRipplePPV: 0.0147, PredictedSettleS: 0.41, PinCurrentA: 1.06e-4, Verdict: "meets goals"},

@@ -245,7 +245,7 @@ func (p *plant) advise(cur *present, noiseMeasured bool) (*Advice, error) {
 		if err := p.bandCheck(ref, db, w); err != nil {
 			return nil, err
 		}
-		a.DeadbandCounts, a.Deadband = &db, w
+		a.DeadbandCounts, a.DeadbandWorking = &db, w
 	}
 	p.fillGoals(a, noiseMeasured)
 	a.Goals.SettleTolV = p.tolFor(0)

@@ -130,7 +130,7 @@ func TestCapturesNarrowerBand(t *testing.T) {
 				}
 			}
 			var said []string
-			for _, st := range a.Deadband.Steps {
+			for _, st := range a.DeadbandWorking.Steps {
 				if st.NarrowerJumps != "" {
 					said = append(said, fmt.Sprintf("%d:%s recurring=%v (up %.1f, down %.1f)", st.SetpointCounts, st.NarrowerJumps, st.Recurring, st.ChargeCounts, st.DischargeCounts))
 				}

@@ -228,7 +228,7 @@ func TestDeadbandNarrowerJumps(t *testing.T) {
 				}
 				samples += wide.samples
 			}
-			for _, s := range a.Deadband.Steps {
+			for _, s := range a.DeadbandWorking.Steps {
 				if s.Recurring {
 					claims++
 					if upNarrow[s.SetpointCounts] == 0 {
@@ -237,7 +237,7 @@ func TestDeadbandNarrowerJumps(t *testing.T) {
 				}
 			}
 			hasClaim := false
-			for _, s := range a.Deadband.Steps {
+			for _, s := range a.DeadbandWorking.Steps {
 				hasClaim = hasClaim || s.NarrowerJumps != ""
 			}
 			if hasClaim && narrowTotal <= wideTotal {
@@ -246,7 +246,7 @@ func TestDeadbandNarrowerJumps(t *testing.T) {
 			if rate := float64(wideTotal) / float64(samples); rate > 1e-3 {
 				t.Errorf("suggested band %d jumps %d times in %d samples (rate %g > 1e-3)", db, wideTotal, samples, rate)
 			}
-			t.Logf("db %d: %d jumps in %d samples; db %d: %d jumps; steps %+v", db, wideTotal, samples, db-1, narrowTotal, a.Deadband.Steps)
+			t.Logf("db %d: %d jumps in %d samples; db %d: %d jumps; steps %+v", db, wideTotal, samples, db-1, narrowTotal, a.DeadbandWorking.Steps)
 		})
 	}
 	if claims == 0 {
@@ -275,8 +275,8 @@ func TestWorkedExamples(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if a.Deadband.FromVoltageBand == nil || *a.Deadband.FromVoltageBand != 21 {
-		t.Errorf("band from 0.1 V = %v, want 21", a.Deadband.FromVoltageBand)
+	if a.DeadbandWorking.FromVoltageBand == nil || *a.DeadbandWorking.FromVoltageBand != 21 {
+		t.Errorf("band from 0.1 V = %v, want 21", a.DeadbandWorking.FromVoltageBand)
 	}
 	// With only 1 uF on hand the chosen R sits near the 50 kOhm of the rule.
 	if r := a.Candidates[0].ROhm; r < 33e3 || r > 82e3 {

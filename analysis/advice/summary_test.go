@@ -55,7 +55,7 @@ func TestFromSummaryDesignsWithRealC(t *testing.T) {
 		t.Errorf("setpoints = %v, want [300 600] from the segments", got)
 	}
 	// The band for the present circuit: step at 300 counts with the real tau.
-	w := a.Deadband
+	w := a.DeadbandWorking
 	want := bandFor(w.StepCounts + 3*0.6)
 	if *a.DeadbandCounts != want {
 		t.Errorf("deadband = %d, want %d from step %.2f + 3 x 0.6", *a.DeadbandCounts, want, w.StepCounts)

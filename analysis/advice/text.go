@@ -49,9 +49,9 @@ func (a *Advice) WriteText(w io.Writer) error {
 			band, si.Format(c.ROhm, "Ω"), si.Format(c.CF, "F"), si.FormatDigits(c.EffectiveCF, "F", 3), si.FormatDigits(c.TauS, "s", 3),
 			fmtV(c.PredictedRipplePPV), settleText(c), c.BandJumps, c.Verdict)
 	}
-	if a.DeadbandCounts != nil && a.Deadband != nil && g != nil {
+	if a.DeadbandCounts != nil && a.DeadbandWorking != nil && g != nil {
 		b.WriteString("\n")
-		writeBand(&b, *a.DeadbandCounts, a.Deadband, g)
+		writeBand(&b, *a.DeadbandCounts, a.DeadbandWorking, g)
 	}
 	b.WriteString("\nR and C, best first (figures from the loop model):\n")
 	if len(a.Candidates) == 0 {

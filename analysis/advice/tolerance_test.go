@@ -205,7 +205,7 @@ func TestPredictedReadRippleMatchesCapture(t *testing.T) {
 				}
 				acc.SetMeta(m)
 				var idx int64
-				err = loop.Run(cfg, func(k int64) int { return seq[min(int(k/hold), len(seq)-1)] }, hold*int64(len(seq)), func(st loop.Step) {
+				err = loop.Run(cfg, func(k int64) int { return seq[min(int(k/hold), len(seq)-1)] }, hold*int64(len(seq)), func(st loop.Sample) {
 					acc.Add(telemetry.Sample{Line: idx + 1, Index: idx, T: int64(st.T*1e6 + 0.5), N: st.K,
 						SP: float64(st.SP), PV: float64(st.PV), U: telemetry.Drive(st.U),
 						Flags: telemetry.HasT | telemetry.HasN | telemetry.HasU})

@@ -4,7 +4,7 @@ package advice
 // `caploop design --json`. Both commands fill it from one engine.
 type Advice struct {
 	DeadbandCounts *int             `json:"deadband_counts"`
-	Deadband       *DeadbandWorking `json:"deadband_working"`
+	DeadbandWorking       *DeadbandWorking `json:"deadband_working"`
 	Candidates     []Candidate      `json:"candidates"`
 	SamplePeriod   *PeriodAdvice    `json:"sample_period"`
 	Topology       []TopologyAdvice `json:"topology"`

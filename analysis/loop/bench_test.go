@@ -54,7 +54,7 @@ func BenchmarkSim(b *testing.B) {
 
 	b.Run("Run", func(b *testing.B) {
 		var n int
-		if err := Run(noisy, func(int64) int { return 512 }, int64(b.N), func(s Step) { n += s.PV }); err != nil {
+		if err := Run(noisy, func(int64) int { return 512 }, int64(b.N), func(s Sample) { n += s.PV }); err != nil {
 			b.Fatal(err)
 		}
 		sec := b.Elapsed().Seconds()

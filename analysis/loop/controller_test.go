@@ -65,7 +65,7 @@ func TestOpenLoopDrives(t *testing.T) {
 			cfg := bench()
 			cfg.Controller = tc.c
 			var got []Drive
-			if err := Run(cfg, nil, int64(len(tc.want)), func(s Step) { got = append(got, s.U) }); err != nil {
+			if err := Run(cfg, nil, int64(len(tc.want)), func(s Sample) { got = append(got, s.U) }); err != nil {
 				t.Fatal(err)
 			}
 			for i := range tc.want {
@@ -107,12 +107,12 @@ func TestDriveHoldsUntilNextSample(t *testing.T) {
 			cfg := bench()
 			cfg.Controller = Controller{Kind: ThreeState, Deadband: 2}
 			tc.edit(&cfg)
-			var prev *Step
+			var prev *Sample
 			n, crossings := 0, 0
 			// setpoint steps between 0 and 600 counts (2.9 V) so that the node
 			// crosses VBE when there is a follower
 			sp := func(k int64) int { return 600 * int(k/1500%2) }
-			err := Run(cfg, sp, 6000, func(s Step) {
+			err := Run(cfg, sp, 6000, func(s Sample) {
 				if prev != nil {
 					want := cfg.Circuit.Advance(prev.V, prev.U, s.T-prev.T)
 					if vbe := cfg.Circuit.Follower.VBE; vbe > 0 && (prev.V > vbe) != (s.V > vbe) {
@@ -149,9 +149,9 @@ func TestRandomStreams(t *testing.T) {
 	cfg.Jitter = 20e-6
 	cfg.Seed = 7
 	const n = 100_000
-	collect := func(cfg Config) []Step {
-		var out []Step
-		if err := Run(cfg, nil, n, func(s Step) { out = append(out, s) }); err != nil {
+	collect := func(cfg Config) []Sample {
+		var out []Sample
+		if err := Run(cfg, nil, n, func(s Sample) { out = append(out, s) }); err != nil {
 			t.Fatal(err)
 		}
 		return out

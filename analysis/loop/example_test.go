@@ -22,7 +22,7 @@ func Example() {
 
 	lo, hi := math.Inf(1), math.Inf(-1)
 	var holds int
-	err := loop.Run(cfg, func(int64) int { return 512 }, 3000, func(s loop.Step) {
+	err := loop.Run(cfg, func(int64) int { return 512 }, 3000, func(s loop.Sample) {
 		if s.K >= 1000 { // steady part
 			lo, hi = math.Min(lo, s.V), math.Max(hi, s.V)
 			if s.U == loop.Hold {

@@ -25,11 +25,11 @@ func (s *Sim) Read() int {
 // Apply holds drive u from the current sample instant to the next one and returns the
 // sample's Step: the reading the last Read took, setpoint sp (for the record only) and
 // u. A drive outside -1..1 counts as hold.
-func (s *Sim) Apply(sp int, u Drive) Step {
+func (s *Sim) Apply(sp int, u Drive) Sample {
 	if u < Discharge || u > Charge {
 		u = Hold
 	}
-	st := Step{K: s.k, T: s.t, V: s.v, Sense: s.sense, PV: s.read, SP: sp, U: u}
+	st := Sample{K: s.k, T: s.t, V: s.v, Sense: s.sense, PV: s.read, SP: sp, U: u}
 	if s.cfg.DropRate > 0 && s.rngD.Float64() < s.cfg.DropRate {
 		st.Dropped = true
 	}

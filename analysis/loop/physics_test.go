@@ -52,7 +52,7 @@ func TestSquareWaveRipple(t *testing.T) {
 			cycles := int(math.Ceil(40*tau/P)) + 2
 			n := int64(cycles * tc.cycle)
 			lo, hi := math.Inf(1), math.Inf(-1)
-			err := Run(cfg, nil, n+1, func(s Step) {
+			err := Run(cfg, nil, n+1, func(s Sample) {
 				if s.K >= n-int64(tc.cycle) {
 					lo, hi = math.Min(lo, s.V), math.Max(hi, s.V)
 				}
@@ -83,7 +83,7 @@ func TestBennett(t *testing.T) {
 	cfg.Controller = Controller{Kind: OpenConst, StepDrive: Charge}
 	scale := math.Ldexp(1, cfg.ADC.Bits) / cfg.ADC.Vref
 	var n, sum, sum2 float64
-	err := Run(cfg, nil, 200_000, func(s Step) {
+	err := Run(cfg, nil, 200_000, func(s Sample) {
 		e := s.Sense*scale - float64(s.PV)
 		n++
 		sum += e

@@ -171,7 +171,7 @@ func (s *Sim) Voltage() float64 { return s.v }
 // Next takes sample k: it reads the ADC at the current instant (with noise), picks
 // the drive from that reading and setpoint sp (counts), returns the Step and then
 // moves the node to the next instant under that drive.
-func (s *Sim) Next(sp int) Step {
+func (s *Sim) Next(sp int) Sample {
 	v := s.v
 	sense := v
 	if s.fol {
@@ -217,7 +217,7 @@ func (s *Sim) Next(sp int) Step {
 		u = ctl.StepDrive
 	}
 
-	st := Step{K: s.k, T: s.t, V: v, Sense: sense, PV: pv, SP: sp, U: u}
+	st := Sample{K: s.k, T: s.t, V: v, Sense: sense, PV: pv, SP: sp, U: u}
 	if s.cfg.DropRate > 0 && s.rngD.Float64() < s.cfg.DropRate {
 		st.Dropped = true
 	}
@@ -256,7 +256,7 @@ func (s *Sim) advance(u Drive) {
 // Run simulates n samples of cfg from the start, asking sp for the setpoint of each
 // sample (nil means 0, for open-loop drives) and handing each Step to fn (nil to
 // discard). The error is New's.
-func Run(cfg Config, sp func(k int64) int, n int64, fn func(Step)) error {
+func Run(cfg Config, sp func(k int64) int, n int64, fn func(Sample)) error {
 	s, err := New(cfg)
 	if err != nil {
 		return err

@@ -36,7 +36,7 @@ func TestStepResponse(t *testing.T) {
 		t.Fatalf("Tau(Charge) = %g, want 0.1", tau)
 	}
 	var v []float64
-	if err := Run(cfg, nil, 501, func(s Step) { v = append(v, s.V) }); err != nil {
+	if err := Run(cfg, nil, 501, func(s Sample) { v = append(v, s.V) }); err != nil {
 		t.Fatal(err)
 	}
 	for i, want := range table {

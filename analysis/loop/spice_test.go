@@ -52,7 +52,7 @@ func needNgspice(t *testing.T) string {
 
 // netlist writes the circuit of cfg driven by the drives of steps (steps[k].U holds
 // from steps[k].T to steps[k+1].T) up to tEnd.
-func netlist(cfg Config, steps []Step, tEnd float64) string {
+func netlist(cfg Config, steps []Sample, tEnd float64) string {
 	ci := cfg.Circuit
 	var b strings.Builder
 	g := func(x float64) string { return strconv.FormatFloat(x, 'g', 17, 64) }
@@ -225,8 +225,8 @@ func TestNgspice(t *testing.T) {
 		t.Run(tc.name, func(t *testing.T) {
 			cfg := bench()
 			tc.edit(&cfg)
-			var steps []Step
-			if err := Run(cfg, tc.sp, tc.n, func(s Step) { steps = append(steps, s) }); err != nil {
+			var steps []Sample
+			if err := Run(cfg, tc.sp, tc.n, func(s Sample) { steps = append(steps, s) }); err != nil {
 				t.Fatal(err)
 			}
 			tEnd := steps[len(steps)-1].T

@@ -78,8 +78,8 @@ type Config struct {
 	V0         float64 // capacitor voltage at t = 0, V
 }
 
-// Step is one sample of a simulation: what the board read and the drive it chose.
-type Step struct {
+// Sample is one sample of a simulation: what the board read and the drive it chose.
+type Sample struct {
 	K       int64   // sample index
 	T       float64 // time of the sample instant, s
 	V       float64 // true capacitor voltage at the sample instant, V

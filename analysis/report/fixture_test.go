@@ -55,7 +55,7 @@ func fixtureAdvice() *advice.Advice {
 	from := 21
 	return &advice.Advice{
 		DeadbandCounts: &db,
-		Deadband: &advice.DeadbandWorking{StepCounts: 4.1, NoiseRMSCounts: 0.62, SigmaMultiple: 3, MarginCounts: 1.86,
+		DeadbandWorking: &advice.DeadbandWorking{StepCounts: 4.1, NoiseRMSCounts: 0.62, SigmaMultiple: 3, MarginCounts: 1.86,
 			StaticErrorV: 0.0146, FromVoltageBand: &from, Rule: "step < 2·db + 1 with a 3σ noise margin", VerifiedJumps: 0,
 			Steps: []advice.SetpointStep{{SetpointCounts: 246, ChargeCounts: 4.1, DischargeCounts: 1.3}}},
 		Candidates: []advice.Candidate{

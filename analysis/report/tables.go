@@ -316,12 +316,12 @@ func AdviceTables(a *advice.Advice, prefix string) []Table {
 		}
 		ts = append(ts, t)
 	}
-	if a.DeadbandCounts != nil || a.Deadband != nil {
+	if a.DeadbandCounts != nil || a.DeadbandWorking != nil {
 		t := Table{ID: prefix + "advice-deadband", Caption: "Advice: deadband", Head: []string{"figure", "value"}}
 		if a.DeadbandCounts != nil {
 			t.add("suggested deadband (half-width)", strconv.Itoa(*a.DeadbandCounts)+" counts")
 		}
-		if w := a.Deadband; w != nil {
+		if w := a.DeadbandWorking; w != nil {
 			t.add("largest step near the setpoints", figure.Num(w.StepCounts)+" counts")
 			t.add("ADC noise (rms)", figure.Num(w.NoiseRMSCounts)+" counts")
 			t.add("noise margin", figure.Num(w.SigmaMultiple)+" σ = "+figure.Num(w.MarginCounts)+" counts")

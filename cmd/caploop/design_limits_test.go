@@ -118,7 +118,7 @@ func TestDesignLimitsFollowTheBoard(t *testing.T) {
 			}
 		}
 		a := designJSON(t, "--mode", "two-state")
-		if a.DeadbandCounts != nil || a.Deadband != nil {
+		if a.DeadbandCounts != nil || a.DeadbandWorking != nil {
 			t.Errorf("two-state JSON has a deadband")
 		}
 	})

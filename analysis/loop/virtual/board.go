@@ -459,7 +459,7 @@ func bootTime(f *Faults) float64 {
 }
 
 // sample takes one sample with the current setpoint and advances the sequence number.
-func (b *Board) sample() loop.Step {
+func (b *Board) sample() loop.Sample {
 	sp := b.spOverride
 	if sp < 0 {
 		sp = b.sc.Counts(b.sc.Setpoint(b.now - b.bootStart))
@@ -475,7 +475,7 @@ func (b *Board) sample() loop.Step {
 
 // dataLine formats st as the firmware prints it: t is the board clock in µs since boot
 // plus T0, wrapping at 2^32; n counts samples since boot, lost ones included.
-func (b *Board) dataLine(st loop.Step) []byte {
+func (b *Board) dataLine(st loop.Sample) []byte {
 	us := uint32(int64(math.Round((st.T - b.bootAt) * 1e6)))
 	s := telemetry.Sample{
 		T:     int64(b.sc.T0 + us),

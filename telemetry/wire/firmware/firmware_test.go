@@ -105,7 +105,7 @@ const runSamples = 6000
 // and the samples as the plant saw them.
 type fil struct {
 	lines [][]byte
-	steps []loop.Step
+	steps []loop.Sample
 }
 
 // runFirmware runs the firmware on cfg for runSamples readings with the script, reading
@@ -118,7 +118,7 @@ func runFirmware(t *testing.T, prog string, cfg loop.Config) fil {
 	next := 0
 	rig, err := Start(context.Background(), Options{
 		Program: prog, Plant: cfg, SP: 512, Samples: runSamples,
-		OnStep: func(st loop.Step) { out.steps = append(out.steps, st) },
+		OnStep: func(st loop.Sample) { out.steps = append(out.steps, st) },
 		BeforeRead: func(k int64) {
 			if next >= len(script) || script[next].k != k {
 				return
@@ -235,7 +235,7 @@ func TestFirmwareInTheLoop(t *testing.T) {
 // interval to the next sample that its clock shows (which must be the period it
 // announced). Reading and drive must match line for line; the plant's record must
 // match the lines (the firmware reports the drive it set).
-func replay(t *testing.T, cfg loop.Config, recs []parsed, samples []int, steps []loop.Step) {
+func replay(t *testing.T, cfg loop.Config, recs []parsed, samples []int, steps []loop.Sample) {
 	t.Helper()
 	sim, err := loop.New(cfg)
 	if err != nil {

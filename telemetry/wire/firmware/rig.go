@@ -45,7 +45,7 @@ type Options struct {
 	BeforeRead func(k int64)
 	// OnStep, when set, gets every sample as the plant saw it: the reading, the drive the
 	// firmware set after it and the node voltage (SP is 0: the plant does not know it).
-	OnStep func(loop.Step)
+	OnStep func(loop.Sample)
 }
 
 // Rig is one running firmware in the loop. Close it.
