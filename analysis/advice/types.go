@@ -3,13 +3,13 @@ package advice
 // Advice is the advice block of `caploop summary --json` and the output of
 // `caploop design --json`. Both commands fill it from one engine.
 type Advice struct {
-	DeadbandCounts *int             `json:"deadband_counts"`
-	DeadbandWorking       *DeadbandWorking `json:"deadband_working"`
-	Candidates     []Candidate      `json:"candidates"`
-	SamplePeriod   *PeriodAdvice    `json:"sample_period"`
-	Topology       []TopologyAdvice `json:"topology"`
-	Cautions       []string         `json:"cautions"`
-	Notes          []string         `json:"notes"`
+	DeadbandCounts  *int             `json:"deadband_counts"`
+	DeadbandWorking *DeadbandWorking `json:"deadband_working"`
+	Candidates      []Candidate      `json:"candidates"`
+	SamplePeriod    *PeriodAdvice    `json:"sample_period"`
+	Topology        []TopologyAdvice `json:"topology"`
+	Cautions        []string         `json:"cautions"`
+	Notes           []string         `json:"notes"`
 
 	// Added fields.
 	Goals   *GoalsUsed   `json:"goals"`   // the goals and assumptions the advice was made for
