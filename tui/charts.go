@@ -10,6 +10,7 @@ import (
 	"github.com/guptarohit/asciigraph"
 
 	"github.com/caploop/caploop/analysis"
+	"github.com/caploop/caploop/internal/words"
 	"github.com/caploop/caploop/telemetry/si"
 )
 
@@ -145,7 +146,7 @@ func RenderHistogram(bins, counts []float64, width, height int) string {
 	labW = max(labW, 7)
 	barW := max(width-labW-15, 5)
 	var b strings.Builder
-	fmt.Fprintf(&b, "error spread over steady parts (pv - sp, counts), %.0f samples", total)
+	b.WriteString("error spread over steady parts (pv - sp, counts), " + words.CountText(fmt.Sprintf("%.0f", total), "sample"))
 	for _, r := range bars {
 		bar := ""
 		if most > 0 {

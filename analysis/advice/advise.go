@@ -9,6 +9,7 @@ import (
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/loop"
+	"github.com/caploop/caploop/internal/words"
 	"github.com/caploop/caploop/telemetry/si"
 )
 
@@ -477,8 +478,8 @@ func (p *plant) notes(a *Advice, sr *searchResult) []string {
 	if a.Goals.NoiseMeasured {
 		src = "measured"
 	}
-	n = append(n, fmt.Sprintf("figures are from the loop model (ADC noise %.2f counts rms, %s), not from formulas: %d pairs tried, %d pruned by closed forms, %d run in closed loop, the best run again over %d samples per setpoint with %d other seeds (figures: their mean; verdict: the worst seed)",
-		p.g.noise, src, sr.tried, sr.tried-sr.simmed, sr.simmed, p.verifyWin, p.nSeeds))
+	n = append(n, fmt.Sprintf("figures are from the loop model (ADC noise %.2f counts rms, %s), not from formulas: %s tried, %d pruned by closed forms, %d run in closed loop, the best run again over %s per setpoint with %s (figures: their mean; verdict: the worst seed)",
+		p.g.noise, src, words.Count(sr.tried, "pair"), sr.tried-sr.simmed, sr.simmed, words.Count(p.verifyWin, "sample"), words.Count(p.nSeeds, "other seed")))
 	n = append(n, fmt.Sprintf("settling is timed on a step from %d to %d counts and back, to within %s of the setpoint; ripple p-p is the spread of the output between its 0.5 %% and 99.5 %% points over the steady part at each setpoint (counts %v), the largest of them",
 		p.lo, p.hi, fmtV(a.Goals.SettleTolV), p.sps))
 	if len(a.Candidates) == 0 {
@@ -488,7 +489,7 @@ func (p *plant) notes(a *Advice, sr *searchResult) []string {
 				rs = append(rs, fmt.Sprintf("%d %s", sr.reasons[k], k))
 			}
 		}
-		n = append(n, fmt.Sprintf("no pair comes near the goals; of %d pairs (a pair may fail several ways): %s", sr.tried, strings.Join(rs, ", ")))
+		n = append(n, fmt.Sprintf("no pair comes near the goals; of %s (a pair may fail several ways): %s", words.Count(sr.tried, "pair"), strings.Join(rs, ", ")))
 	}
 	if p.kind == loop.TwoState && a.DeadbandCounts != nil {
 		n = append(n, "the deadband applies if you switch to three-state (hold)")

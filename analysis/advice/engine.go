@@ -7,6 +7,7 @@ import (
 	"strings"
 
 	"github.com/caploop/caploop/analysis/loop"
+	"github.com/caploop/caploop/internal/words"
 )
 
 // Search limits: the closed forms prune every pair first; at most maxQuick survivors get
@@ -398,7 +399,7 @@ func (p *plant) trades(pr *pair, kind loop.Kind) string {
 		t = append(t, fmt.Sprintf("ripple %.0f %% and settling %.0f %% of budget", 100*rr, 100*sr))
 	}
 	if kind == loop.ThreeState && pr.db > 0 {
-		t = append(t, fmt.Sprintf("static error up to %d counts (%s)", pr.db, fmtV(float64(pr.db)*p.lsb())))
+		t = append(t, fmt.Sprintf("static error up to %s (%s)", words.Count(pr.db, "count"), fmtV(float64(pr.db)*p.lsb())))
 	}
 	t = append(t, p.ruleTrades(pr)...)
 	if pr.c >= 1e-6*(1-relTol) && pr.c <= ruleMaxC*(1+relTol) {
