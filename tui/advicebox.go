@@ -107,9 +107,6 @@ func (m AdviceModel) View() string {
 	return fitBlock(strings.Join(out, "\n"), m.width, m.height)
 }
 
-// Lines returns how many rows the full form needs at the current width.
-func (m AdviceModel) Lines() int { return len(m.fullLines()) }
-
 // fullLines is the full form, word-wrapped to the width.
 func (m AdviceModel) fullLines() []string {
 	lines := []string{m.deadbandLine()}
@@ -124,9 +121,6 @@ func (m AdviceModel) fullLines() []string {
 			}
 		}
 		for i, c := range m.adv.Candidates {
-			if i == 3 {
-				break
-			}
 			lines = append(lines, fmt.Sprintf("  %d. %s", i+1, candidateLine(c)))
 		}
 		if p := m.adv.SamplePeriod; p != nil {

@@ -64,11 +64,6 @@ func (m FiguresModel) View() string {
 	return fitBlock(m.fullView(), m.width, m.height)
 }
 
-// Lines returns how many rows the full form needs at the current width.
-func (m FiguresModel) Lines() int {
-	return strings.Count(strings.TrimRight(m.fullView(), "\n"), "\n") + 1
-}
-
 // showTracking says the setpoint is moving (the newest segment was opened by a tracking
 // move) or mostly moved: the tracking figures then stand where the segment's would.
 func showTracking(s *analysis.Summary) bool {
