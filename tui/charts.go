@@ -59,7 +59,11 @@ func (m ChartModel) View() string {
 		if tr == nil {
 			return fitBlock("error spread: no steady data yet", m.width, m.height)
 		}
-		return RenderHistogram(tr.ErrBins, tr.ErrHist, m.width, m.height)
+		out := RenderHistogram(tr.ErrBins, tr.ErrHist, m.width, m.height)
+		if m.color {
+			out = paintBars(out)
+		}
+		return out
 	case ChartRipple:
 		if tr == nil {
 			return fitBlock("ripple spectrum: no steady data yet", m.width, m.height)
@@ -465,4 +469,25 @@ func niceAxis(span float64, maxIntervals int) (top float64, intervals int) {
 		return span, maxIntervals
 	}
 	return top, intervals
+}
+
+// paintBars colours the bars of a histogram (runs of █ and ▏) in the measurement's colour.
+func paintBars(s string) string {
+	lines := strings.Split(s, "\n")
+	for i, l := range lines {
+		start := strings.IndexAny(l, "█▏")
+		if start < 0 {
+			continue
+		}
+		end := start
+		for end < len(l) {
+			r := []rune(l[end:])[0]
+			if r != '█' && r != '▏' {
+				break
+			}
+			end += len(string(r))
+		}
+		lines[i] = l[:start] + paint(colourPV, l[start:end]) + l[end:]
+	}
+	return strings.Join(lines, "\n")
 }
