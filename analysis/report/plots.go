@@ -16,7 +16,6 @@ import (
 	"gonum.org/v1/plot/vg/vgsvg"
 
 	"github.com/caploop/caploop/analysis"
-	"github.com/caploop/caploop/internal/words"
 	"github.com/caploop/caploop/telemetry/si"
 )
 
@@ -287,7 +286,7 @@ func zoomChart(s *analysis.Summary, z analysis.ZoomTrace) (chart, bool) {
 	fx := func(t float64) float64 { return (t - t0) * scale }
 	title := fmt.Sprintf("Segment %d, steady ripple", z.Segment+1)
 	if len(chargeOnsets(z.U)) > 0 {
-		title = fmt.Sprintf("Segment %d, %s", z.Segment+1, words.Count(zoomCycles, "limit cycle"))
+		title = fmt.Sprintf("Segment %d, %d limit cycles", z.Segment+1, zoomCycles)
 	}
 	var sp, db float64 = math.NaN(), math.NaN()
 	hasBand := false
