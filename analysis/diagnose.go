@@ -51,7 +51,7 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 		d = append(d, Diagnostic{Code: code, Severity: sev, Message: fmt.Sprintf(format, args...)})
 	}
 	if sum.RejectedLines > 0 {
-		msg := fmt.Sprintf("%d lines could not be read and were skipped", sum.RejectedLines)
+		msg := figure.Count(sum.RejectedLines, "line") + " could not be read and " + figure.Pick(sum.RejectedLines, "was", "were") + " skipped"
 		if len(sum.FirstRejects) > 0 {
 			msg += "; the first: " + sum.FirstRejects[0].Reason
 		}
@@ -68,7 +68,7 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 		add(DiagNoPeriod, "warning", "The sample period is unknown (no t on the data lines, no period_us meta line, no host times): times and time constants cannot be given.")
 	}
 	if a.inferred {
-		add(DiagInferredDrive, "info", "The data lines carry no drive u: it was inferred from the %s rule with a deadband of %g counts.", modeName(a.three), a.db)
+		add(DiagInferredDrive, "info", "The data lines carry no drive u: it was inferred from the %s rule with a deadband of %s.", modeName(a.three), figure.Count(a.db, "count"))
 	}
 	// Segments with the same setpoint and band (a repeating profile) share one sentence each.
 	type group struct {
@@ -144,8 +144,8 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 				addG(DiagUnreachable, "error", "%s: beyond the %s asymptote %s = %s, the loop stays at %s. Lower the load or the buffer drop, or move the setpoint.",
 					where(g), lim, what, c.fmtV(pf.fit[dd].VInf), c.fmtV(g.lastPV))
 			} else {
-				addG(DiagUnreachable, "error", "%s: never reached; the reading stopped at %s after %d samples of %s.",
-					where(g), c.fmtV(g.lastPV), g.endRun, lim)
+				addG(DiagUnreachable, "error", "%s: never reached; the reading stopped at %s after %s of %s.",
+					where(g), c.fmtV(g.lastPV), figure.Count(g.endRun, "sample"), lim)
 			}
 		} else if g.unsettled {
 			addG(DiagNotSettled, "warning", "%s: the reading did not reach the setpoint within the segment (last reading %s).",
@@ -154,12 +154,12 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 		if g.jumps > 0 {
 			step := a.stepNear(g.sp, pf)
 			band := 2*g.db + 1
-			bandText := fmt.Sprintf("a deadband of ±%g counts (%g counts wide)", g.db, band)
+			bandText := fmt.Sprintf("a deadband of ±%s (%s wide)", figure.Count(g.db, "count"), figure.Count(band, "count"))
 			if g.db == 0 {
 				bandText = "no deadband in force (none reported, so a band of one count)"
 			}
-			msg := fmt.Sprintf("%s: %d band jumps (a charge followed directly by a discharge or the reverse) with %s",
-				where(g), g.jumps, bandText)
+			msg := fmt.Sprintf("%s: %s (a charge followed directly by a discharge or the reverse) with %s",
+				where(g), figure.Count(g.jumps, "band jump"), bandText)
 			if !math.IsNaN(step) {
 				msg += fmt.Sprintf("; one charge step near the setpoint is about %.1f counts", step)
 				noise := 0.0
@@ -178,8 +178,8 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 			if sum.Plant.NoiseRMSCounts != nil {
 				noise = fmt.Sprintf("%.2f counts rms", *sum.Plant.NoiseRMSCounts)
 			}
-			addG(DiagNoiseChatter, "warning", "%s: %d of %d deadband exits went upward out of hold, which the droop cannot do: ADC noise (%s) chatters against the ±%g count band; widen it or filter the reading.",
-				where(g), g.noiseExits, g.exits, noise, g.db)
+			addG(DiagNoiseChatter, "warning", "%s: %d of %s went upward out of hold, which the droop cannot do: ADC noise (%s) chatters against the ±%g count band; widen it or filter the reading.",
+				where(g), g.noiseExits, figure.Count(g.exits, "deadband exit"), noise, g.db)
 		}
 		if g.db > 0 && pf.ok[1] && g.droopChecked {
 			hf := pf.fit[1]
@@ -197,20 +197,20 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 	}
 	for _, k := range order {
 		code, sev, _ := strings.Cut(k, "\x00")
-		add(code, sev, "The same (%s) at %d more setpoints.", strings.ReplaceAll(code, "_", " "), more[code])
+		add(code, sev, "The same (%s) at %s.", strings.ReplaceAll(code, "_", " "), figure.Count(more[code], "more setpoint"))
 	}
 	fold.write(add, sum, c)
 	if sum.Gaps > 0 && a.n > 0 {
-		add(DiagDroppedSamples, "warning", "%d samples are missing (%.2f %% of %d): the link dropped lines or the board skipped periods.",
-			sum.Gaps, 100*float64(sum.Gaps)/float64(sum.Gaps+a.n), sum.Gaps+a.n)
+		add(DiagDroppedSamples, "warning", "%s %s missing (%.2f %% of %d): the link dropped lines or the board skipped periods.",
+			figure.Count(sum.Gaps, "sample"), figure.Pick(sum.Gaps, "is", "are"), 100*float64(sum.Gaps)/float64(sum.Gaps+a.n), sum.Gaps+a.n)
 	}
 	if sum.JitterS != nil && sum.SamplePeriodS != nil && *sum.JitterS > 0.05**sum.SamplePeriodS {
 		add(DiagJitter, "warning", "The sample period jitters by %s rms (%.1f %% of %s): the firmware's timing is uneven, which adds ripple.",
 			fmtS(*sum.JitterS), 100**sum.JitterS/(*sum.SamplePeriodS), fmtS(*sum.SamplePeriodS))
 	}
 	if r := a.railLo + a.railHi; r > 0 && float64(r) > 0.001*float64(a.n) {
-		add(DiagRailSaturation, "warning", "%d readings (%.1f %%) sit at an ADC rail (%d at 0, %d at full scale): the level was clipped, and the fit left them out.",
-			r, 100*float64(r)/float64(a.n), a.railLo, a.railHi)
+		add(DiagRailSaturation, "warning", "%s (%.1f %%) %s at an ADC rail (%d at 0, %d at full scale): the level was clipped, and the fit left them out.",
+			figure.Count(r, "reading"), 100*float64(r)/float64(a.n), figure.Pick(r, "sits", "sit"), a.railLo, a.railHi)
 	}
 	if sum.SamplePeriodS != nil && *sum.SamplePeriodS < a.opts.ConversionS {
 		add(DiagPeriodBelowADC, "error", "The sample period %s is below the ADC conversion time of about %s (a 10-bit successive-approximation ADC at a 125 kHz ADC clock): the readings cannot be fresh.",
@@ -227,7 +227,7 @@ func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv)
 		add(DiagStuckCodes, "warning", "%d ADC codes occur far more often than their neighbours away from any setpoint (first: %d): the converter may stick there.", n, sum.Plant.StuckCodes[0])
 	}
 	if sum.SegmentsOmitted > 0 {
-		add(DiagSegmentsOmitted, "info", "%d segments past the first %d are not kept in the segment list (it is bounded); the plant, tracking and these diagnostics still cover them.", sum.SegmentsOmitted, len(sum.Segments))
+		add(DiagSegmentsOmitted, "info", "%s past the first %d %s not kept in the segment list (it is bounded); the plant, tracking and these diagnostics still cover %s.", figure.Count(sum.SegmentsOmitted, "segment"), len(sum.Segments), figure.Pick(sum.SegmentsOmitted, "is", "are"), figure.Pick(sum.SegmentsOmitted, "it", "them"))
 	}
 	return d
 }
@@ -330,10 +330,10 @@ func (f *trackFold) write(add func(code, sev, format string, args ...any), sum *
 	}
 	const while = "While the setpoint moved (tracking)"
 	if f.unreachable > 0 {
-		add(DiagUnreachable, "error", "%s, %d setpoints (%s) were beyond what the loop can reach.", while, f.unreachable, span(0))
+		add(DiagUnreachable, "error", "%s, %s (%s) %s beyond what the loop can reach.", while, figure.Count(f.unreachable, "setpoint"), span(0), figure.Pick(f.unreachable, "was", "were"))
 	}
 	if f.unsettled > 0 {
-		msg := fmt.Sprintf("%s, the reading did not reach %d setpoints (%s) before the next one came", while, f.unsettled, span(1))
+		msg := fmt.Sprintf("%s, the reading did not reach %s (%s) before the next one came", while, figure.Count(f.unsettled, "setpoint"), span(1))
 		if t := sum.Tracking; t != nil && t.RMSErrorCounts != nil {
 			msg += fmt.Sprintf("; it trailed by %s rms", c.fmtV(*t.RMSErrorCounts))
 			if t.LagSamples != nil {
@@ -347,8 +347,8 @@ func (f *trackFold) write(add func(code, sev, format string, args ...any), sum *
 		add(DiagNotSettled, "info", "%s.", msg)
 	}
 	if f.jumpSPs > 0 {
-		msg := fmt.Sprintf("%s, %d band jumps (a charge followed directly by a discharge or the reverse) at %d setpoints (%s) with a deadband of ±%g counts",
-			while, f.jumps, f.jumpSPs, span(2), f.db)
+		msg := fmt.Sprintf("%s, %s (a charge followed directly by a discharge or the reverse) at %s (%s) with a deadband of ±%s",
+			while, figure.Count(f.jumps, "band jump"), figure.Count(f.jumpSPs, "setpoint"), span(2), figure.Count(f.db, "count"))
 		if !math.IsNaN(f.maxStep) {
 			msg += fmt.Sprintf("; one charge step there is up to %.1f counts", f.maxStep)
 			noise := 0.0
@@ -366,11 +366,11 @@ func (f *trackFold) write(add func(code, sev, format string, args ...any), sum *
 		if sum.Plant.NoiseRMSCounts != nil {
 			noise = fmt.Sprintf("%.2f counts rms", *sum.Plant.NoiseRMSCounts)
 		}
-		add(DiagNoiseChatter, "warning", "%s, %d of %d deadband exits at %d setpoints (%s) went upward out of hold, which the droop cannot do: ADC noise (%s) chatters against the ±%g count band; widen it or filter the reading.",
-			while, f.noiseExits, f.exits, f.chatterSPs, span(3), noise, f.db)
+		add(DiagNoiseChatter, "warning", "%s, %d of %s at %s (%s) went upward out of hold, which the droop cannot do: ADC noise (%s) chatters against the ±%g count band; widen it or filter the reading.",
+			while, f.noiseExits, figure.Count(f.exits, "deadband exit"), figure.Count(f.chatterSPs, "setpoint"), span(3), noise, f.db)
 	}
 	if f.droopSPs > 0 {
-		add(DiagDroopTooFast, "warning", "%s, at %d setpoints (%s) the level droops in hold by up to %.1f counts per sample, fast against the band: the charges barely keep up. Reduce the load, shorten the sample period or widen the band.",
-			while, f.droopSPs, span(4), f.maxDroop)
+		add(DiagDroopTooFast, "warning", "%s, at %s (%s) the level droops in hold by up to %.1f counts per sample, fast against the band: the charges barely keep up. Reduce the load, shorten the sample period or widen the band.",
+			while, figure.Count(f.droopSPs, "setpoint"), span(4), f.maxDroop)
 	}
 }

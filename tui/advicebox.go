@@ -10,6 +10,7 @@ import (
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/advice"
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/telemetry/si"
 )
 
@@ -77,7 +78,7 @@ func (m AdviceModel) deadbandLine() string {
 	case m.current >= 0:
 		now = fmt.Sprintf(" (now %.0f)", m.current)
 	}
-	s := fmt.Sprintf("advice: deadband %d counts%s", n, now)
+	s := "advice: deadband " + figure.Count(n, "count") + now
 	if m.canSend && float64(n) != m.current {
 		s += " · d sends it"
 	}
@@ -101,13 +102,10 @@ func (m AdviceModel) View() string {
 	if len(out) > m.height && m.height > 1 {
 		// Say what does not fit rather than cut it silently.
 		more := len(out) - m.height + 1
-		out = append(out[:m.height-1], fmt.Sprintf("  … %d more lines: a taller terminal shows them", more))
+		out = append(out[:m.height-1], "  … "+figure.Count(more, "more line")+": a taller terminal shows them")
 	}
 	return fitBlock(strings.Join(out, "\n"), m.width, m.height)
 }
-
-// Lines returns how many rows the full form needs at the current width.
-func (m AdviceModel) Lines() int { return len(m.fullLines()) }
 
 // fullLines is the full form, word-wrapped to the width.
 func (m AdviceModel) fullLines() []string {
@@ -123,9 +121,6 @@ func (m AdviceModel) fullLines() []string {
 			}
 		}
 		for i, c := range m.adv.Candidates {
-			if i == 3 {
-				break
-			}
 			lines = append(lines, fmt.Sprintf("  %d. %s", i+1, candidateLine(c)))
 		}
 		if p := m.adv.SamplePeriod; p != nil {
@@ -167,7 +162,7 @@ func (m AdviceModel) compactLines(rows int) []string {
 			out = append(out, "  "+severityGlyph(d.Severity)+" "+headline(d))
 		}
 		more := n - (rows - 1)
-		last := fmt.Sprintf("  … %d more diagnostics on view 2", more)
+		last := "  … " + figure.Count(more, "more diagnostic") + " on view 2"
 		if rows == 1 {
 			last = fmt.Sprintf("  %s %s · %d more on view 2", severityGlyph(diags[0].Severity), headline(diags[0]), more-1)
 		}

@@ -10,6 +10,7 @@ import (
 	"github.com/guptarohit/asciigraph"
 
 	"github.com/caploop/caploop/analysis"
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/telemetry/si"
 )
 
@@ -58,7 +59,11 @@ func (m ChartModel) View() string {
 		if tr == nil {
 			return fitBlock("error spread: no steady data yet", m.width, m.height)
 		}
-		return RenderHistogram(tr.ErrBins, tr.ErrHist, m.width, m.height)
+		out := RenderHistogram(tr.ErrBins, tr.ErrHist, m.width, m.height)
+		if m.color {
+			out = paintBars(out)
+		}
+		return out
 	case ChartRipple:
 		if tr == nil {
 			return fitBlock("ripple spectrum: no steady data yet", m.width, m.height)
@@ -145,7 +150,7 @@ func RenderHistogram(bins, counts []float64, width, height int) string {
 	labW = max(labW, 7)
 	barW := max(width-labW-15, 5)
 	var b strings.Builder
-	fmt.Fprintf(&b, "error spread over steady parts (pv - sp, counts), %.0f samples", total)
+	b.WriteString("error spread over steady parts (pv - sp, counts), " + figure.CountText(fmt.Sprintf("%.0f", total), "sample"))
 	for _, r := range bars {
 		bar := ""
 		if most > 0 {
@@ -464,4 +469,25 @@ func niceAxis(span float64, maxIntervals int) (top float64, intervals int) {
 		return span, maxIntervals
 	}
 	return top, intervals
+}
+
+// paintBars colours the bars of a histogram (runs of █ and ▏) in the measurement's colour.
+func paintBars(s string) string {
+	lines := strings.Split(s, "\n")
+	for i, l := range lines {
+		start := strings.IndexAny(l, "█▏")
+		if start < 0 {
+			continue
+		}
+		end := start
+		for end < len(l) {
+			r := []rune(l[end:])[0]
+			if r != '█' && r != '▏' {
+				break
+			}
+			end += len(string(r))
+		}
+		lines[i] = l[:start] + paint(colourPV, l[start:end]) + l[end:]
+	}
+	return strings.Join(lines, "\n")
 }

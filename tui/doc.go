@@ -20,6 +20,7 @@
 //	         the suggested deadband and the diagnostics
 //	figures  every figure of the current steady segment and of the identified plant, or
 //	         the figures before and after a deadband change side by side; the full advice
+//	         and every diagnostic (it scrolls with ↑/↓ and PgUp/PgDn)
 //	spread   histogram of the error over steady parts
 //	ripple   ripple spectrum of the longest steady part
 //	step     the last step response: pv samples as dots over the fitted plant model
@@ -27,7 +28,10 @@
 //
 // The keys are in KeyMap (DefaultKeyMap); ? shows them all. On a live source, d sends
 // "set deadband=N" with the suggested N after a y/n question and m marks the moment with
-// a note (kept in the capture when recording).
+// a note (kept in the capture when recording). A replay jumps to the next or previous
+// setpoint change, segment, mark or event (s/S, g/G, m/M, e/E), to a tenth of the capture
+// (j and a digit) or its start (home), and changes speed with x/X. The series colours and
+// glyphs are in palette.go.
 //
 // Rendering functions (RenderPlot, RenderHistogram, RenderSpectrum, RenderStep) are
 // pure: data and size in, string out, and are covered by golden tests at 80x24 and

@@ -7,6 +7,7 @@ import (
 	tea "github.com/charmbracelet/bubbletea"
 
 	"github.com/caploop/caploop/analysis"
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/tui/live"
 )
 
@@ -63,11 +64,6 @@ func (m FiguresModel) View() string {
 	return fitBlock(m.fullView(), m.width, m.height)
 }
 
-// Lines returns how many rows the full form needs at the current width.
-func (m FiguresModel) Lines() int {
-	return strings.Count(strings.TrimRight(m.fullView(), "\n"), "\n") + 1
-}
-
 // showTracking says the setpoint is moving (the newest segment was opened by a tracking
 // move) or mostly moved: the tracking figures then stand where the segment's would.
 func showTracking(s *analysis.Summary) bool {
@@ -89,8 +85,8 @@ func trackingRows(t *analysis.Tracking) [][2]string {
 	return [][2]string{
 		{"samples", fmt.Sprintf("%d over %s", t.Samples, fmtSI(t.DurationS, "s"))},
 		{"setpoint", fmtSI(t.SPMinV, "V") + " to " + fmtSI(t.SPMaxV, "V")},
-		{"mean error", fmtSI(t.MeanErrorV, "V") + " (" + fmtCounts(t.MeanErrorCounts) + " counts)"},
-		{"rms error", fmtSI(t.RMSErrorV, "V") + " (" + fmtCounts(t.RMSErrorCounts) + " counts)"},
+		{"mean error", fmtSI(t.MeanErrorV, "V") + " (" + figure.CountText(fmtCounts(t.MeanErrorCounts), "count") + ")"},
+		{"rms error", fmtSI(t.RMSErrorV, "V") + " (" + figure.CountText(fmtCounts(t.RMSErrorCounts), "count") + ")"},
 		{"max |error|", fmtSI(t.MaxAbsErrorV, "V")},
 		{"lag", lag},
 		{"duty c/h/d", fmtPct(t.DutyCharge) + " / " + fmtPct(t.DutyHold) + " / " + fmtPct(t.DutyDischarge)},
@@ -107,9 +103,9 @@ func (m FiguresModel) compactView() string {
 		fmt.Fprintf(&b, "duty charge %s hold %s discharge %s  max |error| %s  band jumps %d\n",
 			fmtPct(t.DutyCharge), fmtPct(t.DutyHold), fmtPct(t.DutyDischarge), fmtSI(t.MaxAbsErrorV, "V"), t.BandJumps)
 		p := m.sum.Plant
-		fmt.Fprintf(&b, "tau charge %s%s discharge %s  v_high %s  noise %s counts rms",
+		fmt.Fprintf(&b, "tau charge %s%s discharge %s  v_high %s  noise %s rms",
 			fmtSI(p.TauChargeS, "s"), fmtCI(p.TauChargeS, p.TauChargeCIS), fmtSI(p.TauDischargeS, "s"),
-			fmtSI(p.VHighV, "V"), fmtCounts(p.NoiseRMSCounts))
+			fmtSI(p.VHighV, "V"), figure.CountText(fmtCounts(p.NoiseRMSCounts), "count"))
 		return b.String()
 	}
 	seg := live.CurrentSegment(m.sum)
@@ -125,9 +121,9 @@ func (m FiguresModel) compactView() string {
 	fmt.Fprintf(&b, "band %s  entries %d  exits %d  band jumps %d%s\n",
 		fmtBand(seg.DeadbandCounts), seg.DeadbandEntries, seg.DeadbandExits, seg.BandJumps, unreachable(seg))
 	p := m.sum.Plant
-	fmt.Fprintf(&b, "tau charge %s%s discharge %s  v_high %s  noise %s counts rms",
+	fmt.Fprintf(&b, "tau charge %s%s discharge %s  v_high %s  noise %s rms",
 		fmtSI(p.TauChargeS, "s"), fmtCI(p.TauChargeS, p.TauChargeCIS), fmtSI(p.TauDischargeS, "s"),
-		fmtSI(p.VHighV, "V"), fmtCounts(p.NoiseRMSCounts))
+		fmtSI(p.VHighV, "V"), figure.CountText(fmtCounts(p.NoiseRMSCounts), "count"))
 	return b.String()
 }
 
@@ -135,7 +131,7 @@ func fmtSPV(seg *analysis.Segment) string {
 	if seg.SetpointV != nil {
 		return fmtSI(seg.SetpointV, "V")
 	}
-	return fmt.Sprintf("%.0f counts", seg.SetpointCounts)
+	return figure.CountText(fmt.Sprintf("%.0f", seg.SetpointCounts), "count")
 }
 
 // fmtBand writes a deadband half-width: "±4 counts", or "– (not reported)".
@@ -143,7 +139,7 @@ func fmtBand(p *float64) string {
 	if p == nil {
 		return dash + " (not reported)"
 	}
-	return "±" + fmtCounts(p) + " counts"
+	return figure.CountText("±"+fmtCounts(p), "count")
 }
 
 func unreachable(seg *analysis.Segment) string {
@@ -160,10 +156,10 @@ func segmentRows(seg *analysis.Segment) [][2]string {
 	}
 	return [][2]string{
 		{"setpoint", fmtSPV(seg)},
-		{"steady", fmt.Sprintf("%d samples from %s", seg.SteadySamples, fmtSI(seg.SteadyStartS, "s"))},
-		{"ripple p-p", fmtSI(seg.RipplePPV, "V") + " (" + fmtCounts(seg.RipplePPCounts) + " counts)"},
+		{"steady", figure.Count(seg.SteadySamples, "sample") + " from " + fmtSI(seg.SteadyStartS, "s")},
+		{"ripple p-p", fmtSI(seg.RipplePPV, "V") + " (" + figure.CountText(fmtCounts(seg.RipplePPCounts), "count") + ")"},
 		{"ripple rms", fmtSI(seg.RippleRMSV, "V")},
-		{"mean error", fmtSI(seg.MeanErrorV, "V") + " (" + fmtCounts(seg.MeanErrorCounts) + " counts)"},
+		{"mean error", fmtSI(seg.MeanErrorV, "V") + " (" + figure.CountText(fmtCounts(seg.MeanErrorCounts), "count") + ")"},
 		{"duty c/h/d", fmtPct(seg.DutyCharge) + " / " + fmtPct(seg.DutyHold) + " / " + fmtPct(seg.DutyDischarge)},
 		{"limit cycle", cycleText(seg)},
 		{"switching", fmtSI(seg.SwitchingHz, "Hz")},
@@ -181,7 +177,7 @@ func plantRows(p analysis.Plant) [][2]string {
 		{"tau hold", fmtSI(p.TauHoldS, "s") + fmtCI(p.TauHoldS, p.TauHoldCIS)},
 		{"v_high", fmtSI(p.VHighV, "V") + fmtCI(p.VHighV, p.VHighCIV)},
 		{"v_low", fmtSI(p.VLowV, "V")},
-		{"noise", fmtCounts(p.NoiseRMSCounts) + " counts rms"},
+		{"noise", figure.CountText(fmtCounts(p.NoiseRMSCounts), "count") + " rms"},
 		{"effective R", fmtSI(p.EffectiveROhm, "Ω")},
 		{"effective C", fmtSI(p.EffectiveCF, "F")},
 		{"load", fmtSI(p.LoadOhm, "Ω")},
@@ -205,7 +201,7 @@ func compareBlock(c *DeadbandChange) string {
 	if c.From >= 0 {
 		from = fmt.Sprintf("%.0f", c.From)
 	}
-	fmt.Fprintf(&b, "deadband %s → %.0f counts, confirmed at %s", from, c.To, formatSeconds(c.At))
+	fmt.Fprintf(&b, "deadband %s → %s, confirmed at %s", from, figure.CountText(fmt.Sprintf("%.0f", c.To), "count"), formatSeconds(c.At))
 	if c.After == nil {
 		b.WriteString(" (after: waiting for a segment that starts under the new band)")
 	}

@@ -54,6 +54,14 @@ func press(t testing.TB, m Model, keys ...string) Model {
 			msg = tea.KeyMsg{Type: tea.KeySpace, Runes: []rune{' '}}
 		case "home":
 			msg = tea.KeyMsg{Type: tea.KeyHome}
+		case "up":
+			msg = tea.KeyMsg{Type: tea.KeyUp}
+		case "down":
+			msg = tea.KeyMsg{Type: tea.KeyDown}
+		case "pgup":
+			msg = tea.KeyMsg{Type: tea.KeyPgUp}
+		case "pgdown":
+			msg = tea.KeyMsg{Type: tea.KeyPgDown}
 		case "S-tab":
 			msg = tea.KeyMsg{Type: tea.KeyShiftTab}
 		default:
@@ -99,6 +107,8 @@ func TestViews(t *testing.T) {
 		{"help_live", []string{"<live>", "?"}},
 		{"after_change", []string{"d", "y", "<change>", "2"}},
 		{"after_change_trace", []string{"d", "y", "<change>"}},
+		{"figures_bottom", []string{"2", "pgdown", "pgdown", "pgdown", "pgdown", "pgdown"}},
+		{"figures_line_down", []string{"2", "down"}},
 	}
 	for _, sz := range sizes {
 		for _, v := range views {
@@ -176,6 +186,7 @@ func TestCaptureViews(t *testing.T) {
 		}{
 			{"trace", nil}, {"figures", []string{"2"}}, {"spread", []string{"3"}},
 			{"ripple", []string{"4"}}, {"step", []string{"5"}}, {"help", []string{"?"}},
+			{"figures_bottom", []string{"2", "pgdown", "pgdown", "pgdown", "pgdown", "pgdown", "pgdown", "pgdown", "pgdown"}},
 		} {
 			t.Run(fmt.Sprintf("%dx%d/%s", sz[0], sz[1], v.name), func(t *testing.T) {
 				out := press(t, m, v.keys...).View()

@@ -108,10 +108,17 @@ func (m Model) key(msg tea.KeyMsg) (tea.Model, tea.Cmd) {
 	case key.Matches(msg, k.PrevView):
 		m.view = (m.view + numViews - 1) % numViews
 		m.layout()
-	case key.Matches(msg, k.Trace), key.Matches(msg, k.Figures), key.Matches(msg, k.Spread),
-		key.Matches(msg, k.Ripple), key.Matches(msg, k.Step):
+	case key.Matches(msg, k.PickView):
 		m.view = View(msg.Runes[0] - '1')
 		m.layout()
+	case key.Matches(msg, k.LineUp):
+		m.scroll(-1)
+	case key.Matches(msg, k.LineDown):
+		m.scroll(1)
+	case key.Matches(msg, k.PageUp):
+		m.scroll(-(m.height - 5))
+	case key.Matches(msg, k.PageDown):
+		m.scroll(m.height - 5)
 	case key.Matches(msg, k.Apply):
 		n, ok := m.advice.Suggested()
 		if !ok {

@@ -16,11 +16,11 @@ type KeyMap struct {
 	Latest      key.Binding
 	NextView    key.Binding
 	PrevView    key.Binding
-	Trace       key.Binding
-	Figures     key.Binding
-	Spread      key.Binding
-	Ripple      key.Binding
-	Step        key.Binding
+	PickView    key.Binding
+	LineUp      key.Binding
+	LineDown    key.Binding
+	PageUp      key.Binding
+	PageDown    key.Binding
 	Apply       key.Binding
 	Mark        key.Binding
 	Faster      key.Binding
@@ -53,11 +53,11 @@ func DefaultKeyMap() KeyMap {
 		Latest:      key.NewBinding(key.WithKeys("f", "end"), key.WithHelp("f", "follow the newest")),
 		NextView:    key.NewBinding(key.WithKeys("tab"), key.WithHelp("tab", "next view")),
 		PrevView:    key.NewBinding(key.WithKeys("shift+tab"), key.WithHelp("S-tab", "previous view")),
-		Trace:       key.NewBinding(key.WithKeys("1"), key.WithHelp("1", "trace")),
-		Figures:     key.NewBinding(key.WithKeys("2"), key.WithHelp("2", "figures, advice")),
-		Spread:      key.NewBinding(key.WithKeys("3"), key.WithHelp("3", "error spread")),
-		Ripple:      key.NewBinding(key.WithKeys("4"), key.WithHelp("4", "ripple spectrum")),
-		Step:        key.NewBinding(key.WithKeys("5"), key.WithHelp("5", "last step")),
+		PickView:    key.NewBinding(key.WithKeys("1", "2", "3", "4", "5"), key.WithHelp("1-5", "that view")),
+		LineUp:      key.NewBinding(key.WithKeys("up"), key.WithHelp("↑", "scroll up")),
+		LineDown:    key.NewBinding(key.WithKeys("down"), key.WithHelp("↓", "scroll down")),
+		PageUp:      key.NewBinding(key.WithKeys("pgup"), key.WithHelp("PgUp", "page up")),
+		PageDown:    key.NewBinding(key.WithKeys("pgdown"), key.WithHelp("PgDn", "page down")),
 		Apply:       key.NewBinding(key.WithKeys("d"), key.WithHelp("d", "send advised deadband")),
 		Mark:        key.NewBinding(key.WithKeys("m"), key.WithHelp("m", "mark this moment")),
 		Faster:      key.NewBinding(key.WithKeys("x"), key.WithHelp("x", "replay faster")),
@@ -140,7 +140,7 @@ func (k KeyMap) FullHelp() [][]key.Binding {
 	help.SetHelp("?", "close this list")
 	return [][]key.Binding{
 		{k.Pause, k.ZoomIn, k.ZoomOut, k.Back, k.Forward, k.Latest, help, k.Quit},
-		{k.NextView, k.PrevView, k.Trace, k.Figures, k.Spread, k.Ripple, k.Step},
+		{k.NextView, k.PrevView, k.PickView, k.LineUp, k.LineDown, k.PageUp, k.PageDown},
 		{k.Apply, k.Mark,
 			pair(k.Faster, k.Slower, "x/X", "faster/slower"), k.Advance,
 			pair(k.NextSP, k.PrevSP, "s/S", "next/previous setpoint"),

@@ -171,11 +171,35 @@ func TestEveryKeyInHelp(t *testing.T) {
 		},
 		"tab":   view("tab", ViewFigures),
 		"S-tab": view("S-tab", ViewTrace),
-		"1":     view("1", ViewTrace),
-		"2":     view("2", ViewFigures),
-		"3":     view("3", ViewSpread),
-		"4":     view("4", ViewRipple),
-		"5":     view("5", ViewStep),
+		"1-5": func(t *testing.T) {
+			for v := View(0); v < numViews; v++ {
+				view(fmt.Sprint(int(v)+1), v)(t)
+			}
+		},
+		"↓": func(t *testing.T) {
+			m := press(t, fixtureModel(t, 80, 24), "2", "down")
+			if m.offsets[ViewFigures] != 1 || !strings.Contains(m.View(), "lines 2–") {
+				t.Errorf("↓ on view 2: offset %d, screen:\n%s", m.offsets[ViewFigures], m.View())
+			}
+		},
+		"↑": func(t *testing.T) {
+			m := press(t, fixtureModel(t, 80, 24), "2", "down", "down", "up")
+			if m.offsets[ViewFigures] != 1 {
+				t.Errorf("↓ ↓ ↑ on view 2: offset %d, want 1", m.offsets[ViewFigures])
+			}
+		},
+		"PgDn": func(t *testing.T) {
+			m := press(t, fixtureModel(t, 80, 24), "2", "pgdown", "pgdown", "pgdown", "pgdown")
+			if !strings.Contains(m.View(), "of "+fmt.Sprint(len(m.scrollLines()))+" · the end") {
+				t.Errorf("PgDn does not reach the end of view 2:\n%s", m.View())
+			}
+		},
+		"PgUp": func(t *testing.T) {
+			m := press(t, fixtureModel(t, 80, 24), "2", "pgdown", "pgdown", "pgdown", "pgup", "pgup", "pgup", "pgup")
+			if m.offsets[ViewFigures] != 0 || !strings.Contains(m.View(), "lines 1–") {
+				t.Errorf("PgUp does not come back to the top of view 2 (offset %d)", m.offsets[ViewFigures])
+			}
+		},
 		"d": func(t *testing.T) {
 			m := liveFixture(t)
 			if m = press(t, m, "d"); m.confirm != 4 || !strings.Contains(m.message, "set deadband=4") {

@@ -86,8 +86,9 @@ type Model struct {
 	charts  [3]ChartModel
 
 	sum     *analysis.Summary
-	confirm int  // deadband waiting for y/n; 0 = none
-	tenth   bool // j was pressed: a digit picks the tenth of the capture to jump to
+	confirm int           // deadband waiting for y/n; 0 = none
+	tenth   bool          // j was pressed: a digit picks the tenth of the capture to jump to
+	offsets [numViews]int // first line shown of each view that scrolls
 	noting  bool
 	note    []rune
 	pending *pendingChange
@@ -362,16 +363,9 @@ func (m Model) View() string {
 		case ViewTrace:
 			body = m.plot.View() + "\n" + m.figures.View() + "\n" + m.advice.View()
 		case ViewFigures:
-			// The figures take the rows they need (up to two thirds), the advice the rest.
-			fig, adv := m.figures, m.advice
-			figH := min(fig.Lines(), bodyH-bodyH/3)
-			gap := 0
-			if bodyH-figH-1 >= adv.Lines() || bodyH-figH >= 12 {
-				gap = 1 // a blank row between them when the advice keeps its room
-			}
-			fig.SetSize(w, figH, false)
-			adv.SetSize(w, bodyH-figH-gap, false)
-			body = fig.View() + strings.Repeat("\n", 1+gap) + adv.View()
+			// Every figure, then the whole advice; it scrolls when it does not fit.
+			off := m.offsets[m.view]
+			body = scrolled(m.scrollLines(), w, bodyH, &off)
 		default:
 			body = m.charts[m.view-ViewSpread].View()
 		}

@@ -212,15 +212,6 @@ type Window struct {
 	Color    bool // colour the series (false under NO_COLOR and in golden tests)
 }
 
-// Series colours (ANSI 256) when colour is on.
-var (
-	colourSP   = asciigraph.Goldenrod
-	colourBand = asciigraph.DimGray
-	colourPV   = asciigraph.DeepSkyBlue
-	colourAxis = asciigraph.Gray
-	colourFit  = asciigraph.Orange
-)
-
 // RenderPlot draws w as a text plot exactly width columns wide and height rows high:
 // the setpoint, the band edges (setpoint ± deadband) and the measurement, whose minimum
 // and maximum per column are both drawn when a column holds several samples, so the
@@ -273,7 +264,7 @@ func RenderPlot(w Window, width, height int) string {
 	}
 	// The legend shares the bottom row with the mark labels: at the left when there are
 	// none, else at the right end when it fits after the last label.
-	legend := []rune(fmt.Sprintf("sp ─ band ┄ pv (%s)", unit))
+	legend := []rune(fmt.Sprintf("sp ━ band ┄ pv ─ (%s)", unit))
 	used := len([]rune(strings.TrimRight(string(labels), " ")))
 	switch {
 	case used == 0:
@@ -284,7 +275,7 @@ func RenderPlot(w Window, width, height int) string {
 	row := string(labels)
 	if w.Color {
 		// The legend's glyphs in their series colours.
-		col := fmt.Sprintf("sp %s band %s pv (%s)", paint(colourSP, "─"), paint(colourBand, "┄"), paint(colourPV, unit))
+		col := fmt.Sprintf("sp %s band %s pv %s (%s)", paint(colourSP, "━"), paint(colourBand, "┄"), paint(colourPV, "─"), unit)
 		row = strings.Replace(row, string(legend), col, 1)
 	}
 	lines = append(lines, row)
@@ -327,11 +318,11 @@ func plotOnce(w Window, plotW, bodyRows int, prec uint, format func(float64) str
 		}
 	}
 	series := [][]float64{hi, lo, sp, pvMin}
-	chars := []asciigraph.CharSet{asciigraph.CreateCharSet("┄"), asciigraph.CreateCharSet("┄"), asciigraph.DefaultCharSet, asciigraph.DefaultCharSet}
+	chars := []asciigraph.CharSet{glyphsBand, glyphsBand, glyphsSP, glyphsPV}
 	colours := []asciigraph.AnsiColor{colourBand, colourBand, colourSP, colourPV}
 	if several {
 		series = append(series, pvMax)
-		chars = append(chars, asciigraph.DefaultCharSet)
+		chars = append(chars, glyphsPV)
 		colours = append(colours, colourPV)
 	}
 	opts := []asciigraph.Option{

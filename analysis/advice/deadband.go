@@ -4,6 +4,7 @@ import (
 	"fmt"
 	"math"
 
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/analysis/loop"
 )
 
@@ -87,8 +88,8 @@ func deadband(ci loop.Circuit, p *plant, period float64) (int, *DeadbandWorking,
 		w.FromVoltageBand = &n
 	}
 	w.Rule = fmt.Sprintf("hold settles only if one step cannot jump the band: step + %g sigma noise < 2*db + 1, "+
-		"so db = floor((%.2f + %.2f - 1) / 2) + 1 = %d counts; static error up to db counts = %s",
-		p.g.sigmaK, w.StepCounts, w.MarginCounts, db, fmtV(w.StaticErrorV))
+		"so db = floor((%.2f + %.2f - 1) / 2) + 1 = %s; static error up to db counts = %s",
+		p.g.sigmaK, w.StepCounts, w.MarginCounts, figure.Count(db, "count"), fmtV(w.StaticErrorV))
 	return db, w, steps
 }
 

@@ -6,6 +6,7 @@ import (
 	"sort"
 	"strings"
 
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/analysis/loop"
 )
 
@@ -423,7 +424,7 @@ func (p *plant) trades(pr *pair, kind loop.Kind) string {
 		t = append(t, fmt.Sprintf("ripple %.0f %% and settling %.0f %% of budget", 100*rr, 100*sr))
 	}
 	if kind == loop.ThreeState && pr.db > 0 {
-		t = append(t, fmt.Sprintf("static error up to %d counts (%s)", pr.db, fmtV(float64(pr.db)*p.lsb())))
+		t = append(t, fmt.Sprintf("static error up to %s (%s)", figure.Count(pr.db, "count"), fmtV(float64(pr.db)*p.lsb())))
 	}
 	t = append(t, p.ruleTrades(pr)...)
 	switch {

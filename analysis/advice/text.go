@@ -7,6 +7,7 @@ import (
 	"strings"
 	"text/tabwriter"
 
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/telemetry/si"
 )
 
@@ -45,9 +46,9 @@ func (a *Advice) WriteText(w io.Writer) error {
 		if g != nil && g.Mode == "three-state" {
 			band = fmt.Sprintf(" at band %d", c.DeadbandCounts)
 		}
-		fmt.Fprintf(&b, "\npresent circuit%s (model with the identified plant): R %s, C %s (effective %s), tau %s: ripple %s p-p, settling %s, %d band jumps, %s\n",
+		fmt.Fprintf(&b, "\npresent circuit%s (model with the identified plant): R %s, C %s (effective %s), tau %s: ripple %s p-p, settling %s, %s, %s\n",
 			band, si.Format(c.ROhm, "Ω"), si.Format(c.CF, "F"), si.FormatDigits(c.EffectiveCF, "F", 3), si.FormatDigits(c.TauS, "s", 3),
-			fmtV(c.PredictedRipplePPV), settleText(c), c.BandJumps, c.Verdict)
+			fmtV(c.PredictedRipplePPV), settleText(c), figure.Count(c.BandJumps, "band jump"), c.Verdict)
 	}
 	if a.DeadbandCounts != nil && a.DeadbandWorking != nil && g != nil {
 		b.WriteString("\n")
@@ -131,7 +132,7 @@ func settleText(c *Candidate) string {
 
 // writeBand shows the deadband arithmetic.
 func writeBand(b *strings.Builder, db int, w *DeadbandWorking, g *GoalsUsed) {
-	fmt.Fprintf(b, "deadband: %d counts (hold while |pv - sp| <= %d)\n", db, db)
+	fmt.Fprintf(b, "deadband: %s (hold while |pv - sp| <= %d)\n", figure.Count(db, "count"), db)
 	for _, s := range w.Steps {
 		mark := ""
 		if s.NarrowerJumps != "" {
@@ -147,7 +148,7 @@ func writeBand(b *strings.Builder, db int, w *DeadbandWorking, g *GoalsUsed) {
 	fmt.Fprintf(b, "  rule: one step must not jump the band, step + %g sigma < 2 db + 1\n", w.SigmaMultiple)
 	fmt.Fprintf(b, "  largest step %.2f + noise margin %g x %.2f counts rms = %.2f < 2 x %d + 1 = %d\n",
 		w.StepCounts, w.SigmaMultiple, w.NoiseRMSCounts, w.StepCounts+w.MarginCounts, db, 2*db+1)
-	fmt.Fprintf(b, "  cost: static error up to %d counts = %s\n", db, fmtV(w.StaticErrorV))
+	fmt.Fprintf(b, "  cost: static error up to %s = %s\n", figure.Count(db, "count"), fmtV(w.StaticErrorV))
 	if w.FromVoltageBand != nil {
 		fs := math.Ldexp(1, g.ADCBits) - 1
 		rb := *w.FromVoltageBand
@@ -164,7 +165,7 @@ func writeBand(b *strings.Builder, db int, w *DeadbandWorking, g *GoalsUsed) {
 			b.WriteString("; the same as the band above\n")
 		}
 	}
-	fmt.Fprintf(b, "  model check: %d band jumps at %d", w.VerifiedJumps, db)
+	fmt.Fprintf(b, "  model check: %s at %d", figure.Count(w.VerifiedJumps, "band jump"), db)
 	if db >= 1 {
 		fmt.Fprintf(b, ", %d at %d", w.NarrowerJumps, w.NarrowerDB)
 	}

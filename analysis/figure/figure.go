@@ -87,7 +87,7 @@ func SecondsOrSamples(sec, samples *float64) string {
 	case sec != nil:
 		return SI(sec, "s")
 	case samples != nil && finite(*samples):
-		return Plural(Num(*samples), *samples, "sample", "samples")
+		return CountText(Num(*samples), "sample")
 	}
 	return Missing
 }
@@ -156,20 +156,6 @@ func List(v []int) string {
 		b.WriteString(strconv.Itoa(x))
 	}
 	return b.String()
-}
-
-// Plural writes a count and its noun, singular when n is exactly 1: Plural("1", 1,
-// "band jump", "band jumps") is "1 band jump".
-func Plural(text string, n float64, one, many string) string {
-	if n == 1 {
-		return text + " " + one
-	}
-	return text + " " + many
-}
-
-// N writes a whole count with its noun: N(3, "segment", "segments") is "3 segments".
-func N[T ~int | ~int64](n T, one, many string) string {
-	return Plural(strconv.FormatInt(int64(n), 10), float64(n), one, many)
 }
 
 // Bytes writes a size in bytes with a binary prefix: "1.5 MiB".

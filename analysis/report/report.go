@@ -10,6 +10,7 @@ import (
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/advice"
+	"github.com/caploop/caploop/analysis/figure"
 )
 
 // Capture is one capture in a report: its name (the file name, or a label such as
@@ -151,7 +152,7 @@ func docCharts(s *analysis.Summary, opts Options) (charts []chart, missing []str
 	nz := 0
 	zooms := zoomsBySetpoint(s)
 	if n := len(s.Traces.Zoom) - len(zooms); n > 0 {
-		missing = append(missing, fmt.Sprintf("%d zooms of segments at a setpoint already shown are left out", n))
+		missing = append(missing, fmt.Sprintf("%s of segments at a setpoint already shown %s left out", figure.Count(n, "zoom"), figure.Pick(n, "is", "are")))
 	}
 	for _, z := range zooms {
 		if nz == opts.MaxZooms {
@@ -179,7 +180,7 @@ func docCharts(s *analysis.Summary, opts Options) (charts []chart, missing []str
 	ns := 0
 	for _, st := range s.Traces.StepTraces {
 		if ns == opts.MaxSteps {
-			missing = append(missing, fmt.Sprintf("%d more steps not drawn", len(s.Traces.StepTraces)-ns))
+			missing = append(missing, figure.Count(len(s.Traces.StepTraces)-ns, "more step")+" not drawn")
 			break
 		}
 		if c, ok := stepChart(s, st); ok {

@@ -128,7 +128,7 @@ func plantTable(s *analysis.Summary, prefix string) Table {
 
 // setpointText is "512 counts (2.5 V)".
 func setpointText(g analysis.Segment) string {
-	txt := figure.Num(g.SetpointCounts) + " counts"
+	txt := figure.CountText(figure.Num(g.SetpointCounts), "count")
 	if g.SetpointV != nil && finite(*g.SetpointV) {
 		txt += " (" + si.Format(*g.SetpointV, "V") + ")"
 	}
@@ -164,8 +164,8 @@ func segmentsTable(s *analysis.Summary, prefix string) Table {
 	}}
 	moving := mostlyTracking(s)
 	if moving {
-		t.note(fmt.Sprintf("the moving setpoint made %d short segments of a few samples each, too short for segment figures: see the tracking table (caploop summary --json lists them)",
-			s.Tracking.Segments))
+		t.note(fmt.Sprintf("the moving setpoint made %s of a few samples each, too short for segment figures: see the tracking table (caploop summary --json lists them)",
+			figure.Count(s.Tracking.Segments, "short segment")))
 	}
 	shown := 0
 	for i, g := range s.Segments {
@@ -173,7 +173,7 @@ func segmentsTable(s *analysis.Summary, prefix string) Table {
 			continue
 		}
 		if shown == maxRows {
-			t.note(fmt.Sprintf("%d more segments not shown here (caploop summary --json lists them)", len(s.Segments)-i))
+			t.note(figure.Count(len(s.Segments)-i, "more segment") + " not shown here (caploop summary --json lists them)")
 			break
 		}
 		shown++
@@ -197,7 +197,7 @@ func segmentsTable(s *analysis.Summary, prefix string) Table {
 		t.note("no segment found")
 	}
 	if s.SegmentsOmitted > 0 {
-		t.note(fmt.Sprintf("%d more segments seen but not kept by the analysis (the list is bounded)", s.SegmentsOmitted))
+		t.note(figure.Count(s.SegmentsOmitted, "more segment") + " seen but not kept by the analysis (the list is bounded)")
 	}
 	return t
 }
@@ -222,7 +222,7 @@ func trackingTable(s *analysis.Summary, prefix string) Table {
 		if v != nil {
 			return figure.SI(v, "V")
 		}
-		return figure.Counts(counts) + " counts"
+		return figure.VoltsOrCounts(nil, counts)
 	}
 	t.add("mean error", pick(tr.MeanErrorV, tr.MeanErrorCounts))
 	t.add("rms error", pick(tr.RMSErrorV, tr.RMSErrorCounts))
@@ -242,14 +242,14 @@ func levelText(v *float64, counts float64) string {
 	if v != nil && finite(*v) {
 		return si.Format(*v, "V")
 	}
-	return figure.Num(counts) + " counts"
+	return figure.CountText(figure.Num(counts), "count")
 }
 
 func stepsTable(s *analysis.Summary, prefix string) Table {
 	t := Table{ID: prefix + "steps", Caption: "Steps", Head: []string{"#", "at", "from", "to", "rise (10–90 %)", "settle", "overshoot", "slew"}}
 	for i, st := range s.Steps {
 		if i == maxRows {
-			t.note(fmt.Sprintf("%d more steps not shown here (caploop summary --json lists them)", len(s.Steps)-i))
+			t.note(figure.Count(len(s.Steps)-i, "more step") + " not shown here (caploop summary --json lists them)")
 			break
 		}
 		t.add(strconv.Itoa(i+1), si.Format(st.AtS, "s"), levelText(st.FromV, st.FromCounts), levelText(st.ToV, st.ToCounts),
@@ -303,7 +303,7 @@ func AdviceTables(a *advice.Advice, prefix string) []Table {
 			t.add("static error at most", si.Format(g.StaticErrorV, "V"))
 		}
 		t.add("pin current at most", si.Format(g.PinCurrentA, "A"))
-		noise := figure.Num(g.NoiseRMSCounts) + " counts rms"
+		noise := figure.CountText(figure.Num(g.NoiseRMSCounts), "count") + " rms"
 		if g.NoiseMeasured {
 			noise += " (measured)"
 		} else {
@@ -319,19 +319,19 @@ func AdviceTables(a *advice.Advice, prefix string) []Table {
 	if a.DeadbandCounts != nil || a.DeadbandWorking != nil {
 		t := Table{ID: prefix + "advice-deadband", Caption: "Advice: deadband", Head: []string{"figure", "value"}}
 		if a.DeadbandCounts != nil {
-			t.add("suggested deadband (half-width)", strconv.Itoa(*a.DeadbandCounts)+" counts")
+			t.add("suggested deadband (half-width)", figure.Count(*a.DeadbandCounts, "count"))
 		}
 		if w := a.DeadbandWorking; w != nil {
-			t.add("largest step near the setpoints", figure.Num(w.StepCounts)+" counts")
-			t.add("ADC noise (rms)", figure.Num(w.NoiseRMSCounts)+" counts")
-			t.add("noise margin", figure.Num(w.SigmaMultiple)+" σ = "+figure.Num(w.MarginCounts)+" counts")
+			t.add("largest step near the setpoints", figure.CountText(figure.Num(w.StepCounts), "count"))
+			t.add("ADC noise (rms)", figure.CountText(figure.Num(w.NoiseRMSCounts), "count"))
+			t.add("noise margin", figure.Num(w.SigmaMultiple)+" σ = "+figure.CountText(figure.Num(w.MarginCounts), "count"))
 			t.add("static error it allows", si.Format(w.StaticErrorV, "V"))
 			if w.FromVoltageBand != nil {
 				t.add("from the ripple goal", strconv.Itoa(*w.FromVoltageBand)+" counts")
 			}
 			for _, st := range w.Steps {
-				t.add(fmt.Sprintf("one period's step at %d counts", st.SetpointCounts),
-					"charge "+figure.Num(st.ChargeCounts)+", discharge "+figure.Num(st.DischargeCounts)+" counts")
+				t.add("one period's step at "+figure.Count(st.SetpointCounts, "count"),
+					"charge "+figure.Num(st.ChargeCounts)+", discharge "+figure.CountText(figure.Num(st.DischargeCounts), "count"))
 			}
 			t.add("rule", clean(w.Rule))
 			t.add("band jumps in the checking simulation", strconv.FormatInt(w.VerifiedJumps, 10))
@@ -342,7 +342,7 @@ func AdviceTables(a *advice.Advice, prefix string) []Table {
 		t := Table{ID: prefix + "advice-parts", Caption: "Advice: R and C (each checked by simulating the loop)", Head: []string{
 			"", "R", "C", "series", "deadband", "ripple p-p", "settle", "pin current", "V∞ sag", "verdict", "trades"}}
 		row := func(kind string, c advice.Candidate) Row {
-			return Row{Cells: []string{kind, si.Format(c.ROhm, "Ω"), si.Format(c.CF, "F"), clean(c.Series), strconv.Itoa(c.DeadbandCounts) + " counts",
+			return Row{Cells: []string{kind, si.Format(c.ROhm, "Ω"), si.Format(c.CF, "F"), clean(c.Series), figure.Count(c.DeadbandCounts, "count"),
 				si.Format(c.PredictedRipplePPV, "V"), si.Format(c.PredictedSettleS, "s"), si.Format(c.PinCurrentA, "A"),
 				si.Format(c.VInfSagV, "V"), clean(c.Verdict), clean(c.Trades)}}
 		}
@@ -469,7 +469,7 @@ func fmtDiff(a, b *float64, unit string) string {
 	case "%":
 		txt = strconv.FormatFloat(d*100, 'f', 1, 64) + " points"
 	case "counts":
-		txt = strconv.FormatFloat(d, 'g', 4, 64) + " counts"
+		txt = figure.CountText(strconv.FormatFloat(d, 'g', 4, 64), "count")
 	default:
 		txt = si.Format(d, unit)
 	}
@@ -533,7 +533,7 @@ func CompareTable(docs []Capture) Table {
 	}
 	more := ""
 	if len(sps) > maxCompareSetpoints {
-		more = fmt.Sprintf("%d more setpoints not compared here", len(sps)-maxCompareSetpoints)
+		more = figure.Count(len(sps)-maxCompareSetpoints, "more setpoint") + " not compared here"
 		sps = sps[:maxCompareSetpoints]
 	}
 	for _, sp := range sps {

@@ -10,6 +10,7 @@ import (
 	"github.com/spf13/cobra"
 
 	"github.com/caploop/caploop/analysis/export"
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/telemetry"
 )
 
@@ -99,16 +100,16 @@ func runExport(stdout, stderr io.Writer, in string, f *exportFlags) error {
 		return withCode(2, err)
 	}
 	if stats.Rejected > 0 {
-		fmt.Fprintf(stderr, "caploop: export: %d lines of %s could not be read and were left out\n", stats.Rejected, sc.Name)
+		fmt.Fprintf(stderr, "caploop: export: %s of %s could not be read and %s left out\n", figure.Count(stats.Rejected, "line"), sc.Name, figure.Pick(stats.Rejected, "was", "were"))
 	}
 	if res.Beyond > 0 {
-		fmt.Fprintf(stderr, "caploop: export: %s grew while it was read; the %d samples after the first pass are left out\n", sc.Name, res.Beyond)
+		fmt.Fprintf(stderr, "caploop: export: %s grew while it was read; the %s after the first pass %s left out\n", sc.Name, figure.Count(res.Beyond, "sample"), figure.Pick(res.Beyond, "is", "are"))
 	}
 	if res.UnknownExtras > 0 {
-		fmt.Fprintf(stderr, "caploop: export: %d values of channels that appeared after the first pass are left out\n", res.UnknownExtras)
+		fmt.Fprintf(stderr, "caploop: export: %s of channels that appeared after the first pass %s left out\n", figure.Count(res.UnknownExtras, "value"), figure.Pick(res.UnknownExtras, "is", "are"))
 	}
 	if f.out != "" && f.out != "-" {
-		fmt.Fprintf(stderr, "caploop: export: %d rows, %d columns to %s\n", res.Rows, len(layout.Columns()), telemetry.Sanitize([]byte(f.out)))
+		fmt.Fprintf(stderr, "caploop: export: %s, %s to %s\n", figure.Count(res.Rows, "row"), figure.Count(len(layout.Columns()), "column"), telemetry.Sanitize([]byte(f.out)))
 	}
 	return nil
 }

@@ -14,6 +14,7 @@ import (
 	"github.com/spf13/cobra"
 	"golang.org/x/term"
 
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/si"
 	"github.com/caploop/caploop/telemetry/wire"
@@ -170,8 +171,8 @@ loop:
 	if err := errors.Join(closeErr, syncErr, outErr); err != nil {
 		return withCode(1, fmt.Errorf("record: capture %s may be incomplete: %w", f.out, err))
 	}
-	fmt.Fprintf(stderr, "%s: recorded %d lines in %s to %s (%d partial dropped, %d unplugs)\n",
-		reason, stats.Lines, time.Since(link.StartedAt()).Round(time.Millisecond), clean(f.out), stats.Partial, stats.Unplugs)
+	fmt.Fprintf(stderr, "%s: recorded %s in %s to %s (%d partial dropped, %s)\n",
+		reason, figure.Count(stats.Lines, "line"), time.Since(link.StartedAt()).Round(time.Millisecond), clean(f.out), stats.Partial, figure.Count(stats.Unplugs, "unplug"))
 	return nil
 }
 
@@ -242,8 +243,8 @@ func (s *recordStatus) status(st wire.LinkStats) {
 	if !st.Connected {
 		state = "waiting for the port"
 	}
-	line := fmt.Sprintf("\r%s  %d lines  %d partial  %d unplugs  %s",
-		time.Since(s.start).Round(time.Second), st.Lines, st.Partial, st.Unplugs, state)
+	line := fmt.Sprintf("\r%s  %s  %d partial  %s  %s",
+		time.Since(s.start).Round(time.Second), figure.Count(st.Lines, "line"), st.Partial, figure.Count(st.Unplugs, "unplug"), state)
 	pad := s.lastLen - len(line)
 	s.lastLen = len(line)
 	if pad > 0 {

@@ -12,6 +12,7 @@ import (
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/advice"
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/analysis/report"
 	"github.com/caploop/caploop/telemetry"
 )
@@ -158,7 +159,7 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 	case unusable > 0:
 		return withCode(2, fmt.Errorf("summary: %d of %d files could not be used", unusable, len(files)))
 	case failed > 0:
-		return withCode(1, fmt.Errorf("summary: %d gates failed", failed))
+		return withCode(1, fmt.Errorf("summary: %s failed", figure.Count(failed, "gate")))
 	}
 	return nil
 }
@@ -179,7 +180,7 @@ func summarizeFile(name string, stderr io.Writer, quiet bool, supplyTol float64)
 	switch {
 	case errors.Is(err, analysis.ErrNoSamples):
 		st := sc.Stats()
-		msg := fmt.Sprintf("%s: no samples in %d lines", name, st.Lines)
+		msg := fmt.Sprintf("%s: no samples in %s", name, figure.Count(st.Lines, "line"))
 		if len(st.FirstRejects) > 0 {
 			msg += fmt.Sprintf(" (%d rejected; first: %v)", st.Rejected, st.FirstRejects[0])
 		}
