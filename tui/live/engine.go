@@ -39,6 +39,8 @@ type engine struct {
 
 	sumSamples int64 // samples at the last summary
 
+	statsNow bool // deliver the counters with the next flush (a replay control changed them)
+
 	connectedAt time.Time // live: last (re)connection
 	asked       bool      // live: "info" sent since it
 }
@@ -189,7 +191,8 @@ func (c *engine) flush(force bool) {
 		}
 	}
 	var st *Stats
-	if d := now.Sub(c.rateAt); d >= statsInterval || force || sum != nil {
+	if d := now.Sub(c.rateAt); d >= statsInterval || force || sum != nil || c.statsNow {
+		c.statsNow = false
 		if d >= statsInterval {
 			c.stats.Rate = float64(c.samples-c.rateCount) / d.Seconds()
 			c.rateAt, c.rateCount = now, c.samples

@@ -52,6 +52,7 @@ func (p *Pipeline) runReplay(o ReplayOptions, src telemetry.Source, c *engine) {
 	open()
 	defer func() { src.Close() }()
 	speed, paused := o.Speed, o.Paused
+	c.statsNow = true // the screen shows the state at once, held or not
 	ended := false
 	seekTo, stepUntil := -1.0, -1.0
 	var wallStart time.Time
@@ -138,6 +139,7 @@ func (p *Pipeline) runReplay(o ReplayOptions, src telemetry.Source, c *engine) {
 		}
 	}
 	apply := func(ctl control) {
+		c.statsNow = true // the screen shows held, speed and position at once
 		switch {
 		case ctl.pause > 0:
 			paused = true
@@ -215,7 +217,7 @@ func (p *Pipeline) runReplay(o ReplayOptions, src telemetry.Source, c *engine) {
 			switch {
 			case seekTo >= 0:
 				if t >= seekTo {
-					seekTo, paced = -1, false
+					seekTo, paced, c.statsNow = -1, false, true
 					if jumped != nil {
 						jumped.T = t
 						c.evs = append(c.evs, *jumped)
@@ -224,7 +226,7 @@ func (p *Pipeline) runReplay(o ReplayOptions, src telemetry.Source, c *engine) {
 				}
 			case stepUntil >= 0:
 				if t >= stepUntil {
-					stepUntil, paced = -1, false
+					stepUntil, paced, c.statsNow = -1, false, true
 				}
 			case speed > 0:
 				if !paced {
