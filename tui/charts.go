@@ -74,7 +74,7 @@ func (m ChartModel) View() string {
 		if m.sum != nil && len(m.sum.Steps) > 0 {
 			f := m.sum.Steps[len(m.sum.Steps)-1]
 			return fitBlock(wrapLines([]string{fmt.Sprintf("last step at %s: %s → %s  rise %s  settle %s  overshoot %s",
-				formatSeconds(f.AtS), fmtSI(f.FromV, "V"), fmtSI(f.ToV, "V"), fmtSI(f.RiseS, "s"), fmtSI(f.SettleS, "s"), fmtSI(f.OvershootV, "V")),
+				formatSeconds(f.AtS), figure.SI(f.FromV, "V"), figure.SI(f.ToV, "V"), figure.SI(f.RiseS, "s"), figure.SI(f.SettleS, "s"), figure.SI(f.OvershootV, "V")),
 				"(the analysis kept no waveform of this step to draw)"}, m.width), m.width, m.height)
 		}
 		return fitBlock("last step: no setpoint step seen yet", m.width, m.height)
@@ -289,7 +289,7 @@ func renderStep(st analysis.StepTrace, fig *analysis.StepFigures, volts bool, wi
 	}
 	if fig != nil {
 		lines = append(lines, fmt.Sprintf("step at %s: %s → %s  rise %s  settle %s  overshoot %s", formatSeconds(fig.AtS),
-			fmtSI(fig.FromV, "V"), fmtSI(fig.ToV, "V"), fmtSI(fig.RiseS, "s"), fmtSI(fig.SettleS, "s"), fmtSI(fig.OvershootV, "V")))
+			figure.SI(fig.FromV, "V"), figure.SI(fig.ToV, "V"), figure.SI(fig.RiseS, "s"), figure.SI(fig.SettleS, "s"), figure.SI(fig.OvershootV, "V")))
 	}
 	head := wrapLines(lines, width)
 	headRows := strings.Count(head, "\n") + 1

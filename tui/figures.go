@@ -78,18 +78,18 @@ func showTracking(s *analysis.Summary) bool {
 
 // trackingRows lists the tracking figures as label/value rows.
 func trackingRows(t *analysis.Tracking) [][2]string {
-	lag := fmtSI(t.LagS, "s")
+	lag := figure.SI(t.LagS, "s")
 	if t.LagS == nil && t.LagSamples != nil {
 		lag = fmt.Sprintf("%.1f samples", *t.LagSamples)
 	}
 	return [][2]string{
-		{"samples", fmt.Sprintf("%d over %s", t.Samples, fmtSI(t.DurationS, "s"))},
-		{"setpoint", fmtSI(t.SPMinV, "V") + " to " + fmtSI(t.SPMaxV, "V")},
-		{"mean error", fmtSI(t.MeanErrorV, "V") + " (" + figure.CountText(fmtCounts(t.MeanErrorCounts), "count") + ")"},
-		{"rms error", fmtSI(t.RMSErrorV, "V") + " (" + figure.CountText(fmtCounts(t.RMSErrorCounts), "count") + ")"},
-		{"max |error|", fmtSI(t.MaxAbsErrorV, "V")},
+		{"samples", fmt.Sprintf("%d over %s", t.Samples, figure.SI(t.DurationS, "s"))},
+		{"setpoint", figure.SI(t.SPMinV, "V") + " to " + figure.SI(t.SPMaxV, "V")},
+		{"mean error", figure.SI(t.MeanErrorV, "V") + " (" + figure.CountText(figure.NumP(t.MeanErrorCounts), "count") + ")"},
+		{"rms error", figure.SI(t.RMSErrorV, "V") + " (" + figure.CountText(figure.NumP(t.RMSErrorCounts), "count") + ")"},
+		{"max |error|", figure.SI(t.MaxAbsErrorV, "V")},
 		{"lag", lag},
-		{"duty c/h/d", fmtPct(t.DutyCharge) + " / " + fmtPct(t.DutyHold) + " / " + fmtPct(t.DutyDischarge)},
+		{"duty c/h/d", figure.Pct(t.DutyCharge) + " / " + figure.Pct(t.DutyHold) + " / " + figure.Pct(t.DutyDischarge)},
 		{"band jumps", fmt.Sprintf("%d", t.BandJumps)},
 	}
 }
@@ -99,13 +99,13 @@ func (m FiguresModel) compactView() string {
 		t := m.sum.Tracking
 		rows := trackingRows(t)
 		var b strings.Builder
-		fmt.Fprintf(&b, "tracking %s  rms error %s  mean error %s  lag %s\n", rows[1][1], fmtSI(t.RMSErrorV, "V"), fmtSI(t.MeanErrorV, "V"), rows[5][1])
+		fmt.Fprintf(&b, "tracking %s  rms error %s  mean error %s  lag %s\n", rows[1][1], figure.SI(t.RMSErrorV, "V"), figure.SI(t.MeanErrorV, "V"), rows[5][1])
 		fmt.Fprintf(&b, "duty charge %s hold %s discharge %s  max |error| %s  band jumps %d\n",
-			fmtPct(t.DutyCharge), fmtPct(t.DutyHold), fmtPct(t.DutyDischarge), fmtSI(t.MaxAbsErrorV, "V"), t.BandJumps)
+			figure.Pct(t.DutyCharge), figure.Pct(t.DutyHold), figure.Pct(t.DutyDischarge), figure.SI(t.MaxAbsErrorV, "V"), t.BandJumps)
 		p := m.sum.Plant
-		fmt.Fprintf(&b, "tau charge %s%s discharge %s  v_high %s  noise %s rms",
-			fmtSI(p.TauChargeS, "s"), fmtCI(p.TauChargeS, p.TauChargeCIS), fmtSI(p.TauDischargeS, "s"),
-			fmtSI(p.VHighV, "V"), figure.CountText(fmtCounts(p.NoiseRMSCounts), "count"))
+		fmt.Fprintf(&b, "tau charge %s discharge %s  v_high %s  noise %s rms",
+			figure.SIHalfWidth(p.TauChargeS, p.TauChargeCIS, "s"), figure.SI(p.TauDischargeS, "s"),
+			figure.SI(p.VHighV, "V"), figure.CountText(figure.NumP(p.NoiseRMSCounts), "count"))
 		return b.String()
 	}
 	seg := live.CurrentSegment(m.sum)
@@ -114,22 +114,22 @@ func (m FiguresModel) compactView() string {
 	}
 	var b strings.Builder
 	fmt.Fprintf(&b, "sp %s  ripple %s p-p, %s rms  mean error %s\n",
-		fmtSPV(seg), fmtSI(seg.RipplePPV, "V"), fmtSI(seg.RippleRMSV, "V"), fmtSI(seg.MeanErrorV, "V"))
+		fmtSPV(seg), figure.SI(seg.RipplePPV, "V"), figure.SI(seg.RippleRMSV, "V"), figure.SI(seg.MeanErrorV, "V"))
 	fmt.Fprintf(&b, "duty charge %s hold %s discharge %s  cycle %s  switching %s\n",
-		fmtPct(seg.DutyCharge), fmtPct(seg.DutyHold), fmtPct(seg.DutyDischarge),
-		cycleText(seg), fmtSI(seg.SwitchingHz, "Hz"))
+		figure.Pct(seg.DutyCharge), figure.Pct(seg.DutyHold), figure.Pct(seg.DutyDischarge),
+		cycleText(seg), figure.SI(seg.SwitchingHz, "Hz"))
 	fmt.Fprintf(&b, "band %s  entries %d  exits %d  band jumps %d%s\n",
 		fmtBand(seg.DeadbandCounts), seg.DeadbandEntries, seg.DeadbandExits, seg.BandJumps, unreachable(seg))
 	p := m.sum.Plant
-	fmt.Fprintf(&b, "tau charge %s%s discharge %s  v_high %s  noise %s rms",
-		fmtSI(p.TauChargeS, "s"), fmtCI(p.TauChargeS, p.TauChargeCIS), fmtSI(p.TauDischargeS, "s"),
-		fmtSI(p.VHighV, "V"), figure.CountText(fmtCounts(p.NoiseRMSCounts), "count"))
+	fmt.Fprintf(&b, "tau charge %s discharge %s  v_high %s  noise %s rms",
+		figure.SIHalfWidth(p.TauChargeS, p.TauChargeCIS, "s"), figure.SI(p.TauDischargeS, "s"),
+		figure.SI(p.VHighV, "V"), figure.CountText(figure.NumP(p.NoiseRMSCounts), "count"))
 	return b.String()
 }
 
 func fmtSPV(seg *analysis.Segment) string {
 	if seg.SetpointV != nil {
-		return fmtSI(seg.SetpointV, "V")
+		return figure.SI(seg.SetpointV, "V")
 	}
 	return figure.CountText(fmt.Sprintf("%.0f", seg.SetpointCounts), "count")
 }
@@ -137,9 +137,9 @@ func fmtSPV(seg *analysis.Segment) string {
 // fmtBand writes a deadband half-width: "±4 counts", or "– (not reported)".
 func fmtBand(p *float64) string {
 	if p == nil {
-		return dash + " (not reported)"
+		return figure.Missing + " (not reported)"
 	}
-	return figure.CountText("±"+fmtCounts(p), "count")
+	return figure.CountText("±"+figure.NumP(p), "count")
 }
 
 func unreachable(seg *analysis.Segment) string {
@@ -156,13 +156,13 @@ func segmentRows(seg *analysis.Segment) [][2]string {
 	}
 	return [][2]string{
 		{"setpoint", fmtSPV(seg)},
-		{"steady", figure.Count(seg.SteadySamples, "sample") + " from " + fmtSI(seg.SteadyStartS, "s")},
-		{"ripple p-p", fmtSI(seg.RipplePPV, "V") + " (" + figure.CountText(fmtCounts(seg.RipplePPCounts), "count") + ")"},
-		{"ripple rms", fmtSI(seg.RippleRMSV, "V")},
-		{"mean error", fmtSI(seg.MeanErrorV, "V") + " (" + figure.CountText(fmtCounts(seg.MeanErrorCounts), "count") + ")"},
-		{"duty c/h/d", fmtPct(seg.DutyCharge) + " / " + fmtPct(seg.DutyHold) + " / " + fmtPct(seg.DutyDischarge)},
+		{"steady", figure.Count(seg.SteadySamples, "sample") + " from " + figure.SI(seg.SteadyStartS, "s")},
+		{"ripple p-p", figure.SI(seg.RipplePPV, "V") + " (" + figure.CountText(figure.NumP(seg.RipplePPCounts), "count") + ")"},
+		{"ripple rms", figure.SI(seg.RippleRMSV, "V")},
+		{"mean error", figure.SI(seg.MeanErrorV, "V") + " (" + figure.CountText(figure.NumP(seg.MeanErrorCounts), "count") + ")"},
+		{"duty c/h/d", figure.Pct(seg.DutyCharge) + " / " + figure.Pct(seg.DutyHold) + " / " + figure.Pct(seg.DutyDischarge)},
 		{"limit cycle", cycleText(seg)},
-		{"switching", fmtSI(seg.SwitchingHz, "Hz")},
+		{"switching", figure.SI(seg.SwitchingHz, "Hz")},
 		{"node p-p", nodeText(seg)},
 		{"band", fmtBand(seg.DeadbandCounts)},
 		{"entries/exits", fmt.Sprintf("%d / %d", seg.DeadbandEntries, seg.DeadbandExits)},
@@ -172,15 +172,15 @@ func segmentRows(seg *analysis.Segment) [][2]string {
 
 func plantRows(p analysis.Plant) [][2]string {
 	return [][2]string{
-		{"tau charge", fmtSI(p.TauChargeS, "s") + fmtCI(p.TauChargeS, p.TauChargeCIS)},
-		{"tau discharge", fmtSI(p.TauDischargeS, "s") + fmtCI(p.TauDischargeS, p.TauDischargeCIS)},
-		{"tau hold", fmtSI(p.TauHoldS, "s") + fmtCI(p.TauHoldS, p.TauHoldCIS)},
-		{"v_high", fmtSI(p.VHighV, "V") + fmtCI(p.VHighV, p.VHighCIV)},
-		{"v_low", fmtSI(p.VLowV, "V")},
-		{"noise", figure.CountText(fmtCounts(p.NoiseRMSCounts), "count") + " rms"},
-		{"effective R", fmtSI(p.EffectiveROhm, "Ω")},
-		{"effective C", fmtSI(p.EffectiveCF, "F")},
-		{"load", fmtSI(p.LoadOhm, "Ω")},
+		{"tau charge", figure.SIHalfWidth(p.TauChargeS, p.TauChargeCIS, "s")},
+		{"tau discharge", figure.SIHalfWidth(p.TauDischargeS, p.TauDischargeCIS, "s")},
+		{"tau hold", figure.SIHalfWidth(p.TauHoldS, p.TauHoldCIS, "s")},
+		{"v_high", figure.SIHalfWidth(p.VHighV, p.VHighCIV, "V")},
+		{"v_low", figure.SI(p.VLowV, "V")},
+		{"noise", figure.CountText(figure.NumP(p.NoiseRMSCounts), "count") + " rms"},
+		{"effective R", figure.SI(p.EffectiveROhm, "Ω")},
+		{"effective C", figure.SI(p.EffectiveCF, "F")},
+		{"load", figure.SI(p.LoadOhm, "Ω")},
 	}
 }
 
@@ -207,7 +207,7 @@ func compareBlock(c *DeadbandChange) string {
 	}
 	fmt.Fprintf(&b, "\n %-13s %-24s %s", "", "before", "after")
 	for i := range before {
-		a := dash
+		a := figure.Missing
 		if i < len(after) {
 			a = after[i][1]
 		}
@@ -243,16 +243,16 @@ func cycleText(seg *analysis.Segment) string {
 		return "rests"
 	}
 	if seg.LimitCyclePeriodS == nil {
-		return fmtSI(nil, "s")
+		return figure.SI(nil, "s")
 	}
-	return fmtSI(seg.LimitCyclePeriodS, "s") + " = " + fmtSI(seg.RippleFreqHz, "Hz")
+	return figure.SI(seg.LimitCyclePeriodS, "s") + " = " + figure.SI(seg.RippleFreqHz, "Hz")
 }
 
 // nodeText is the node ripple without ADC noise (from the identified plant and the
 // drives), beside the measured p-p.
 func nodeText(seg *analysis.Segment) string {
 	if seg.RippleNodePPV == nil {
-		return fmtSI(nil, "V")
+		return figure.SI(nil, "V")
 	}
-	return fmtSI(seg.RippleNodePPV, "V") + " (no noise)"
+	return figure.SI(seg.RippleNodePPV, "V") + " (no noise)"
 }

@@ -6,6 +6,7 @@ import (
 
 	tea "github.com/charmbracelet/bubbletea"
 
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/tui/live"
 )
 
@@ -76,7 +77,7 @@ func (m StatusModel) View() string {
 		parts = append(parts, fmt.Sprintf("LOST %d", st.Lost))
 	}
 	if st.Recording != "" {
-		parts = append(parts, fmt.Sprintf("rec %s %s", st.Recording, fmtBytes(st.RecordBytes)))
+		parts = append(parts, fmt.Sprintf("rec %s %s", st.Recording, figure.Bytes(st.RecordBytes)))
 	} else if !m.replay {
 		if short {
 			parts = append(parts, "no rec")

@@ -121,6 +121,15 @@ func HalfWidth(v *float64, ci *[2]float64) string {
 	return "±" + strconv.FormatFloat(h*100, 'f', 1, 64) + " %"
 }
 
+// SIHalfWidth writes *p with its unit and, when known, the relative half-width of its
+// interval: "32.1 ms ±4.8 %".
+func SIHalfWidth(p *float64, ci *[2]float64, unit string) string {
+	if h := HalfWidth(p, ci); h != "" && p != nil && finite(*p) {
+		return SI(p, unit) + " " + h
+	}
+	return SI(p, unit)
+}
+
 // Change writes after - before with its sign and the relative change: "-12.5 mV (-40 %)".
 func Change(before, after float64, unit string) string {
 	if !finite(before) || !finite(after) {
