@@ -19,16 +19,18 @@ import (
 	"github.com/caploop/caploop/telemetry/si"
 )
 
-// Colours of the plots.
+// Colours of the plots: the screen's palette (tui/palette.go), so a series has one colour
+// wherever it is drawn: setpoint violet, band grey, measurement orange, model blue; no
+// two series told apart only by red against green.
 var (
-	colPV       = color.RGBA{R: 0x1f, G: 0x5f, B: 0xa8, A: 0xff}
-	colEnvelope = color.NRGBA{R: 0x9c, G: 0xbf, B: 0xe6, A: 0xa0}
-	colSP       = color.RGBA{R: 0x20, G: 0x20, B: 0x20, A: 0xff}
-	colBand     = color.NRGBA{R: 0x6c, G: 0xb8, B: 0x6c, A: 0x50}
-	colBandLine = color.RGBA{R: 0x3a, G: 0x8a, B: 0x3a, A: 0xff}
-	colFit      = color.RGBA{R: 0xc8, G: 0x3c, B: 0x1e, A: 0xff}
-	colDrive    = color.RGBA{R: 0x7a, G: 0x4f, B: 0x9a, A: 0xff}
-	colBars     = color.RGBA{R: 0x4f, G: 0x86, B: 0xc6, A: 0xff}
+	colPV       = color.RGBA{R: 0xd7, G: 0x5f, B: 0x00, A: 0xff}
+	colEnvelope = color.NRGBA{R: 0xf0, G: 0xb0, B: 0x80, A: 0xa0}
+	colSP       = color.RGBA{R: 0xaf, G: 0x5f, B: 0xd7, A: 0xff}
+	colBand     = color.NRGBA{R: 0x8a, G: 0x8a, B: 0x8a, A: 0x50}
+	colBandLine = color.RGBA{R: 0x8a, G: 0x8a, B: 0x8a, A: 0xff}
+	colFit      = color.RGBA{R: 0x00, G: 0x5f, B: 0xd7, A: 0xff}
+	colDrive    = color.RGBA{R: 0x5a, G: 0x5a, B: 0x5a, A: 0xff}
+	colBars     = color.RGBA{R: 0xd7, G: 0x5f, B: 0x00, A: 0xff}
 	// palette tells captures apart when they share a plot.
 	palette = []color.RGBA{
 		{R: 0x1f, G: 0x5f, B: 0xa8, A: 0xff},
