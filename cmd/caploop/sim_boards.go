@@ -141,4 +141,3 @@ func serveRack(ctx context.Context, sc virtual.Scenario, n int, speed float64, l
 	}
 	return first
 }
-
