@@ -71,8 +71,6 @@ other devices, so it is never the default.`,
 			if len(ports) == 1 {
 				port = ports[0]
 			} else if len(ports) == 0 {
-				port = args[0]
-			} else {
 				p, err := pickPort()
 				if err != nil {
 					return withCode(2, err)
