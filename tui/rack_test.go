@@ -11,7 +11,6 @@ import (
 	"github.com/caploop/caploop/tui/live"
 )
 
-
 // rackFixture is a rack of three idle pipelines on a clock the test moves.
 func rackFixture(t *testing.T) (Rack, []*live.Pipeline, *time.Time) {
 	t.Helper()
