@@ -18,7 +18,7 @@ import (
 // (one a board).
 func startSim(t *testing.T, bin string, boards int, args ...string) []string {
 	t.Helper()
-	sim := exec.Command(bin, append([]string{"sim", "--pty", "--wait-open"}, args...)...)
+	sim := exec.Command(bin, append([]string{"sim", "--pty", "--wait-open", "--speed", "2"}, args...)...)
 	stdout, err := sim.StdoutPipe()
 	if err != nil {
 		t.Fatal(err)
@@ -53,13 +53,13 @@ func rowRE(name, state, verdict string) string {
 	return fmt.Sprintf(`(?m)^[> ] \S*%s +db \d+ 10b 1ms +%s .*%s`, regexp.QuoteMeta(name), state, verdict)
 }
 
-// TestRackScreenTmux runs four virtual boards (two from one `sim --boards 2`, one that
+// TestRackScreenTmux runs four virtual boards at twice real time (two from one `sim --boards 2`, one that
 // is unplugged and plugged in again, one with a deadband of 0 counts whose ripple fails
 // --max-ripple) and `caploop live` on the four paths in tmux, recording them into a rig
 // folder; then quits and summarises the folder.
 func TestRackScreenTmux(t *testing.T) {
 	if testing.Short() {
-		t.Skip("end-to-end rack test takes about 25 s; skipped with -short")
+		t.Skip("end-to-end rack test takes about 12 s; skipped with -short")
 	}
 	needTmux(t)
 	t.Parallel()
