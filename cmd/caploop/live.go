@@ -67,6 +67,9 @@ other devices, so it is never the default.`,
 			if err != nil {
 				return withCode(2, fmt.Errorf("live: %w", err))
 			}
+			if len(ports) <= 1 && gateNames(f.gates) != "" {
+				return withCode(2, errors.New("live: the gates (--max-ripple and the others) judge the rack screen of two or more ports; for one board, record it and run caploop summary with the gates"))
+			}
 			port := ""
 			if len(ports) == 1 {
 				port = ports[0]
