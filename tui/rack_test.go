@@ -6,6 +6,7 @@ import (
 	"time"
 
 	tea "github.com/charmbracelet/bubbletea"
+	"github.com/charmbracelet/x/ansi"
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/tui/live"
@@ -195,5 +196,27 @@ func TestSparkline(t *testing.T) {
 	}
 	if got := sparkline(NewRing(10), 5); got != "     " {
 		t.Errorf("empty sparkline = %q", got)
+	}
+}
+
+// On 80 columns the table drops the least needed columns and keeps port, state and
+// verdict.
+func TestRackNarrow(t *testing.T) {
+	r, srcs, _ := rackFixture(t)
+	m, _ := r.Update(tea.WindowSizeMsg{Width: 80, Height: 20})
+	r = m.(Rack)
+	r = feed(r, srcs, 0, "connected", 0.031, 0, 0.5, 1)
+	v := r.View()
+	t.Logf("80 columns:\n%s", v)
+	row := rowOf(t, v, "/dev/ttyACM0")
+	for _, want := range []string{"live", "31mV", "FAIL ripple"} {
+		if !strings.Contains(row, want) {
+			t.Errorf("80-column row lacks %q:\n%s", want, v)
+		}
+	}
+	for i, ln := range strings.Split(v, "\n") {
+		if w := ansi.StringWidth(ln); w != 80 {
+			t.Errorf("line %d is %d cells wide, want 80: %q", i+1, w, ln)
+		}
 	}
 }

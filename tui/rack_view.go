@@ -114,6 +114,34 @@ func (r Rack) columns() []rackColumn {
 	}
 }
 
+// dropOrder is the order in which columns give way on a narrow terminal: the port, the
+// state and the verdict stay.
+var dropOrder = []string{"cycle", "tau", "duty", "board", "setpoint", "jumps", "ripple"}
+
+// fitColumns drops columns in dropOrder until the table fits width (a sparkline of at
+// least 8 cells wanted).
+func fitColumns(cols []rackColumn, width int) []rackColumn {
+	need := func(cs []rackColumn) int {
+		n := 2 + 8
+		for _, c := range cs {
+			n += c.width + 1
+		}
+		return n
+	}
+	for _, d := range dropOrder {
+		if need(cols) <= width {
+			break
+		}
+		for i, c := range cols {
+			if c.head == d {
+				cols = append(cols[:i:i], cols[i+1:]...)
+				break
+			}
+		}
+	}
+	return cols
+}
+
 // si3 formats v with three significant digits and an SI prefix.
 func si3(v float64, unit string) string {
 	if math.IsNaN(v) {
@@ -227,7 +255,7 @@ func (r Rack) View() string {
 		return padRight(ansi.Truncate(head, w, "…"), w) + "\n" + b.m.View()
 	}
 	now := r.now()
-	cols := r.columns()
+	cols := fitColumns(r.columns(), w)
 	used := 2
 	for _, c := range cols {
 		used += c.width + 1
@@ -288,5 +316,5 @@ func (r Rack) View() string {
 		}
 	}
 	body := fitBlock(strings.Join(lines, "\n"), w, h-1)
-	return body + "\n" + padRight("↑/↓ select · enter opens the board · esc returns · q quits (exit 1 when a verdict fails)", w)
+	return body + "\n" + padRight("↑/↓ select · enter opens a board · esc returns · q quits", w)
 }
