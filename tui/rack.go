@@ -233,3 +233,23 @@ func (r Rack) key(msg tea.KeyMsg) (tea.Model, tea.Cmd) {
 	}
 	return r, nil
 }
+
+// RackRow is what a row of the rack says, for a caller that reads the screen's final
+// model (tests, an exit report).
+type RackRow struct {
+	Port    string
+	State   string // live, unplugged, silent, no port, opening, closed
+	Samples int64  // samples analysed
+	Verdict Verdict
+}
+
+// Rows returns every row, in order.
+func (r Rack) Rows() []RackRow {
+	out := make([]RackRow, len(r.boards))
+	now := r.now()
+	for i := range r.boards {
+		b := &r.boards[i]
+		out[i] = RackRow{Port: b.m.src.Name(), State: b.rowState(now, r.opts.SilentAfter), Samples: b.m.status.st.Samples, Verdict: b.verdict}
+	}
+	return out
+}
