@@ -1,6 +1,8 @@
 package tui
 
 import (
+	"fmt"
+	"strconv"
 	"time"
 
 	tea "github.com/charmbracelet/bubbletea"
@@ -181,11 +183,38 @@ func (r *Rack) boardUpdate(i int, msg tea.Msg) tea.Cmd {
 	if b.m.sum != nil && b.m.sum != b.sum {
 		b.sum = b.m.sum
 		if r.opts.Verdict != nil {
-			b.verdict = r.opts.Verdict(b.sum)
+			b.verdict = b.judge(r.opts.Verdict)
 		}
 	}
 	b.observe(t)
 	return tagCmd(i, cmd)
+}
+
+// judge gives the board's current verdict: over the run so far, or, once a deadband
+// change was confirmed on this screen, over what ran wholly under the new band (the
+// segments and steps after the change; the per-file gates still over the whole run).
+func (b *rackBoard) judge(verdict func(*analysis.Summary) Verdict) Verdict {
+	c := b.m.change
+	if c == nil {
+		return verdict(b.sum)
+	}
+	s := *b.sum
+	s.Segments, s.Steps = nil, nil
+	for _, g := range b.sum.Segments {
+		if g.StartS > c.CutS {
+			s.Segments = append(s.Segments, g)
+		}
+	}
+	for _, st := range b.sum.Steps {
+		if st.AtS > c.CutS {
+			s.Steps = append(s.Steps, st)
+		}
+	}
+	v := verdict(&s)
+	if v.Detail != "" {
+		v.Detail += fmt.Sprintf(" (since the deadband change to %s)", strconv.FormatFloat(c.To, 'f', -1, 64))
+	}
+	return v
 }
 
 // observe follows the link state, to say how long it has held.

@@ -25,12 +25,19 @@ func rackFixture(t *testing.T) (Rack, []*live.Pipeline, *time.Time) {
 	r := NewRack(srcs, RackOptions{
 		Gates: "max-ripple 20mV",
 		Verdict: func(s *analysis.Summary) Verdict {
-			seg := live.CurrentSegment(s)
-			if seg == nil || seg.RipplePPV == nil {
-				return Verdict{Short: "waiting"}
+			// Every segment, as the summary's gates judge them.
+			judged := false
+			for _, seg := range s.Segments {
+				if seg.RipplePPV == nil {
+					continue
+				}
+				if *seg.RipplePPV > 0.020 {
+					return Verdict{State: VerdictFail, Short: "FAIL ripple", Detail: "ripple over 20 mV"}
+				}
+				judged = true
 			}
-			if *seg.RipplePPV > 0.020 {
-				return Verdict{State: VerdictFail, Short: "FAIL ripple", Detail: "ripple over 20 mV"}
+			if !judged {
+				return Verdict{Short: "waiting"}
 			}
 			return Verdict{State: VerdictPass, Short: "pass"}
 		},
@@ -218,5 +225,27 @@ func TestRackNarrow(t *testing.T) {
 		if w := ansi.StringWidth(ln); w != 80 {
 			t.Errorf("line %d is %d cells wide, want 80: %q", i+1, w, ln)
 		}
+	}
+}
+
+// After a deadband change confirmed on the screen, the verdict judges what ran under
+// the new band only.
+func TestRackVerdictSinceChange(t *testing.T) {
+	r, srcs, _ := rackFixture(t)
+	r = feed(r, srcs, 0, "connected", 0.031, 0, 0.5, 1)
+	if r.Verdicts()[0].State != VerdictFail {
+		t.Fatalf("before the change: %+v", r.Verdicts()[0])
+	}
+	ev := live.Event{T: 1.2, Kind: live.EventDeadband, Value: 9, Text: "deadband 4→9", SegStartS: 0}
+	sum := &analysis.Summary{Segments: []analysis.Segment{
+		{StartS: 0, SetpointV: fp(1.2), SteadySamples: 100, RipplePPV: fp(0.031)},
+		{StartS: 1.2, SetpointV: fp(1.2), SteadySamples: 100, RipplePPV: fp(0.012)},
+	}}
+	m, _ := r.Update(rackMsg{board: 0, msg: samplesMsg{src: srcs[0], snap: live.Snapshot{
+		Events: []live.Event{ev}, Summary: sum, Points: []live.Point{{T: 1.5, PV: 1.2}}}}})
+	r = m.(Rack)
+	v := r.Verdicts()[0]
+	if v.State != VerdictPass {
+		t.Errorf("after the change to 9 with a 12 mV segment: %+v", v)
 	}
 }
