@@ -51,8 +51,8 @@ With several ports (or a quoted glob such as '/dev/ttyACM*'), live opens the rac
 one row per board with its port, board settings, state (live, unplugged, silent), the
 current setpoint, ripple, charge duty, limit cycle, band jumps, tau, a verdict against
 the gates (--max-ripple etc., the gates of caploop summary, judged over the run so far,
-or since a deadband change sent from the board's screen)
-and a sparkline of the reading. Enter opens a board's bench screen, Esc returns. Each
+or since a deadband change sent from the board's screen) and a sparkline of the
+reading. Enter opens a board's bench screen, Esc returns. Each
 board has its own reader, analysis and recording: one board's unplug or flood holds up
 no other. --record DIR then records each board into the folder DIR, as caploop record
 does with several ports. On q the exit code is 1 when any board's verdict fails.
