@@ -12,6 +12,7 @@ import (
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/telemetry"
+	"github.com/caploop/caploop/telemetry/si"
 	"github.com/caploop/caploop/tui/live"
 )
 
@@ -67,7 +68,7 @@ func (r Rack) columns() []rackColumn {
 		{"state", 9, false, func(b *rackBoard, t time.Time) string { return b.rowState(t, silent) }},
 		{"setpoint", 8, true, func(b *rackBoard, _ time.Time) string {
 			if b.m.sum == nil || len(b.m.sum.Segments) == 0 {
-				return dash
+				return rackNone
 			}
 			s := &b.m.sum.Segments[len(b.m.sum.Segments)-1]
 			if s.SetpointV != nil {
@@ -79,35 +80,35 @@ func (r Rack) columns() []rackColumn {
 			if s := seg(b); s != nil && s.RipplePPV != nil {
 				return si3(*s.RipplePPV, "V")
 			}
-			return dash
+			return rackNone
 		}},
 		{"duty", 5, true, func(b *rackBoard, _ time.Time) string {
 			if s := seg(b); s != nil {
-				return fmtPct(s.DutyCharge)
+				return rackPct(s.DutyCharge)
 			}
-			return dash
+			return rackNone
 		}},
 		{"cycle", 8, true, func(b *rackBoard, _ time.Time) string {
 			if s := seg(b); s != nil && s.LimitCyclePeriodS != nil {
 				return si3(*s.LimitCyclePeriodS, "s")
 			}
-			return dash
+			return rackNone
 		}},
 		{"jumps", 5, true, func(b *rackBoard, _ time.Time) string {
 			if s := seg(b); s != nil {
 				return strconv.FormatInt(s.BandJumps, 10)
 			}
-			return dash
+			return rackNone
 		}},
 		{"tau", 8, true, func(b *rackBoard, _ time.Time) string {
 			if b.m.sum != nil && b.m.sum.Plant.TauChargeS != nil {
 				return si3(*b.m.sum.Plant.TauChargeS, "s")
 			}
-			return dash
+			return rackNone
 		}},
 		{"verdict", 13, false, func(b *rackBoard, _ time.Time) string {
 			if b.verdict.Short == "" {
-				return dash
+				return rackNone
 			}
 			return b.verdict.Short
 		}},
@@ -142,26 +143,45 @@ func fitColumns(cols []rackColumn, width int) []rackColumn {
 	return cols
 }
 
-// si3 formats v with three significant digits and an SI prefix.
+// rackNone is written in a cell without a figure.
+const rackNone = "–"
+
+// si3 formats v with three significant digits and an SI prefix, without the space.
 func si3(v float64, unit string) string {
-	if math.IsNaN(v) {
-		return dash
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return rackNone
 	}
-	return strings.ReplaceAll(fmtSI(&v, unit), " ", "")
+	return strings.ReplaceAll(si.FormatDigits(v, unit, 3), " ", "")
+}
+
+// rackPct writes a fraction as a whole percentage.
+func rackPct(p *float64) string {
+	if p == nil || math.IsNaN(*p) {
+		return rackNone
+	}
+	return strconv.FormatFloat(*p*100, 'f', 0, 64) + "%"
+}
+
+// rackCounts writes a count, with one decimal when it has a fraction.
+func rackCounts(v float64) string {
+	if v == math.Trunc(v) {
+		return strconv.FormatFloat(v, 'f', 0, 64)
+	}
+	return strconv.FormatFloat(v, 'f', 1, 64)
 }
 
 // boardSettings is the compact board column: deadband (or two-state), ADC bits and the
 // sample period, from the meta lines.
 func boardSettings(s *analysis.Summary) string {
 	if s == nil {
-		return dash
+		return rackNone
 	}
 	var parts []string
 	switch {
 	case s.Board.Mode == "two-state":
 		parts = append(parts, "2-st")
 	case s.Board.DeadbandCounts != nil:
-		parts = append(parts, "db "+fmtCounts(s.Board.DeadbandCounts))
+		parts = append(parts, "db "+rackCounts(*s.Board.DeadbandCounts))
 	}
 	if s.Board.ADCBits != nil {
 		parts = append(parts, strconv.Itoa(*s.Board.ADCBits)+"b")
@@ -170,7 +190,7 @@ func boardSettings(s *analysis.Summary) string {
 		parts = append(parts, si3(*s.SamplePeriodS, "s"))
 	}
 	if len(parts) == 0 {
-		return dash
+		return rackNone
 	}
 	return strings.Join(parts, " ")
 }

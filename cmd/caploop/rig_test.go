@@ -123,6 +123,10 @@ func TestRecordRigAndSummary(t *testing.T) {
 	if code != 2 || !regexp.MustCompile(`(?m)^  4 +empty\.cap .*unusable`).MatchString(out) || strings.Count(out, " pass") != 3 {
 		t.Errorf("rig with an empty capture: exit %d, want 2 and its row unusable\n%s", code, out)
 	}
+	// The HTML report draws capture files, not a rig folder.
+	if _, _, code := runSummaryCmd(t, rigDir, "--report", filepath.Join(dir, "r.html")); code != 2 {
+		t.Errorf("--report with a rig folder: exit %d, want 2", code)
+	}
 	// A folder with other arguments is a usage error.
 	if _, _, code := runSummaryCmd(t, rigDir, filepath.Join(rigDir, "b1.cap")); code != 2 {
 		t.Errorf("folder and file: exit %d, want 2", code)

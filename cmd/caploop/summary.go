@@ -79,7 +79,7 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 		if err != nil {
 			return withCode(2, err)
 		}
-		return runRigSummary(stdout, stderr, dir, f, note)
+		return runRigSummary(stdout, stderr, dir, f)
 	}
 	gs, err := f.gates.Parse()
 	if err != nil {

@@ -69,13 +69,13 @@ func rigBoards(dir string) ([]rig.Board, error) {
 // runRigSummary summarises a rig folder: one row per board, or with --json an array of
 // per-board documents. Exit code 2 when a capture cannot be used, else 1 when any board
 // fails a gate.
-func runRigSummary(stdout, stderr io.Writer, dir string, f *summaryFlags, note string) error {
+func runRigSummary(stdout, stderr io.Writer, dir string, f *summaryFlags) error {
 	gs, err := f.gates.Parse()
 	if err != nil {
 		return withCode(2, err)
 	}
-	if err := f.rep.check(); err != nil {
-		return err
+	if f.rep.wanted() {
+		return withCode(2, fmt.Errorf("summary: --report and --plot draw capture files; for a rig give its captures: caploop summary %s/*.cap --report rig.html", clean(dir)))
 	}
 	tol, err := parseSupplyTol(f.supplyTol)
 	if err != nil {
@@ -131,19 +131,6 @@ func runRigSummary(stdout, stderr io.Writer, dir string, f *summaryFlags, note s
 		err := writeFileAtomic(f.junit, func(w io.Writer) error { return report.WriteJUnit(w, results) })
 		if err != nil {
 			return withCode(2, err)
-		}
-	}
-	if f.rep.wanted() {
-		var docs []report.Doc
-		for _, r := range results {
-			if r.Err == nil {
-				docs = append(docs, report.Doc{Name: r.Name, Summary: r.Summary, Advice: r.Advice})
-			}
-		}
-		if len(docs) > 0 {
-			if err := f.rep.write(docs, note); err != nil {
-				return err
-			}
 		}
 	}
 	switch {
