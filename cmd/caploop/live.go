@@ -14,6 +14,7 @@ import (
 	"github.com/spf13/cobra"
 	"golang.org/x/term"
 
+	"github.com/caploop/caploop/analysis/report"
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/si"
 	"github.com/caploop/caploop/telemetry/wire"
@@ -27,13 +28,14 @@ type liveFlags struct {
 	baud, parity, record string
 	dataBits, stopBits   int
 	span                 time.Duration
-	force                bool
+	force, all           bool
+	gates                report.GateText
 }
 
 func newLiveCmd() *cobra.Command {
 	var f liveFlags
 	cmd := &cobra.Command{
-		Use:   "live [PORT]",
+		Use:   "live [PORT...]",
 		Short: "the bench screen on a board's serial port",
 		Long: `live opens the board's serial port and shows the bench screen: setpoint and measurement
 in volts with the band, the figures of the current steady segment, the advice (deadband
@@ -43,16 +45,36 @@ board (after a y/n question) and shows the figures before and after it.
 
 Without PORT, live uses the only USB serial device; with several it lists them with
 their USB ids and asks which one (on a terminal). The screen reconnects by itself after an unplug or a board reset and says so.
---record writes the same capture as caploop record, marks included.`,
+--record writes the same capture as caploop record, marks included.
+
+With several ports (or a quoted glob such as '/dev/ttyACM*'), live opens the rack screen:
+one row per board with its port, board settings, state (live, unplugged, silent), the
+current setpoint, ripple, charge duty, limit cycle, band jumps, tau, a verdict against
+the gates (--max-ripple etc., the gates of caploop summary, judged over the run so far,
+or since a deadband change sent from the board's screen) and a sparkline of the
+reading. Enter opens a board's bench screen, Esc returns. Each
+board has its own reader, analysis and recording: one board's unplug or flood holds up
+no other. --record DIR then records each board into the folder DIR, as caploop record
+does with several ports. On q the exit code is 1 when any board's verdict fails.
+--all opens every USB serial port; opening a port resets many boards and may disturb
+other devices, so it is never the default.`,
 		Example: `  caploop live
   caploop live /dev/ttyACM0 --record bench.cap
-  caploop live /dev/ttyUSB0 --baud 57600 --parity even --window 500ms`,
-		Args: cobra.MaximumNArgs(1),
+  caploop live /dev/ttyUSB0 --baud 57600 --parity even --window 500ms
+  caploop live '/dev/ttyACM*' --max-ripple 20mV --record rig1`,
+		Args: cobra.ArbitraryArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
+			ports, err := expandPorts(args, f.all, cmd.ErrOrStderr())
+			if err != nil {
+				return withCode(2, fmt.Errorf("live: %w", err))
+			}
+			if len(ports) <= 1 && gateNames(f.gates) != "" {
+				return withCode(2, errors.New("live: the gates (--max-ripple and the others) judge the rack screen of two or more ports; for one board, record it and run caploop summary with the gates"))
+			}
 			port := ""
-			if len(args) == 1 {
-				port = args[0]
-			} else {
+			if len(ports) == 1 {
+				port = ports[0]
+			} else if len(ports) == 0 {
 				p, err := pickPort()
 				if err != nil {
 					return withCode(2, err)
@@ -63,10 +85,16 @@ their USB ids and asks which one (on a terminal). The screen reconnects by itsel
 			if err != nil || baud <= 0 || baud > math.MaxInt32 || baud != math.Trunc(baud) {
 				return withCode(2, fmt.Errorf("live: --baud %q: want a whole positive number such as 115200 or 1M", f.baud))
 			}
-			if f.record != "" && !f.force {
+			if f.record != "" && !f.force && len(ports) <= 1 {
 				if _, err := os.Stat(f.record); err == nil {
 					return withCode(2, fmt.Errorf("live: %s exists; use --force to overwrite it", f.record))
 				}
+			}
+			if len(ports) > 1 {
+				cfgOf := func(path string) wire.SerialConfig {
+					return wire.SerialConfig{Path: path, Baud: int(baud), DataBits: f.dataBits, Parity: f.parity, StopBits: f.stopBits}
+				}
+				return runRack(ports, f, cfgOf, cmd.ErrOrStderr())
 			}
 			cfg := wire.SerialConfig{Path: port, Baud: int(baud), DataBits: f.dataBits, Parity: f.parity, StopBits: f.stopBits}
 			p := live.NewPort(live.PortOptions{Serial: cfg, Record: f.record})
@@ -78,8 +106,10 @@ their USB ids and asks which one (on a terminal). The screen reconnects by itsel
 	fl.IntVar(&f.dataBits, "data-bits", 8, "data bits: 5, 6, 7 or 8")
 	fl.StringVar(&f.parity, "parity", "none", "parity: none, odd, even, mark or space")
 	fl.IntVar(&f.stopBits, "stop-bits", 1, "stop bits: 1 or 2")
-	fl.StringVar(&f.record, "record", "", "also write a capture file (the format of caploop record)")
+	fl.StringVar(&f.record, "record", "", "also write a capture file (the format of caploop record); with several ports, a folder")
 	fl.BoolVar(&f.force, "force", false, "overwrite the --record file if it exists")
+	fl.BoolVar(&f.all, "all", false, "rack: open every USB serial port (caution: opening a port resets many boards)")
+	registerGates(fl, &f.gates)
 	fl.DurationVar(&f.span, "window", 2*time.Second, "time window of the plot at start (+/- change it)")
 	return cmd
 }

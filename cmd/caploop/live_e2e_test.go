@@ -69,6 +69,7 @@ func TestLiveScreenTmux(t *testing.T) {
 		t.Skip("end-to-end screen test takes about 40 s; skipped with -short")
 	}
 	needTmux(t)
+	t.Parallel() // waits on a real-time board most of its 35 s: beside the other slow tests
 	dir := t.TempDir()
 	bin := buildCaploop(t, dir)
 

@@ -34,7 +34,7 @@ type recordFlags struct {
 func newRecordCmd() *cobra.Command {
 	var f recordFlags
 	cmd := &cobra.Command{
-		Use:   "record --port PATH --out FILE",
+		Use:   "record PORT... --out FILE|DIR",
 		Short: "capture a board's serial telemetry to a file, without a screen",
 		Long: `record reads the board's serial port and writes every line, byte for byte, with the
 time the host received it, to a capture file (plain text; its first line starts with
@@ -49,18 +49,39 @@ When the board is unplugged, record writes an "unplugged" event and waits for th
 port path to come back (give a stable path, such as a /dev/serial/by-id/ link, to survive
 a different device number); --exit-on-unplug ends the recording instead (exit code 0).
 
-A status line goes to standard error; it never shows the board's own text.`,
+A status line goes to standard error; it never shows the board's own text.
+
+With several ports (a test rig), --out is a folder (made when missing): each board gets
+its own capture there, named by its USB serial number (the port's name when it has
+none, with -2, -3... when two collide), and rig.json lists them (see the README's "Test
+rig"); caploop summary DIR then gives one row per board. Each board is read and
+recorded on its own, so one board's unplug holds up no other.`,
 		Example: `  caploop record --port /dev/ttyACM0 --out bench.cap
   caploop record --port /dev/ttyUSB0 --baud 57600 --out greenhouse.cap --duration 2h
-  caploop record --port /dev/serial/by-id/usb-board-if00 --out rig.cap --exit-on-unplug --force`,
-		Args: cobra.NoArgs,
+  caploop record --port /dev/serial/by-id/usb-board-if00 --out rig.cap --exit-on-unplug --force
+  caploop record /dev/ttyACM0 /dev/ttyACM1 /dev/ttyACM2 /dev/ttyACM3 --out rig1 --duration 10m`,
+		Args: cobra.ArbitraryArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
+			ports := args
+			if f.port != "" {
+				ports = append([]string{f.port}, args...)
+			}
+			ports, err := expandPorts(ports, false, cmd.ErrOrStderr())
+			switch {
+			case err != nil:
+				return withCode(2, fmt.Errorf("record: %w", err))
+			case len(ports) == 0:
+				return withCode(2, errors.New("record: name the port: caploop record PORT --out FILE"))
+			case len(ports) > 1:
+				return runRecordRig(cmd.Context(), f, ports, cmd.ErrOrStderr())
+			}
+			f.port = ports[0]
 			return runRecord(cmd.Context(), f, cmd.ErrOrStderr())
 		},
 	}
 	fl := cmd.Flags()
-	fl.StringVar(&f.port, "port", "", "serial port path (caploop ports lists them)")
-	fl.StringVar(&f.out, "out", "", "capture file to write")
+	fl.StringVar(&f.port, "port", "", "serial port path (caploop ports lists them); the same as giving it as an argument")
+	fl.StringVar(&f.out, "out", "", "capture file to write; with several ports, the rig folder")
 	fl.StringVar(&f.baud, "baud", "115200", "baud rate (115200, 1M, 250k)")
 	fl.IntVar(&f.dataBits, "data-bits", 8, "data bits: 5, 6, 7 or 8")
 	fl.StringVar(&f.parity, "parity", "none", "parity: none, odd, even, mark or space")
@@ -70,7 +91,6 @@ A status line goes to standard error; it never shows the board's own text.`,
 	fl.BoolVar(&f.wait, "wait", false, "wait for the port to appear instead of failing when it cannot be opened")
 	fl.BoolVar(&f.force, "force", false, "overwrite the capture file if it exists")
 	fl.BoolVar(&f.quiet, "quiet", false, "print only errors and the final summary")
-	_ = cmd.MarkFlagRequired("port")
 	_ = cmd.MarkFlagRequired("out")
 	return cmd
 }

@@ -25,6 +25,7 @@ func newSimCmd() *cobra.Command {
 		fast, usePTY, verbose   bool
 		capture, waitOpen       bool
 		speed                   float64
+		boards                  int
 	)
 	def := virtual.DefaultScenario()
 	var keys strings.Builder
@@ -51,7 +52,8 @@ Output goes to standard output in real time, to a file (--out), as fast as possi
 (--capture: host lines of "at" appear as sent records), or to a pseudo-terminal (--pty): sim then prints
 one line, the device path, and serves until killed. The path is a symbolic link that
 follows the board across an unplug and re-plug, so caploop live and caploop record can
-keep reading it.
+keep reading it. With --boards N (a test rig without hardware), sim serves N boards,
+each with its own seed and parts, and prints their N paths, one a line.
 
 The scenario starts from the built-in demo (a greenhouse sensor bias at 1.2, 2.0 and
 2.8 V, three-state, deadband 4: a little narrow), then a scenario file (--scenario),
@@ -75,6 +77,7 @@ Values take SI prefixes and units (47k, 4k7, 1u, 100mV, 1ms). Keys:
 ` + keys.String(),
 		Example: `  caploop sim --pty
   caploop sim --pty --link /tmp/board0 --unplug-after 5s --replug-after 2s
+  caploop sim --pty --boards 4 --link /tmp/rack
   caploop sim --fast --duration 10s --out bench.txt --r 22k --c 2.2u --deadband 9
   caploop sim --fast --samples 5000 --mode two-state --profile sine --sp 1,4 --dwell 2s
   caploop sim --fast --duration 6s --capture --at "3s set deadband=9" --out tuned.cap
@@ -112,8 +115,17 @@ Values take SI prefixes and units (47k, 4k7, 1u, 100mV, 1ms). Keys:
 				return withCode(2, errors.New("sim: --capture writes a file or standard output, not a pseudo-terminal"))
 			case fast && sc.Samples == 0 && sc.Duration == 0:
 				return withCode(2, errors.New("sim: --fast needs --samples or --duration"))
+			case boards != 1 && !usePTY:
+				return withCode(2, errors.New("sim: --boards serves pseudo-terminals; add --pty"))
+			case boards < 1 || boards > maxSimBoards:
+				return withCode(2, fmt.Errorf("sim: --boards %d: want 1 to %d", boards, maxSimBoards))
 			case speed < 0:
 				return withCode(2, errors.New("sim: --speed must be above 0"))
+			}
+			if boards > 1 {
+				ctx, stop := signal.NotifyContext(cmd.Context(), os.Interrupt, syscall.SIGTERM)
+				defer stop()
+				return withCode(2, serveRack(ctx, sc, boards, speed, link, waitOpen, cmd.OutOrStdout(), cmd.ErrOrStderr()))
 			}
 			b, err := virtual.NewBoard(sc)
 			if err != nil {
@@ -182,6 +194,7 @@ Values take SI prefixes and units (47k, 4k7, 1u, 100mV, 1ms). Keys:
 	fl.BoolVar(&capture, "capture", false, "write a caploop capture (host time, direction, line; host times from the board clock) instead of plain telemetry")
 	fl.BoolVar(&usePTY, "pty", false, "serve a pseudo-terminal and print its stable path")
 	fl.StringVar(&link, "link", "", "with --pty: the stable path (a symbolic link) to create (default: a new temporary directory)")
+	fl.IntVar(&boards, "boards", 1, "with --pty: serve this many boards, each with its own seed and parts (R and C a step or two apart in E12); one path a line, and --link gets the board's number appended")
 	fl.BoolVar(&waitOpen, "wait-open", false, "with --pty: boot only when a program first opens the device, so it sees the boot lines")
 	fl.Float64Var(&speed, "speed", 1, "real-time factor (2 = twice as fast)")
 	fl.BoolVarP(&verbose, "verbose", "v", false, "log boots, answers and faults on standard error")

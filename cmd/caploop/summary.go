@@ -33,7 +33,7 @@ type summaryFlags struct {
 func newSummaryCmd() *cobra.Command {
 	var f summaryFlags
 	cmd := &cobra.Command{
-		Use:   "summary FILE...",
+		Use:   "summary FILE...|DIR",
 		Short: "measure a capture: ripple, duty, limit cycle, real RC, diagnostics, CI gates",
 		Long: `summary reads telemetry files (plain lines, CSV/TSV with a header, or captures made by
 caploop record; .gz is read directly; - is standard input) in one streaming pass and
@@ -48,11 +48,17 @@ cannot be used (missing, unreadable, no samples), 0 otherwise. --junit writes a 
 XML report with one test case per gate per segment (or step).
 
 With several files, a table gives one row per file and compares each with the first
-(before and after tuning); --detail adds each file's full text.`,
+(before and after tuning); --detail adds each file's full text.
+
+With a folder (a test rig recorded by caploop record PORT... --out DIR), one table gives
+a row per board listed in its rig.json (or per *.cap capture when there is none) with
+its verdict; --json gives an array with one document per board. The exit code is 1 when
+any board fails a gate, 2 when a capture cannot be used.`,
 		Example: `  caploop summary greenhouse-bias.cap
   caploop summary --json bench.log.gz > bench.json
   caploop summary --max-ripple 20mV --max-settle 150ms --max-error 5mV --max-jumps 0 --junit gates.xml run.cap
-  caploop summary before.cap after.cap`,
+  caploop summary before.cap after.cap
+  caploop summary rig1 --max-ripple 20mV --json > rig1.json`,
 		Args: cobra.MinimumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
 			return runSummary(cmd.OutOrStdout(), cmd.ErrOrStderr(), args, &f, strings.Join(append([]string{"caploop summary"}, args...), " "))
@@ -70,6 +76,12 @@ With several files, a table gives one row per file and compares each with the fi
 }
 
 func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note string) error {
+	if dir, ok, err := oneRigFolder(files); ok || err != nil {
+		if err != nil {
+			return withCode(2, err)
+		}
+		return runRigSummary(stdout, stderr, dir, f)
+	}
 	gs, err := f.gates.Parse()
 	if err != nil {
 		return withCode(2, err)
