@@ -20,8 +20,10 @@ package analysis_test
 //   - noise: sqrt(sigma^2 + 1/12) counts, Gaussian sigma before a rounding converter
 //     (quantisation noise LSB/sqrt(12), Bennett 1948);
 //   - settling: time from the setpoint change until the noise-free level enters and stays
-//     within +-(deadband + one charge step at the setpoint) counts, at least 1 % of full
-//     scale; null when the setpoint step is within that tolerance or the level never settles.
+//     within +-(deadband + the larger of the charge and discharge steps at the setpoint)
+//     counts, at least 1 % of full scale (the discharge step when the loop discharges in
+//     its steady part: what the analysis implements; CONVENTIONS.md still says "one charge
+//     step"); null when the setpoint step is within that tolerance or the level never settles.
 
 import (
 	"bytes"
@@ -721,15 +723,19 @@ func truthOf(c *capture, s segSpan) segTruth {
 	return tr
 }
 
-// settleBand is the settling tolerance at setpoint sp, in counts: the deadband plus one
-// charge step at the setpoint (CONVENTIONS.md), at least 1 % of full scale. wide uses the
-// larger of the charge and discharge steps instead, plus 3 sigma + 1 count for the drives
-// that noisy readings chose (the suite's second reading, see the steps in compare).
-func settleBand(p plantParams, sp int, wide bool) float64 {
+// settleBand is the settling tolerance at setpoint sp, in counts, as the analysis
+// implements it (segment figures; CONVENTIONS.md says "one charge step", see the note
+// there): the deadband plus the larger of the charge step and, when the loop discharges
+// in its steady part, the discharge step at the setpoint, at least 1 % of full scale. A
+// two-state loop in its cycle reads up to one discharge step below the setpoint, so one
+// charge step alone would call a chattering but settled loop unsettled. wide adds
+// 3 sigma + 1 count for the drives that noisy readings chose (the suite's second
+// reading of the settling time, see the steps in compare).
+func settleBand(p plantParams, sp int, discharges, wide bool) float64 {
 	a := -math.Expm1(-p.period / tauCharge(p))
 	spV := float64(sp) * p.lsb()
 	step := math.Max(0, vHigh(p)-spV) * a / p.lsb()
-	if wide {
+	if discharges {
 		// discharge: the node falls towards the follower's bias point (0 V without one)
 		node, low := spV, 0.0
 		if p.buffer {
@@ -739,7 +745,10 @@ func settleBand(p plantParams, sp int, wide bool) float64 {
 			}
 			node, low = spV+followerVBE, followerG(p)*followerVBE/g
 		}
-		step = math.Max(step, (node-low)*a/p.lsb()) + 3*p.noise + 1
+		step = math.Max(step, (node-low)*a/p.lsb())
+	}
+	if wide {
+		step += 3*p.noise + 1
 	}
 	return math.Max(float64(p.db)+step, 0.01*p.fullScale())
 }
@@ -925,23 +934,29 @@ func compare(c *capture, doc map[string]any) []*pair {
 				break
 			}
 		}
-		tol, wide := settleBand(p, s.sp, false), settleBand(p, s.sp, true)
+		dis := truthOf(c, s).dutyD > 0
+		tol, wide := settleBand(p, s.sp, dis, false), settleBand(p, s.sp, dis, true)
 		settle := settleTime(c, s, tol)
 		name := fmt.Sprintf("step%d.", i)
 		q := &pair{fig: name + "settle_s", unit: "s", truth: settle, tol: math.Max(0.1*settle, 2*p.period), tolS: "10 % or 2 T"}
 		tq := &pair{fig: name + "settle_tol_counts", unit: "counts", truth: tol, tol: math.Max(0.1*tol, 1), tolS: "10 % or 1 count"}
+		if tau/p.period < 1 {
+			// No plant to compute a step at the setpoint from (tau < T is not
+			// identifiable): the step the loop takes, the mean charge step over the
+			// last half, stands in for it, as in the analysis.
+			tq.alt = math.Max(float64(p.db)+c.meanStep(s, loop.Charge), 0.01*p.fullScale())
+		}
 		switch {
 		case math.Abs(float64(s.sp-from)) <= tol:
 			q.need, q.why, q.truth = isNull, "step within the settling tolerance", math.NaN()
 		case math.IsNaN(settle):
-			// The band of CONVENTIONS.md counts one charge step and no noise; where the
-			// discharge step is larger, or noisy readings choose the drive, the limit cycle
-			// itself leaves that band. The suite then also accepts the settling time
-			// within deadband + the larger step + 3 sigma + 1 count.
+			// Where noisy readings choose the drive, the noise-free limit cycle itself
+			// may leave that band (the analysis judges the readings against it widened
+			// by quantisation and noise). The suite then accepts the settling time
+			// within the band + 3 sigma + 1 count.
 			if w := settleTime(c, s, wide); !math.IsNaN(w) {
 				q.need, q.truth, q.tol = may, w, math.Max(0.1*w, 2*p.period)
 				q.why = fmt.Sprintf("the limit cycle leaves +-%.3g counts; %.3g s within +-%.3g", tol, w, wide)
-				tq.alt = wide
 			} else {
 				q.need, q.why = isNull, "never stays within the tolerance"
 			}
@@ -1042,7 +1057,7 @@ func segPairs(c *capture, i int, s segSpan, got map[string]any) []*pair {
 	rip := func(x float64) float64 { return math.Max(0.1*x, 2*lsb) }
 	out := []*pair{
 		(&pair{fig: name + "ripple_pp_v", unit: "V", truth: tr.measPP, tol: rip(tr.measPP), tolS: "10 % or 2 LSB"}).read(got, "ripple_pp_v"),
-		(&pair{fig: name + "ripple_node_pp_v", unit: "V", truth: tr.nodePP, tol: rip(tr.nodePP), tolS: "10 % or 2 LSB"}).read(got, "ripple_node_pp_v"),
+		nodePair(c, name, tr, got),
 		(&pair{fig: name + "duty_charge", truth: tr.dutyC, tol: 0.02, tolS: "0.02"}).read(got, "duty_charge"),
 		(&pair{fig: name + "duty_hold", truth: tr.dutyH, tol: 0.02, tolS: "0.02"}).read(got, "duty_hold"),
 		(&pair{fig: name + "duty_discharge", truth: tr.dutyD, tol: 0.02, tolS: "0.02"}).read(got, "duty_discharge"),
@@ -1070,6 +1085,16 @@ func segPairs(c *capture, i int, s segSpan, got map[string]any) []*pair {
 			(&pair{fig: name + "shortfall_v", unit: "V", truth: spV - tr.level, tol: tol, tolS: "1 % or 2 LSB"}).read(got, "shortfall_v"))
 	}
 	return out
+}
+
+// nodePair is the node ripple of a segment: it needs the identified plant, which the
+// conventions do not ask for below tau = T.
+func nodePair(c *capture, name string, tr segTruth, got map[string]any) *pair {
+	q := &pair{fig: name + "ripple_node_pp_v", unit: "V", truth: tr.nodePP, tol: math.Max(0.1*tr.nodePP, 2*c.p.lsb()), tolS: "10 % or 2 LSB"}
+	if tauCharge(c.p) < c.p.period {
+		q.need, q.why = may, "tau < T: no plant to drive"
+	}
+	return q.read(got, "ripple_node_pp_v")
 }
 
 // drivePairs counts the samples under drive u that the level, not the noise, chose: off
@@ -1105,6 +1130,20 @@ func (c *capture) unclipped() int {
 		}
 	}
 	return n
+}
+
+// meanStep is the mean change of the noise-free level, in counts, over the samples of
+// drive u in the last half of segment s.
+func (c *capture) meanStep(s segSpan, u loop.Drive) float64 {
+	var sum float64
+	n := 0
+	for i := s.from + (s.to-s.from)/2; i+1 < s.to; i++ {
+		if c.recs[i].u == u {
+			sum += math.Abs(c.recs[i+1].sense-c.recs[i].sense) / c.p.lsb()
+			n++
+		}
+	}
+	return sum / float64(max(n, 1))
 }
 
 // holdShare is the share of hold samples over the segments' last halves.

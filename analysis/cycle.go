@@ -181,15 +181,37 @@ func (s *segState) nodeRipple() (float64, string) {
 	}
 	pf := &s.pf
 	var a, b [3]float64
-	freeHold := false
+	var seen [3]bool
+	for k := 0; k < m-1; k++ {
+		seen[s.ringAt(k, m).u+1] = true
+	}
 	for d := 0; d < 3; d++ {
-		switch {
-		case pf.ok[d] && pf.fit[d].A > 0 && pf.fit[d].A < 1:
+		if pf.ok[d] && pf.fit[d].A > 0 && pf.fit[d].A < 1 {
 			a[d], b[d] = pf.fit[d].A, pf.fit[d].B
-		case d == 1:
-			a[d], freeHold = 1, true
-		default:
+		} else {
 			a[d] = math.NaN()
+		}
+	}
+	// At most one drive's constant term is left free and fitted with V0: the hold's
+	// when its droop is not identified (then a_hold = 1, a constant h per sample), or
+	// else a charge or discharge without a fit of its own, which borrows the other's
+	// time constant (the same pin and resistor in the usual circuits: the two-state
+	// pin, or a pin that floats to hold).
+	free := -1
+	if seen[1] && math.IsNaN(a[1]) {
+		a[1], b[1], free = 1, 0, 1
+	}
+	for _, d := range []int{0, 2} {
+		o := 2 - d
+		if !seen[d] || !math.IsNaN(a[d]) || math.IsNaN(a[o]) {
+			continue
+		}
+		switch {
+		case free < 0:
+			a[d], b[d], free = a[o], 0, d
+		case d == 0:
+			// The free term is taken: a discharge heads for ground (b = 0).
+			a[d], b[d] = a[o], 0
 		}
 	}
 	// Pass 1: the normal equations of (V0, h).
@@ -213,21 +235,21 @@ func (s *segState) nodeRipple() (float64, string) {
 				return math.NaN(), fmt.Sprintf("no %s fit to drive the plant with", driveName(r.u))
 			}
 			phi, c, g = a[d]*phi, a[d]*c+b[d], a[d]*g
-			if d == 1 && freeHold {
+			if int(d) == free {
 				g++
 			}
 		}
 	}
 	var v0, h float64
-	if det := spp*sgg - spg*spg; freeHold && sgg > 0 && det > 1e-12*spp*sgg {
+	if det := spp*sgg - spg*spg; free >= 0 && sgg > 0 && det > 1e-12*spp*sgg {
 		v0, h = (spy*sgg-sgy*spg)/det, (spp*sgy-spg*spy)/det
 	} else if spp > 1e-9 {
 		v0 = spy / spp
 	} else {
 		return math.NaN(), "the plant forgets its start too fast to place it"
 	}
-	if freeHold {
-		b[1] = h
+	if free >= 0 {
+		b[free] = h
 	}
 	if skip < 0 || skip > m/2 {
 		skip = 0
