@@ -890,6 +890,19 @@ func compare(c *capture, doc map[string]any) []*pair {
 		kind.want = []string{"none"}
 		load.need, load.why, load.truth = isNull, "no load", math.NaN()
 	}
+	// Without a hold droop, and with the top of the range within the supply's
+	// tolerance (or no plant below tau = T), a small load and none look the same
+	// (issue 11: "not identifiable (supply-limited)"): the kind may be null then, with
+	// its reason.
+	smallDrop := !p.buffer && (p.load == 0 || p.r/(p.r+p.load) <= 0.05)
+	if (smallDrop && !holdDroop) || tau < p.period {
+		if k, ok := plant["kind"]; ok && k == nil {
+			if r, _ := plant["kind_reason"].(string); r != "" {
+				kind.gotS = "null: " + r
+				kind.want = append(kind.want, kind.gotS)
+			}
+		}
+	}
 	add(kind)
 	add(load.read(plant, "load_ohm"))
 	add(drop.read(plant, "sense_drop_v"))

@@ -32,6 +32,8 @@ func (s *segState) limitCycle() (samples, ticks float64, why string) {
 	switch {
 	case s.switches == 0:
 		return nan, nan, "the drive never switched in the steady part: the loop rests"
+	case s.rests():
+		return nan, nan, "the drive did not cycle in the steady part (at most one onset of each drive): the loop rests"
 	case s.onsets >= 2:
 		ticks = (s.lastOn - s.firstOn) / float64(s.onsets-1)
 	case s.onsets == 0 && s.dOnsets >= 2:
@@ -40,6 +42,15 @@ func (s *segState) limitCycle() (samples, ticks float64, why string) {
 		return nan, nan, "fewer than two charge onsets in the steady part"
 	}
 	return ticks / s.ticksPerSample(), ticks, ""
+}
+
+// rests says the loop does not cycle in the steady part: the drive never switched, or
+// at most once into each drive (the last correction after the band was reached, a
+// reading that noise pushed out of the band once), so there is no interval between
+// onsets to measure; or it has not switched over the last half of the steady part (a
+// few bounces after the reach, then hold for good): the cycle is over.
+func (s *segState) rests() bool {
+	return s.switches == 0 || (s.onsets < 2 && s.dOnsets < 2) || (s.sn >= 32 && 2*s.endRun > s.sn)
 }
 
 // ringAt returns the i-th of the last m steady ring entries, oldest first.
@@ -60,8 +71,8 @@ func (s *segState) pattern() cycPattern {
 		p.why = "too few steady samples"
 		return p
 	}
-	if s.switches == 0 {
-		p.why = "the drive never switched in the steady part: the loop rests"
+	if s.rests() {
+		p.why = "the drive did not cycle in the steady part: the loop rests"
 		return p
 	}
 	for per := 1; per <= m/2; per++ {

@@ -214,7 +214,7 @@ type segFig struct {
 	periodWhy               string  // why periodSamples is NaN
 	driveTicks              float64 // mean interval between charge (else discharge) onsets
 	pattern                 cycPattern
-	rests                   bool    // the drive never switched in the steady part
+	rests                   bool    // the drive did not cycle in the steady part (segState.rests)
 	freq                    float64 // strongest line of the ripple spectrum, cycles per sample
 	switches                int64
 	entries, exits, jumps   int64
@@ -281,7 +281,7 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 			}
 		}
 		f.periodSamples, f.driveTicks, f.periodWhy = s.limitCycle()
-		f.rests = s.switches == 0
+		f.rests = s.rests()
 		buf = s.window(buf)
 		f.freq = ws.analyse(buf)
 		f.pattern = s.pattern()
