@@ -197,7 +197,9 @@ func (s *segState) nodeRipple() (float64, string) {
 		seen[s.ringAt(k, m).u+1] = true
 	}
 	for d := 0; d < 3; d++ {
-		if pf.ok[d] && pf.fit[d].A > 0 && pf.fit[d].A < 1 {
+		// A fit drives the plant when 1 - a is known within 50 % (95 %): a time constant
+		// the data leave unbounded would only make up a waveform.
+		if f := pf.fit[d]; pf.ok[d] && f.A > 0 && f.A < 1 && 1.96*f.SeA <= 0.5*(1-f.A) {
 			a[d], b[d] = pf.fit[d].A, pf.fit[d].B
 		} else {
 			a[d] = math.NaN()

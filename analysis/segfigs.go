@@ -95,6 +95,9 @@ func holdDroop(level float64, pf plantFit, c conv) (*float64, string) {
 		return nil, "no hold droop identified (too few hold samples or no charge/discharge fit)"
 	}
 	f := pf.fit[1]
+	if !(f.A < 1 && 1-f.A > 1.959963984540054*f.SeA) {
+		return nil, "no significant droop in hold"
+	}
 	perSample := (1-f.A)*level - f.B // V[k] - V[k+1]
 	r := ptr(c.v(perSample) / c.period)
 	if r == nil {
