@@ -1034,7 +1034,7 @@ func unreasoned(doc map[string]any) string {
 	var bad []string
 	check := func(where string, o map[string]any) {
 		for k, v := range o {
-			if v != nil || strings.HasSuffix(k, "_reason") || strings.Contains(k, "_ci_") || strings.HasSuffix(k, "_codes") {
+			if v != nil || strings.HasSuffix(k, "_reason") || strings.Contains(k, "_ci_") || strings.HasSuffix(k, "_ci") || strings.HasSuffix(k, "_codes") {
 				continue
 			}
 			if r, _ := o[k+"_reason"].(string); r == "" {
