@@ -190,11 +190,20 @@ func (s *segState) nodeRipple() (float64, string) {
 	if m < 8 {
 		return math.NaN(), "too few steady samples"
 	}
-	pf := &s.pf
+	return nodeRippleOf(m, func(k int) *ringEntry { return s.ringAt(k, m) }, &s.pf)
+}
+
+// noFitWhy ends the reason of a node ripple that lacked a drive's fit: a later plant
+// may have it (see segFig.nodeWin).
+const noFitWhy = " fit to drive the plant with"
+
+// nodeRippleOf is nodeRipple over the m steady entries at(0..m-1), oldest first, with
+// the plant pf.
+func nodeRippleOf(m int, at func(int) *ringEntry, pf *plantFit) (float64, string) {
 	var a, b [3]float64
 	var seen [3]bool
 	for k := 0; k < m-1; k++ {
-		seen[s.ringAt(k, m).u+1] = true
+		seen[at(k).u+1] = true
 	}
 	for d := 0; d < 3; d++ {
 		// A fit drives the plant when 1 - a is known within 50 % (95 %): a time constant
@@ -232,7 +241,7 @@ func (s *segState) nodeRipple() (float64, string) {
 	phi, c, g := 1.0, 0.0, 0.0
 	skip := -1
 	for k := 0; k < m; k++ {
-		r := s.ringAt(k, m)
+		r := at(k)
 		y := r.pv - c
 		spp += phi * phi
 		spg += phi * g
@@ -245,7 +254,7 @@ func (s *segState) nodeRipple() (float64, string) {
 		d := r.u + 1
 		if k < m-1 {
 			if math.IsNaN(a[d]) {
-				return math.NaN(), fmt.Sprintf("no %s fit to drive the plant with", driveName(r.u))
+				return math.NaN(), "no " + driveName(r.u) + noFitWhy
 			}
 			phi, c, g = a[d]*phi, a[d]*c+b[d], a[d]*g
 			if int(d) == free {
@@ -274,7 +283,7 @@ func (s *segState) nodeRipple() (float64, string) {
 		if k >= skip {
 			lo, hi = min(lo, v), max(hi, v)
 		}
-		d := s.ringAt(k, m).u + 1
+		d := at(k).u + 1
 		v = a[d]*v + b[d]
 	}
 	return hi - lo, ""
