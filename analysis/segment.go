@@ -288,19 +288,6 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 		}
 		f.periodSamples, f.driveTicks, f.periodWhy = s.limitCycle()
 		f.rests = s.rests()
-		if f.rests && s.switches > 0 {
-			// A loop that bounced and then rests: its ripple is that of the rest, the
-			// last run of one drive (up to the window kept), not of the bounces.
-			m := int(min(s.sn, int64(len(s.ring))))
-			if k := int(min(s.endRun, int64(m))); k >= 16 {
-				lo, hi := math.Inf(1), math.Inf(-1)
-				for i := m - k; i < m; i++ {
-					pv := s.ringAt(i, m).pv
-					lo, hi = min(lo, pv), max(hi, pv)
-				}
-				f.ppE = hi - lo
-			}
-		}
 		buf = s.window(buf)
 		f.freq = ws.analyse(buf)
 		f.pattern = s.pattern()
