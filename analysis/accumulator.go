@@ -79,6 +79,7 @@ type Accumulator struct {
 	stepA      [3]float64
 	stepV      [3]float64
 	stepOK     [3]bool
+	stepRel    [3]float64 // relative standard error of 1 - stepA
 	bal        balance
 	mem        [2]memo // the previous sample (*p1) and the one before (*p2)
 	p1, p2     *memo

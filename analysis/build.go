@@ -166,10 +166,16 @@ func (a *Accumulator) holdFit(pf plantFit, c float64) (fitResult, bool) {
 		if b.n[d] == 0 {
 			continue
 		}
-		if !pf.ok[d] || math.IsNaN(pf.fit[d].VInf) {
-			return fitResult{}, false
-		}
 		f := pf.fit[d]
+		if !pf.ok[d] || math.IsNaN(f.VInf) {
+			// A discharge without a fit of its own (a droop-and-recharge loop rarely
+			// discharges far from the band) borrows the charge's time constant (the
+			// same pin and resistor) and heads for the hold asymptote c.
+			if d != 0 || !pf.ok[2] || math.IsNaN(pf.fit[2].VInf) {
+				return fitResult{}, false
+			}
+			f = fitResult{A: pf.fit[2].A, SeA: pf.fit[2].SeA, VInf: c, SeVInf: 1}
+		}
 		// (a-1) S + b N = (1-a) (N VInf - S)
 		term := (1 - f.A) * (b.n[d]*f.VInf - b.s[d])
 		num += term

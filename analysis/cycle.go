@@ -32,6 +32,8 @@ func (s *segState) limitCycle() (samples, ticks float64, why string) {
 	switch {
 	case s.switches == 0:
 		return nan, nan, "the drive never switched in the steady part: the loop rests"
+	case s.rests():
+		return nan, nan, "the drive did not cycle in the steady part (at most one onset of each drive): the loop rests"
 	case s.onsets >= 2:
 		ticks = (s.lastOn - s.firstOn) / float64(s.onsets-1)
 	case s.onsets == 0 && s.dOnsets >= 2:
@@ -40,6 +42,15 @@ func (s *segState) limitCycle() (samples, ticks float64, why string) {
 		return nan, nan, "fewer than two charge onsets in the steady part"
 	}
 	return ticks / s.ticksPerSample(), ticks, ""
+}
+
+// rests says the loop does not cycle in the steady part: the drive never switched, or
+// at most once into each drive (the last correction after the band was reached, a
+// reading that noise pushed out of the band once), so there is no interval between
+// onsets to measure; or it has not switched over the last half of the steady part (a
+// few bounces after the reach, then hold for good): the cycle is over.
+func (s *segState) rests() bool {
+	return s.switches == 0 || (s.onsets < 2 && s.dOnsets < 2) || (s.sn >= 32 && 2*s.endRun > s.sn)
 }
 
 // ringAt returns the i-th of the last m steady ring entries, oldest first.
@@ -60,8 +71,8 @@ func (s *segState) pattern() cycPattern {
 		p.why = "too few steady samples"
 		return p
 	}
-	if s.switches == 0 {
-		p.why = "the drive never switched in the steady part: the loop rests"
+	if s.rests() {
+		p.why = "the drive did not cycle in the steady part: the loop rests"
 		return p
 	}
 	for per := 1; per <= m/2; per++ {
@@ -179,17 +190,50 @@ func (s *segState) nodeRipple() (float64, string) {
 	if m < 8 {
 		return math.NaN(), "too few steady samples"
 	}
-	pf := &s.pf
+	return nodeRippleOf(m, func(k int) *ringEntry { return s.ringAt(k, m) }, &s.pf)
+}
+
+// noFitWhy ends the reason of a node ripple that lacked a drive's fit: a later plant
+// may have it (see segFig.nodeWin).
+const noFitWhy = " fit to drive the plant with"
+
+// nodeRippleOf is nodeRipple over the m steady entries at(0..m-1), oldest first, with
+// the plant pf.
+func nodeRippleOf(m int, at func(int) *ringEntry, pf *plantFit) (float64, string) {
 	var a, b [3]float64
-	freeHold := false
+	var seen [3]bool
+	for k := 0; k < m-1; k++ {
+		seen[at(k).u+1] = true
+	}
 	for d := 0; d < 3; d++ {
-		switch {
-		case pf.ok[d] && pf.fit[d].A > 0 && pf.fit[d].A < 1:
+		// A fit drives the plant when 1 - a is known within 50 % (95 %): a time constant
+		// the data leave unbounded would only make up a waveform.
+		if f := pf.fit[d]; pf.ok[d] && f.A > 0 && f.A < 1 && 1.96*f.SeA <= 0.5*(1-f.A) {
 			a[d], b[d] = pf.fit[d].A, pf.fit[d].B
-		case d == 1:
-			a[d], freeHold = 1, true
-		default:
+		} else {
 			a[d] = math.NaN()
+		}
+	}
+	// At most one drive's constant term is left free and fitted with V0: the hold's
+	// when its droop is not identified (then a_hold = 1, a constant h per sample), or
+	// else a charge or discharge without a fit of its own, which borrows the other's
+	// time constant (the same pin and resistor in the usual circuits: the two-state
+	// pin, or a pin that floats to hold).
+	free := -1
+	if seen[1] && math.IsNaN(a[1]) {
+		a[1], b[1], free = 1, 0, 1
+	}
+	for _, d := range []int{0, 2} {
+		o := 2 - d
+		if !seen[d] || !math.IsNaN(a[d]) || math.IsNaN(a[o]) {
+			continue
+		}
+		switch {
+		case free < 0:
+			a[d], b[d], free = a[o], 0, d
+		case d == 0:
+			// The free term is taken: a discharge heads for ground (b = 0).
+			a[d], b[d] = a[o], 0
 		}
 	}
 	// Pass 1: the normal equations of (V0, h).
@@ -197,7 +241,7 @@ func (s *segState) nodeRipple() (float64, string) {
 	phi, c, g := 1.0, 0.0, 0.0
 	skip := -1
 	for k := 0; k < m; k++ {
-		r := s.ringAt(k, m)
+		r := at(k)
 		y := r.pv - c
 		spp += phi * phi
 		spg += phi * g
@@ -210,24 +254,24 @@ func (s *segState) nodeRipple() (float64, string) {
 		d := r.u + 1
 		if k < m-1 {
 			if math.IsNaN(a[d]) {
-				return math.NaN(), fmt.Sprintf("no %s fit to drive the plant with", driveName(r.u))
+				return math.NaN(), "no " + driveName(r.u) + noFitWhy
 			}
 			phi, c, g = a[d]*phi, a[d]*c+b[d], a[d]*g
-			if d == 1 && freeHold {
+			if int(d) == free {
 				g++
 			}
 		}
 	}
 	var v0, h float64
-	if det := spp*sgg - spg*spg; freeHold && sgg > 0 && det > 1e-12*spp*sgg {
+	if det := spp*sgg - spg*spg; free >= 0 && sgg > 0 && det > 1e-12*spp*sgg {
 		v0, h = (spy*sgg-sgy*spg)/det, (spp*sgy-spg*spy)/det
 	} else if spp > 1e-9 {
 		v0 = spy / spp
 	} else {
 		return math.NaN(), "the plant forgets its start too fast to place it"
 	}
-	if freeHold {
-		b[1] = h
+	if free >= 0 {
+		b[free] = h
 	}
 	if skip < 0 || skip > m/2 {
 		skip = 0
@@ -239,7 +283,7 @@ func (s *segState) nodeRipple() (float64, string) {
 		if k >= skip {
 			lo, hi = min(lo, v), max(hi, v)
 		}
-		d := s.ringAt(k, m).u + 1
+		d := at(k).u + 1
 		v = a[d]*v + b[d]
 	}
 	return hi - lo, ""

@@ -231,10 +231,18 @@ func (a *Accumulator) glitch(pv float64, line int64, contiguous bool) bool {
 		st.good, st.goodK, st.run = pv, 0, 0
 		return false
 	}
-	// The identified step is known within about 10 % (as in reach), the reading within
-	// 6 sigma of noise and a count of quantisation.
+	// The identified step is known within 10 % or 3 standard errors of its fit,
+	// whichever is larger; the reading within 6 sigma of noise and a count of
+	// quantisation.
 	slack := 6*math.Sqrt(a.noiseEMA/6) + 1
-	if pv > v+1.1*up+slack || pv < v-1.1*down-slack {
+	fUp, fDn := 1+max(0.1, 3*a.stepRel[2]), 1+max(0.1, 3*a.stepRel[0])
+	if !a.stepOK[2] {
+		fUp = fDn
+	}
+	if !a.stepOK[0] {
+		fDn = fUp
+	}
+	if pv > v+fUp*up+slack || pv < v-fDn*down-slack {
 		st.run++
 		st.goodK = k
 		st.glitches.add(line)
@@ -257,7 +265,10 @@ func (a *Accumulator) plantReach(v float64, k int) (up, down float64) {
 		aUp, vUp = aDn, math.Max(float64(a.maxCode), v)
 	}
 	if !okDn {
-		aDn, vDn = aUp, math.Min(0, v)
+		// No discharge fit: the charge's time constant, heading below ground by up to
+		// a quarter of full scale (a follower's drop: the sense point then falls
+		// towards -V_BE, not 0).
+		aDn, vDn = aUp, math.Min(0, v)-0.25*float64(a.maxCode)
 	}
 	if aUp <= limit || aDn <= limit {
 		return math.NaN(), math.NaN()

@@ -37,6 +37,7 @@ func (a *Accumulator) refreshGuard() {
 		}
 		if f, ok := a.fits[d].free(); ok && f.A > 0 && f.A < 1 && !math.IsNaN(f.VInf) && f.SeA < 0.2*(1-f.A) {
 			a.stepA[d], a.stepV[d], a.stepOK[d] = f.A, f.VInf, true
+			a.stepRel[d] = f.SeA / (1 - f.A)
 		}
 	}
 }

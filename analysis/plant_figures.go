@@ -123,6 +123,12 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 	if volts {
 		lsbV = c.lsb
 	}
+	if vHigh.known() && !math.IsNaN(supplyCounts) && vHigh.v > supplyCounts+2 && vHigh.lo <= supplyCounts+2 {
+		// Above the supply, but its interval reaches back below it: the estimate
+		// constrained to the physical range is the supply itself (the top of the range
+		// then says nothing beyond the supply: no load, no drop).
+		vHigh = interval{v: supplyCounts, lo: vHigh.lo, hi: supplyCounts + 2}
+	}
 	if vHigh.known() {
 		ok, why := scaleOK(vHigh)
 		switch {

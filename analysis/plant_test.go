@@ -372,7 +372,7 @@ func TestMetaChangeEvent(t *testing.T) {
 // TestCaptureCommandEvent checks a line the host sent to the board, in a capture.
 func TestCaptureCommandEvent(t *testing.T) {
 	t.Parallel()
-	in := telemetry.CaptureMagic + " v=1\n" +
+	in := telemetry.CaptureMagic + " v1\n" +
 		"0.000000 < # vref=5 adc_bits=10 period_us=1000 mode=three-state deadband=6\n" +
 		"0.001000 < t=1000 sp=500 pv=480 u=1\n" +
 		"0.002000 < t=2000 sp=500 pv=490 u=1\n" +

@@ -62,9 +62,13 @@ func (a *Accumulator) segment(f *segFig, pf plantFit, c conv) Segment {
 	}
 	if f.sn > 0 {
 		s.Rests = f.rests
-		s.RippleNodePPCounts, s.RippleNodePPV = ptr(f.nodePP), ptr(c.v(f.nodePP))
+		nodePP, nodeWhy := f.nodePP, f.nodeWhy
+		if w := f.nodeWin; len(w) > 0 {
+			nodePP, nodeWhy = nodeRippleOf(len(w), func(k int) *ringEntry { return &w[k] }, &pf)
+		}
+		s.RippleNodePPCounts, s.RippleNodePPV = ptr(nodePP), ptr(c.v(nodePP))
 		if s.RippleNodePPCounts == nil {
-			s.RippleNodePPVReason = f.nodeWhy
+			s.RippleNodePPVReason = nodeWhy
 		}
 		if f.rests {
 			s.HoldDroopVPerS, s.HoldDroopVPerSReason = holdDroop(f.sp+f.meanE, pf, c)
@@ -95,6 +99,9 @@ func holdDroop(level float64, pf plantFit, c conv) (*float64, string) {
 		return nil, "no hold droop identified (too few hold samples or no charge/discharge fit)"
 	}
 	f := pf.fit[1]
+	if !(f.A < 1 && 1-f.A > 1.959963984540054*f.SeA) {
+		return nil, "no significant droop in hold"
+	}
 	perSample := (1-f.A)*level - f.B // V[k] - V[k+1]
 	r := ptr(c.v(perSample) / c.period)
 	if r == nil {

@@ -2,6 +2,7 @@ package analysis
 
 import (
 	"math"
+	"strings"
 
 	"github.com/caploop/caploop/telemetry"
 )
@@ -88,6 +89,10 @@ const blockMin = 64
 const tailLen = 64
 
 // ringEntry is one steady reading kept in the ring: counts, tick and drive.
+// maxNodeRetries bounds the segments whose steady window is kept to work out the node
+// ripple again with the summary's plant (512 entries of 24 bytes each).
+const maxNodeRetries = 64
+
 type ringEntry struct {
 	pv, t float64
 	u     int8
@@ -214,7 +219,7 @@ type segFig struct {
 	periodWhy               string  // why periodSamples is NaN
 	driveTicks              float64 // mean interval between charge (else discharge) onsets
 	pattern                 cycPattern
-	rests                   bool    // the drive never switched in the steady part
+	rests                   bool    // the drive did not cycle in the steady part (segState.rests)
 	freq                    float64 // strongest line of the ripple spectrum, cycles per sample
 	switches                int64
 	entries, exits, jumps   int64
@@ -226,6 +231,7 @@ type segFig struct {
 	tps                     float64 // ticks per sample
 	nodePP                  float64 // noise-free node p-p from the plant and the drives
 	nodeWhy                 string
+	nodeWin                 []ringEntry // the steady window, kept when nodePP lacked a fit
 	// outside[i] is the last sample number (1-based) whose error was beyond
 	// outside[i].k counts (rounded); k rises, last falls. For the settling time.
 	outside []outBreak
@@ -281,11 +287,20 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 			}
 		}
 		f.periodSamples, f.driveTicks, f.periodWhy = s.limitCycle()
-		f.rests = s.switches == 0
+		f.rests = s.rests()
 		buf = s.window(buf)
 		f.freq = ws.analyse(buf)
 		f.pattern = s.pattern()
 		f.nodePP, f.nodeWhy = s.nodeRipple()
+		if math.IsNaN(f.nodePP) && strings.HasSuffix(f.nodeWhy, noFitWhy) && s.index < maxNodeRetries {
+			// The plant at this segment's end lacked a drive: keep the window, the
+			// summary's plant may have it (a later setpoint step gives the runs).
+			m := int(min(s.sn, int64(len(s.ring))))
+			f.nodeWin = make([]ringEntry, m)
+			for k := range f.nodeWin {
+				f.nodeWin[k] = *s.ringAt(k, m)
+			}
+		}
 	}
 	f.tps = s.ticksPerSample()
 	f.level = s.level()

@@ -72,17 +72,17 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 		}
 	}()
 	b := <-free
-	var comments, lastLine int64 // comment lines seen at the last meta line; line of the last sample
+	var feed recordFeed
 	for sc.Scan() {
 		switch sc.Kind() {
 		case telemetry.RecSample:
-			// Field by field (see Scanner.SampleRef), into the batch in place.
+			// Field by field (see Scanner.CurrentSample), into the batch in place.
 			n := len(b.samples)
 			b.samples = b.samples[:n+1]
 			d, p := &b.samples[n], sc.CurrentSample()
 			d.Line, d.Index, d.T, d.N, d.Host = p.Line, p.Index, p.T, p.N, p.Host
 			d.SP, d.PV, d.U, d.Flags = p.SP, p.PV, p.U, p.Flags
-			lastLine = p.Line
+			feed.lastLine = p.Line
 			if len(b.samples) == batchLen {
 				full <- b
 				b = <-free
@@ -92,10 +92,9 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 			// Comment lines between the last sample and this meta line (the scanner
 			// skips them, its counts show them) may open a restart banner.
 			st := sc.Stats()
-			if st.Comments > comments && lastLine > 0 && st.Lines-lastLine > 1 {
-				b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecNone, line: st.Lines - 1})
+			if line, ok := feed.banner(st); ok {
+				b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecNone, line: line})
 			}
-			comments = st.Comments
 			b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecMeta, m: sc.Meta(), line: st.Lines})
 		case telemetry.RecEvent:
 			b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecEvent, ev: sc.Event()})

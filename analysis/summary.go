@@ -206,9 +206,9 @@ type Segment struct {
 	PatternPeriodSamples *float64 `json:"pattern_period_samples"`
 	PatternOnsets        *int     `json:"pattern_onsets"`
 	PatternPeriodSReason string   `json:"pattern_period_s_reason,omitempty"`
-	// Rests says the drive never switched in the steady part: no limit cycle; the
-	// level then moves only by the hold droop, HoldDroopVPerS (positive when the level
-	// falls), at the segment's mean level.
+	// Rests says the drive did not cycle in the steady part (it never switched, or at
+	// most once into each drive): no limit cycle; the level then moves only by the hold
+	// droop, HoldDroopVPerS (positive when the level falls), at the segment's mean level.
 	Rests                bool     `json:"rests"`
 	HoldDroopVPerS       *float64 `json:"hold_droop_v_per_s"`
 	HoldDroopVPerSReason string   `json:"hold_droop_v_per_s_reason,omitempty"`

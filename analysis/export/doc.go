@@ -20,8 +20,10 @@
 //	sp_counts, sp_v  setpoint in ADC counts and in volts
 //	pv_counts, pv_v  measurement in ADC counts and in volts
 //	drive            1 charge, 0 hold, -1 discharge (empty when the line had no u)
-//	segment          segment index, 0-based: a new one at every setpoint change and every
-//	                 change of the deadband in force, numbered as in `caploop summary`
+//	segment          segment index, 0-based, numbered as in `caploop summary` (by the
+//	                 summary's own rule, analysis.SegmentRule): a new one at every setpoint
+//	                 change, change of the deadband in force, reset, gap, unplug, meta
+//	                 change and line sent to the board
 //	deadband_counts, deadband_v
 //	                 the deadband half-width in force (0 for a two-state loop; empty
 //	                 when the meta lines have not said)

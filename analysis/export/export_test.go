@@ -232,13 +232,18 @@ func checkRoundTrip(t *testing.T, path string, tsv bool) {
 		if got := row[col["deadband_counts"]]; !dbKnown && got != "" || dbKnown && num(t, got, "deadband_counts", i) != db {
 			t.Fatalf("row %d: deadband_counts %q, want %v (known %v)", i, got, db, dbKnown)
 		}
-		if i == 0 || s.SP != segSP || db != segDB {
-			seg++
-			segSP, segDB = s.SP, db
+		// A new segment at least at every change of setpoint or deadband, one at a
+		// time; the events that also split one are the summary's (TestAgreesWithSummary).
+		got := num(t, row[col["segment"]], "segment", i)
+		switch {
+		case i == 0 && got != 0:
+			t.Fatalf("row 0: segment %v, want 0", got)
+		case i > 0 && (s.SP != segSP || db != segDB) && got != seg+1:
+			t.Fatalf("row %d: segment %v after a new setpoint or deadband, want %v", i, got, seg+1)
+		case i > 0 && got != seg && got != seg+1:
+			t.Fatalf("row %d: segment %v after %v", i, got, seg)
 		}
-		if got := num(t, row[col["segment"]], "segment", i); got != seg {
-			t.Fatalf("row %d: segment %v, want %v", i, got, seg)
-		}
+		seg, segSP, segDB = got, s.SP, db
 		// Board time: 0 at the first sample, never going back, and between two samples
 		// with t it moves by exactly their interval when that is not a reset.
 		tm := num(t, row[col["board_time_s"]], "board_time_s", i)
@@ -365,7 +370,7 @@ func TestNumericTable(t *testing.T) {
 
 // TestResetAndWrap: a 2^32 wrap of t continues the axis; a reset (t goes back) starts a
 // new origin one median period after the last sample, as the summary's clock does; a new
-// deadband on the same setpoint opens a segment.
+// deadband on the same setpoint opens a segment, and so does the reset.
 func TestResetAndWrap(t *testing.T) {
 	in := strings.Join([]string{
 		"# vref=5 adc_bits=10 mode=three-state deadband=3",
@@ -382,7 +387,7 @@ func TestResetAndWrap(t *testing.T) {
 	out, _ := exportString(t, in, export.Options{})
 	_, rows := readTable(t, out, false)
 	wantT := []string{"0.000000", "0.000704", "0.001296", "0.002296", "0.003296", "0.004296", "0.005296"}
-	wantSeg := []string{"0", "0", "0", "0", "1", "1", "1"}
+	wantSeg := []string{"0", "0", "0", "0", "1", "2", "2"} // the reset opens one too
 	for i := range wantT {
 		if rows[i][0] != wantT[i] || rows[i][6] != wantSeg[i] {
 			t.Errorf("row %d: time %q segment %q, want %q and %q", i, rows[i][0], rows[i][6], wantT[i], wantSeg[i])

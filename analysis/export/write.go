@@ -8,6 +8,7 @@ import (
 	"slices"
 	"strconv"
 
+	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/telemetry"
 )
 
@@ -55,8 +56,10 @@ func Write(w io.Writer, sc *telemetry.Scanner, l *Layout, opts Options) (Result,
 	}
 
 	r := newRowMaker(l, sep)
+	rule := analysis.NewSegmentRule()
 	buf := make([]byte, 0, flushAt+4096)
 	for sc.Scan() {
+		seg := rule.Record(sc)
 		switch sc.Kind() {
 		case telemetry.RecMeta:
 			r.setMeta(sc.Meta())
@@ -65,7 +68,7 @@ func Write(w io.Writer, sc *telemetry.Scanner, l *Layout, opts Options) (Result,
 				res.Beyond++
 				continue
 			}
-			buf = r.appendRow(buf, sc.CurrentSample(), sc.Extras())
+			buf = r.appendRow(buf, sc.CurrentSample(), sc.Extras(), seg)
 			buf = append(buf, eol...)
 			res.Rows++
 			if len(buf) >= flushAt {
@@ -113,11 +116,8 @@ type rowMaker struct {
 	lsb       float64 // V per count, NaN when unknown
 	vdec      int
 	vscale    float64
-	db        float64 // deadband in force for segmenting (0 when none)
+	db        float64 // deadband in force (0 when none)
 	dbCells   []byte  // the two deadband cells, formatted, without separators around
-	seg       int64
-	segSP     float64
-	segDB     float64
 	extraIdx  map[string]int
 	lastNames []string // names of the previous row's extras, and their slots
 	lastSlots []int
@@ -127,7 +127,7 @@ type rowMaker struct {
 }
 
 func newRowMaker(l *Layout, sep byte) *rowMaker {
-	r := &rowMaker{l: l, sep: sep, seg: -1, hostDec: 6}
+	r := &rowMaker{l: l, sep: sep, hostDec: 6}
 	if l.hostNS {
 		r.hostDec = 9
 	}
@@ -223,7 +223,7 @@ func (r *rowMaker) tick(s *telemetry.Sample) int64 {
 }
 
 // appendRow appends the cells of one sample (without the line end).
-func (r *rowMaker) appendRow(b []byte, s *telemetry.Sample, ex []telemetry.Extra) []byte {
+func (r *rowMaker) appendRow(b []byte, s *telemetry.Sample, ex []telemetry.Extra, seg int64) []byte {
 	sep := r.sep
 	tk := r.tick(s)
 	switch {
@@ -272,12 +272,8 @@ func (r *rowMaker) appendRow(b []byte, s *telemetry.Sample, ex []telemetry.Extra
 			b = append(b, '0')
 		}
 	}
-	if r.seg < 0 || s.SP != r.segSP || r.db != r.segDB {
-		r.seg++
-		r.segSP, r.segDB = s.SP, r.db
-	}
 	b = append(b, sep)
-	b = appendInt(b, r.seg)
+	b = appendInt(b, seg)
 	b = append(b, sep)
 	b = append(b, r.dbCells...)
 	if len(r.vals) > 0 {

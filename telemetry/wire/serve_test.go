@@ -8,6 +8,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"strings"
@@ -171,18 +172,48 @@ func TestServeUnplugReplug(t *testing.T) {
 	sc.Faults.UnplugAfter = 0.3
 	sc.Faults.ReplugAfter = 0.4
 	sc.Faults.BootTime = 0.3 // time to reopen the port before the banner
-	path, _ := serveBoardOpt(t, sc, 1, true)
+	path, b := serveBoardOpt(t, sc, 1, true)
 	_, lines := portLines(t, path)
-	got := 0
+	// Counted by the board's own time and sequence number, not by the wall clock: the
+	// complete data lines read are n = 0, 1, 2, ... with none missing, duplicated or out
+	// of order, and none stamped after the unplug; the unplug may drop the last few
+	// still on their way (how many depends on how far the reader lagged), as a real
+	// one does.
+	got, lastT := 0, -1
 	for l := range lines { // ends when the port reports the unplug
-		if strings.HasPrefix(l, "t=") {
-			got++
+		if !strings.HasPrefix(l, "t=") {
+			continue
+		}
+		d, ok := boardLine(l)
+		if !ok {
+			continue // the line the unplug cut short
+		}
+		if d.n != got {
+			t.Fatalf("data line %d read has n=%d: a line lost or repeated before the unplug", got, d.n)
+		}
+		got++
+		lastT = d.t
+	}
+	const periodUS = 1000
+	unplugUS := int(math.Round(sc.Faults.UnplugAfter * 1e6))
+	if lastT > unplugUS {
+		t.Errorf("read a line of board time %d µs, after the unplug at %d µs", lastT, unplugUS)
+	}
+	// The board unplugged itself at the scenario's board time, having written one line
+	// per period since boot (the lines Serve saw written: its own count).
+	var at float64 = -1
+	for _, e := range b.Events() {
+		if e.Kind == virtual.EvUnplug {
+			at = e.At
+			break
 		}
 	}
-	// 300 lines in 0.3 s from boot, plus the cut one; the unplug may drop the last few
-	// still on their way, as a real one does.
-	if got < 250 || got > 301 {
-		t.Errorf("read %d data lines before the unplug, want 250 to 301", got)
+	if math.Abs(at-sc.Faults.UnplugAfter) > 1.5*periodUS*1e-6 { // within one period
+		t.Errorf("the board unplugged at %v s of board time, want %v s", at, sc.Faults.UnplugAfter)
+	}
+	// At least half of those lines reached the reader (the rest were in flight).
+	if got < unplugUS/periodUS/2 {
+		t.Errorf("read %d data lines before the unplug of %d written", got, unplugUS/periodUS)
 	}
 	if _, err := os.Lstat(path); !errors.Is(err, os.ErrNotExist) {
 		t.Errorf("path still there while unplugged: %v", err)
