@@ -38,7 +38,7 @@ appear on the plot.`,
 			if err != nil {
 				return withCode(2, err)
 			}
-			p, err := live.NewReplay(live.ReplayOptions{Path: args[0], Speed: sp, Paused: paused})
+			p, err := live.NewReplay(live.ReplayOptions{Path: args[0], Speed: sp, Paused: paused, Open: replayOpener(args[0])})
 			if err != nil {
 				return withCode(2, fmt.Errorf("replay: %w", err))
 			}

@@ -123,6 +123,7 @@ type Link struct {
 	recFile  *os.File
 	recDirty bool
 	recErr   error
+	stuck    bool // the port did not stop within closeWait (set by Close)
 }
 
 // Dial starts a Link on cfg.Path and returns at once; the port is opened (and reopened) by
@@ -221,31 +222,53 @@ func (l *Link) Send(cmd string) error {
 	return nil
 }
 
+// closeWait bounds how long Close waits for the reader to stop before it flushes the
+// capture anyway: a stuck device may never return from a read or a write.
+const closeWait = 300 * time.Millisecond
+
 // Close stops the Link: it closes the port, flushes, syncs and (for RecordPath) closes the
 // recording, and closes Batches. Lines not yet taken from Batches are discarded. It returns
-// the first recording error. Closing twice is harmless.
+// the first recording error. A port whose read or write does not return within closeWait
+// of the close is left behind: the capture is flushed and closed all the same, lines the
+// reader might still see are not recorded, and Close returns ErrStuck (wrapped) unless a
+// recording error came first. Closing twice is harmless.
 func (l *Link) Close() error {
 	l.closeOnce.Do(func() {
 		close(l.done)
-		l.portMu.Lock()
-		if l.port != nil {
-			l.port.Close()
+		stopped := make(chan struct{})
+		go func() {
+			l.portMu.Lock()
+			if l.port != nil {
+				l.port.Close()
+			}
+			l.portMu.Unlock()
+			<-l.readerDone
+			<-l.dispDone
+			<-l.flushDone
+			close(stopped)
+		}()
+		t := time.NewTimer(closeWait)
+		defer t.Stop()
+		select {
+		case <-stopped:
+		case <-t.C:
+			l.stuck = true
 		}
-		l.portMu.Unlock()
-		<-l.readerDone
-		<-l.dispDone
-		<-l.flushDone
 		l.flushRecord()
+		l.recMu.Lock()
 		if l.recFile != nil {
-			l.recMu.Lock()
 			if err := l.recFile.Close(); err != nil && l.recErr == nil {
 				l.recErr = fmt.Errorf("telemetry: close %s: %w", l.opt.RecordPath, err)
 			}
-			l.recMu.Unlock()
 		}
+		l.rec = nil // a stuck reader that wakes up later records nothing
+		l.recMu.Unlock()
 	})
 	l.recMu.Lock()
 	defer l.recMu.Unlock()
+	if l.recErr == nil && l.stuck {
+		return &SerialError{Path: l.cfg.Path, Op: "close", Kind: ErrStuck}
+	}
 	return l.recErr
 }
 

@@ -55,11 +55,16 @@ func NewPort(o PortOptions) *Pipeline {
 	p := newPipeline(name, o.Retain, o.adviser())
 	p.canSend = true
 	p.sendFn = link.Send
+	marks := &markLog{start: link.Start()}
 	p.markFn = func(note string) error {
+		marks.add(note)
 		link.Annotate("mark " + note)
 		return nil
 	}
 	p.closeFn = link.Close
+	p.notesFn = func() []string {
+		return recordNotes(o.Record, link.Stats().Lines, marks.list(), link.Err())
+	}
 	c := newEngine(p, o.analyzer(name))
 	c.stats.State = "opening"
 	var parser telemetry.Parser
