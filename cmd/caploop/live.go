@@ -49,6 +49,9 @@ their USB ids and asks which one (on a terminal). The screen reconnects by itsel
   caploop live /dev/ttyUSB0 --baud 57600 --parity even --window 500ms`,
 		Args: cobra.MaximumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			if err := checkWindow("live", f.span); err != nil {
+				return err
+			}
 			port := ""
 			if len(args) == 1 {
 				port = args[0]

@@ -34,6 +34,9 @@ appear on the plot.`,
   caploop replay log.txt --speed max --paused`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			if err := checkWindow("replay", span); err != nil {
+				return err
+			}
 			sp, err := parseSpeed(speed)
 			if err != nil {
 				return withCode(2, err)

@@ -83,6 +83,8 @@ func NewPort(o PortOptions) *Pipeline {
 			st.Recording = "FAILED " + telemetry.SanitizeN([]byte(err.Error()), 60)
 		}
 	}
+	c.silence = &silence{cfg: link.Config()}
+	c.linkLines = func() int64 { return link.Stats().Lines }
 	go p.runLive(link, &parser, c)
 	return p
 }
@@ -107,6 +109,12 @@ func (p *Pipeline) runLive(link *wire.Link, parser *telemetry.Parser, c *engine)
 				m := parser.Meta()
 				if !m.Has(telemetry.FieldVref) || !m.Has(telemetry.FieldADCBits) {
 					link.Send("info")
+				}
+			}
+			if st, changed := c.silence.check(time.Now(), c.stats.State, c.samples, c.lineCount()); changed {
+				c.stats.State = st
+				if st != "connected" {
+					c.event(EventInfo, st)
 				}
 			}
 			c.flush(false)
@@ -147,6 +155,9 @@ func (c *engine) line(parser *telemetry.Parser, ln wire.Line, start time.Time) {
 			parser.ResetClock()
 			c.connectedAt, c.asked, c.haveN = time.Now(), false, false
 			c.stats.State = "connected"
+			if c.silence != nil {
+				c.silence.connected(c.connectedAt, c.samples, c.lineCount())
+			}
 			c.event(EventState, kind)
 		case wire.EventUnplugged:
 			c.stats.State = "UNPLUGGED, waiting for the board"
