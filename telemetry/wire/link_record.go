@@ -105,4 +105,3 @@ func (l *Link) flusher() {
 		}
 	}
 }
-
