@@ -14,7 +14,6 @@ import (
 	"github.com/spf13/cobra"
 	"golang.org/x/term"
 
-	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/si"
 	"github.com/caploop/caploop/telemetry/wire"
 	"github.com/caploop/caploop/tui/live"
@@ -27,7 +26,7 @@ type liveFlags struct {
 	baud, parity, record string
 	dataBits, stopBits   int
 	span                 time.Duration
-	force                bool
+	force, wait          bool
 }
 
 func newLiveCmd() *cobra.Command {
@@ -42,7 +41,11 @@ step response. Press ? on the screen for the keys; d sends the suggested deadban
 board (after a y/n question) and shows the figures before and after it.
 
 Without PORT, live uses the only USB serial device; with several it lists them with
-their USB ids and asks which one (on a terminal). The screen reconnects by itself after an unplug or a board reset and says so.
+their USB ids and asks which one (on a terminal). Built-in ports (no USB) are never
+chosen for you: name one to use it. A PORT that is not there, not a serial device or
+not yours to open ends live at once (exit 2), unless --wait. The screen reconnects by
+itself after an unplug or a board reset and says so, and hints at the baud rate, the
+port or the firmware when a connected port gives no reading for a few seconds.
 --record writes the same capture as caploop record, marks included.`,
 		Example: `  caploop live
   caploop live /dev/ttyACM0 --record bench.cap
@@ -55,6 +58,11 @@ their USB ids and asks which one (on a terminal). The screen reconnects by itsel
 			port := ""
 			if len(args) == 1 {
 				port = args[0]
+				if !f.wait {
+					if err := wire.CheckPort(port); err != nil {
+						return withCode(2, fmt.Errorf("live: %w", err))
+					}
+				}
 			} else {
 				p, err := pickPort()
 				if err != nil {
@@ -83,40 +91,26 @@ their USB ids and asks which one (on a terminal). The screen reconnects by itsel
 	fl.IntVar(&f.stopBits, "stop-bits", 1, "stop bits: 1 or 2")
 	fl.StringVar(&f.record, "record", "", "also write a capture file (the format of caploop record)")
 	fl.BoolVar(&f.force, "force", false, "overwrite the --record file if it exists")
+	fl.BoolVar(&f.wait, "wait", false, "wait for PORT to appear instead of failing at once when it is not there")
 	fl.DurationVar(&f.span, "window", 2*time.Second, "time window of the plot at start (+/- change it)")
 	return cmd
 }
 
-// pickPort returns the only USB serial device. With several candidates it asks which one
-// on a terminal, and otherwise returns an error listing them.
+// pickPort returns the port to use when none was named, by the rules of
+// wire.ChoosePort; with several USB devices it asks which one on a terminal.
 func pickPort() (string, error) {
 	ports, err := wire.ListPorts()
 	if err != nil {
 		return "", fmt.Errorf("live: list serial ports: %w", err)
 	}
-	path, err := pickFrom(ports)
-	if err == nil || !term.IsTerminal(int(os.Stdin.Fd())) {
-		return path, err
+	path, offer, err := wire.ChoosePort(ports)
+	if err == nil {
+		return path, nil
 	}
-	list := candidates(ports)
-	if len(list) == 0 {
-		return "", err
+	if len(offer) == 0 || !term.IsTerminal(int(os.Stdin.Fd())) {
+		return "", fmt.Errorf("live: %w\n(caploop live PORT; caploop ports lists them)", err)
 	}
-	return askPort(list, os.Stdin, os.Stderr)
-}
-
-// candidates are the ports worth offering: the USB ones, or every port when none is USB.
-func candidates(ports []wire.PortInfo) []wire.PortInfo {
-	var usb []wire.PortInfo
-	for _, p := range ports {
-		if p.USB {
-			usb = append(usb, p)
-		}
-	}
-	if len(usb) == 0 {
-		return ports
-	}
-	return usb
+	return askPort(offer, os.Stdin, os.Stderr)
 }
 
 // askPort lists the candidates with their USB ids, numbered, and reads the number of the
@@ -124,7 +118,7 @@ func candidates(ports []wire.PortInfo) []wire.PortInfo {
 func askPort(list []wire.PortInfo, in io.Reader, out io.Writer) (string, error) {
 	fmt.Fprintln(out, "serial ports:")
 	for i, p := range list {
-		fmt.Fprintf(out, "  %d) %s\n", i+1, describePort(p))
+		fmt.Fprintf(out, "  %d) %s\n", i+1, wire.DescribePort(p))
 	}
 	sc := bufio.NewScanner(in)
 	for tries := 0; tries < 3; tries++ {
@@ -139,52 +133,4 @@ func askPort(list []wire.PortInfo, in io.Reader, out io.Writer) (string, error) 
 		fmt.Fprintf(out, "please type a number from 1 to %d\n", len(list))
 	}
 	return "", errors.New("live: no port chosen; name it: caploop live PORT")
-}
-
-// describePort is one line about a port: path, USB VID:PID, serial number and product,
-// with the device's own strings sanitised.
-func describePort(p wire.PortInfo) string {
-	var b strings.Builder
-	b.WriteString(p.Path)
-	if id := p.VIDPID(); id != "" {
-		fmt.Fprintf(&b, "  %s", id)
-	}
-	if p.Serial != "" {
-		fmt.Fprintf(&b, "  serial %s", telemetry.SanitizeN([]byte(p.Serial), 40))
-	}
-	if p.Product != "" {
-		fmt.Fprintf(&b, "  %s", telemetry.SanitizeN([]byte(p.Product), 40))
-	}
-	return b.String()
-}
-
-// pickFrom picks the only USB serial device of ports, or lists the candidates (the USB
-// ones with their ids, else every port) in the error.
-func pickFrom(ports []wire.PortInfo) (string, error) {
-	var usb []wire.PortInfo
-	for _, p := range ports {
-		if p.USB {
-			usb = append(usb, p)
-		}
-	}
-	if len(usb) == 1 {
-		return usb[0].Path, nil
-	}
-	list := usb
-	if len(list) == 0 {
-		list = ports
-	}
-	if len(list) == 0 {
-		return "", errors.New("live: no serial port found; plug the board in or name the port (caploop live /dev/ttyACM0)")
-	}
-	var b strings.Builder
-	if len(usb) == 0 {
-		b.WriteString("live: no USB serial device; name one of these ports:")
-	} else {
-		fmt.Fprintf(&b, "live: %d USB serial devices; name one:", len(usb))
-	}
-	for _, p := range list {
-		b.WriteString("\n  " + describePort(p))
-	}
-	return "", errors.New(b.String())
 }

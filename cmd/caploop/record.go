@@ -33,9 +33,9 @@ type recordFlags struct {
 func newRecordCmd() *cobra.Command {
 	var f recordFlags
 	cmd := &cobra.Command{
-		Use:   "record --port PATH --out FILE",
+		Use:   "record PORT --out FILE",
 		Short: "capture a board's serial telemetry to a file, without a screen",
-		Long: `record reads the board's serial port and writes every line, byte for byte, with the
+		Long: `record reads the board's serial port PORT and writes every line, byte for byte, with the
 time the host received it, to a capture file (plain text; its first line starts with
 #caploop-capture and names the format version). replay and summary read captures.
 
@@ -49,16 +49,29 @@ port path to come back (give a stable path, such as a /dev/serial/by-id/ link, t
 a different device number); --exit-on-unplug ends the recording instead (exit code 0).
 
 A status line goes to standard error; it never shows the board's own text.`,
-		Example: `  caploop record --port /dev/ttyACM0 --out bench.cap
-  caploop record --port /dev/ttyUSB0 --baud 57600 --out greenhouse.cap --duration 2h
-  caploop record --port /dev/serial/by-id/usb-board-if00 --out rig.cap --exit-on-unplug --force`,
-		Args: cobra.NoArgs,
+		Example: `  caploop record /dev/ttyACM0 --out bench.cap
+  caploop record /dev/ttyUSB0 --baud 57600 --out greenhouse.cap --duration 2h
+  caploop record /dev/serial/by-id/usb-board-if00 --out rig.cap --exit-on-unplug --force`,
+		Args: cobra.MaximumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			switch {
+			case len(args) == 1 && f.port != "" && f.port != args[0]:
+				return withCode(2, fmt.Errorf("record: two ports given, %s and --port %s; name one (record PORT --out FILE)", clean(args[0]), clean(f.port)))
+			case len(args) == 1:
+				f.port = args[0]
+			case f.port == "":
+				return withCode(2, errors.New("record: name the port: caploop record PORT --out FILE (caploop ports lists them)"))
+			}
+			if f.out == "" {
+				return withCode(2, errors.New(`record: --out FILE is required (the capture to write)`))
+			}
 			return runRecord(cmd.Context(), f, cmd.ErrOrStderr())
 		},
 	}
 	fl := cmd.Flags()
 	fl.StringVar(&f.port, "port", "", "serial port path (caploop ports lists them)")
+	_ = fl.MarkHidden("port")
+	_ = fl.MarkDeprecated("port", "name the port as the first argument: caploop record PORT --out FILE")
 	fl.StringVar(&f.out, "out", "", "capture file to write")
 	fl.StringVar(&f.baud, "baud", "115200", "baud rate (115200, 1M, 250k)")
 	fl.IntVar(&f.dataBits, "data-bits", 8, "data bits: 5, 6, 7 or 8")
@@ -69,8 +82,6 @@ A status line goes to standard error; it never shows the board's own text.`,
 	fl.BoolVar(&f.wait, "wait", false, "wait for the port to appear instead of failing when it cannot be opened")
 	fl.BoolVar(&f.force, "force", false, "overwrite the capture file if it exists")
 	fl.BoolVar(&f.quiet, "quiet", false, "print only errors and the final summary")
-	_ = cmd.MarkFlagRequired("port")
-	_ = cmd.MarkFlagRequired("out")
 	return cmd
 }
 

@@ -250,7 +250,7 @@ func TestRecordCommand(t *testing.T) {
 			defer board.halt()
 
 			out := filepath.Join(t.TempDir(), "bench.cap")
-			args := append([]string{"record", "--port", p.Path(), "--out", out}, tc.args...)
+			args := append([]string{"record", p.Path(), "--out", out}, tc.args...)
 			cmd := exec.Command(bin, args...)
 			var stderr syncBuffer
 			cmd.Stderr = &stderr
@@ -329,7 +329,7 @@ func TestRecordKeepsWaitingAfterUnplug(t *testing.T) {
 	boardA := startBoard(a, 0)
 	defer boardA.halt()
 	out := filepath.Join(dir, "rig.cap")
-	cmd := exec.Command(bin, "record", "--port", link, "--out", out)
+	cmd := exec.Command(bin, "record", link, "--out", out)
 	var stderr syncBuffer
 	cmd.Stderr = &stderr
 	if err := cmd.Start(); err != nil {
@@ -391,10 +391,10 @@ func TestRecordFlagErrors(t *testing.T) {
 		args []string
 		want string
 	}{
-		{"missing port", []string{"--port", filepath.Join(dir, "ttyNONE"), "--out", filepath.Join(dir, "a.cap")}, "not found"},
-		{"bad baud", []string{"--port", "/dev/null", "--out", filepath.Join(dir, "b.cap"), "--baud", "fast"}, "--baud"},
-		{"existing out", []string{"--port", "/dev/null", "--out", existing}, "--force"},
-		{"not a port", []string{"--port", os.DevNull, "--out", filepath.Join(dir, "c.cap")}, "not a serial port"},
+		{"missing port", []string{filepath.Join(dir, "ttyNONE"), "--out", filepath.Join(dir, "a.cap")}, "not found"},
+		{"bad baud", []string{"/dev/null", "--out", filepath.Join(dir, "b.cap"), "--baud", "fast"}, "--baud"},
+		{"existing out", []string{"/dev/null", "--out", existing}, "--force"},
+		{"not a port", []string{os.DevNull, "--out", filepath.Join(dir, "c.cap")}, "not a serial port"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {
