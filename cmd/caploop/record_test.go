@@ -20,18 +20,47 @@ import (
 // buildCaploop builds the caploop binary into dir and returns its path.
 func buildCaploop(t *testing.T, dir string) string {
 	t.Helper()
+	buildOnce.Do(func() { builtBin, buildErr = buildBinary() })
+	if buildErr != nil {
+		t.Fatal(buildErr)
+	}
+	return builtBin
+}
+
+// The program is built once per test run and shared by the tests that run it.
+var (
+	buildOnce sync.Once
+	builtBin  string
+	buildErr  error
+	buildDir  string
+)
+
+func buildBinary() (string, error) {
 	gobin := filepath.Join(runtime.GOROOT(), "bin", "go")
 	if _, err := os.Stat(gobin); err != nil {
 		if gobin, err = exec.LookPath("go"); err != nil {
-			t.Fatalf("go tool not found: %v", err)
+			return "", fmt.Errorf("go tool not found: %v", err)
 		}
 	}
+	dir, err := os.MkdirTemp("", "caploop-test-bin-")
+	if err != nil {
+		return "", err
+	}
+	buildDir = dir
 	bin := filepath.Join(dir, "caploop")
 	cmd := exec.Command(gobin, "build", "-o", bin, ".")
 	if out, err := cmd.CombinedOutput(); err != nil {
-		t.Fatalf("go build: %v\n%s", err, out)
+		return "", fmt.Errorf("go build: %v\n%s", err, out)
 	}
-	return bin
+	return bin, nil
+}
+
+func TestMain(m *testing.M) {
+	code := m.Run()
+	if buildDir != "" {
+		os.RemoveAll(buildDir)
+	}
+	os.Exit(code)
 }
 
 // fakeBoard writes numbered data lines to a pseudo-terminal's master side at about

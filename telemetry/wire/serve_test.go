@@ -179,10 +179,11 @@ func TestServeUnplugReplug(t *testing.T) {
 			got++
 		}
 	}
-	// 300 lines in 0.3 s from boot, plus the cut one; the unplug may drop the last few
-	// still on their way, as a real one does.
-	if got < 250 || got > 301 {
-		t.Errorf("read %d data lines before the unplug, want 250 to 301", got)
+	// 300 lines in 0.3 s from boot, plus the cut one; the unplug drops those still on
+	// their way, as a real one does: a few, or a few tens when the machine is loaded and
+	// the reader lags.
+	if got < 200 || got > 301 {
+		t.Errorf("read %d data lines before the unplug, want 200 to 301", got)
 	}
 	if _, err := os.Lstat(path); !errors.Is(err, os.ErrNotExist) {
 		t.Errorf("path still there while unplugged: %v", err)
