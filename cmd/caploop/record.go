@@ -167,6 +167,12 @@ loop:
 	}
 	stop() // a second Ctrl-C from here on ends the process at once
 	closeErr := link.Close()
+	if errors.Is(closeErr, wire.ErrStuck) {
+		// The capture is flushed and closed; the stuck read or write ends with the process.
+		st.endStatus()
+		fmt.Fprintln(stderr, "note:", clean(closeErr.Error()))
+		closeErr = nil
+	}
 	linkErr := link.Err()
 	syncErr := out.Sync()
 	outErr := out.Close()
