@@ -6,6 +6,8 @@ import (
 	"os"
 	"os/exec"
 	"path/filepath"
+	"regexp"
+	"strconv"
 	"strings"
 	"sync"
 	"syscall"
@@ -13,6 +15,8 @@ import (
 	"time"
 
 	"github.com/creack/pty"
+
+	"github.com/caploop/caploop/telemetry/wire"
 )
 
 // ptyRun runs the program in a pseudo-terminal of 100x30, keeps reading what it draws,
@@ -137,5 +141,97 @@ func TestQuitEndsReplayOnBlockedFIFO(t *testing.T) {
 	out := r.text()
 	if i, j := strings.LastIndex(out, "\x1b[?1049h"), strings.LastIndex(out, "\x1b[?1049l"); i < 0 || j < i {
 		t.Errorf("the alternate screen was not left (enter at %d, leave at %d)", i, j)
+	}
+}
+
+// TestLiveQuitNotes runs `caploop live` on a pseudo-terminal fed like a board, in a
+// pseudo-terminal of its own. With --record, quitting prints the capture's path and line
+// count; without it, a mark made on the screen is printed on quit as not saved.
+func TestLiveQuitNotes(t *testing.T) {
+	if testing.Short() {
+		t.Skip("builds and runs the program in a pseudo-terminal; skipped with -short")
+	}
+	t.Parallel()
+	bin := buildCaploop(t, "")
+	data, err := os.ReadFile("../../testdata/three-state-good.txt")
+	if err != nil {
+		t.Fatal(err)
+	}
+	lines := strings.SplitAfter(string(data), "\n")
+	for _, rec := range []bool{true, false} {
+		name := map[bool]string{true: "record", false: "mark-not-saved"}[rec]
+		t.Run(name, func(t *testing.T) {
+			t.Parallel()
+			board, err := wire.OpenPTY()
+			if err != nil {
+				t.Skipf("no pseudo-terminal: %v", err)
+			}
+			defer board.Close()
+			stop := make(chan struct{})
+			defer close(stop)
+			go func() { // about 1000 lines/s, round and round
+				for i := 0; ; i++ {
+					select {
+					case <-stop:
+						return
+					default:
+					}
+					if _, err := io.WriteString(board.Master(), lines[i%len(lines)]); err != nil {
+						return
+					}
+					if i%10 == 0 {
+						time.Sleep(10 * time.Millisecond)
+					}
+				}
+			}()
+			capPath := filepath.Join(t.TempDir(), "bench.cap")
+			args := []string{"live", board.Path()}
+			if rec {
+				args = append(args, "--record", capPath)
+			}
+			r := startPTY(t, []string{"NO_COLOR=1", "TERM=xterm-256color"}, bin, args...)
+			r.waitFor("connected", 10*time.Second)
+			if !rec {
+				r.tty.Write([]byte("m"))
+				time.Sleep(200 * time.Millisecond)
+				r.tty.Write([]byte("fan on\r"))
+				r.waitFor("marked", 5*time.Second)
+				time.Sleep(300 * time.Millisecond)
+			} else {
+				time.Sleep(time.Second)
+			}
+			r.tty.Write([]byte("q"))
+			select {
+			case err := <-r.done:
+				if err != nil {
+					t.Fatalf("exit: %v", err)
+				}
+			case <-time.After(5 * time.Second):
+				t.Fatal("live did not end within 5 s of q")
+			}
+			out := r.text()
+			if i := strings.LastIndex(out, "\x1b[?1049l"); i >= 0 {
+				out = out[i:]
+			}
+			if rec {
+				m := regexp.MustCompile(`capture (\S+): (\d+) board lines, 0 marks`).FindStringSubmatch(out)
+				if m == nil || m[1] != capPath {
+					t.Fatalf("no capture note naming %s after quit:\n%q", capPath, out)
+				}
+				body, err := os.ReadFile(capPath)
+				if err != nil {
+					t.Fatal(err)
+				}
+				// The count is the board lines; the capture has a header and events too.
+				n, _ := strconv.Atoi(m[2])
+				if got := strings.Count(string(body), "\n"); n < 100 || got < n {
+					t.Errorf("note says %d board lines; the capture has %d lines", n, got)
+				}
+				return
+			}
+			if !regexp.MustCompile(`1 mark not saved \(not recording`).MatchString(out) || !regexp.MustCompile(`\d+\.\d{3} s  fan on`).MatchString(out) {
+				t.Errorf("no note of the unsaved mark after quit:\n%q", out)
+			}
+		})
 	}
 }
