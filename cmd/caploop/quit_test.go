@@ -27,7 +27,8 @@ type ptyRun struct {
 	tty  *os.File
 	mu   sync.Mutex
 	out  bytes.Buffer
-	done chan error
+	done chan error    // the process's exit
+	read chan struct{} // closed when all its output has been read
 }
 
 func startPTY(t *testing.T, env []string, bin string, args ...string) *ptyRun {
@@ -38,8 +39,9 @@ func startPTY(t *testing.T, env []string, bin string, args ...string) *ptyRun {
 	if err != nil {
 		t.Fatalf("start in a pty: %v", err)
 	}
-	r := &ptyRun{t: t, cmd: cmd, tty: tty, done: make(chan error, 1)}
+	r := &ptyRun{t: t, cmd: cmd, tty: tty, done: make(chan error, 1), read: make(chan struct{})}
 	go func() {
+		defer close(r.read)
 		buf := make([]byte, 32<<10)
 		for {
 			n, err := tty.Read(buf)
@@ -57,6 +59,14 @@ func startPTY(t *testing.T, env []string, bin string, args ...string) *ptyRun {
 		tty.Close()
 	})
 	return r
+}
+
+// drained waits (up to 2 s) until the output of an ended process has all been read.
+func (r *ptyRun) drained() {
+	select {
+	case <-r.read:
+	case <-time.After(2 * time.Second):
+	}
 }
 
 func (r *ptyRun) text() string {
@@ -138,6 +148,7 @@ func TestQuitEndsReplayOnBlockedFIFO(t *testing.T) {
 	case <-time.After(5 * time.Second):
 		t.Fatalf("the process still runs 5 s after q; output:\n%q", tail(r.text(), 2000))
 	}
+	r.drained()
 	out := r.text()
 	if i, j := strings.LastIndex(out, "\x1b[?1049h"), strings.LastIndex(out, "\x1b[?1049l"); i < 0 || j < i {
 		t.Errorf("the alternate screen was not left (enter at %d, leave at %d)", i, j)
@@ -209,6 +220,7 @@ func TestLiveQuitNotes(t *testing.T) {
 			case <-time.After(5 * time.Second):
 				t.Fatal("live did not end within 5 s of q")
 			}
+			r.drained()
 			out := r.text()
 			if i := strings.LastIndex(out, "\x1b[?1049l"); i >= 0 {
 				out = out[i:]
