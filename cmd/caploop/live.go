@@ -46,7 +46,10 @@ chosen for you: name one to use it. A PORT that is not there, not a serial devic
 not yours to open ends live at once (exit 2), unless --wait. The screen reconnects by
 itself after an unplug or a board reset and says so, and hints at the baud rate, the
 port or the firmware when a connected port gives no reading for a few seconds.
---record writes the same capture as caploop record, marks included.`,
+--record writes the same capture as caploop record, marks included, and its path and
+line count are printed on quit; without --record, marks made on the screen are printed on
+quit (they are not saved). q ends live within a second, even on a stuck port, after
+flushing the capture.`,
 		Example: `  caploop live
   caploop live /dev/ttyACM0 --record bench.cap
   caploop live /dev/ttyUSB0 --baud 57600 --parity even --window 500ms`,
