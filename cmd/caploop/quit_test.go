@@ -247,3 +247,32 @@ func TestLiveQuitNotes(t *testing.T) {
 		})
 	}
 }
+
+// TestLiveSilentPortHint: on a port that opens but says nothing, the status line gives a
+// hint (the firmware, the port, the baud rate) after a few seconds instead of showing
+// "connected" at 0 S/s for ever.
+func TestLiveSilentPortHint(t *testing.T) {
+	if testing.Short() {
+		t.Skip("builds and runs the program in a pseudo-terminal; skipped with -short")
+	}
+	t.Parallel()
+	bin := buildCaploop(t, "")
+	board, err := wire.OpenPTY()
+	if err != nil {
+		t.Skipf("no pseudo-terminal: %v", err)
+	}
+	defer board.Close()
+	r := startPTY(t, []string{"NO_COLOR=1", "TERM=xterm-256color"}, bin, "live", board.Path(), "--baud", "57600")
+	r.waitFor("connected", 10*time.Second)
+	r.waitFor("silent for 4 s", 10*time.Second)
+	r.waitFor("firmware printing?", 5*time.Second)
+	if !strings.Contains(r.text(), "baud 57600") {
+		t.Errorf("the hint does not name the baud rate in use:\n%q", tail(r.text(), 2000))
+	}
+	r.tty.Write([]byte("q"))
+	select {
+	case <-r.done:
+	case <-time.After(5 * time.Second):
+		t.Fatal("live did not end within 5 s of q")
+	}
+}

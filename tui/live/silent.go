@@ -25,36 +25,41 @@ func (s *silence) connected(now time.Time, samples, lines int64) {
 	*s = silence{cfg: s.cfg, since: now, samples: samples, lines: lines}
 }
 
-// check returns the state to show and whether it changed: a hint once the port has been
-// connected for SilentAfter without a reading, "connected" again once readings come.
-func (s *silence) check(now time.Time, state string, samples, lines int64) (string, bool) {
+// check returns the state to show, whether it changed, and the hint for the message
+// line: a hint once the port has been connected for SilentAfter without a reading,
+// "connected" again once readings come.
+func (s *silence) check(now time.Time, state string, samples, lines int64) (string, bool, string) {
 	if s.since.IsZero() {
-		return state, false
+		return state, false, ""
 	}
 	if samples > s.samples {
 		s.since, s.samples, s.lines = now, samples, lines
 		if s.warned {
 			s.warned = false
-			return "connected", true
+			return "connected", true, ""
 		}
-		return state, false
+		return state, false, ""
 	}
 	if s.warned || now.Sub(s.since) < SilentAfter || state != "connected" {
-		return state, false
+		return state, false, ""
 	}
 	s.warned = true
-	return silentHint(s.cfg, now.Sub(s.since), lines-s.lines), true
+	st, hint := silentHint(s.cfg, now.Sub(s.since), lines-s.lines)
+	return st, true, hint
 }
 
-// silentHint says what to check when a connected port gives no reading: with lines that
-// do not read, the baud rate or the format; with nothing at all, the firmware, the port
-// and the baud rate (a wrong rate can also give no line breaks at all).
-func silentHint(cfg wire.SerialConfig, quiet time.Duration, lines int64) string {
+// silentHint says, short for the status line and longer for the message line, what to
+// check when a connected port gives no reading: with lines that do not read, the baud
+// rate or the format; with nothing at all, the firmware, the port and the baud rate (a
+// wrong rate can also give no line breaks at all).
+func silentHint(cfg wire.SerialConfig, quiet time.Duration, lines int64) (state, hint string) {
 	secs := int(quiet.Round(time.Second) / time.Second)
 	if lines > 0 {
-		return fmt.Sprintf("connected, %d lines in %d s but no reading: wrong baud rate (now %d; --baud)? or not caploop's line format", lines, secs, cfg.Baud)
+		return fmt.Sprintf("connected, no reading in %d s", secs),
+			fmt.Sprintf("%d lines in %d s but no reading: baud %d wrong (--baud)? not caploop's line format?", lines, secs, cfg.Baud)
 	}
-	return fmt.Sprintf("connected, silent for %d s: is the firmware printing? right port (caploop ports)? baud rate (now %d; --baud)?", secs, cfg.Baud)
+	return fmt.Sprintf("connected, silent for %d s", secs),
+		fmt.Sprintf("no data in %d s: firmware printing? right port (caploop ports)? baud %d (--baud)?", secs, cfg.Baud)
 }
 
 // lineCount returns the board lines the link has received.

@@ -111,10 +111,10 @@ func (p *Pipeline) runLive(link *wire.Link, parser *telemetry.Parser, c *engine)
 					link.Send("info")
 				}
 			}
-			if st, changed := c.silence.check(time.Now(), c.stats.State, c.samples, c.lineCount()); changed {
+			if st, changed, hint := c.silence.check(time.Now(), c.stats.State, c.samples, c.lineCount()); changed {
 				c.stats.State = st
-				if st != "connected" {
-					c.event(EventInfo, st)
+				if hint != "" {
+					c.event(EventInfo, hint)
 				}
 			}
 			c.flush(false)
