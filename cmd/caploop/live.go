@@ -15,7 +15,6 @@ import (
 	"golang.org/x/term"
 
 	"github.com/caploop/caploop/analysis/report"
-	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/si"
 	"github.com/caploop/caploop/telemetry/wire"
 	"github.com/caploop/caploop/tui/live"
@@ -28,7 +27,7 @@ type liveFlags struct {
 	baud, parity, record string
 	dataBits, stopBits   int
 	span                 time.Duration
-	force, all           bool
+	force, all, wait     bool
 	gates                report.GateText
 }
 
@@ -44,8 +43,15 @@ step response. Press ? on the screen for the keys; d sends the suggested deadban
 board (after a y/n question) and shows the figures before and after it.
 
 Without PORT, live uses the only USB serial device; with several it lists them with
-their USB ids and asks which one (on a terminal). The screen reconnects by itself after an unplug or a board reset and says so.
---record writes the same capture as caploop record, marks included.
+their USB ids and asks which one (on a terminal). Built-in ports (no USB) are never
+chosen for you: name one to use it. A PORT that is not there, not a serial device or
+not yours to open ends live at once (exit 2), unless --wait. The screen reconnects by
+itself after an unplug or a board reset and says so, and hints at the baud rate, the
+port or the firmware when a connected port gives no reading for a few seconds.
+--record writes the same capture as caploop record, marks included, and its path and
+line count are printed on quit; without --record, marks made on the screen are printed on
+quit (they are not saved). q ends live within a second, even on a stuck port, after
+flushing the capture.
 
 With several ports (or a quoted glob such as '/dev/ttyACM*'), live opens the rack screen:
 one row per board with its port, board settings, state (live, unplugged, silent), the
@@ -64,6 +70,9 @@ other devices, so it is never the default.`,
   caploop live '/dev/ttyACM*' --max-ripple 20mV --record rig1`,
 		Args: cobra.ArbitraryArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
+			if err := checkWindow("live", f.span); err != nil {
+				return err
+			}
 			ports, err := expandPorts(args, f.all, cmd.ErrOrStderr())
 			if err != nil {
 				return withCode(2, fmt.Errorf("live: %w", err))
@@ -74,6 +83,11 @@ other devices, so it is never the default.`,
 			port := ""
 			if len(ports) == 1 {
 				port = ports[0]
+				if !f.wait {
+					if err := wire.CheckPort(port); err != nil {
+						return withCode(2, fmt.Errorf("live: %w", err))
+					}
+				}
 			} else if len(ports) == 0 {
 				p, err := pickPort()
 				if err != nil {
@@ -110,40 +124,26 @@ other devices, so it is never the default.`,
 	fl.BoolVar(&f.force, "force", false, "overwrite the --record file if it exists")
 	fl.BoolVar(&f.all, "all", false, "rack: open every USB serial port (caution: opening a port resets many boards)")
 	registerGates(fl, &f.gates)
+	fl.BoolVar(&f.wait, "wait", false, "wait for PORT to appear instead of failing at once when it is not there")
 	fl.DurationVar(&f.span, "window", 2*time.Second, "time window of the plot at start (+/- change it)")
 	return cmd
 }
 
-// pickPort returns the only USB serial device. With several candidates it asks which one
-// on a terminal, and otherwise returns an error listing them.
+// pickPort returns the port to use when none was named, by the rules of
+// wire.ChoosePort; with several USB devices it asks which one on a terminal.
 func pickPort() (string, error) {
 	ports, err := wire.ListPorts()
 	if err != nil {
 		return "", fmt.Errorf("live: list serial ports: %w", err)
 	}
-	path, err := pickFrom(ports)
-	if err == nil || !term.IsTerminal(int(os.Stdin.Fd())) {
-		return path, err
+	path, offer, err := wire.ChoosePort(ports)
+	if err == nil {
+		return path, nil
 	}
-	list := candidates(ports)
-	if len(list) == 0 {
-		return "", err
+	if len(offer) == 0 || !term.IsTerminal(int(os.Stdin.Fd())) {
+		return "", fmt.Errorf("live: %w\n(caploop live PORT; caploop ports lists them)", err)
 	}
-	return askPort(list, os.Stdin, os.Stderr)
-}
-
-// candidates are the ports worth offering: the USB ones, or every port when none is USB.
-func candidates(ports []wire.PortInfo) []wire.PortInfo {
-	var usb []wire.PortInfo
-	for _, p := range ports {
-		if p.USB {
-			usb = append(usb, p)
-		}
-	}
-	if len(usb) == 0 {
-		return ports
-	}
-	return usb
+	return askPort(offer, os.Stdin, os.Stderr)
 }
 
 // askPort lists the candidates with their USB ids, numbered, and reads the number of the
@@ -151,7 +151,7 @@ func candidates(ports []wire.PortInfo) []wire.PortInfo {
 func askPort(list []wire.PortInfo, in io.Reader, out io.Writer) (string, error) {
 	fmt.Fprintln(out, "serial ports:")
 	for i, p := range list {
-		fmt.Fprintf(out, "  %d) %s\n", i+1, describePort(p))
+		fmt.Fprintf(out, "  %d) %s\n", i+1, wire.DescribePort(p))
 	}
 	sc := bufio.NewScanner(in)
 	for tries := 0; tries < 3; tries++ {
@@ -166,52 +166,4 @@ func askPort(list []wire.PortInfo, in io.Reader, out io.Writer) (string, error) 
 		fmt.Fprintf(out, "please type a number from 1 to %d\n", len(list))
 	}
 	return "", errors.New("live: no port chosen; name it: caploop live PORT")
-}
-
-// describePort is one line about a port: path, USB VID:PID, serial number and product,
-// with the device's own strings sanitised.
-func describePort(p wire.PortInfo) string {
-	var b strings.Builder
-	b.WriteString(p.Path)
-	if id := p.VIDPID(); id != "" {
-		fmt.Fprintf(&b, "  %s", id)
-	}
-	if p.Serial != "" {
-		fmt.Fprintf(&b, "  serial %s", telemetry.SanitizeN([]byte(p.Serial), 40))
-	}
-	if p.Product != "" {
-		fmt.Fprintf(&b, "  %s", telemetry.SanitizeN([]byte(p.Product), 40))
-	}
-	return b.String()
-}
-
-// pickFrom picks the only USB serial device of ports, or lists the candidates (the USB
-// ones with their ids, else every port) in the error.
-func pickFrom(ports []wire.PortInfo) (string, error) {
-	var usb []wire.PortInfo
-	for _, p := range ports {
-		if p.USB {
-			usb = append(usb, p)
-		}
-	}
-	if len(usb) == 1 {
-		return usb[0].Path, nil
-	}
-	list := usb
-	if len(list) == 0 {
-		list = ports
-	}
-	if len(list) == 0 {
-		return "", errors.New("live: no serial port found; plug the board in or name the port (caploop live /dev/ttyACM0)")
-	}
-	var b strings.Builder
-	if len(usb) == 0 {
-		b.WriteString("live: no USB serial device; name one of these ports:")
-	} else {
-		fmt.Fprintf(&b, "live: %d USB serial devices; name one:", len(usb))
-	}
-	for _, p := range list {
-		b.WriteString("\n  " + describePort(p))
-	}
-	return "", errors.New(b.String())
 }

@@ -7,48 +7,6 @@ import (
 	"github.com/caploop/caploop/telemetry/wire"
 )
 
-func TestPickFrom(t *testing.T) {
-	board := wire.PortInfo{Path: "/dev/ttyACM0", VID: "1209", PID: "0001", Serial: "A1", Product: "bench\x1b[2J", USB: true}
-	adapter := wire.PortInfo{Path: "/dev/ttyUSB0", VID: "1209", PID: "0002", USB: true}
-	builtin := wire.PortInfo{Path: "/dev/ttyS0"}
-	tests := []struct {
-		name     string
-		ports    []wire.PortInfo
-		want     string
-		errParts []string
-	}{
-		{"one usb among others", []wire.PortInfo{builtin, board}, "/dev/ttyACM0", nil},
-		{"two usb", []wire.PortInfo{board, adapter, builtin}, "", []string{"2 USB serial devices", "/dev/ttyACM0", "/dev/ttyUSB0", "serial A1", `bench\x1b[2J`}},
-		{"no usb", []wire.PortInfo{builtin}, "", []string{"no USB serial device", "/dev/ttyS0"}},
-		{"nothing", nil, "", []string{"no serial port found"}},
-	}
-	for _, tc := range tests {
-		t.Run(tc.name, func(t *testing.T) {
-			got, err := pickFrom(tc.ports)
-			if got != tc.want {
-				t.Errorf("port = %q, want %q", got, tc.want)
-			}
-			if tc.errParts == nil {
-				if err != nil {
-					t.Errorf("error %v, want none", err)
-				}
-				return
-			}
-			if err == nil {
-				t.Fatalf("no error, want one with %q", tc.errParts)
-			}
-			for _, p := range tc.errParts {
-				if !strings.Contains(err.Error(), p) {
-					t.Errorf("error %q lacks %q", err, p)
-				}
-			}
-			if strings.Contains(err.Error(), "\x1b") {
-				t.Errorf("error %q carries a raw escape byte", err)
-			}
-		})
-	}
-}
-
 func TestParseSpeed(t *testing.T) {
 	tests := []struct {
 		in   string

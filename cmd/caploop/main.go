@@ -54,7 +54,9 @@ With no command, caploop shows the bench screen on its built-in virtual board.`,
   caploop design --supply 5 --period 1ms --ripple 100mV --series E12`,
 		SilenceUsage:  true,
 		SilenceErrors: true,
+		Version:       versionString(),
 	}
+	root.SetVersionTemplate("caploop {{.Version}}\n")
 	if rootRun != nil {
 		root.RunE = rootRun
 	}

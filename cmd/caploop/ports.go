@@ -21,7 +21,8 @@ func newPortsCmd() *cobra.Command {
 		Short: "list the serial ports of this machine",
 		Long: `ports lists the serial ports with, for USB adapters and boards, the vendor and
 product IDs (VID:PID), the serial number and the product name the device reports. It does
-not open the ports. Give one of the paths to live or record with --port.`,
+not open the ports. Give one of the paths to live or record as its first argument
+(caploop live PORT, caploop record PORT --out FILE).`,
 		Example: `  caploop ports
   caploop ports --json`,
 		Args: cobra.NoArgs,

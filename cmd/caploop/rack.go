@@ -63,11 +63,13 @@ func expandPorts(args []string, all bool, stderr io.Writer) ([]string, error) {
 		if err != nil {
 			return nil, fmt.Errorf("list serial ports: %w", err)
 		}
-		for _, p := range candidates(ports) {
-			add(p.Path)
+		for _, p := range ports {
+			if p.USB { // built-in ports are never opened for you
+				add(p.Path)
+			}
 		}
 		if len(out) == 0 {
-			return nil, errors.New("--all: no serial port found")
+			return nil, errors.New("--all: no USB serial port found")
 		}
 	}
 	return out, nil

@@ -36,7 +36,7 @@ func newRecordCmd() *cobra.Command {
 	cmd := &cobra.Command{
 		Use:   "record PORT... --out FILE|DIR",
 		Short: "capture a board's serial telemetry to a file, without a screen",
-		Long: `record reads the board's serial port and writes every line, byte for byte, with the
+		Long: `record reads the board's serial port PORT and writes every line, byte for byte, with the
 time the host received it, to a capture file (plain text; its first line starts with
 #caploop-capture and names the format version). replay and summary read captures.
 
@@ -56,9 +56,9 @@ its own capture there, named by its USB serial number (the port's name when it h
 none, with -2, -3... when two collide), and rig.json lists them (see the README's "Test
 rig"); caploop summary DIR then gives one row per board. Each board is read and
 recorded on its own, so one board's unplug holds up no other.`,
-		Example: `  caploop record --port /dev/ttyACM0 --out bench.cap
-  caploop record --port /dev/ttyUSB0 --baud 57600 --out greenhouse.cap --duration 2h
-  caploop record --port /dev/serial/by-id/usb-board-if00 --out rig.cap --exit-on-unplug --force
+		Example: `  caploop record /dev/ttyACM0 --out bench.cap
+  caploop record /dev/ttyUSB0 --baud 57600 --out greenhouse.cap --duration 2h
+  caploop record /dev/serial/by-id/usb-board-if00 --out rig.cap --exit-on-unplug --force
   caploop record /dev/ttyACM0 /dev/ttyACM1 /dev/ttyACM2 /dev/ttyACM3 --out rig1 --duration 10m`,
 		Args: cobra.ArbitraryArgs,
 		RunE: func(cmd *cobra.Command, args []string) error {
@@ -71,7 +71,9 @@ recorded on its own, so one board's unplug holds up no other.`,
 			case err != nil:
 				return withCode(2, fmt.Errorf("record: %w", err))
 			case len(ports) == 0:
-				return withCode(2, errors.New("record: name the port: caploop record PORT --out FILE"))
+				return withCode(2, errors.New("record: name the port: caploop record PORT --out FILE (caploop ports lists them)"))
+			case f.out == "":
+				return withCode(2, errors.New(`record: --out FILE is required (the capture to write)`))
 			case len(ports) > 1:
 				return runRecordRig(cmd.Context(), f, ports, cmd.ErrOrStderr())
 			}
@@ -80,7 +82,9 @@ recorded on its own, so one board's unplug holds up no other.`,
 		},
 	}
 	fl := cmd.Flags()
-	fl.StringVar(&f.port, "port", "", "serial port path (caploop ports lists them); the same as giving it as an argument")
+	fl.StringVar(&f.port, "port", "", "serial port path (caploop ports lists them)")
+	_ = fl.MarkHidden("port")
+	_ = fl.MarkDeprecated("port", "name the port as the first argument: caploop record PORT --out FILE")
 	fl.StringVar(&f.out, "out", "", "capture file to write; with several ports, the rig folder")
 	fl.StringVar(&f.baud, "baud", "115200", "baud rate (115200, 1M, 250k)")
 	fl.IntVar(&f.dataBits, "data-bits", 8, "data bits: 5, 6, 7 or 8")
@@ -91,7 +95,6 @@ recorded on its own, so one board's unplug holds up no other.`,
 	fl.BoolVar(&f.wait, "wait", false, "wait for the port to appear instead of failing when it cannot be opened")
 	fl.BoolVar(&f.force, "force", false, "overwrite the capture file if it exists")
 	fl.BoolVar(&f.quiet, "quiet", false, "print only errors and the final summary")
-	_ = cmd.MarkFlagRequired("out")
 	return cmd
 }
 
@@ -177,6 +180,12 @@ loop:
 	}
 	stop() // a second Ctrl-C from here on ends the process at once
 	closeErr := link.Close()
+	if errors.Is(closeErr, wire.ErrStuck) {
+		// The capture is flushed and closed; the stuck read or write ends with the process.
+		st.endStatus()
+		fmt.Fprintln(stderr, "note:", clean(closeErr.Error()))
+		closeErr = nil
+	}
 	linkErr := link.Err()
 	syncErr := out.Sync()
 	outErr := out.Close()

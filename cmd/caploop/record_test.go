@@ -20,18 +20,47 @@ import (
 // buildCaploop builds the caploop binary into dir and returns its path.
 func buildCaploop(t *testing.T, dir string) string {
 	t.Helper()
+	buildOnce.Do(func() { builtBin, buildErr = buildBinary() })
+	if buildErr != nil {
+		t.Fatal(buildErr)
+	}
+	return builtBin
+}
+
+// The program is built once per test run and shared by the tests that run it.
+var (
+	buildOnce sync.Once
+	builtBin  string
+	buildErr  error
+	buildDir  string
+)
+
+func buildBinary() (string, error) {
 	gobin := filepath.Join(runtime.GOROOT(), "bin", "go")
 	if _, err := os.Stat(gobin); err != nil {
 		if gobin, err = exec.LookPath("go"); err != nil {
-			t.Fatalf("go tool not found: %v", err)
+			return "", fmt.Errorf("go tool not found: %v", err)
 		}
 	}
+	dir, err := os.MkdirTemp("", "caploop-test-bin-")
+	if err != nil {
+		return "", err
+	}
+	buildDir = dir
 	bin := filepath.Join(dir, "caploop")
 	cmd := exec.Command(gobin, "build", "-o", bin, ".")
 	if out, err := cmd.CombinedOutput(); err != nil {
-		t.Fatalf("go build: %v\n%s", err, out)
+		return "", fmt.Errorf("go build: %v\n%s", err, out)
 	}
-	return bin
+	return bin, nil
+}
+
+func TestMain(m *testing.M) {
+	code := m.Run()
+	if buildDir != "" {
+		os.RemoveAll(buildDir)
+	}
+	os.Exit(code)
 }
 
 // fakeBoard writes numbered data lines to a pseudo-terminal's master side at about
@@ -250,7 +279,7 @@ func TestRecordCommand(t *testing.T) {
 			defer board.halt()
 
 			out := filepath.Join(t.TempDir(), "bench.cap")
-			args := append([]string{"record", "--port", p.Path(), "--out", out}, tc.args...)
+			args := append([]string{"record", p.Path(), "--out", out}, tc.args...)
 			cmd := exec.Command(bin, args...)
 			var stderr syncBuffer
 			cmd.Stderr = &stderr
@@ -329,7 +358,7 @@ func TestRecordKeepsWaitingAfterUnplug(t *testing.T) {
 	boardA := startBoard(a, 0)
 	defer boardA.halt()
 	out := filepath.Join(dir, "rig.cap")
-	cmd := exec.Command(bin, "record", "--port", link, "--out", out)
+	cmd := exec.Command(bin, "record", link, "--out", out)
 	var stderr syncBuffer
 	cmd.Stderr = &stderr
 	if err := cmd.Start(); err != nil {
@@ -391,10 +420,10 @@ func TestRecordFlagErrors(t *testing.T) {
 		args []string
 		want string
 	}{
-		{"missing port", []string{"--port", filepath.Join(dir, "ttyNONE"), "--out", filepath.Join(dir, "a.cap")}, "not found"},
-		{"bad baud", []string{"--port", "/dev/null", "--out", filepath.Join(dir, "b.cap"), "--baud", "fast"}, "--baud"},
-		{"existing out", []string{"--port", "/dev/null", "--out", existing}, "--force"},
-		{"not a port", []string{"--port", os.DevNull, "--out", filepath.Join(dir, "c.cap")}, "not a serial port"},
+		{"missing port", []string{filepath.Join(dir, "ttyNONE"), "--out", filepath.Join(dir, "a.cap")}, "not found"},
+		{"bad baud", []string{"/dev/null", "--out", filepath.Join(dir, "b.cap"), "--baud", "fast"}, "--baud"},
+		{"existing out", []string{"/dev/null", "--out", existing}, "--force"},
+		{"not a port", []string{os.DevNull, "--out", filepath.Join(dir, "c.cap")}, "not a serial port"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {

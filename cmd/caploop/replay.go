@@ -34,11 +34,14 @@ appear on the plot.`,
   caploop replay log.txt --speed max --paused`,
 		Args: cobra.ExactArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			if err := checkWindow("replay", span); err != nil {
+				return err
+			}
 			sp, err := parseSpeed(speed)
 			if err != nil {
 				return withCode(2, err)
 			}
-			p, err := live.NewReplay(live.ReplayOptions{Path: args[0], Speed: sp, Paused: paused})
+			p, err := live.NewReplay(live.ReplayOptions{Path: args[0], Speed: sp, Paused: paused, Open: replayOpener(args[0])})
 			if err != nil {
 				return withCode(2, fmt.Errorf("replay: %w", err))
 			}

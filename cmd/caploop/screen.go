@@ -2,12 +2,14 @@ package main
 
 import (
 	"errors"
+	"fmt"
 	"os"
 	"time"
 
 	tea "github.com/charmbracelet/bubbletea"
 	"golang.org/x/term"
 
+	"github.com/caploop/caploop/telemetry/wire"
 	"github.com/caploop/caploop/tui"
 	"github.com/caploop/caploop/tui/live"
 )
@@ -29,6 +31,14 @@ func runScreen(p *live.Pipeline, span time.Duration) error {
 	}
 	if err != nil {
 		return err
+	}
+	if errors.Is(cerr, live.ErrStillBlocked) || errors.Is(cerr, wire.ErrStuck) {
+		// The capture is flushed; the blocked read ends with the process.
+		fmt.Fprintln(os.Stderr, "caploop: note:", clean(cerr.Error()))
+		cerr = nil
+	}
+	for _, line := range p.QuitNotes() {
+		fmt.Fprintln(os.Stderr, line)
 	}
 	return cerr
 }

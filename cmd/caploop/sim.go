@@ -50,10 +50,13 @@ Settings changed with set are lost when the board resets, as on real firmware.
 Output goes to standard output in real time, to a file (--out), as fast as possible
 (--fast, with --samples or --duration), as a caploop capture instead of plain telemetry
 (--capture: host lines of "at" appear as sent records), or to a pseudo-terminal (--pty): sim then prints
-one line, the device path, and serves until killed. The path is a symbolic link that
-follows the board across an unplug and re-plug, so caploop live and caploop record can
-keep reading it. With --boards N (a test rig without hardware), sim serves N boards,
-each with its own seed and parts, and prints their N paths, one a line.
+one line, the device path, and serves until killed (SIGTERM or Ctrl-C), then removes
+the path and its temporary folder. The path is a symbolic link that follows the board
+across an unplug and re-plug, so caploop live and caploop record can keep reading it.
+A reader slower than the board makes it wait, as on a link with flow control;
+--no-flow-control true drops the bytes instead, as a USB bridge without flow control does.
+With --boards N (a test rig without hardware), sim serves N boards, each with its own
+seed and parts, and prints their N paths, one a line.
 
 The scenario starts from the built-in demo (a greenhouse sensor bias at 1.2, 2.0 and
 2.8 V, three-state, deadband 4: a little narrow), then a scenario file (--scenario),
@@ -144,12 +147,19 @@ Values take SI prefixes and units (47k, 4k7, 1u, 100mV, 1ms). Keys:
 			}
 			ctx, stop := signal.NotifyContext(cmd.Context(), os.Interrupt, syscall.SIGTERM)
 			defer stop()
+			go func() {
+				// After the first signal the board stops and cleans up at once; a second
+				// one ends the process the default way.
+				<-ctx.Done()
+				stop()
+			}()
 
 			if usePTY {
 				err := wire.Serve(ctx, b, wire.ServeOptions{
-					Link:     link,
-					Ready:    func(path string) { fmt.Fprintln(cmd.OutOrStdout(), path) },
-					WaitOpen: waitOpen,
+					Link:         link,
+					Ready:        func(path string) { fmt.Fprintln(cmd.OutOrStdout(), path) },
+					WaitOpen:     waitOpen,
+					DropWhenFull: sc.Faults.NoFlowControl,
 				})
 				return withCode(2, err)
 			}

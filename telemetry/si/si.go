@@ -39,6 +39,7 @@ func scaled(num string, mult float64) (float64, error) {
 
 // Parse reads a number with an optional SI prefix and no unit: "47k", "1u", "4.7µ", "4k7",
 // "1e-6", "-0.5m". A bare "R" or "r" in the middle ("4R7") means a decimal point.
+// With unit "V" or "A", the unit letter there does too: ParseUnit("3v3", "V") = 3.3.
 func Parse(s string) (float64, error) {
 	return ParseUnit(s, "")
 }
@@ -69,7 +70,7 @@ func ParseUnit(s, unit string) (float64, error) {
 		}
 		p, rest := s[i:], ""
 		mult, n := prefixAt(p)
-		if n == 0 && (c == 'R' || c == 'r') {
+		if n == 0 && (c == 'R' || c == 'r' || unitMark(c, unit)) {
 			mult, n = 1, 1
 		}
 		if n == 0 {
@@ -117,6 +118,20 @@ func prefixAt(s string) (float64, int) {
 		}
 	}
 	return 0, 0
+}
+
+// unitMark reports whether c is the unit letter written in place of the decimal point,
+// as supply rails are named on schematics: "3V3" is 3.3 V, "1V8" 1.8 V, "1A5" 1.5 A
+// (common practice). Only volts and amperes: for seconds or farads a letter there is
+// more likely a typing error.
+func unitMark(c byte, unit string) bool {
+	switch unit {
+	case "V":
+		return c == 'V' || c == 'v'
+	case "A":
+		return c == 'A' || c == 'a'
+	}
+	return false
 }
 
 func allDigits(s string) bool {

@@ -47,6 +47,16 @@ func TestParse(t *testing.T) {
 	}
 }
 
+// TestParseUnitMarkOnlyForItsUnit: "3v3" reads as volts only where volts are asked for,
+// and a unit letter in the middle is still refused for other units.
+func TestParseUnitMarkOnlyForItsUnit(t *testing.T) {
+	for _, tc := range []struct{ in, unit string }{{"3v3", ""}, {"3v3", "s"}, {"1s5", "s"}, {"3v3", "A"}, {"3v3v3", "V"}, {"v3", "V"}, {"3v", "F"}} {
+		if v, err := ParseUnit(tc.in, tc.unit); err == nil {
+			t.Errorf("ParseUnit(%q, %q) = %v, want an error", tc.in, tc.unit, v)
+		}
+	}
+}
+
 func TestParseUnit(t *testing.T) {
 	tests := []struct {
 		in, unit string
@@ -64,6 +74,12 @@ func TestParseUnit(t *testing.T) {
 		{"1ms", "s", 1e-3},
 		{"250us", "s", 250e-6},
 		{"1kHz", "Hz", 1e3},
+		// Rail names with the unit letter as the decimal point (common practice).
+		{"3v3", "V", 3.3},
+		{"3V3", "V", 3.3},
+		{"1V8", "V", 1.8},
+		{"5v0", "V", 5},
+		{"1A5", "A", 1.5},
 	}
 	for _, tc := range tests {
 		t.Run(tc.in, func(t *testing.T) {

@@ -26,4 +26,8 @@ type ServeOptions struct {
 	// boards that reset when the port opens do: the first reader sees the boot banner
 	// and every line after it.
 	WaitOpen bool
+	// DropWhenFull drops the board's output that the reader does not take in time, as a
+	// USB serial bridge without flow control does, instead of making the board wait for
+	// the reader as a link with flow control does (the default).
+	DropWhenFull bool
 }

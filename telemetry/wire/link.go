@@ -7,7 +7,6 @@ import (
 	"io"
 	"os"
 	"sync"
-	"syscall"
 	"time"
 
 	"github.com/caploop/caploop/telemetry"
@@ -123,6 +122,7 @@ type Link struct {
 	recFile  *os.File
 	recDirty bool
 	recErr   error
+	stuck    bool // the port did not stop within closeWait (set by Close)
 }
 
 // Dial starts a Link on cfg.Path and returns at once; the port is opened (and reopened) by
@@ -221,31 +221,53 @@ func (l *Link) Send(cmd string) error {
 	return nil
 }
 
+// closeWait bounds how long Close waits for the reader to stop before it flushes the
+// capture anyway: a stuck device may never return from a read or a write.
+const closeWait = 300 * time.Millisecond
+
 // Close stops the Link: it closes the port, flushes, syncs and (for RecordPath) closes the
 // recording, and closes Batches. Lines not yet taken from Batches are discarded. It returns
-// the first recording error. Closing twice is harmless.
+// the first recording error. A port whose read or write does not return within closeWait
+// of the close is left behind: the capture is flushed and closed all the same, lines the
+// reader might still see are not recorded, and Close returns ErrStuck (wrapped) unless a
+// recording error came first. Closing twice is harmless.
 func (l *Link) Close() error {
 	l.closeOnce.Do(func() {
 		close(l.done)
-		l.portMu.Lock()
-		if l.port != nil {
-			l.port.Close()
+		stopped := make(chan struct{})
+		go func() {
+			l.portMu.Lock()
+			if l.port != nil {
+				l.port.Close()
+			}
+			l.portMu.Unlock()
+			<-l.readerDone
+			<-l.dispDone
+			<-l.flushDone
+			close(stopped)
+		}()
+		t := time.NewTimer(closeWait)
+		defer t.Stop()
+		select {
+		case <-stopped:
+		case <-t.C:
+			l.stuck = true
 		}
-		l.portMu.Unlock()
-		<-l.readerDone
-		<-l.dispDone
-		<-l.flushDone
 		l.flushRecord()
+		l.recMu.Lock()
 		if l.recFile != nil {
-			l.recMu.Lock()
 			if err := l.recFile.Close(); err != nil && l.recErr == nil {
 				l.recErr = fmt.Errorf("telemetry: close %s: %w", l.opt.RecordPath, err)
 			}
-			l.recMu.Unlock()
 		}
+		l.rec = nil // a stuck reader that wakes up later records nothing
+		l.recMu.Unlock()
 	})
 	l.recMu.Lock()
 	defer l.recMu.Unlock()
+	if l.recErr == nil && l.stuck {
+		return &SerialError{Path: l.cfg.Path, Op: "close", Kind: ErrStuck}
+	}
 	return l.recErr
 }
 
@@ -498,101 +520,6 @@ func (l *Link) dispatch() {
 			if left == 0 {
 				return
 			}
-		}
-	}
-}
-
-// openRecord sets up the capture writer from the options.
-func (l *Link) openRecord() error {
-	w := l.opt.Record
-	if w == nil && l.opt.RecordPath != "" {
-		f, err := os.Create(l.opt.RecordPath)
-		if err != nil {
-			return fmt.Errorf("telemetry: create capture: %w", err)
-		}
-		l.recFile = f
-		w = f
-	}
-	if w == nil {
-		return nil
-	}
-	attrs := append([]string{
-		"source=" + l.cfg.Path,
-		fmt.Sprintf("baud=%d", l.cfg.Baud),
-		fmt.Sprintf("framing=%s", frameString(l.cfg)),
-	}, l.opt.RecordAttrs...)
-	cw, err := telemetry.NewCaptureWriter(w, l.start, attrs...)
-	if err != nil {
-		if l.recFile != nil {
-			l.recFile.Close()
-		}
-		return fmt.Errorf("telemetry: write capture header: %w", err)
-	}
-	l.rec = cw
-	l.recDirty = true
-	if s, ok := w.(interface{ Sync() error }); ok {
-		l.recSync = s
-	}
-	return nil
-}
-
-// frameString returns "8N1" style framing of a config with defaults filled in.
-func frameString(c SerialConfig) string {
-	s := c.String()
-	if i := bytes.IndexByte([]byte(s), ' '); i >= 0 {
-		return s[i+1:]
-	}
-	return s
-}
-
-// record appends lines to the capture; a write error is kept and stops recording.
-func (l *Link) record(lines []Line) {
-	l.recMu.Lock()
-	defer l.recMu.Unlock()
-	if l.rec == nil || l.recErr != nil {
-		return
-	}
-	for _, ln := range lines {
-		if err := l.rec.Write(ln.Host.Sub(l.start), ln.Dir, ln.Raw); err != nil {
-			l.recErr = fmt.Errorf("telemetry: write capture: %w", err)
-			return
-		}
-	}
-	l.recDirty = true
-}
-
-// flushRecord flushes the capture and syncs it to disk.
-func (l *Link) flushRecord() {
-	l.recMu.Lock()
-	defer l.recMu.Unlock()
-	if l.rec == nil || l.recErr != nil || !l.recDirty {
-		return
-	}
-	l.recDirty = false
-	if err := l.rec.Flush(); err != nil {
-		l.recErr = fmt.Errorf("telemetry: write capture: %w", err)
-		return
-	}
-	if l.recSync != nil {
-		if err := l.recSync.Sync(); err != nil && !errors.Is(err, syscall.EINVAL) {
-			// EINVAL: the writer is a pipe or terminal, which has nothing to sync.
-			l.recErr = fmt.Errorf("telemetry: sync capture: %w", err)
-		}
-	}
-}
-
-// flusher flushes the recording every FlushEvery until the reader stops.
-func (l *Link) flusher() {
-	defer close(l.flushDone)
-	t := time.NewTicker(l.opt.FlushEvery)
-	defer t.Stop()
-	for {
-		select {
-		case <-t.C:
-			l.flushRecord()
-		case <-l.readerDone:
-			l.flushRecord()
-			return
 		}
 	}
 }

@@ -8,3 +8,6 @@ import "strings"
 func (l *Link) Annotate(text string) {
 	l.event(strings.NewReplacer("\r", " ", "\n", " ").Replace(text))
 }
+
+// Config returns the port settings the Link uses, defaults filled in.
+func (l *Link) Config() SerialConfig { return l.cfg }

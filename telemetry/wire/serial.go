@@ -29,6 +29,7 @@ var (
 	ErrPortSetting   = errors.New("telemetry: serial setting not supported")
 	ErrUnplugged     = errors.New("telemetry: serial port unplugged")
 	ErrNotConnected  = errors.New("telemetry: serial port not connected")
+	ErrStuck         = errors.New("telemetry: serial port stuck")
 	ErrSerialConfig  = errors.New("telemetry: bad serial configuration")
 	errPortClosedUse = errors.New("telemetry: serial port closed")
 )
@@ -133,6 +134,8 @@ func (e *SerialError) Error() string {
 		msg = fmt.Sprintf("serial port %s does not support the requested setting", e.Path)
 	case ErrUnplugged:
 		msg = fmt.Sprintf("serial port %s unplugged", e.Path)
+	case ErrStuck:
+		msg = fmt.Sprintf("serial port %s did not stop within %s of the close (a stuck device or driver); the capture is flushed and closed, later lines are not in it", e.Path, closeWait)
 	default:
 		msg = fmt.Sprintf("serial port %s: %s failed", e.Path, e.Op)
 	}

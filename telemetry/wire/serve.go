@@ -27,7 +27,12 @@ import (
 // re-plug opens a new pseudo-terminal behind the same link and the board boots again.
 //
 // While no program has the device open, the board's output is dropped, as a USB serial
-// device's would be; a program that opens it reads fresh lines, not stale ones.
+// device's would be; a program that opens it reads fresh lines, not stale ones. While a
+// program has it open, the board waits for it to read, as a board on a serial link with
+// flow control waits for its transmit buffer to drain (the default of a pseudo-terminal
+// and of most USB serial devices); ServeOptions.DropWhenFull drops instead, as a bridge
+// without flow control does. Either way Serve returns promptly when ctx ends, even when
+// the reader is slower than the board, and removes the link and its temporary folder.
 func Serve(ctx context.Context, b Device, opt ServeOptions) error {
 	link := opt.Link
 	tmpDir := ""
@@ -44,11 +49,15 @@ func Serve(ctx context.Context, b Device, opt ServeOptions) error {
 	if fi, err := os.Lstat(link); err == nil && fi.Mode()&os.ModeSymlink == 0 {
 		return fmt.Errorf("wire: %s exists and is not a symbolic link; choose another --link", link)
 	}
-	s := &ptyServer{board: b, link: link}
+	s := &ptyServer{board: b, link: link, ctx: ctx, drop: opt.DropWhenFull}
 	defer func() {
 		if s.conn != nil {
 			os.Remove(s.link)
-			s.conn.finish()
+			if ctx.Err() != nil {
+				s.conn.close() // a signal: go now, without waiting for a slow reader
+			} else {
+				s.conn.finish()
+			}
 			s.conn = nil
 		}
 		if tmpDir != "" {
@@ -87,6 +96,8 @@ type ptyServer struct {
 	board   Device
 	link    string
 	conn    *ptyConn // nil while unplugged
+	ctx     context.Context
+	drop    bool // drop output the reader does not take in time, instead of waiting
 	dropped atomic.Int64
 }
 
@@ -95,18 +106,35 @@ type ptyServer struct {
 func (s *ptyServer) Dropped() int64 { return s.dropped.Load() }
 
 func (s *ptyServer) Write(p []byte) (int, error) {
-	c := s.conn
+	return queue(s.ctx, s.conn, p, s.drop, &s.dropped)
+}
+
+// queue hands p to the writer of c: it waits while the queue is full (flow control),
+// or drops p when drop is set; it drops p while unplugged (c nil), and returns ctx's
+// error once ctx has ended, so that a board that is behind stops at once.
+func queue(ctx context.Context, c *ptyConn, p []byte, drop bool, dropped *atomic.Int64) (int, error) {
+	if err := ctx.Err(); err != nil {
+		return 0, err
+	}
 	if c == nil {
-		s.dropped.Add(int64(len(p)))
+		dropped.Add(int64(len(p)))
 		return len(p), nil
 	}
 	chunk := append([]byte(nil), p...)
+	if drop {
+		select {
+		case c.out <- chunk:
+		default:
+			dropped.Add(int64(len(p)))
+		}
+		return len(p), nil
+	}
 	select {
 	case c.out <- chunk:
-	default:
-		s.dropped.Add(int64(len(p)))
+		return len(p), nil
+	case <-ctx.Done():
+		return 0, ctx.Err()
 	}
-	return len(p), nil
 }
 
 // Unplug closes the pseudo-terminal and removes the link.
@@ -122,7 +150,7 @@ func (s *ptyServer) Unplug() {
 // Replug opens a new pseudo-terminal and points the link at it.
 func (s *ptyServer) Replug() error {
 	s.Unplug()
-	c, err := openConn(s.board, &s.dropped)
+	c, err := openConn(s.board, &s.dropped, s.drop)
 	if err != nil {
 		return err
 	}
@@ -154,7 +182,7 @@ type ptyConn struct {
 
 // openConn opens a pseudo-terminal in raw mode (no echo, no line editing, no signals)
 // and starts serving it.
-func openConn(b Device, dropped *atomic.Int64) (*ptyConn, error) {
+func openConn(b Device, dropped *atomic.Int64, drop bool) (*ptyConn, error) {
 	m, sl, err := pty.Open()
 	if err != nil {
 		return nil, fmt.Errorf("wire: open pseudo-terminal: %w", err)
@@ -164,14 +192,14 @@ func openConn(b Device, dropped *atomic.Int64) (*ptyConn, error) {
 	if _, err := term.MakeRaw(int(sl.Fd())); err != nil {
 		return nil, fmt.Errorf("wire: raw mode: %w", err)
 	}
-	return newConn(m, sl.Name(), b, dropped)
+	return newConn(m, sl.Name(), b, dropped, drop)
 }
 
 // newConn serves the master side m of a pseudo-terminal whose slave is path. It works on
 // a non-blocking duplicate of m: creack/pty leaves the master in blocking mode, where
 // Close does not interrupt a Read or a Write; the duplicate goes through the runtime
 // poller instead. The caller keeps (and closes) m.
-func newConn(m *os.File, path string, b Device, dropped *atomic.Int64) (*ptyConn, error) {
+func newConn(m *os.File, path string, b Device, dropped *atomic.Int64, drop bool) (*ptyConn, error) {
 	fd, err := unix.Dup(int(m.Fd()))
 	if err != nil {
 		return nil, fmt.Errorf("wire: %w", err)
@@ -181,7 +209,13 @@ func newConn(m *os.File, path string, b Device, dropped *atomic.Int64) (*ptyConn
 		unix.Close(fd)
 		return nil, fmt.Errorf("wire: %w", err)
 	}
-	c := &ptyConn{master: os.NewFile(uintptr(fd), "/dev/ptmx"), path: path, out: make(chan []byte, 256), wdone: make(chan struct{})}
+	// Dropping needs room to absorb bursts; waiting needs little beyond the terminal's
+	// own buffer, so that the board feels the reader as a real link makes it.
+	depth := 4
+	if drop {
+		depth = 256
+	}
+	c := &ptyConn{master: os.NewFile(uintptr(fd), "/dev/ptmx"), path: path, out: make(chan []byte, depth), wdone: make(chan struct{})}
 	c.wg.Add(2)
 	go c.writer(dropped)
 	go c.reader(b)
@@ -276,14 +310,14 @@ func (c *ptyConn) reader(b Device) {
 
 // ServePTY runs the board in real time on a pseudo-terminal the caller opened with
 // OpenPTY (the caller tells its users p.Path()). Host lines written to the
-// slave side are read from the master and answered. Output the terminal cannot take (no
-// program reading) is dropped rather than stalling the board. A scenario unplug closes p
+// slave side are read from the master and answered. Output is dropped while no program
+// has the terminal open; while one has, the board waits for it to read (flow control). A scenario unplug closes p
 // and ServePTY returns nil, since a re-plug needs a new pseudo-terminal (Serve does
 // that). ServePTY also returns nil when ctx ends, and closes p either way.
 func ServePTY(ctx context.Context, b Device, p *PTY) error {
 	defer p.Close()
 	w := &fixedPTY{p: p}
-	c, err := newConn(p.Master(), p.Path(), b, &w.dropped)
+	c, err := newConn(p.Master(), p.Path(), b, &w.dropped, false)
 	if err != nil {
 		return err
 	}
@@ -292,6 +326,7 @@ func ServePTY(ctx context.Context, b Device, p *PTY) error {
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
 	w.cancel = cancel
+	w.ctx = ctx
 	err = b.Run(ctx, w, true)
 	if errors.Is(err, context.Canceled) || errors.Is(err, context.DeadlineExceeded) {
 		return nil
@@ -304,6 +339,7 @@ func ServePTY(ctx context.Context, b Device, p *PTY) error {
 type fixedPTY struct {
 	p       *PTY
 	conn    *ptyConn // nil once unplugged
+	ctx     context.Context
 	cancel  context.CancelFunc
 	dropped atomic.Int64
 }
@@ -312,12 +348,7 @@ func (w *fixedPTY) Write(b []byte) (int, error) {
 	if w.conn == nil {
 		return len(b), nil
 	}
-	select {
-	case w.conn.out <- append([]byte(nil), b...):
-	default:
-		w.dropped.Add(int64(len(b)))
-	}
-	return len(b), nil
+	return queue(w.ctx, w.conn, b, false, &w.dropped)
 }
 
 func (w *fixedPTY) Unplug() {

@@ -43,6 +43,8 @@ type engine struct {
 
 	connectedAt time.Time // live: last (re)connection
 	asked       bool      // live: "info" sent since it
+	silence     *silence  // live: hint when a connected port gives no reading
+	linkLines   func() int64
 }
 
 func newEngine(p *Pipeline, newAcc func() analyzer) *engine {

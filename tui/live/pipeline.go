@@ -2,6 +2,7 @@ package live
 
 import (
 	"errors"
+	"fmt"
 	"sync"
 	"time"
 
@@ -133,18 +134,20 @@ type Pipeline struct {
 	held    bool    // the replay starts held
 	maxPts  int
 
-	mu     sync.Mutex
-	box    Snapshot
-	notify chan struct{}
-	quit   chan struct{}
-	once   sync.Once
-	closed chan struct{} // closed when the goroutine has finished
+	mu       sync.Mutex
+	box      Snapshot
+	notify   chan struct{}
+	quit     chan struct{}
+	once     sync.Once
+	closeErr error         // set once by Close
+	closed   chan struct{} // closed when the goroutine has finished
 
 	// Source hooks, set by the constructors.
 	sendFn  func(cmd string) error
 	markFn  func(note string) error
 	closeFn func() error
-	ctl     chan control // replay controls; nil for live sources
+	notesFn func() []string // QuitNotes; nil = nothing to say
+	ctl     chan control    // replay controls; nil for live sources
 
 	// Advice runs beside the pipeline so it never holds up the analysis.
 	adv    adviser
@@ -219,17 +222,40 @@ func (p *Pipeline) Mark(note string) error {
 	return p.markFn(note)
 }
 
-// Close stops the source and waits for the pipeline goroutine to finish.
+// CloseWait bounds how long Close waits for the source to stop: a quit must end the
+// program within a second even when the input is blocked (a FIFO whose writer stays
+// open, a stuck device). The link flushes its capture within its own, shorter bound.
+const CloseWait = 500 * time.Millisecond
+
+// ErrStillBlocked is returned (wrapped) by Close when the source was still blocked in a
+// read or write after CloseWait; it was left behind, which is harmless when the program
+// ends next.
+var ErrStillBlocked = errors.New("the input was still blocked; left it")
+
+// Close stops the source and waits up to CloseWait for it and the pipeline goroutine to
+// finish. It returns the source's close error (a recording that could not be written),
+// or ErrStillBlocked.
 func (p *Pipeline) Close() error {
-	var err error
 	p.once.Do(func() {
 		close(p.quit)
-		if p.closeFn != nil {
-			err = p.closeFn()
+		done := make(chan error, 1)
+		go func() {
+			var err error
+			if p.closeFn != nil {
+				err = p.closeFn()
+			}
+			<-p.closed
+			done <- err
+		}()
+		t := time.NewTimer(CloseWait)
+		defer t.Stop()
+		select {
+		case p.closeErr = <-done:
+		case <-t.C:
+			p.closeErr = fmt.Errorf("%s: %w", p.name, ErrStillBlocked)
 		}
 	})
-	<-p.closed
-	return err
+	return p.closeErr
 }
 
 // Ready returns a channel that receives when a new snapshot waits to be taken.

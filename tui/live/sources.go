@@ -55,11 +55,16 @@ func NewPort(o PortOptions) *Pipeline {
 	p := newPipeline(name, o.Retain, o.adviser())
 	p.canSend = true
 	p.sendFn = link.Send
+	marks := &markLog{start: link.StartedAt()}
 	p.markFn = func(note string) error {
+		marks.add(note)
 		link.Annotate("mark " + note)
 		return nil
 	}
 	p.closeFn = link.Close
+	p.notesFn = func() []string {
+		return recordNotes(o.Record, link.Stats().Lines, marks.list(), link.Err())
+	}
 	c := newEngine(p, o.analyzer(name))
 	c.stats.State = "opening"
 	var parser telemetry.Parser
@@ -78,6 +83,8 @@ func NewPort(o PortOptions) *Pipeline {
 			st.Recording = "FAILED " + telemetry.SanitizeN([]byte(err.Error()), 60)
 		}
 	}
+	c.silence = &silence{cfg: link.Config()}
+	c.linkLines = func() int64 { return link.Stats().Lines }
 	go p.runLive(link, &parser, c)
 	return p
 }
@@ -102,6 +109,12 @@ func (p *Pipeline) runLive(link *wire.Link, parser *telemetry.Parser, c *engine)
 				m := parser.Meta()
 				if !m.Has(telemetry.FieldVref) || !m.Has(telemetry.FieldADCBits) {
 					link.Send("info")
+				}
+			}
+			if st, changed, hint := c.silence.check(time.Now(), c.stats.State, c.samples, c.lineCount()); changed {
+				c.stats.State = st
+				if hint != "" {
+					c.event(EventInfo, hint)
 				}
 			}
 			c.flush(false)
@@ -142,6 +155,9 @@ func (c *engine) line(parser *telemetry.Parser, ln wire.Line, start time.Time) {
 			parser.ResetClock()
 			c.connectedAt, c.asked, c.haveN = time.Now(), false, false
 			c.stats.State = "connected"
+			if c.silence != nil {
+				c.silence.connected(c.connectedAt, c.samples, c.lineCount())
+			}
 			c.event(EventState, kind)
 		case wire.EventUnplugged:
 			c.stats.State = "UNPLUGGED, waiting for the board"

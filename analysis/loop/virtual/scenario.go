@@ -55,6 +55,10 @@ type Faults struct {
 	UnplugAfter  float64 // the board is unplugged once after UnplugAfter seconds
 	ReplugAfter  float64 // and plugged in again ReplugAfter seconds later (0 = 1 s)
 	BootTime     float64 // how long a boot takes after a reset or a re-plug (0 = 50 ms)
+	// NoFlowControl: on a pseudo-terminal (sim --pty), output the reader does not take in
+	// time is dropped, as by a USB serial bridge without flow control; by default the
+	// board waits for the reader, as with flow control.
+	NoFlowControl bool
 }
 
 // Scenario is everything a virtual board needs: the true circuit, the ADC, the controller,
@@ -456,6 +460,16 @@ var Keys = []Key{
 	siKey("unplug-after", "s", "unplug the board once after this time, 0 = never", func(sc *Scenario) *float64 { return &sc.Faults.UnplugAfter }),
 	siKey("replug-after", "s", "plug it in again this long after the unplug (0 = 1 s)", func(sc *Scenario) *float64 { return &sc.Faults.ReplugAfter }),
 	siKey("boot-time", "s", "how long a boot takes after a reset or re-plug (0 = 50 ms)", func(sc *Scenario) *float64 { return &sc.Faults.BootTime }),
+	{Name: "no-flow-control", Help: "true: on a pseudo-terminal, drop the bytes a slow reader does not take, as a USB bridge without flow control does (default: the board waits)",
+		set: func(sc *Scenario, v string) error {
+			x, err := strconv.ParseBool(strings.TrimSpace(v))
+			if err != nil {
+				return fmt.Errorf("want true or false: %q", v)
+			}
+			sc.Faults.NoFlowControl = x
+			return nil
+		},
+		get: func(sc *Scenario) string { return strconv.FormatBool(sc.Faults.NoFlowControl) }},
 }
 
 // round12 rounds x to 12 significant digits, so that "100n" is 1e-07 and not
@@ -557,6 +571,11 @@ func WriteScenario(w io.Writer, sc *Scenario) error {
 			for _, c := range sc.Script {
 				fmt.Fprintf(bw, "at = %ss %s\n", strconv.FormatFloat(c.At, 'g', -1, 64), c.Line)
 			}
+			continue
+		}
+		if k.Name == "no-flow-control" && !sc.Faults.NoFlowControl {
+			// A setting of the pseudo-terminal, not of the data: written only when set,
+			// so that the scenarios written before it existed read the same.
 			continue
 		}
 		fmt.Fprintf(bw, "%s = %s\n", k.Name, k.get(sc))
