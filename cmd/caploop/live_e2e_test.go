@@ -167,6 +167,7 @@ func TestReplayScreenQuits(t *testing.T) {
 		t.Skip("end-to-end screen test; skipped with -short")
 	}
 	needTmux(t)
+	t.Parallel()
 	dir := t.TempDir()
 	bin := buildCaploop(t, dir)
 	capture, err := filepath.Abs("../../testdata/tuned.cap")

@@ -229,6 +229,7 @@ func TestRecordCommand(t *testing.T) {
 	if testing.Short() {
 		t.Skip("builds the caploop binary; skipped with -short")
 	}
+	t.Parallel()
 	bin := buildCaploop(t, t.TempDir())
 
 	tests := []struct {
