@@ -99,10 +99,10 @@ func runExport(stdout, stderr io.Writer, in string, f *exportFlags) error {
 		return withCode(2, err)
 	}
 	if stats.Rejected > 0 {
-		fmt.Fprintf(stderr, "caploop: export: %d lines of %s could not be read and were left out\n", stats.Rejected, sc.Name)
+		fmt.Fprintf(stderr, "caploop: export: %d lines of %s could not be read and were left out\n", stats.Rejected, clean(sc.Name))
 	}
 	if res.Beyond > 0 {
-		fmt.Fprintf(stderr, "caploop: export: %s grew while it was read; the %d samples after the first pass are left out\n", sc.Name, res.Beyond)
+		fmt.Fprintf(stderr, "caploop: export: %s grew while it was read; the %d samples after the first pass are left out\n", clean(sc.Name), res.Beyond)
 	}
 	if res.UnknownExtras > 0 {
 		fmt.Fprintf(stderr, "caploop: export: %d values of channels that appeared after the first pass are left out\n", res.UnknownExtras)

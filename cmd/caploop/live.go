@@ -43,7 +43,9 @@ board (after a y/n question) and shows the figures before and after it.
 
 Without PORT, live uses the only USB serial device; with several it lists them with
 their USB ids and asks which one (on a terminal). The screen reconnects by itself after an unplug or a board reset and says so.
---record writes the same capture as caploop record, marks included.`,
+--record writes the same capture as caploop record, marks included; an existing
+capture is overwritten only with --force, and none is left behind when the port never
+opened.`,
 		Example: `  caploop live
   caploop live /dev/ttyACM0 --record bench.cap
   caploop live /dev/ttyUSB0 --baud 57600 --parity even --window 500ms`,
@@ -63,9 +65,17 @@ their USB ids and asks which one (on a terminal). The screen reconnects by itsel
 			if err != nil || baud <= 0 || baud > math.MaxInt32 || baud != math.Trunc(baud) {
 				return withCode(2, fmt.Errorf("live: --baud %q: want a whole positive number such as 115200 or 1M", f.baud))
 			}
-			if f.record != "" && !f.force {
-				if _, err := os.Stat(f.record); err == nil {
-					return withCode(2, fmt.Errorf("live: %s exists; use --force to overwrite it", f.record))
+			// Checked before anything is opened, so a session that cannot start leaves
+			// no capture file behind.
+			if !term.IsTerminal(int(os.Stdout.Fd())) {
+				return withCode(2, errNoTerminal)
+			}
+			if f.record != "" {
+				if _, err := checkTarget(f.record); err != nil {
+					return withCode(2, fmt.Errorf("live: --record: %w", err))
+				}
+				if _, err := os.Lstat(f.record); err == nil && !f.force {
+					return withCode(2, fmt.Errorf("live: %s exists; use --force to overwrite it", clean(f.record)))
 				}
 			}
 			cfg := wire.SerialConfig{Path: port, Baud: int(baud), DataBits: f.dataBits, Parity: f.parity, StopBits: f.stopBits}

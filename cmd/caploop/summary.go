@@ -49,7 +49,8 @@ Gates turn it into a CI check: the exit code is 1 when a gate fails (or, with
 otherwise. A gate's limit carries its unit (20mV, 150ms); a bare number or an empty
 value is refused. The count gates (--max-jumps, --max-rejected, --max-gaps) take plain
 whole numbers. --junit writes a JUnit XML report with one test case per gate per
-segment (or step); - is standard output.
+segment (or step); --junit - (or --report -) prints that file on standard output
+instead of the text.
 
 --json prints one document for one file and an array for several; --jsonl one compact
 document per line. Each carries schema_version; numbers keep 6 significant digits.
@@ -94,8 +95,17 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 	if f.json && f.jsonl {
 		return withCode(2, errors.New("summary: give --json or --jsonl, not both"))
 	}
-	if (f.json || f.jsonl) && f.junit == "-" {
-		return withCode(2, errors.New("summary: --junit - and JSON would share standard output; write the JUnit report to a file"))
+	toStdout := 0
+	for _, p := range []string{f.junit, f.rep.report} {
+		if p == "-" {
+			toStdout++
+		}
+	}
+	switch {
+	case toStdout > 1:
+		return withCode(2, errors.New("summary: only one of --junit and --report can be - (standard output)"))
+	case toStdout == 1 && (f.json || f.jsonl):
+		return withCode(2, errors.New("summary: JSON and a --junit or --report on - would share standard output; write one of them to a file"))
 	}
 	if err := f.rep.check(); err != nil {
 		return err
@@ -110,7 +120,7 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 		r := summarizeFile(name, stderr, f.rep.quiet, tol)
 		if r.Err != nil {
 			unusable++
-			fmt.Fprintf(stderr, "caploop: %v\n", r.Err)
+			fmt.Fprintf(stderr, "caploop: %s\n", errorText(r.Err))
 		}
 		if r.Summary != nil && r.Err == nil {
 			if !f.noAdvice {
@@ -126,7 +136,12 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 		results = append(results, r)
 	}
 
-	out := newCheckedWriter(stdout)
+	// With a derived file on standard output, that file is the only thing printed there.
+	text := stdout
+	if toStdout > 0 {
+		text = io.Discard
+	}
+	out := newCheckedWriter(text)
 	switch {
 	case f.json || f.jsonl:
 		writeSummaryJSON(out, results, f.jsonl)
@@ -163,7 +178,7 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 			}
 		}
 		if len(docs) > 0 {
-			if err := f.rep.write(docs, note); err != nil {
+			if err := f.rep.write(docs, note, stdout); err != nil {
 				return err
 			}
 		}
