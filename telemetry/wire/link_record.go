@@ -109,7 +109,6 @@ func (l *Link) flusher() {
 	}
 }
 
-
 // createRecordFile creates (or truncates) the capture file path, refusing a path that is
 // a symbolic link, a device, a FIFO, a socket or a folder.
 func createRecordFile(path string) (*os.File, error) {
