@@ -16,8 +16,8 @@ const SchemaVersion = 1
 const JSONDigits = 6
 
 // MarshalJSON returns v as JSON the way every caploop document is written: numbers with
-// a fraction or an exponent rounded to JSONDigits significant digits (whole numbers, such
-// as counts, stay exact), '<', '>' and '&' left as they are (no \u003c), and indented by
+// a fraction or an exponent rounded to JSONDigits significant digits (whole numbers up to
+// 16 digits, such as counts, stay exact), '<', '>' and '&' left as they are (no \u003c), and indented by
 // two spaces when indent is true. There is no trailing newline.
 func MarshalJSON(v any, indent bool) ([]byte, error) {
 	var buf bytes.Buffer
@@ -85,10 +85,12 @@ func roundNumbers(b []byte, digits int) []byte {
 	return out
 }
 
-// roundLiteral rounds one number literal; it is returned unchanged when it is a whole
-// number written without a fraction, or cannot be read.
+// roundLiteral rounds one number literal. A whole number written without a fraction is
+// returned unchanged (a count stays exact) unless it has more digits than a float64
+// holds exactly (above 2^53: a large float written in full); so is a literal that cannot
+// be read.
 func roundLiteral(lit []byte, frac bool, digits int) []byte {
-	if !frac {
+	if !frac && len(bytes.TrimPrefix(lit, []byte{'-'})) <= 16 {
 		return lit
 	}
 	v, err := strconv.ParseFloat(string(lit), 64)
