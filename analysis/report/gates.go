@@ -214,17 +214,20 @@ type junitMessage struct {
 // step; a file that could not be used is one test case with an error.
 func WriteJUnit(w io.Writer, results []*FileResult) error {
 	all := junitSuites{Name: "caploop summary"}
+	// Every text passes the sanitiser before the XML escaping: XML 1.0 cannot carry most
+	// C0 controls, and a bidi control would reorder what a CI page shows.
 	for _, r := range results {
-		s := junitSuite{Name: r.Name}
+		name := clean(r.Name)
+		s := junitSuite{Name: name}
 		if r.Err != nil {
-			s.Cases = append(s.Cases, junitCase{Name: "read", ClassName: r.Name, Error: &junitMessage{Message: r.Err.Error(), Type: "unusable input"}})
+			s.Cases = append(s.Cases, junitCase{Name: "read", ClassName: name, Error: &junitMessage{Message: clean(r.Err.Error()), Type: "unusable input"}})
 			s.Errors++
 		}
 		for _, g := range r.Gates {
-			c := junitCase{Name: g.Gate + " " + g.Scope, ClassName: r.Name}
+			c := junitCase{Name: g.Gate + " " + g.Scope, ClassName: name}
 			switch g.Status {
 			case GateFail:
-				c.Failure = &junitMessage{Message: g.Message, Type: g.Gate}
+				c.Failure = &junitMessage{Message: clean(g.Message), Type: g.Gate}
 				s.Failures++
 			case GateSkip:
 				c.Skipped = &junitMessage{Message: g.Message}

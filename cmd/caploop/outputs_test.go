@@ -3,6 +3,7 @@ package main
 import (
 	"bytes"
 	"encoding/json"
+	"encoding/xml"
 	"errors"
 	"os"
 	"path/filepath"
@@ -291,5 +292,41 @@ func TestHostileFileNameStderr(t *testing.T) {
 	// main's last word: errorText sanitises whatever error reaches it.
 	if got := errorText(errors.New("open " + hostileName + ": gone\nsecond " + hostileName)); rawControls(got) || strings.Count(got, "\n") != 1 {
 		t.Errorf("errorText = %q", got)
+	}
+}
+
+// TestHostileFileNameJUnit: in the JUnit report (on standard output with --junit -) the
+// file name is escaped text: well-formed XML 1.0, no C0 or bidi control.
+func TestHostileFileNameJUnit(t *testing.T) {
+	t.Parallel()
+	dir := t.TempDir()
+	data, err := os.ReadFile(capture(t, "three-state-good.txt"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	path := filepath.Join(dir, hostileName+"\x01")
+	if err := os.WriteFile(path, data, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out, stderr, code := runSummaryCmd(t, "--no-advice", "--max-ripple", "1mV", "--junit", "-", path, filepath.Join(dir, "missing"+hostileName))
+	if code != 2 {
+		t.Fatalf("exit code %d, want 2 (one file missing): %s", code, stderr)
+	}
+	if strings.HasPrefix(out, "files (worst") || !strings.HasPrefix(out, "<?xml") {
+		t.Fatalf("--junit - should be the only thing on standard output:\n%s", out)
+	}
+	if rawControls(out) || strings.ContainsRune(out, '\x01') || strings.ContainsRune(out, '\uFFFD') {
+		t.Errorf("raw control in the XML: %q", out)
+	}
+	var doc struct {
+		Suites []struct {
+			Name string `xml:"name,attr"`
+		} `xml:"testsuite"`
+	}
+	if err := xml.Unmarshal([]byte(out), &doc); err != nil {
+		t.Fatalf("not XML: %v", err)
+	}
+	if len(doc.Suites) != 2 || !strings.Contains(doc.Suites[0].Name, `\x1b]52;c;aGk=\x07`) || !strings.HasSuffix(doc.Suites[0].Name, `reversed.txt\x01`) {
+		t.Errorf("suites %+v; want the names as escaped text", doc.Suites)
 	}
 }
