@@ -50,3 +50,12 @@ func TestLinkRecordPathRefusesLink(t *testing.T) {
 		t.Errorf("the link was replaced or removed: %v", err)
 	}
 }
+
+// TestSerialErrorSanitised: a port name with escapes is shown as escaped text.
+func TestSerialErrorSanitised(t *testing.T) {
+	e := &SerialError{Path: "/dev/tty\x1b]0;pwned\x07\u202e", Op: "open", Kind: ErrPortNotFound}
+	got := e.Error()
+	if strings.ContainsAny(got, "\x1b\x07\u202e") || !strings.Contains(got, `/dev/tty\x1b]0;pwned\x07\u{202e} not found`) {
+		t.Errorf("Error() = %q", got)
+	}
+}
