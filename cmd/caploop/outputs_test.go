@@ -330,3 +330,40 @@ func TestHostileFileNameJUnit(t *testing.T) {
 		t.Errorf("suites %+v; want the names as escaped text", doc.Suites)
 	}
 }
+
+// TestLiveRecordNoTerminal: a live session that cannot start (no terminal) leaves no
+// capture file behind, and an existing capture is kept.
+func TestLiveRecordNoTerminal(t *testing.T) {
+	if isTerminal(os.Stdout) {
+		t.Skip("standard output is a terminal here")
+	}
+	dir := t.TempDir()
+	path := filepath.Join(dir, "bench.cap")
+	cmd := newLiveCmd()
+	cmd.SetArgs([]string{filepath.Join(dir, "ttyNONE"), "--record", path})
+	cmd.SetOut(new(bytes.Buffer))
+	cmd.SetErr(new(bytes.Buffer))
+	err := cmd.Execute()
+	var ee *exitError
+	if !errors.As(err, &ee) || ee.code != 2 || !errors.Is(err, errNoTerminal) {
+		t.Fatalf("got %v, want exit code 2 and the no-terminal message", err)
+	}
+	if _, err := os.Lstat(path); !os.IsNotExist(err) {
+		t.Errorf("capture left behind: %v", err)
+	}
+}
+
+// TestReportToStdout: --report - writes the HTML page alone on standard output.
+func TestReportToStdout(t *testing.T) {
+	t.Parallel()
+	out, stderr, code := runSummaryCmd(t, "--no-advice", "--report", "-", capture(t, "three-state-good.txt"))
+	if code != 0 {
+		t.Fatalf("exit code %d: %s", code, stderr)
+	}
+	if !strings.HasPrefix(strings.TrimSpace(out), "<!DOCTYPE html>") || strings.Contains(out, "files (worst") {
+		t.Errorf("standard output is not the report alone: %.200q", out)
+	}
+	if _, _, code := runSummaryCmd(t, "--report", "-", "--junit", "-", capture(t, "three-state-good.txt")); code != 2 {
+		t.Errorf("--report - with --junit -: exit code %d, want 2", code)
+	}
+}
