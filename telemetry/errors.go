@@ -119,7 +119,7 @@ type ParseError struct {
 func (e *ParseError) Error() string {
 	var b []byte
 	if e.Name != "" {
-		b = append(b, e.Name...)
+		b = append(b, SanitizeN([]byte(e.Name), 200)...) // a file name is outside text
 		b = append(b, ':')
 	} else {
 		b = append(b, "line "...)

@@ -1,6 +1,8 @@
 package telemetry
 
 import (
+	"io/fs"
+	"os"
 	"unicode"
 	"unicode/utf8"
 )
@@ -110,4 +112,21 @@ func printableText(b []byte) bool {
 		i += w
 	}
 	return true
+}
+
+// CleanPathError returns err, when it is an *fs.PathError or an *os.LinkError, with its
+// paths sanitised, so "open NAME: no such file" never carries a file name's control
+// bytes to a terminal. Other errors are returned as they are; errors.Is still works.
+func CleanPathError(err error) error {
+	switch e := err.(type) {
+	case *fs.PathError:
+		c := *e
+		c.Path = SanitizeN([]byte(e.Path), 200)
+		return &c
+	case *os.LinkError:
+		c := *e
+		c.Old, c.New = SanitizeN([]byte(e.Old), 200), SanitizeN([]byte(e.New), 200)
+		return &c
+	}
+	return err
 }

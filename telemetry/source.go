@@ -33,11 +33,11 @@ func OpenFile(path string) (Source, error) {
 	}
 	f, err := os.Open(path)
 	if err != nil {
-		return nil, fmt.Errorf("telemetry: %w", err)
+		return nil, fmt.Errorf("telemetry: %w", CleanPathError(err))
 	}
 	if fi, err := f.Stat(); err == nil && fi.IsDir() {
 		f.Close()
-		return nil, fmt.Errorf("telemetry: %s is a directory, not a telemetry file", path)
+		return nil, fmt.Errorf("telemetry: %s is a directory, not a telemetry file", SanitizeN([]byte(path), 200))
 	}
 	src, err := newReaderSource(path, f, f)
 	if err != nil {
@@ -76,12 +76,12 @@ func newReaderSource(name string, r io.Reader, c io.Closer) (*readerSource, erro
 	s := &readerSource{name: name, r: br, c: c}
 	head, err := br.Peek(2)
 	if err != nil && !errors.Is(err, io.EOF) {
-		return nil, fmt.Errorf("telemetry: read %s: %w", name, err)
+		return nil, fmt.Errorf("telemetry: read %s: %w", SanitizeN([]byte(name), 200), CleanPathError(err))
 	}
 	if len(head) == 2 && head[0] == gzipMagic[0] && head[1] == gzipMagic[1] {
 		gz, err := gzip.NewReader(br)
 		if err != nil {
-			return nil, fmt.Errorf("telemetry: %s: bad gzip data: %w", name, err)
+			return nil, fmt.Errorf("telemetry: %s: bad gzip data: %w", SanitizeN([]byte(name), 200), err)
 		}
 		s.gz = gz
 		s.r = gz
@@ -92,7 +92,7 @@ func newReaderSource(name string, r io.Reader, c io.Closer) (*readerSource, erro
 func (s *readerSource) Read(p []byte) (int, error) {
 	n, err := s.r.Read(p)
 	if err != nil && !errors.Is(err, io.EOF) && s.gz != nil {
-		err = fmt.Errorf("telemetry: %s: bad gzip data: %w", s.name, err)
+		err = fmt.Errorf("telemetry: %s: bad gzip data: %w", SanitizeN([]byte(s.name), 200), err)
 	}
 	return n, err
 }

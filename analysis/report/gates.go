@@ -6,6 +6,7 @@ import (
 	"io"
 	"math"
 	"strconv"
+	"strings"
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/telemetry/si"
@@ -39,9 +40,9 @@ func (g *GateText) Parse() (Gates, error) {
 		if p.text == "" {
 			continue
 		}
-		v, err := si.ParseUnit(p.text, p.unit)
-		if err != nil || v < 0 {
-			return s, fmt.Errorf("summary: %s %q: want a value >= 0 in %s, such as 20m%s", p.flag, p.text, p.unit, p.unit)
+		v, err := parseGateValue(p.flag, p.text, p.unit)
+		if err != nil {
+			return s, err
 		}
 		*p.dst = v
 	}
@@ -52,14 +53,36 @@ func (g *GateText) Parse() (Gates, error) {
 		if p.text == "" {
 			continue
 		}
-		n, err := strconv.ParseInt(p.text, 10, 64)
+		n, err := strconv.ParseInt(strings.TrimSpace(p.text), 10, 64)
 		if err != nil || n < 0 {
-			return s, fmt.Errorf("summary: %s %q: want a whole number >= 0", p.flag, p.text)
+			return s, fmt.Errorf("summary: %s %q: want a plain whole number >= 0, such as 0 or 3", p.flag, clean(p.text))
 		}
 		*p.dst = float64(n)
 	}
 	return s, nil
 }
+
+// parseGateValue reads a gate limit that must carry its unit: "20mV", "0.02 V", "150ms".
+// A bare number is refused, since "--max-ripple 20" meant as millivolts would read as
+// 20 V and never fail.
+func parseGateValue(flag, text, unit string) (float64, error) {
+	t := strings.TrimSpace(text)
+	want := fmt.Errorf("summary: %s %q: give the limit with its unit, such as %s", flag, clean(text), gateExample[unit])
+	if len(t) <= len(unit) || !strings.EqualFold(t[len(t)-len(unit):], unit) {
+		return 0, want
+	}
+	v, err := si.ParseUnit(t, unit)
+	if err != nil {
+		return 0, want
+	}
+	if v < 0 {
+		return 0, fmt.Errorf("summary: %s %q: a limit cannot be negative", flag, clean(text))
+	}
+	return v, nil
+}
+
+// gateExample is the example given in a gate value's error, by unit.
+var gateExample = map[string]string{"V": "20mV or 0.02V", "s": "150ms or 0.15s"}
 
 // Gate statuses.
 const (
@@ -191,17 +214,20 @@ type junitMessage struct {
 // step; a file that could not be used is one test case with an error.
 func WriteJUnit(w io.Writer, results []*FileResult) error {
 	all := junitSuites{Name: "caploop summary"}
+	// Every text passes the sanitiser before the XML escaping: XML 1.0 cannot carry most
+	// C0 controls, and a bidi control would reorder what a CI page shows.
 	for _, r := range results {
-		s := junitSuite{Name: r.Name}
+		name := clean(r.Name)
+		s := junitSuite{Name: name}
 		if r.Err != nil {
-			s.Cases = append(s.Cases, junitCase{Name: "read", ClassName: r.Name, Error: &junitMessage{Message: r.Err.Error(), Type: "unusable input"}})
+			s.Cases = append(s.Cases, junitCase{Name: "read", ClassName: name, Error: &junitMessage{Message: clean(r.Err.Error()), Type: "unusable input"}})
 			s.Errors++
 		}
 		for _, g := range r.Gates {
-			c := junitCase{Name: g.Gate + " " + g.Scope, ClassName: r.Name}
+			c := junitCase{Name: g.Gate + " " + g.Scope, ClassName: name}
 			switch g.Status {
 			case GateFail:
-				c.Failure = &junitMessage{Message: g.Message, Type: g.Gate}
+				c.Failure = &junitMessage{Message: clean(g.Message), Type: g.Gate}
 				s.Failures++
 			case GateSkip:
 				c.Skipped = &junitMessage{Message: g.Message}

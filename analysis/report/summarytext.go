@@ -214,7 +214,7 @@ func WriteSummaryText(w io.Writer, s *analysis.Summary) {
 		fmt.Fprintln(w, "  none")
 	}
 	for _, d := range s.Diagnostics {
-		fmt.Fprintf(w, "  %-7s %s\n", d.Severity, d.Message)
+		fmt.Fprintf(w, "  %-7s %s\n", d.Severity, telemetry.Sanitize([]byte(d.Message)))
 	}
 }
 
@@ -292,6 +292,7 @@ func WriteComparison(w io.Writer, results []*FileResult) {
 			figure.Value(row.err, "V"), figure.Value(row.settle, "s"), figure.Value(row.cycle, "s"), row.jumps, row.fails)
 	}
 	tw.Flush()
+	writeFailures(w, results)
 	if len(results) < 2 || results[0].Err != nil {
 		return
 	}
@@ -356,7 +357,7 @@ func writeEventsText(w io.Writer, s *analysis.Summary) {
 			if e.AtS != nil {
 				at = si.FormatDigits(*e.AtS, "s", 4)
 			}
-			fmt.Fprintf(tw, "  %s\tline %d\t%s\t%s\n", at, e.Line, e.Kind, e.Text)
+			fmt.Fprintf(tw, "  %s\tline %d\t%s\t%s\n", at, e.Line, e.Kind, telemetry.SanitizeN([]byte(e.Text), 200))
 		}
 		tw.Flush()
 		if s.EventsOmitted > 0 {
@@ -382,4 +383,20 @@ func writeEventsText(w io.Writer, s *analysis.Summary) {
 	if l := s.SuspectLines; l.Count > 0 {
 		fmt.Fprintf(w, "\nsuspect lines: %d data lines lack a field the other lines carry (lines %s)\n", l.Count, lines(l))
 	}
+}
+
+// writeFailures names every failing gate with its file, under the comparison table.
+func writeFailures(w io.Writer, results []*FileResult) {
+	tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', 0)
+	head := false
+	for _, r := range results {
+		for _, g := range r.Failed() {
+			if !head {
+				fmt.Fprintln(w, "\nfailed gates")
+				head = true
+			}
+			fmt.Fprintf(tw, "  %s\t%s\t%s\t%s\n", telemetry.SanitizeN([]byte(r.Name), 60), g.Gate, g.Scope, g.Message)
+		}
+	}
+	tw.Flush()
 }

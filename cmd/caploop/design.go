@@ -1,7 +1,6 @@
 package main
 
 import (
-	"encoding/json"
 	"fmt"
 	"strings"
 
@@ -9,6 +8,7 @@ import (
 
 	"github.com/caploop/caploop/analysis/advice"
 	"github.com/caploop/caploop/analysis/loop"
+	"github.com/caploop/caploop/analysis/report"
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/si"
 )
@@ -65,13 +65,19 @@ E24. Values outside the input range table are refused, never replaced by default
 			if err != nil {
 				return withCode(2, err)
 			}
-			out := cmd.OutOrStdout()
+			out := newCheckedWriter(cmd.OutOrStdout())
 			if f.jsonOut {
-				enc := json.NewEncoder(out)
-				enc.SetIndent("", "  ")
-				return enc.Encode(a)
+				doc := struct {
+					SchemaVersion int `json:"schema_version"`
+					*advice.Advice
+				}{report.SchemaVersion, a}
+				if err := report.WriteJSON(out, doc, true); err != nil && out.err == nil {
+					return withCode(2, fmt.Errorf("design: %w", err))
+				}
+			} else if err := a.WriteText(out); err != nil && out.err == nil {
+				return withCode(2, fmt.Errorf("design: %w", err))
 			}
-			return a.WriteText(out)
+			return out.Close("design")
 		},
 	}
 	fl := cmd.Flags()

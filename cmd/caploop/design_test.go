@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/json"
 	"errors"
+	"math"
 	"strings"
 	"testing"
 )
@@ -57,11 +58,19 @@ func TestDesignCommand(t *testing.T) {
 		if err := json.Unmarshal([]byte(out), &doc); err != nil {
 			t.Fatalf("not JSON: %v\n%s", err, out)
 		}
+		// No HTML escaping: the deadband rule's "<" stays "<".
+		if strings.Contains(out, `\u003c`) || !strings.Contains(out, " < ") {
+			t.Errorf("want a plain < in the JSON, no \\u003c:\n%s", out[:min(len(out), 1500)])
+		}
+		if !strings.Contains(out, `"schema_version": 1`) {
+			t.Errorf("no schema_version 1 at the top")
+		}
 		if doc.DeadbandCounts == nil || len(doc.Candidates) == 0 {
 			t.Fatalf("doc = %+v, want a deadband and candidates", doc)
 		}
 		c := doc.Candidates[0]
-		if !c.Meets || c.Verdict != "meets goals" || c.Ripple > 0.1 || c.Settle > 0.2 || c.PinA != 5/c.ROhm {
+		// JSON numbers keep 6 significant digits: the pin current to that precision.
+		if !c.Meets || c.Verdict != "meets goals" || c.Ripple > 0.1 || c.Settle > 0.2 || math.Abs(c.PinA-5/c.ROhm) > 5e-6*c.PinA {
 			t.Errorf("top candidate %+v does not meet 100 mV / 200 ms or has the wrong pin current", c)
 		}
 	})

@@ -100,10 +100,10 @@ func runExport(stdout, stderr io.Writer, in string, f *exportFlags) error {
 		return withCode(2, err)
 	}
 	if stats.Rejected > 0 {
-		fmt.Fprintf(stderr, "caploop: export: %s of %s could not be read and %s left out\n", figure.Count(stats.Rejected, "line"), sc.Name, figure.Pick(stats.Rejected, "was", "were"))
+		fmt.Fprintf(stderr, "caploop: export: %s of %s could not be read and %s left out\n", figure.Count(stats.Rejected, "line"), clean(sc.Name), figure.Pick(stats.Rejected, "was", "were"))
 	}
 	if res.Beyond > 0 {
-		fmt.Fprintf(stderr, "caploop: export: %s grew while it was read; the %s after the first pass %s left out\n", sc.Name, figure.Count(res.Beyond, "sample"), figure.Pick(res.Beyond, "is", "are"))
+		fmt.Fprintf(stderr, "caploop: export: %s grew while it was read; the %s after the first pass %s left out\n", clean(sc.Name), figure.Count(res.Beyond, "sample"), figure.Pick(res.Beyond, "is", "are"))
 	}
 	if res.UnknownExtras > 0 {
 		fmt.Fprintf(stderr, "caploop: export: %s of channels that appeared after the first pass %s left out\n", figure.Count(res.UnknownExtras, "value"), figure.Pick(res.UnknownExtras, "is", "are"))

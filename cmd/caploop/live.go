@@ -48,8 +48,9 @@ chosen for you: name one to use it. A PORT that is not there, not a serial devic
 not yours to open ends live at once (exit 2), unless --wait. The screen reconnects by
 itself after an unplug or a board reset and says so, and hints at the baud rate, the
 port or the firmware when a connected port gives no reading for a few seconds.
---record writes the same capture as caploop record, marks included, and its path and
-line count are printed on quit; without --record, marks made on the screen are printed on
+--record writes the same capture as caploop record, marks included (an existing
+capture is overwritten only with --force, and none is left behind when the port never
+opened), and its path and line count are printed on quit; without --record, marks made on the screen are printed on
 quit (they are not saved). q ends live within a second, even on a stuck port, after
 flushing the capture.
 
@@ -95,13 +96,21 @@ other devices, so it is never the default.`,
 				}
 				port = p
 			}
+			// Checked before anything is opened, so a session that cannot start leaves
+			// no capture file behind.
+			if !term.IsTerminal(int(os.Stdout.Fd())) {
+				return withCode(2, errNoTerminal)
+			}
 			baud, err := si.Parse(f.baud)
 			if err != nil || baud <= 0 || baud > math.MaxInt32 || baud != math.Trunc(baud) {
 				return withCode(2, fmt.Errorf("live: --baud %q: want a whole positive number such as 115200 or 1M", f.baud))
 			}
-			if f.record != "" && !f.force && len(ports) <= 1 {
-				if _, err := os.Stat(f.record); err == nil {
-					return withCode(2, fmt.Errorf("live: %s exists; use --force to overwrite it", f.record))
+			if f.record != "" && len(ports) <= 1 {
+				if _, err := checkTarget(f.record); err != nil {
+					return withCode(2, fmt.Errorf("live: --record: %w", err))
+				}
+				if _, err := os.Lstat(f.record); err == nil && !f.force {
+					return withCode(2, fmt.Errorf("live: %s exists; use --force to overwrite it", clean(f.record)))
 				}
 			}
 			if len(ports) > 1 {

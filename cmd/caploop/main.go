@@ -9,8 +9,11 @@ import (
 	"errors"
 	"fmt"
 	"os"
+	"strings"
 
 	"github.com/spf13/cobra"
+
+	"github.com/caploop/caploop/telemetry"
 )
 
 // commands holds the constructors of the subcommands; each subcommand's file adds its own
@@ -69,11 +72,22 @@ With no command, caploop shows the bench screen on its built-in virtual board.`,
 func main() {
 	root := newRoot()
 	if err := root.Execute(); err != nil {
-		fmt.Fprintln(os.Stderr, "caploop:", err)
+		fmt.Fprintln(os.Stderr, "caploop:", errorText(err))
 		var ee *exitError
 		if errors.As(err, &ee) {
 			os.Exit(ee.code)
 		}
 		os.Exit(2)
 	}
+}
+
+// errorText is the message of err made safe for a terminal: each line passes the one
+// sanitiser, so a file or port name with control bytes in an error from any layer never
+// reaches standard error raw.
+func errorText(err error) string {
+	lines := strings.Split(err.Error(), "\n")
+	for i, l := range lines {
+		lines[i] = telemetry.Sanitize([]byte(l))
+	}
+	return strings.Join(lines, "\n")
 }

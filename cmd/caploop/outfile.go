@@ -17,10 +17,14 @@ import (
 func writeOutput(path string, stdout io.Writer, fn func(w io.Writer) error) error {
 	if path == "" || path == "-" {
 		bw := bufio.NewWriterSize(stdout, 64<<10)
-		if err := fn(bw); err != nil {
-			return err
+		err := fn(bw)
+		if err == nil {
+			err = bw.Flush()
 		}
-		return bw.Flush()
+		if err != nil {
+			return fmt.Errorf("write to standard output: %w", telemetry.CleanPathError(err))
+		}
+		return nil
 	}
 	return writeReplacing(path, fn)
 }
@@ -34,7 +38,7 @@ func checkTarget(path string) (fs.FileMode, error) {
 		return 0, nil
 	}
 	if err != nil {
-		return 0, err
+		return 0, telemetry.CleanPathError(err)
 	}
 	m := fi.Mode()
 	var what string
@@ -74,7 +78,7 @@ func writeReplacing(path string, fn func(w io.Writer) error) (err error) {
 	}
 	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".*.tmp")
 	if err != nil {
-		return fmt.Errorf("write %s: %w", name, err)
+		return fmt.Errorf("write %s: %w", name, telemetry.CleanPathError(err))
 	}
 	defer func() {
 		if err != nil {
@@ -87,23 +91,23 @@ func writeReplacing(path string, fn func(w io.Writer) error) (err error) {
 		return err
 	}
 	if err := bw.Flush(); err != nil {
-		return fmt.Errorf("write %s: %w", name, err)
+		return fmt.Errorf("write %s: %w", name, telemetry.CleanPathError(err))
 	}
 	if err := tmp.Chmod(perm); err != nil {
-		return fmt.Errorf("write %s: %w", name, err)
+		return fmt.Errorf("write %s: %w", name, telemetry.CleanPathError(err))
 	}
 	if err := tmp.Sync(); err != nil {
-		return fmt.Errorf("write %s: %w", name, err)
+		return fmt.Errorf("write %s: %w", name, telemetry.CleanPathError(err))
 	}
 	if err := tmp.Close(); err != nil {
-		return fmt.Errorf("write %s: %w", name, err)
+		return fmt.Errorf("write %s: %w", name, telemetry.CleanPathError(err))
 	}
 	// Once more just before the rename: the path may have changed while fn ran.
 	if _, err := checkTarget(path); err != nil {
 		return err
 	}
 	if err := os.Rename(tmp.Name(), path); err != nil {
-		return fmt.Errorf("write %s: %w", name, err)
+		return fmt.Errorf("write %s: %w", name, telemetry.CleanPathError(err))
 	}
 	syncDir(filepath.Dir(path))
 	return nil
@@ -118,4 +122,26 @@ func syncDir(dir string) {
 	}
 	_ = d.Sync()
 	d.Close()
+}
+
+// createCapture creates the capture file path for writing records as they come. A
+// capture is data: an existing file is refused unless force is set, and then truncated
+// in place (keeping its mode). Like a derived file, a path that is a symbolic link, a
+// device, a FIFO, a socket or a folder is refused, force or not.
+func createCapture(path string, force bool) (*os.File, error) {
+	if _, err := checkTarget(path); err != nil {
+		return nil, err
+	}
+	flags := os.O_WRONLY | os.O_CREATE | os.O_EXCL | noFollow
+	if force {
+		flags = os.O_WRONLY | os.O_CREATE | os.O_TRUNC | noFollow
+	}
+	f, err := os.OpenFile(path, flags, 0o644)
+	if errors.Is(err, fs.ErrExist) {
+		return nil, fmt.Errorf("%s exists; choose another file or add --force to overwrite it", telemetry.SanitizeN([]byte(path), 200))
+	}
+	if err != nil {
+		return nil, telemetry.CleanPathError(err)
+	}
+	return f, nil
 }

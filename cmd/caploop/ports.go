@@ -48,6 +48,7 @@ func writePortsJSON(w io.Writer, ports []wire.PortInfo) error {
 	}
 	enc := json.NewEncoder(w)
 	enc.SetIndent("", "  ")
+	enc.SetEscapeHTML(false) // as every caploop JSON: '<' stays '<'
 	return enc.Encode(ports)
 }
 

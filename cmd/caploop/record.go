@@ -119,15 +119,8 @@ func runRecord(ctx context.Context, f recordFlags, stderr io.Writer) error {
 	if f.duration < 0 {
 		return withCode(2, fmt.Errorf("record: --duration %v is negative", f.duration))
 	}
-	flags := os.O_WRONLY | os.O_CREATE | os.O_EXCL
-	if f.force {
-		flags = os.O_WRONLY | os.O_CREATE | os.O_TRUNC
-	}
-	out, err := os.OpenFile(f.out, flags, 0o644)
+	out, err := createCapture(f.out, f.force)
 	if err != nil {
-		if errors.Is(err, os.ErrExist) {
-			return withCode(2, fmt.Errorf("record: %s exists; choose another --out or add --force", f.out))
-		}
 		return withCode(2, fmt.Errorf("record: %w", err))
 	}
 
@@ -198,7 +191,7 @@ loop:
 		return withCode(2, fmt.Errorf("record: %w", linkErr))
 	}
 	if err := errors.Join(closeErr, syncErr, outErr); err != nil {
-		return withCode(1, fmt.Errorf("record: capture %s may be incomplete: %w", f.out, err))
+		return withCode(1, fmt.Errorf("record: capture %s may be incomplete: %w", clean(f.out), err))
 	}
 	fmt.Fprintf(stderr, "%s: recorded %s in %s to %s (%d partial dropped, %s)\n",
 		reason, figure.Count(stats.Lines, "line"), time.Since(link.StartedAt()).Round(time.Millisecond), clean(f.out), stats.Partial, figure.Count(stats.Unplugs, "unplug"))

@@ -416,6 +416,14 @@ func TestRecordFlagErrors(t *testing.T) {
 	if err := os.WriteFile(existing, []byte("keep"), 0o644); err != nil {
 		t.Fatal(err)
 	}
+	link := filepath.Join(dir, "link.cap")
+	if err := os.Symlink(existing, link); err != nil {
+		t.Fatal(err)
+	}
+	fifo := filepath.Join(dir, "fifo.cap")
+	if err := syscall.Mkfifo(fifo, 0o600); err != nil {
+		t.Fatal(err)
+	}
 	tests := []struct {
 		name string
 		args []string
@@ -425,6 +433,9 @@ func TestRecordFlagErrors(t *testing.T) {
 		{"bad baud", []string{"/dev/null", "--out", filepath.Join(dir, "b.cap"), "--baud", "fast"}, "--baud"},
 		{"existing out", []string{"/dev/null", "--out", existing}, "--force"},
 		{"not a port", []string{os.DevNull, "--out", filepath.Join(dir, "c.cap")}, "not a serial port"},
+		// A capture path that is a link or a FIFO is refused, --force or not.
+		{"out a symbolic link", []string{"/dev/null", "--out", link, "--force"}, "refusing to write " + link + ": it is a symbolic link"},
+		{"out a FIFO", []string{"/dev/null", "--out", fifo, "--force"}, "refusing to write " + fifo + ": it is a FIFO"},
 	}
 	for _, tc := range tests {
 		t.Run(tc.name, func(t *testing.T) {

@@ -14,12 +14,15 @@ import (
 	"github.com/caploop/caploop/tui/live"
 )
 
+// errNoTerminal is why a screen cannot start.
+var errNoTerminal = errors.New("the bench screen needs a terminal; without one, use `caploop record` to capture or `caploop summary` to measure")
+
 // runScreen shows the bench screen on p until the user quits (q, Ctrl-C) or a SIGTERM
 // arrives, then stops the source (flushing any recording) and restores the terminal.
 func runScreen(p *live.Pipeline, span time.Duration) error {
 	if !term.IsTerminal(int(os.Stdout.Fd())) {
 		p.Close()
-		return withCode(2, errors.New("the bench screen needs a terminal; without one, use `caploop record` to capture or `caploop summary` to measure"))
+		return withCode(2, errNoTerminal)
 	}
 	color := os.Getenv("NO_COLOR") == "" && term.IsTerminal(int(os.Stdout.Fd()))
 	m := tui.New(p, tui.Options{Color: color, Span: span.Seconds()})

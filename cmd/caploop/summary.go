@@ -1,7 +1,6 @@
 package main
 
 import (
-	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
@@ -22,6 +21,8 @@ func init() { commands = append(commands, newSummaryCmd) }
 // summaryFlags are the flags of `caploop summary`.
 type summaryFlags struct {
 	json      bool
+	jsonl     bool
+	failOn    string
 	junit     string
 	detail    bool
 	noAdvice  bool
@@ -43,9 +44,19 @@ step the rise, settling, overshoot and slew; the identified plant (the real tau 
 charge, discharge and hold, v_high and v_low with 95 % intervals, ADC noise); and
 diagnostics as plain sentences, followed by the advice on deadband and R and C.
 
-Gates turn it into a CI check: the exit code is 1 when a gate fails, 2 when a file
-cannot be used (missing, unreadable, no samples), 0 otherwise. --junit writes a JUnit
-XML report with one test case per gate per segment (or step).
+Gates turn it into a CI check: the exit code is 1 when a gate fails (or, with
+--fail-on, a diagnostic at that level is present), 2 when a file cannot be used
+(missing, unreadable, no samples), a flag is wrong or an output cannot be written, 0
+otherwise. A gate's limit carries its unit (20mV, 150ms); a bare number or an empty
+value is refused. The count gates (--max-jumps, --max-rejected, --max-gaps) take plain
+whole numbers. --junit writes a JUnit XML report with one test case per gate per
+segment (or step); --junit - (or --report -) prints that file on standard output
+instead of the text.
+
+--json prints one document for one file and an array for several; --jsonl one compact
+document per line. Each carries schema_version; numbers keep 6 significant digits.
+Derived files (--junit, --report, --plot) are replaced; a path that is a symbolic
+link, a device or a FIFO is refused.
 
 With several files, a table gives one row per file and compares each with the first
 (before and after tuning); --detail adds each file's full text.
@@ -61,12 +72,17 @@ any board fails a gate, 2 when a capture cannot be used.`,
   caploop summary rig1 --max-ripple 20mV --json > rig1.json`,
 		Args: cobra.MinimumNArgs(1),
 		RunE: func(cmd *cobra.Command, args []string) error {
+			if err := emptyGateFlags(cmd.Flags()); err != nil {
+				return withCode(2, err)
+			}
 			return runSummary(cmd.OutOrStdout(), cmd.ErrOrStderr(), args, &f, strings.Join(append([]string{"caploop summary"}, args...), " "))
 		},
 	}
 	fl := cmd.Flags()
-	fl.BoolVar(&f.json, "json", false, "print one JSON document per file instead of text")
-	fl.StringVar(&f.junit, "junit", "", "write a JUnit XML report of the gates to this file")
+	fl.BoolVar(&f.json, "json", false, "print JSON instead of text: one document for one file, an array for several")
+	fl.BoolVar(&f.jsonl, "jsonl", false, "print JSON Lines instead of text: one compact document per file, one per line")
+	fl.StringVar(&f.failOn, "fail-on", "", "exit 1 when a diagnostic at this level or above is present: error or warning (default: diagnostics never fail)")
+	fl.StringVar(&f.junit, "junit", "", "write a JUnit XML report of the gates to this file (- = standard output)")
 	fl.BoolVar(&f.detail, "detail", false, "with several files, print each file's full text too")
 	fl.BoolVar(&f.noAdvice, "no-advice", false, "leave out the advice block")
 	fl.StringVar(&f.supplyTol, "supply-tol", "5%", "the supply's tolerance: a load or buffer drop seen only in v_high must exceed it (e.g. 5%, 1%)")
@@ -86,6 +102,24 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 	if err != nil {
 		return withCode(2, err)
 	}
+	if f.failOn != "" && !report.ValidFailOn(f.failOn) {
+		return withCode(2, fmt.Errorf("summary: --fail-on %q: want error or warning", clean(f.failOn)))
+	}
+	if f.json && f.jsonl {
+		return withCode(2, errors.New("summary: give --json or --jsonl, not both"))
+	}
+	toStdout := 0
+	for _, p := range []string{f.junit, f.rep.report} {
+		if p == "-" {
+			toStdout++
+		}
+	}
+	switch {
+	case toStdout > 1:
+		return withCode(2, errors.New("summary: only one of --junit and --report can be - (standard output)"))
+	case toStdout == 1 && (f.json || f.jsonl):
+		return withCode(2, errors.New("summary: JSON and a --junit or --report on - would share standard output; write one of them to a file"))
+	}
 	if err := f.rep.check(); err != nil {
 		return err
 	}
@@ -99,7 +133,7 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 		r := summarizeFile(name, stderr, f.rep.quiet, tol)
 		if r.Err != nil {
 			unusable++
-			fmt.Fprintf(stderr, "caploop: %v\n", r.Err)
+			fmt.Fprintf(stderr, "caploop: %s\n", errorText(r.Err))
 		}
 		if r.Summary != nil && r.Err == nil {
 			if !f.noAdvice {
@@ -115,41 +149,36 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 		results = append(results, r)
 	}
 
+	// With a derived file on standard output, that file is the only thing printed there.
+	text := stdout
+	if toStdout > 0 {
+		text = io.Discard
+	}
+	out := newCheckedWriter(text)
 	switch {
-	case f.json:
-		enc := json.NewEncoder(stdout)
-		enc.SetIndent("", "  ")
-		for _, r := range results {
-			if r.Summary == nil || r.Err != nil {
-				continue
-			}
-			d := report.SummaryDoc{Summary: r.Summary, Advice: r.Advice, Gates: r.Gates}
-			if r.AdviceErr != nil {
-				s := r.AdviceErr.Error()
-				d.AdviceError = &s
-			}
-			if err := enc.Encode(d); err != nil {
-				return withCode(2, err)
-			}
-		}
+	case f.json || f.jsonl:
+		writeSummaryJSON(out, results, f.jsonl)
 	case len(results) == 1:
 		if r := results[0]; r.Err == nil {
-			report.WriteFileText(stdout, r)
+			report.WriteFileText(out, r)
 		}
 	default:
 		if f.detail {
 			for _, r := range results {
 				if r.Err == nil {
-					report.WriteFileText(stdout, r)
-					fmt.Fprintln(stdout)
+					report.WriteFileText(out, r)
+					fmt.Fprintln(out)
 				}
 			}
 		}
-		report.WriteComparison(stdout, results)
+		report.WriteComparison(out, results)
+	}
+	if err := out.Close("summary"); err != nil {
+		return err
 	}
 
 	if f.junit != "" {
-		err := writeFileAtomic(f.junit, func(w io.Writer) error { return report.WriteJUnit(w, results) })
+		err := writeOutput(f.junit, stdout, func(w io.Writer) error { return report.WriteJUnit(w, results) })
 		if err != nil {
 			return withCode(2, err)
 		}
@@ -162,7 +191,7 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 			}
 		}
 		if len(docs) > 0 {
-			if err := f.rep.write(docs, note); err != nil {
+			if err := f.rep.write(docs, note, stdout); err != nil {
 				return err
 			}
 		}
@@ -171,9 +200,82 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 	case unusable > 0:
 		return withCode(2, fmt.Errorf("summary: %d of %d files could not be used", unusable, len(files)))
 	case failed > 0:
-		return withCode(1, fmt.Errorf("summary: %s failed", figure.Count(failed, "gate")))
+		return withCode(1, fmt.Errorf("summary: %s failed: %s", figure.Count(failed, "gate"), failedGates(results)))
+	}
+	if f.failOn != "" {
+		return failOn(results, f.failOn)
 	}
 	return nil
+}
+
+// writeSummaryJSON writes the JSON of the usable files: one document for one file, an
+// array for several, or one compact document per line with jsonl. Write errors are
+// kept by out.
+func writeSummaryJSON(out io.Writer, results []*report.FileResult, jsonl bool) {
+	var docs []report.SummaryDoc
+	for _, r := range results {
+		if r.Summary != nil && r.Err == nil {
+			docs = append(docs, r.Doc())
+		}
+	}
+	var err error
+	switch {
+	case jsonl:
+		for _, d := range docs {
+			if err = report.WriteJSON(out, d, false); err != nil {
+				break
+			}
+		}
+	case len(results) == 1 && len(docs) == 1:
+		err = report.WriteJSON(out, docs[0], true)
+	case len(docs) > 0:
+		err = report.WriteJSON(out, docs, true)
+	}
+	if err != nil {
+		if cw, ok := out.(*checkedWriter); ok && cw.err == nil {
+			cw.err = err
+		}
+	}
+}
+
+// failedGates names the failing gates with their files: "run.cap: max-ripple segment 2
+// (2.93 V), ...", at most five, then how many more.
+func failedGates(results []*report.FileResult) string {
+	var parts []string
+	n := 0
+	for _, r := range results {
+		for _, g := range r.Failed() {
+			n++
+			if n <= 5 {
+				parts = append(parts, fmt.Sprintf("%s: %s %s", clean(r.Name), g.Gate, g.Scope))
+			}
+		}
+	}
+	if n > 5 {
+		parts = append(parts, fmt.Sprintf("and %d more", n-5))
+	}
+	return strings.Join(parts, "; ")
+}
+
+// failOn returns exit code 1 when a file has a diagnostic at level or above.
+func failOn(results []*report.FileResult, level string) error {
+	var parts []string
+	n := 0
+	for _, r := range results {
+		for _, d := range r.DiagnosticsAtLeast(level) {
+			n++
+			if n <= 5 {
+				parts = append(parts, fmt.Sprintf("%s: %s %s", clean(r.Name), d.Severity, d.Code))
+			}
+		}
+	}
+	if n == 0 {
+		return nil
+	}
+	if n > 5 {
+		parts = append(parts, fmt.Sprintf("and %d more", n-5))
+	}
+	return withCode(1, fmt.Errorf("summary: --fail-on %s: %s at %s or above: %s", level, figure.Count(n, "diagnostic"), level, strings.Join(parts, "; ")))
 }
 
 // summarizeFile runs the whole-file pass over one file. err is set when the file cannot
@@ -192,14 +294,14 @@ func summarizeFile(name string, stderr io.Writer, quiet bool, supplyTol float64)
 	switch {
 	case errors.Is(err, analysis.ErrNoSamples):
 		st := sc.Stats()
-		msg := fmt.Sprintf("%s: no samples in %s", name, figure.Count(st.Lines, "line"))
+		msg := fmt.Sprintf("%s: no samples in %s", clean(name), figure.Count(st.Lines, "line"))
 		if len(st.FirstRejects) > 0 {
 			msg += fmt.Sprintf(" (%d rejected; first: %v)", st.Rejected, st.FirstRejects[0])
 		}
 		r.Err = errors.New("summary: " + msg)
 	case err != nil:
 		line := sc.Stats().Lines
-		r.Err = fmt.Errorf("summary: %s: read stopped after line %d: %w", name, line, err)
+		r.Err = fmt.Errorf("summary: %s: read stopped after line %d: %w", clean(name), line, err)
 	}
 	return r
 }

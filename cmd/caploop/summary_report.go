@@ -26,8 +26,8 @@ type reportFlags struct {
 
 // register adds the flags to fs.
 func (f *reportFlags) register(fs *pflag.FlagSet) {
-	fs.StringVar(&f.report, "report", "", "write a self-contained HTML report with plots and tables to this file")
-	fs.StringVar(&f.plot, "plot", "", "write one overview picture to this file (.svg or .png)")
+	fs.StringVar(&f.report, "report", "", "write a self-contained HTML report with plots and tables to this file (replaced if it exists; - = standard output)")
+	fs.StringVar(&f.plot, "plot", "", "write one overview picture to this file (.svg or .png; replaced if it exists)")
 	fs.BoolVarP(&f.quiet, "quiet", "q", false, "no progress bar on standard error")
 }
 
@@ -39,7 +39,7 @@ func (f *reportFlags) plotFormat() (string, error) {
 	case ".png":
 		return "png", nil
 	default:
-		return "", fmt.Errorf("--plot %s: the picture must end in .svg or .png", f.plot)
+		return "", fmt.Errorf("--plot %s: the picture must end in .svg or .png", clean(f.plot))
 	}
 }
 
@@ -58,10 +58,10 @@ func (f *reportFlags) wanted() bool { return f.report != "" || f.plot != "" }
 
 // write writes the HTML report and the picture asked for. note goes under the report's
 // title (e.g. the command line). A failure to write is exit code 2.
-func (f *reportFlags) write(docs []report.Capture, note string) error {
+func (f *reportFlags) write(docs []report.Capture, note string, stdout io.Writer) error {
 	docs = shortNames(docs)
 	if f.report != "" {
-		err := writeFileAtomic(f.report, func(w io.Writer) error {
+		err := writeOutput(f.report, stdout, func(w io.Writer) error {
 			return report.WriteHTML(w, docs, report.Options{Note: note})
 		})
 		if err != nil {
@@ -73,7 +73,7 @@ func (f *reportFlags) write(docs []report.Capture, note string) error {
 		if err != nil {
 			return withCode(2, err)
 		}
-		err = writeFileAtomic(f.plot, func(w io.Writer) error { return report.WritePicture(w, docs, format) })
+		err = writeOutput(f.plot, stdout, func(w io.Writer) error { return report.WritePicture(w, docs, format) })
 		if err != nil {
 			return withCode(2, err)
 		}
@@ -97,30 +97,6 @@ func shortNames(docs []report.Capture) []report.Capture {
 	return out
 }
 
-// writeFileAtomic writes path through a temporary file in the same folder, renamed into
-// place only when fn succeeded, so a failed run never leaves half a report.
-func writeFileAtomic(path string, fn func(w io.Writer) error) error {
-	tmp, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".*")
-	if err != nil {
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	defer os.Remove(tmp.Name())
-	if err := fn(tmp); err != nil {
-		tmp.Close()
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	if err := tmp.Close(); err != nil {
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	if err := os.Chmod(tmp.Name(), 0o644); err != nil {
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	if err := os.Rename(tmp.Name(), path); err != nil {
-		return fmt.Errorf("write %s: %w", path, err)
-	}
-	return nil
-}
-
 // isTerminal reports whether w is a terminal.
 func isTerminal(w io.Writer) bool {
 	f, ok := w.(*os.File)
@@ -137,7 +113,7 @@ func openWithProgress(path string, stderr io.Writer, quiet bool) (telemetry.Sour
 	}
 	f, err := os.Open(path)
 	if err != nil {
-		return nil, fmt.Errorf("telemetry: %w", err)
+		return nil, fmt.Errorf("telemetry: %w", telemetry.CleanPathError(err))
 	}
 	fi, err := f.Stat()
 	if err != nil || fi.IsDir() || !fi.Mode().IsRegular() {

@@ -1,7 +1,6 @@
 package main
 
 import (
-	"encoding/json"
 	"errors"
 	"fmt"
 	"io"
@@ -119,16 +118,14 @@ func runRigSummary(stdout, stderr io.Writer, dir string, f *summaryFlags) error 
 				docs[i].AdviceError = &s
 			}
 		}
-		enc := json.NewEncoder(stdout)
-		enc.SetIndent("", "  ")
-		if err := enc.Encode(docs); err != nil {
+		if err := report.WriteJSON(stdout, docs, true); err != nil {
 			return withCode(2, err)
 		}
 	} else {
 		writeRigTable(stdout, dir, boards, results)
 	}
 	if f.junit != "" {
-		err := writeFileAtomic(f.junit, func(w io.Writer) error { return report.WriteJUnit(w, results) })
+		err := writeOutput(f.junit, stdout, func(w io.Writer) error { return report.WriteJUnit(w, results) })
 		if err != nil {
 			return withCode(2, err)
 		}

@@ -110,17 +110,16 @@ func TestSummaryJSON(t *testing.T) {
 	if code != 0 {
 		t.Fatalf("exit code %d: %s", code, errOut)
 	}
-	dec := json.NewDecoder(strings.NewReader(out))
+	// Several files: one document, an array with one element per file.
 	var docs []map[string]any
-	for dec.More() {
-		var d map[string]any
-		if err := dec.Decode(&d); err != nil {
-			t.Fatalf("document %d: %v", len(docs)+1, err)
-		}
-		docs = append(docs, d)
+	if err := json.Unmarshal([]byte(out), &docs); err != nil {
+		t.Fatalf("not one JSON document: %v", err)
 	}
 	if len(docs) != 2 {
 		t.Fatalf("documents: got %d, want one per file (2)", len(docs))
+	}
+	if v := docs[0]["schema_version"]; v != 1.0 {
+		t.Errorf("schema_version: got %v, want 1", v)
 	}
 	for _, key := range []string{"samples", "rejected_lines", "duration_s", "sample_period_s", "plant", "segments", "steps", "diagnostics"} {
 		if _, ok := docs[0][key]; !ok {

@@ -51,7 +51,9 @@ type LinkOptions struct {
 	// when it has a Sync method (an *os.File does). The Link does not close it.
 	Record io.Writer
 	// RecordPath, when set (and Record is not), is a file the Link creates (replacing an
-	// existing one) for the capture, syncs and closes.
+	// existing regular file; a symbolic link, a device or a FIFO is refused) for the
+	// capture, syncs and closes. When the port never opened, Close removes it: it would
+	// hold only a header.
 	RecordPath string
 	// RecordAttrs are extra key=value pairs for the capture header.
 	RecordAttrs []string
@@ -254,14 +256,7 @@ func (l *Link) Close() error {
 			l.stuck = true
 		}
 		l.flushRecord()
-		l.recMu.Lock()
-		if l.recFile != nil {
-			if err := l.recFile.Close(); err != nil && l.recErr == nil {
-				l.recErr = fmt.Errorf("telemetry: close %s: %w", l.opt.RecordPath, err)
-			}
-		}
-		l.rec = nil // a stuck reader that wakes up later records nothing
-		l.recMu.Unlock()
+		l.closeRecordFile()
 	})
 	l.recMu.Lock()
 	defer l.recMu.Unlock()

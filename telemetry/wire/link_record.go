@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"errors"
 	"fmt"
+	"io/fs"
 	"os"
 	"syscall"
 	"time"
@@ -11,13 +12,15 @@ import (
 	"github.com/caploop/caploop/telemetry"
 )
 
+// The recording side of a Link: the capture file, its writer, flushing and syncing.
+
 // openRecord sets up the capture writer from the options.
 func (l *Link) openRecord() error {
 	w := l.opt.Record
 	if w == nil && l.opt.RecordPath != "" {
-		f, err := os.Create(l.opt.RecordPath)
+		f, err := createRecordFile(l.opt.RecordPath)
 		if err != nil {
-			return fmt.Errorf("telemetry: create capture: %w", err)
+			return err
 		}
 		l.recFile = f
 		w = f
@@ -103,5 +106,53 @@ func (l *Link) flusher() {
 			l.flushRecord()
 			return
 		}
+	}
+}
+
+// createRecordFile creates (or truncates) the capture file path, refusing a path that is
+// a symbolic link, a device, a FIFO, a socket or a folder.
+func createRecordFile(path string) (*os.File, error) {
+	name := telemetry.SanitizeN([]byte(path), 200)
+	if fi, err := os.Lstat(path); err == nil && !fi.Mode().IsRegular() {
+		what := "not a regular file"
+		switch m := fi.Mode(); {
+		case m&fs.ModeSymlink != 0:
+			what = "a symbolic link"
+		case m&fs.ModeDevice != 0:
+			what = "a device"
+		case m&fs.ModeNamedPipe != 0:
+			what = "a FIFO"
+		case m.IsDir():
+			what = "a folder"
+		}
+		return nil, fmt.Errorf("telemetry: refusing to write the capture %s: it is %s", name, what)
+	}
+	f, err := os.OpenFile(path, os.O_WRONLY|os.O_CREATE|os.O_TRUNC|noFollow, 0o644)
+	if err != nil {
+		return nil, fmt.Errorf("telemetry: create capture: %w", telemetry.CleanPathError(err))
+	}
+	return f, nil
+}
+
+// closeRecordFile closes the capture file the Link created, and removes it when the port
+// never opened (a live session that could not start leaves no file behind).
+func (l *Link) closeRecordFile() {
+	l.recMu.Lock()
+	if l.recFile != nil {
+		if err := l.recFile.Close(); err != nil && l.recErr == nil {
+			l.recErr = fmt.Errorf("telemetry: close %s: %w", telemetry.SanitizeN([]byte(l.opt.RecordPath), 200), err)
+		}
+	}
+	hadFile := l.recFile != nil
+	l.rec = nil // a stuck reader that wakes up later records nothing
+	l.recMu.Unlock()
+	if !hadFile {
+		return
+	}
+	l.mu.Lock()
+	opened := l.stats.Opens > 0
+	l.mu.Unlock()
+	if !opened {
+		os.Remove(l.opt.RecordPath)
 	}
 }

@@ -142,7 +142,8 @@ func (e *SerialError) Error() string {
 	if e.Err != nil {
 		msg += " (" + e.Err.Error() + ")"
 	}
-	return "telemetry: " + msg
+	// A port name (and an OS error quoting it) is outside text: one sanitiser for all.
+	return "telemetry: " + telemetry.Sanitize([]byte(msg))
 }
 
 // Unwrap returns the kind and the cause, so errors.Is(err, ErrPortBusy) and

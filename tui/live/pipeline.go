@@ -160,7 +160,7 @@ func newPipeline(name string, maxPoints int, adv adviser) *Pipeline {
 		maxPoints = DefaultRetain
 	}
 	p := &Pipeline{
-		name:   name,
+		name:   telemetry.SanitizeN([]byte(name), 80), // a file or port name is outside text
 		maxPts: maxPoints,
 		notify: make(chan struct{}, 1),
 		quit:   make(chan struct{}),

@@ -73,7 +73,7 @@ func NewPort(o PortOptions) *Pipeline {
 	rec := o.Record
 	c.statsExtra = func(st *Stats) {
 		if rec != "" {
-			st.Recording = filepath.Base(rec)
+			st.Recording = telemetry.SanitizeN([]byte(filepath.Base(rec)), 60)
 			if fi, err := os.Stat(rec); err == nil {
 				st.RecordBytes = fi.Size()
 			}
