@@ -3,6 +3,7 @@ package live
 import (
 	"math"
 	"strconv"
+	"strings"
 	"time"
 
 	"github.com/caploop/caploop/analysis"
@@ -140,7 +141,14 @@ func (c *engine) setMeta(m telemetry.Meta) {
 }
 
 func (c *engine) event(kind EventKind, text string) {
-	c.evs = append(c.evs, Event{T: c.lastT, Kind: kind, Text: text})
+	ev := Event{T: c.lastT, Kind: kind, Text: text}
+	if kind == EventSent && strings.HasPrefix(text, "set ") && c.samples > 0 {
+		// A change of settings: the screen tells the diagnostics before it from those after.
+		if sum := c.acc.Summary(); len(sum.Segments) > 0 {
+			ev.SegStartS = sum.Segments[len(sum.Segments)-1].StartS
+		}
+	}
+	c.evs = append(c.evs, ev)
 }
 
 func (c *engine) sample(s telemetry.Sample) float64 {
