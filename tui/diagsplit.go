@@ -150,6 +150,24 @@ func counterGrew(code string, sum *analysis.Summary, c settingChange) (grew, kno
 	return false, false
 }
 
+// unnamedShows reports whether a segment after cut, not named by any diagnostic of the
+// code and not the running one, shows the problem; only for codes with a figure per
+// segment.
+func unnamedShows(code string, sum *analysis.Summary, named map[int]bool, cut float64) bool {
+	switch code {
+	case analysis.DiagBandTooNarrow, analysis.DiagNoiseChatter, analysis.DiagUnreachable, analysis.DiagNotSettled:
+	default:
+		return false
+	}
+	for i := 0; i < len(sum.Segments)-1; i++ {
+		s := &sum.Segments[i]
+		if !named[i+1] && !s.Tracking && s.StartS > cut && shows(code, s) {
+			return true
+		}
+	}
+	return false
+}
+
 // analysisNow is the newest time of the analysis clock: the end of the newest segment.
 func analysisNow(sum *analysis.Summary) float64 {
 	t := 0.0
@@ -244,20 +262,26 @@ func splitDiagnostics(sum *analysis.Summary, changes []settingChange) (now, earl
 			}
 		}
 	}
-	// "The same (code) at N more setpoints" goes with its code: now when any of that code
-	// is now.
+	// "The same (code) at N more setpoints" stands for setpoints the analysis did not
+	// name: now when an unnamed segment after the change shows the problem, else in the
+	// state of the newest named diagnostic of its code, so that it folds into that line.
 	for i := range items {
-		if items[i].p.moreOf == 0 {
+		if items[i].p.moreOf == 0 || len(changes) == 0 {
 			continue
 		}
-		items[i].state = diagEarlier
+		code := items[i].p.d.Code
+		items[i].state, items[i].by = diagEarlier, nil
+		named := map[int]bool{}
 		for _, o := range items {
-			if o.p.moreOf == 0 && o.p.d.Code == items[i].p.d.Code && o.state == diagNow {
-				items[i].state = diagNow
+			if o.p.moreOf == 0 && o.p.d.Code == code {
+				items[i].state, items[i].by = o.state, o.by
+				for _, n := range o.p.segs {
+					named[n] = true
+				}
 			}
 		}
-		if len(changes) == 0 {
-			items[i].state = diagNow
+		if unnamedShows(code, sum, named, changes[len(changes)-1].Cut) {
+			items[i].state, items[i].by = diagNow, nil
 		}
 	}
 	// Fold per code, severity and part (fixed by different changes stay apart).
@@ -326,25 +350,26 @@ func foldDiags(ps []parsedDiag) diagLine {
 			if s == "" {
 				s = headline(p.d)
 			}
-			if len(subjects) > 0 {
-				s = strings.TrimPrefix(s, "Setpoint ")
-			}
+			s = strings.TrimPrefix(s, "Setpoint ")
 			if !slices.Contains(subjects, s) {
 				subjects = append(subjects, s)
 			}
 		}
 		newest := named[len(named)-1]
-		if len(subjects) > 1 && strings.HasPrefix(subjects[0], "Setpoint ") {
-			subjects[0] = "Setpoints " + strings.TrimPrefix(subjects[0], "Setpoint ")
+		if strings.HasPrefix(named[0].subject, "Setpoint ") {
+			subjects[0] = figure.Pick(len(subjects), "Setpoint ", "Setpoints ") + subjects[0]
 		}
 		l.Text = strings.Join(subjects, ", ")
 		if len(l.Segs) > 0 {
 			l.Text += " (" + segListText(l.Segs) + ")"
 		}
-		kind := strings.ReplaceAll(l.Code, "_", " ")
-		l.Text += ": " + kind + figure.Pick(len(named), "", " "+strconv.Itoa(len(named))+" times") + "; the newest"
-		if newest.subject != "" && len(subjects) > 1 {
-			l.Text += " (" + strings.TrimPrefix(newest.subject, "Setpoint ") + ")"
+		l.Text += ": " + strings.ReplaceAll(l.Code, "_", " ") + "; the newest"
+		if newest.subject != "" {
+			l.Text += " (" + strings.TrimPrefix(newest.subject, "Setpoint ")
+			if len(newest.segs) > 0 {
+				l.Text += ", " + segListText(newest.segs)
+			}
+			l.Text += ")"
 		}
 		l.Text += ": " + newest.rest
 	}

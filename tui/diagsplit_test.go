@@ -40,7 +40,7 @@ func TestFoldDiagnostics(t *testing.T) {
 	if band.Code != analysis.DiagBandTooNarrow || len(band.Segs) != 3 || band.Segs[0] != 1 || band.Segs[1] != 2 || band.Segs[2] != 4 {
 		t.Errorf("folded segments = %v (code %s), want [1 2 4]", band.Segs, band.Code)
 	}
-	for _, want := range []string{"Setpoints 1.2 V, 2 V (segments 1, 2, 4)", "band too narrow 2 times", "the newest (2 V): 9 band jumps", "the same at 2 more setpoints"} {
+	for _, want := range []string{"Setpoints 1.2 V, 2 V (segments 1, 2, 4)", "band too narrow; the newest (2 V, segments 2, 4): 9 band jumps", "the same at 2 more setpoints"} {
 		if !strings.Contains(band.Text, want) {
 			t.Errorf("folded line %q lacks %q", band.Text, want)
 		}
@@ -204,5 +204,38 @@ func TestTradeLine(t *testing.T) {
 		After:  &analysis.Segment{BandJumps: 0, SwitchingHz: fp(12.5), RippleRMSV: fp(10.2e-3), MeanErrorV: fp(1.2e-3)}}
 	if s := soFarLine(c); !strings.Contains(s, "band jumps 37 → 0") || !strings.Contains(s, "mean error 900 µV → 1.2 mV") {
 		t.Errorf("so far: %q", s)
+	}
+}
+
+// TestFoldAfterChange: after a change, the old band's diagnostics at one setpoint under
+// two bands, and the analysis' "the same at N more setpoints", fold into one earlier
+// line; a band jump in an unnamed segment after the change makes that part now.
+func TestFoldAfterChange(t *testing.T) {
+	sum := &analysis.Summary{
+		Segments: []analysis.Segment{
+			{StartS: 0, EndS: 1, BandJumps: 5}, {StartS: 1, EndS: 2, BandJumps: 7},
+			{StartS: 2, EndS: 3, BandJumps: 3}, {StartS: 3, EndS: 4, BandJumps: 2},
+			{StartS: 4, EndS: 10, BandJumps: 0, LimitCyclePeriodS: fp(0.02)}, {StartS: 10, EndS: 10.5},
+		},
+		Diagnostics: []analysis.Diagnostic{
+			bandDiag("1.2 V", "segment 1", 5), bandDiag("1.2 V", "segment 2", 7), bandDiag("2 V", "segment 3", 3),
+			{Code: analysis.DiagBandTooNarrow, Severity: "warning", Message: "The same (band too narrow) at 1 more setpoint."},
+		},
+	}
+	changes := []settingChange{{At: 4.2, Cut: 3, What: "deadband 9"}}
+	now, earlier := splitDiagnostics(sum, changes)
+	if len(now) != 0 || len(earlier) != 1 {
+		t.Fatalf("now %+v earlier %+v, want one earlier line", now, earlier)
+	}
+	e := earlier[0]
+	if e.State != diagFixed || !strings.HasPrefix(e.Text, "Setpoints 1.2 V, 2 V (segments 1, 2, 3)") || !strings.HasSuffix(e.Text, "the same at 1 more setpoint.") {
+		t.Errorf("folded earlier line: state %d %q", e.State, e.Text)
+	}
+	// A band jump in segment 5 (after the change, named by no diagnostic): the unnamed
+	// setpoint is a problem of now.
+	sum.Segments[4].BandJumps = 2
+	now, _ = splitDiagnostics(sum, changes)
+	if len(now) != 1 || !strings.Contains(now[0].Text, "1 more setpoint") {
+		t.Errorf("an unnamed recurrence after the change is not now: %+v", now)
 	}
 }
