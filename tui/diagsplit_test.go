@@ -7,6 +7,7 @@ import (
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/advice"
+	"github.com/caploop/caploop/tui/live"
 )
 
 func bandDiag(sp string, segs string, jumps int) analysis.Diagnostic {
@@ -237,5 +238,30 @@ func TestFoldAfterChange(t *testing.T) {
 	now, _ = splitDiagnostics(sum, changes)
 	if len(now) != 1 || !strings.Contains(now[0].Text, "1 more setpoint") {
 		t.Errorf("an unnamed recurrence after the change is not now: %+v", now)
+	}
+}
+
+// TestChangesFromEvents: a `set` line sent and then reported by the board counts as one
+// change, named by the board's report; another setting reported by a meta line is a
+// change too; a reset forgets them.
+func TestChangesFromEvents(t *testing.T) {
+	m := liveFixture(t)
+	m.takeFrame(live.Snapshot{Events: []live.Event{
+		{T: 3, Kind: live.EventSent, Text: "set deadband=9", SegStartS: 2},
+		{T: 3.1, Kind: live.EventDeadband, Text: "deadband 2→9", Value: 9, SegStartS: 2},
+		{T: 5, Kind: live.EventMeta, Text: "period_us 1000→500", SegStartS: 3.1},
+	}})
+	if len(m.changes) != 2 || m.changes[0].What != "deadband 9" || m.changes[0].At != 3.1 || m.changes[1].What != "period_us 1000→500" {
+		t.Fatalf("changes = %+v", m.changes)
+	}
+	if m.changes[0].Rejected != m.sum.RejectedLines {
+		t.Errorf("the counters at the change were not kept")
+	}
+	if !strings.Contains(strings.Join(m.advice.diagLines(), "\n"), "diagnostics now (since period_us 1000→500 at 5.00s)") {
+		t.Errorf("view 2 does not split at the newest change:\n%s", strings.Join(m.advice.diagLines(), "\n"))
+	}
+	m.takeFrame(live.Snapshot{Reset: true})
+	if len(m.changes) != 0 || len(m.advice.changes) != 0 {
+		t.Errorf("a reset kept the changes: %+v", m.changes)
 	}
 }

@@ -90,17 +90,27 @@ func stateRank(s diagState) int {
 }
 
 // noteChange records a change of settings for the diagnostics: a `set` line sent, or a
-// setting the board reported changed. The board's confirmation of a deadband just sent
-// takes the place of the sent line (the change happened when the board took it).
+// setting the board reported changed. The board's report of a setting just sent takes
+// the place of the sent line (the change happened when the board took it).
 func (m *Model) noteChange(at, cut float64, what string) {
 	c := settingChange{At: at, Cut: cut, What: what}
 	if m.sum != nil {
 		c.Rejected, c.Dropped, c.Gaps = m.sum.RejectedLines, m.sum.DroppedValues, m.sum.Gaps
 	}
-	if n := len(m.changes); n > 0 && strings.HasPrefix(what, "deadband ") &&
-		m.changes[n-1].What == "set deadband="+strings.TrimPrefix(what, "deadband ") {
-		m.changes[n-1] = c
-		return
+	if n := len(m.changes); n > 0 && !strings.HasPrefix(what, "set ") {
+		prev := m.changes[n-1].What
+		if sent, ok := strings.CutPrefix(prev, "set "); ok && settingKey(sent) == settingKey(what) {
+			m.changes[n-1] = c
+			return
+		}
 	}
 	m.changes = append(slices.Clip(m.changes), c)
+}
+
+// settingKey is the name of the setting a change names: "deadband" of "deadband=9" and
+// of "deadband 9", "period_us" of "period_us 1000→500".
+func settingKey(s string) string {
+	k, _, _ := strings.Cut(s, " ")
+	k, _, _ = strings.Cut(k, "=")
+	return k
 }

@@ -320,6 +320,10 @@ func (m *Model) event(e live.Event) (Mark, bool) {
 		if strings.HasPrefix(e.Text, "set ") {
 			m.noteChange(e.T, e.SegStartS, e.Text)
 		}
+	case live.EventMeta:
+		m.message = "the board reports " + e.Text
+		m.noteChange(e.T, e.SegStartS, e.Text)
+		return Mark{T: e.T, Label: cut(e.Text, 16)}, true
 	case live.EventDeadband:
 		from := -1.0
 		if e.Segment != nil && e.Segment.DeadbandCounts != nil {

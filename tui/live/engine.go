@@ -123,6 +123,7 @@ func (c *engine) setMeta(m telemetry.Meta) {
 	old := c.meta
 	c.meta = c.meta.Merge(m)
 	c.acc.SetMeta(c.meta)
+	c.metaEvent(old, m)
 	// A deadband change mid-stream (not the first report, not a repeat) is an event
 	// carrying the figures of the segment that ran under the old band.
 	if m.Has(telemetry.FieldDeadband) && c.samples > 0 && old.Has(telemetry.FieldDeadband) && old.Deadband != m.Deadband {
