@@ -177,18 +177,37 @@ func analysisNow(sum *analysis.Summary) float64 {
 	return t
 }
 
+// addresses reports whether a change of settings can fix a problem of code: a change of
+// the setpoint only moves away from where the problem showed, so it addresses only an
+// unreachable or unsettled setpoint.
+func addresses(c settingChange, code string) bool {
+	key := settingKey(strings.TrimPrefix(c.What, "set "))
+	if key == "sp" {
+		return code == analysis.DiagUnreachable || code == analysis.DiagNotSettled
+	}
+	return true
+}
+
 // judgeFixed decides, for a problem last seen in a segment starting at last, whether
 // the first change after it fixed it: it returns the state and that change.
-func judgeFixed(last float64, sum *analysis.Summary, changes []settingChange) (diagState, *settingChange) {
-	var c *settingChange
+func judgeFixed(code string, last float64, sum *analysis.Summary, changes []settingChange) (diagState, *settingChange) {
+	var c, first *settingChange
 	for i := range changes {
-		if changes[i].Cut >= last {
+		if changes[i].Cut < last {
+			continue
+		}
+		if first == nil {
+			first = &changes[i]
+		}
+		if addresses(changes[i], code) {
 			c = &changes[i]
 			break
 		}
 	}
 	if c == nil {
-		return diagEarlier, nil
+		// Only changes that cannot fix it (a new setpoint does not cure a narrow band:
+		// it only stops showing it there): earlier, with no fix claimed.
+		return diagEarlier, first
 	}
 	// The change's moment in the analysis clock is the start of the first segment after
 	// the cut; the window is the longer of 5 s and 5 limit cycles of the newest segment.
@@ -242,7 +261,7 @@ func splitDiagnostics(sum *analysis.Summary, changes []settingChange) (now, earl
 				case seen > last.Cut:
 					it.state = diagNow
 				default:
-					it.state, it.by = judgeFixed(seen, sum, changes)
+					it.state, it.by = judgeFixed(d.Code, seen, sum, changes)
 				}
 			} else if grew, known := counterGrew(d.Code, sum, last); known && !grew {
 				it.state, it.by = diagEarlier, &last

@@ -112,6 +112,20 @@ func TestFixedRule(t *testing.T) {
 	}
 }
 
+// TestSetpointChangeFixesNoBand: a change of the setpoint alone does not make a narrow
+// band fixed, however long it has not shown since.
+func TestSetpointChangeFixesNoBand(t *testing.T) {
+	_, earlier := splitDiagnostics(fixedSummary(8, 0.03, 0), []settingChange{{At: 12.3, Cut: 0, What: "set sp=500"}})
+	if len(earlier) != 1 || earlier[0].State != diagEarlier || earlier[0].fixedText() != "none since set sp=500 at 12.3s" {
+		t.Errorf("earlier = %+v (%q)", earlier, earlier[0].fixedText())
+	}
+	// A deadband change after it fixes it.
+	_, earlier = splitDiagnostics(fixedSummary(8, 0.03, 0), []settingChange{{At: 12.3, Cut: 0, What: "set sp=500"}, {At: 12.4, Cut: 0, What: "deadband 9"}})
+	if len(earlier) != 1 || earlier[0].State != diagFixed || earlier[0].By != "deadband 9" {
+		t.Errorf("earlier = %+v", earlier)
+	}
+}
+
 // TestCounterDiagnostics: a whole-run counter (rejected lines) is now only when it grew
 // since the change; state-like whole-run findings stay now.
 func TestCounterDiagnostics(t *testing.T) {
