@@ -75,11 +75,12 @@ func parseDiag(d analysis.Diagnostic) parsedDiag {
 		return p
 	}
 	subject, rest, found := strings.Cut(d.Message, ": ")
-	if !found || len([]rune(subject)) > 80 {
+	m := segListRE.FindStringSubmatch(subject)
+	if !found || len([]rune(segListRE.ReplaceAllString(subject, ""))) > 80 {
 		p.rest = d.Message
 		return p
 	}
-	if m := segListRE.FindStringSubmatch(subject); m != nil {
+	if m != nil {
 		for _, f := range strings.Split(m[1], ",") {
 			if n, err := strconv.Atoi(strings.TrimSpace(f)); err == nil {
 				p.segs = append(p.segs, n)

@@ -7,6 +7,7 @@ import (
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/advice"
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/tui/live"
 )
 
@@ -277,5 +278,22 @@ func TestChangesFromEvents(t *testing.T) {
 	m.takeFrame(live.Snapshot{Reset: true})
 	if len(m.changes) != 0 || len(m.advice.changes) != 0 {
 		t.Errorf("a reset kept the changes: %+v", m.changes)
+	}
+}
+
+// TestParseSegmentList reads the segment lists the analysis writes (figure.List, which
+// ends a long list with "... (N in all)").
+func TestParseSegmentList(t *testing.T) {
+	segs := make([]int, 30)
+	for i := range segs {
+		segs[i] = 2 * (i + 1)
+	}
+	msg := "Setpoint 1.2 V (segments " + figure.List(segs) + "): 9 band jumps with a deadband of ±4 counts."
+	p := parseDiag(analysis.Diagnostic{Code: analysis.DiagBandTooNarrow, Message: msg})
+	if p.subject != "Setpoint 1.2 V" || len(p.segs) == 0 || p.segs[0] != 2 || p.segs[1] != 4 {
+		t.Errorf("parsed %q: subject %q segments %v", msg, p.subject, p.segs)
+	}
+	if p.rest != "9 band jumps with a deadband of ±4 counts." {
+		t.Errorf("rest %q", p.rest)
 	}
 }

@@ -79,6 +79,8 @@ func TestLiveDiagnosticsFixedTmux(t *testing.T) {
 	scr.keys("2")
 	scr.waitFor("trade line", regexp.MustCompile(`deadband 4 → `+want+`: meant to cut band jumps and switching; trade: ripple, rms and mean error grow within the band`), 5*time.Second)
 	scr.waitFor("diagnostics split", regexp.MustCompile(`diagnostics now \(since deadband `+want+` at \S+\)`), 5*time.Second)
+	scr.keys("pgdown")
+	scr.waitFor("fixed on view 2", regexp.MustCompile(`diagnostics earlier \(before deadband `+want+` at \S+\):\s+✓ fixed at \S+ by deadband `+want+`: Setpoints? `), 5*time.Second)
 
 	scr.keys("q")
 	deadline := time.Now().Add(5 * time.Second)
