@@ -129,6 +129,9 @@ func occurrences(p parsedDiag, sum *analysis.Summary) (starts []float64, ok bool
 			starts = append(starts, math.Inf(1))
 			continue
 		}
+		if p.d.Code == analysis.DiagNotSettled && n == len(sum.Segments) {
+			continue // the running segment may still be on its way (the analysis skips it too)
+		}
 		if s := &sum.Segments[n-1]; shows(p.d.Code, s) {
 			starts = append(starts, s.StartS)
 		}

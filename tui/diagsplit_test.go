@@ -297,3 +297,17 @@ func TestParseSegmentList(t *testing.T) {
 		t.Errorf("rest %q", p.rest)
 	}
 }
+
+// TestRunningSegmentNotUnsettled: the running segment, still on its way to the setpoint,
+// is no recurrence of "not settled".
+func TestRunningSegmentNotUnsettled(t *testing.T) {
+	sum := &analysis.Summary{
+		Segments: []analysis.Segment{{StartS: 0, EndS: 3}, {StartS: 3, EndS: 3.2}},
+		Diagnostics: []analysis.Diagnostic{{Code: analysis.DiagNotSettled, Severity: "warning",
+			Message: "Setpoint 4.9 V (segments 1, 2): the reading did not reach the setpoint within the segment (last reading 4.7 V)."}},
+	}
+	now, earlier := splitDiagnostics(sum, []settingChange{{At: 3, Cut: 0, What: "supply 5→6"}})
+	if len(now) != 0 || len(earlier) != 1 || earlier[0].State != diagWatching {
+		t.Errorf("now %+v earlier %+v, want it earlier and watched", now, earlier)
+	}
+}
