@@ -17,10 +17,14 @@ import (
 // AdviceModel shows the suggested deadband, the top R/C pairs with their predicted
 // figures and the diagnostics as sentences.
 type AdviceModel struct {
-	adv     *advice.Advice
+	adv     *advice.Advice // the advice shown (see adviceTrack)
+	track   adviceTrack
 	err     string
-	diags   []analysis.Diagnostic
-	current float64 // deadband in force, counts; < 0 unknown
+	sum     *analysis.Summary
+	changes []settingChange
+	now     []diagLine // diagnostics since the last change of settings (all, without one)
+	earlier []diagLine // diagnostics only before it
+	current float64    // deadband in force, counts; < 0 unknown
 	canSend bool
 	width   int
 	height  int
@@ -46,18 +50,27 @@ func (m AdviceModel) Suggested() (int, bool) {
 // Update takes advice and summary snapshots.
 func (m AdviceModel) Update(msg tea.Msg) (AdviceModel, tea.Cmd) {
 	if msg, ok := msg.(frameMsg); ok {
+		if msg.reset {
+			m.track.reset()
+			m.adv = nil
+		}
 		if msg.advice != nil {
-			m.adv, m.err = msg.advice, ""
+			m.track.offer(msg.advice)
+			m.adv, m.err = m.track.shown, ""
 		}
 		if msg.adviceErr != "" {
 			m.err = msg.adviceErr
 		}
 		if msg.summary != nil {
-			m.diags = msg.summary.Diagnostics
+			m.sum = msg.summary
 			m.current = -1
 			if d := msg.summary.Board.DeadbandCounts; d != nil {
 				m.current = *d
 			}
+		}
+		if msg.summary != nil || len(msg.changes) != len(m.changes) {
+			m.changes = msg.changes
+			m.now, m.earlier = splitDiagnostics(m.sum, m.changes)
 		}
 	}
 	return m, nil
@@ -82,7 +95,8 @@ func (m AdviceModel) deadbandLine() string {
 	if m.canSend && float64(n) != m.current {
 		s += " · d sends it"
 	}
-	return s
+	_, conf := m.track.confidence(m.sum)
+	return s + " · " + conf
 }
 
 func candidateLine(c advice.Candidate) string {
@@ -130,12 +144,7 @@ func (m AdviceModel) fullLines() []string {
 			lines = append(lines, "  change: "+t.Change+": "+t.Reason)
 		}
 	}
-	if len(m.diags) > 0 {
-		lines = append(lines, "diagnostics:")
-		for _, d := range m.diags {
-			lines = append(lines, "  "+severityGlyph(d.Severity)+" "+d.Message)
-		}
-	}
+	lines = append(lines, m.diagLines()...)
 	if m.adv != nil {
 		for _, c := range m.adv.Cautions {
 			lines = append(lines, "  caution: "+c)
@@ -151,20 +160,19 @@ func (m AdviceModel) compactLines(rows int) []string {
 	if rows <= 0 {
 		return nil
 	}
-	diags := append([]analysis.Diagnostic(nil), m.diags...)
-	slices.SortStableFunc(diags, func(a, b analysis.Diagnostic) int { return severityRank(a.Severity) - severityRank(b.Severity) })
+	diags := m.compactDiags()
 	var out []string
 	switch n := len(diags); {
 	case n == 0:
 	case n > rows:
 		// Headlines only; the last row counts the rest.
 		for _, d := range diags[:rows-1] {
-			out = append(out, "  "+severityGlyph(d.Severity)+" "+headline(d))
+			out = append(out, "  "+d.head)
 		}
 		more := n - (rows - 1)
 		last := "  … " + figure.Count(more, "more diagnostic") + " on view 2"
 		if rows == 1 {
-			last = fmt.Sprintf("  %s %s · %d more on view 2", severityGlyph(diags[0].Severity), headline(diags[0]), more-1)
+			last = fmt.Sprintf("  %s · %d more on view 2", diags[0].head, more-1)
 		}
 		out = append(out, last)
 	default:
@@ -172,8 +180,8 @@ func (m AdviceModel) compactLines(rows int) []string {
 		full := make([][]string, n)
 		spare := rows - n
 		for i, d := range diags {
-			full[i] = []string{"  " + severityGlyph(d.Severity) + " " + headline(d)}
-			f := strings.Split(wrapLines([]string{"  " + severityGlyph(d.Severity) + " " + shortSentence(d.Message)}, m.width), "\n")
+			full[i] = []string{"  " + d.head}
+			f := strings.Split(wrapLines([]string{"  " + d.sentence}, m.width), "\n")
 			if len(f)-1 <= spare {
 				full[i], spare = f, spare-(len(f)-1)
 			} else if h := full[i][0] + " · more on view 2"; ansi.StringWidth(h) <= m.width {

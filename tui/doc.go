@@ -33,6 +33,17 @@
 // (j and a digit) or its start (home), and changes speed with x/X. The series colours and
 // glyphs are in palette.go.
 //
+// Diagnostics and advice follow the changes of settings (a `set` line sent, a setting a
+// meta line changed, a deadband the board confirmed): after one, the diagnostics split
+// into now (shown since the change) and earlier, each earlier one with its state: "fixed
+// at 12.3s by deadband 9" once it has not recurred for 5 s or 5 limit cycles (the longer)
+// after the change that addressed it, "watching" before that (diagsplit.go). The same
+// diagnostic at several setpoints folds into one line with the segments listed. Advice
+// is preliminary until tau is known within ±10 % and the advised deadband held for three
+// updates, and a new suggestion replaces the shown one only after three updates in a row
+// that differ from it (advicetrack.go). The before/after panel opens with what the
+// change was meant to move and the trade made (tradeline.go).
+//
 // Rendering functions (RenderPlot, RenderHistogram, RenderSpectrum, RenderStep) are
 // pure: data and size in, string out, and are covered by golden tests at 80x24 and
 // 120x40 (go test ./tui -update regenerates testdata/).

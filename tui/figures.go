@@ -223,11 +223,12 @@ func (m FiguresModel) fullView() string {
 	}
 	if m.change != nil {
 		// What the change bought, side by side; the plant beside it when there is room.
+		head := changeHead(m.change, m.width)
 		cmp := compareBlock(m.change)
 		if maxLineWidth(cmp)+3+maxLineWidth(plant) <= m.width {
-			return sideBySide(cmp, plant, 3)
+			return head + "\n" + sideBySide(cmp, plant, 3)
 		}
-		return cmp
+		return head + "\n" + cmp
 	}
 	left := rowsBlock("current segment", segmentRows(live.CurrentSegment(m.sum)))
 	if showTracking(m.sum) {

@@ -88,7 +88,9 @@ func fixtureSummary() *analysis.Summary {
 		},
 		Steps: []analysis.StepFigures{{AtS: 1.5, FromV: fp(1.953), ToV: fp(2.930), FromCounts: 400, ToCounts: 600, RiseS: fp(0.052), SettleS: fp(0.045), OvershootV: fp(0.0049), SlewVPerS: fp(18.8)}},
 		Diagnostics: []analysis.Diagnostic{
-			{Code: "band_too_narrow", Severity: "warning", Message: "The band of ±2 counts is too narrow: 37 band jumps in 1.5 s; a step near the setpoint is 5.1 counts."},
+			// In the analysis' words: one sentence per setpoint, which the screen folds.
+			{Code: "band_too_narrow", Severity: "warning", Message: "Setpoint 1.95 V (segment 1): 41 band jumps (a charge followed directly by a discharge or the reverse) with a deadband of ±2 counts (5 counts wide); one charge step near the setpoint is about 4.6 counts, so the band needs a deadband of at least 3 counts (step plus 3 sigma of noise)."},
+			{Code: "band_too_narrow", Severity: "warning", Message: "Setpoint 2.93 V (segment 2): 37 band jumps (a charge followed directly by a discharge or the reverse) with a deadband of ±2 counts (5 counts wide); one charge step near the setpoint is about 5.1 counts, so the band needs a deadband of at least 4 counts (step plus 3 sigma of noise)."},
 		},
 		Traces: &analysis.Traces{Volts: true, ErrBins: bins, ErrHist: hist, SpecFreq: freq, SpecAmp: amp, StepTraces: []analysis.StepTrace{st}},
 	}

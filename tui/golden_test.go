@@ -22,7 +22,8 @@ func confirmChange(t testing.TB, m Model) Model {
 	sum := *fixtureSummary()
 	sum.Board.DeadbandCounts = fp(4)
 	seg := sum.Segments[0]
-	seg.StartS, seg.EndS, seg.SteadyStartS, seg.SteadySamples = 3, 4.5, fp(3.02), 1480
+	// 5.5 s under the new band without a band jump: the narrow band counts as fixed.
+	seg.StartS, seg.EndS, seg.SteadyStartS, seg.SteadySamples = 3, 8.5, fp(3.02), 5480
 	seg.DeadbandCounts, seg.BandJumps, seg.DeadbandEntries, seg.DeadbandExits = fp(4), 0, 9, 8
 	seg.RipplePPV, seg.RipplePPCounts, seg.RippleRMSV = fp(0.0391), fp(8), fp(0.0102)
 	seg.DutyCharge, seg.DutyHold, seg.DutyDischarge = fp(0.04), fp(0.95), fp(0.01)

@@ -49,6 +49,8 @@ type frameMsg struct {
 	adviceErr string
 	stats     *live.Stats
 	change    *DeadbandChange
+	changes   []settingChange // changes of settings so far, oldest first
+	reset     bool            // the source restarted
 }
 
 // confirmTimeoutMsg fires when the board did not answer a command in time.
@@ -93,6 +95,7 @@ type Model struct {
 	note    []rune
 	pending *pendingChange
 	change  *DeadbandChange
+	changes []settingChange // changes of settings seen, oldest first (diagnostics now/earlier)
 	nextID  int
 	message string
 	ended   bool
@@ -227,7 +230,7 @@ func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
 // takeFrame applies one snapshot of the pipeline to the model.
 func (m *Model) takeFrame(b live.Snapshot) tea.Cmd {
 	if b.Reset {
-		m.change, m.pending = nil, nil
+		m.change, m.pending, m.changes = nil, nil, nil
 	}
 	var marks []Mark
 	for _, e := range b.Events {
@@ -255,7 +258,8 @@ func (m *Model) takeFrame(b live.Snapshot) tea.Cmd {
 	if b.Err != nil {
 		m.message = "source: " + telemetry.Sanitize([]byte(b.Err.Error()))
 	}
-	snap := frameMsg{summary: b.Summary, advice: b.Advice, adviceErr: b.AdviceErr, stats: b.Stats, change: m.change}
+	snap := frameMsg{summary: b.Summary, advice: b.Advice, adviceErr: b.AdviceErr, stats: b.Stats, change: m.change,
+		changes: m.changes, reset: b.Reset}
 	m.plot, _ = m.plot.Update(snap)
 	m.figures, _ = m.figures.Update(snap)
 	m.advice, _ = m.advice.Update(snap)
@@ -313,12 +317,20 @@ func (m *Model) event(e live.Event) (Mark, bool) {
 		} else {
 			m.message = "sent: " + e.Text
 		}
+		if strings.HasPrefix(e.Text, "set ") {
+			m.noteChange(e.T, e.SegStartS, e.Text)
+		}
+	case live.EventMeta:
+		m.message = "the board reports " + e.Text
+		m.noteChange(e.T, e.SegStartS, e.Text)
+		return Mark{T: e.T, Label: cut(e.Text, 16)}, true
 	case live.EventDeadband:
 		from := -1.0
 		if e.Segment != nil && e.Segment.DeadbandCounts != nil {
 			from = *e.Segment.DeadbandCounts
 		}
 		m.change = &DeadbandChange{At: e.T, From: from, To: e.Value, Before: e.Segment, CutS: e.SegStartS}
+		m.noteChange(e.T, e.SegStartS, fmt.Sprintf("deadband %g", e.Value))
 		if m.pending != nil && int(math.Round(e.Value)) == m.pending.to {
 			m.message = fmt.Sprintf("the board confirmed deadband %d; figures before and after on view 2", m.pending.to)
 			m.pending = nil

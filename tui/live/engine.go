@@ -3,6 +3,7 @@ package live
 import (
 	"math"
 	"strconv"
+	"strings"
 	"time"
 
 	"github.com/caploop/caploop/analysis"
@@ -124,6 +125,7 @@ func (c *engine) setMeta(m telemetry.Meta) {
 	old := c.meta
 	c.meta = c.meta.Merge(m)
 	c.acc.SetMeta(c.meta)
+	c.metaEvent(old, m)
 	// A deadband change mid-stream (not the first report, not a repeat) is an event
 	// carrying the figures of the segment that ran under the old band.
 	if m.Has(telemetry.FieldDeadband) && c.samples > 0 && old.Has(telemetry.FieldDeadband) && old.Deadband != m.Deadband {
@@ -142,7 +144,14 @@ func (c *engine) setMeta(m telemetry.Meta) {
 }
 
 func (c *engine) event(kind EventKind, text string) {
-	c.evs = append(c.evs, Event{T: c.lastT, Kind: kind, Text: text})
+	ev := Event{T: c.lastT, Kind: kind, Text: text}
+	if kind == EventSent && strings.HasPrefix(text, "set ") && c.samples > 0 {
+		// A change of settings: the screen tells the diagnostics before it from those after.
+		if sum := c.acc.Summary(); len(sum.Segments) > 0 {
+			ev.SegStartS = sum.Segments[len(sum.Segments)-1].StartS
+		}
+	}
+	c.evs = append(c.evs, ev)
 }
 
 func (c *engine) sample(s telemetry.Sample) float64 {

@@ -86,7 +86,8 @@ type Event struct {
 	// Segment, for EventDeadband, is the figures of the segment that ran under the old
 	// band, taken from the accumulator at the moment of the change (the running segment,
 	// or the one before it when the running one has no steady part yet); SegStartS is
-	// the start of the running segment, in the accumulator's clock.
+	// the start of the running segment, in the accumulator's clock (also for EventSent
+	// of a `set` line: segments that start later ran under the new settings).
 	Segment   *analysis.Segment
 	SegStartS float64
 }
