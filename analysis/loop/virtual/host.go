@@ -8,6 +8,10 @@ import (
 	"github.com/caploop/caploop/telemetry"
 )
 
+// AcceptsLine is the last line of the board's answer to `info`: the keys its `set`
+// command takes (see telemetry.Meta.Accepts).
+const AcceptsLine = "# accepts=sp,mode,deadband,period_us"
+
 // readHost runs the host lines that arrived since the last sample.
 func (b *Board) readHost() {
 	b.mu.Lock()
@@ -25,7 +29,7 @@ func (b *Board) readHost() {
 //	set mode=two-state      -> # mode=two-state
 //	set period_us=500       -> # period_us=500
 //	set sp=600 / sp=auto    -> # setpoint 600 held / # setpoint follows the profile
-//	info                    -> the meta lines again
+//	info                    -> the meta lines again and # accepts=sp,mode,deadband,period_us
 //
 // A bad line gets "# error: ..." (a comment, no key=value pairs in it).
 func (b *Board) exec(line string) {
@@ -36,6 +40,8 @@ func (b *Board) exec(line string) {
 	switch strings.ToLower(fields[0]) {
 	case "info", "?":
 		b.out = b.appendMetaLines(b.out)
+		b.out = append(b.out, AcceptsLine...)
+		b.out = append(b.out, '\n')
 		b.event(EvSet, "info")
 		return
 	case "set":
