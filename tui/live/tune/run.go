@@ -287,6 +287,17 @@ func (r *runner) dwell(ctx context.Context, pass string, sp int) error {
 	if err != nil {
 		return err
 	}
+	if to && !r.guided && r.o.Guided {
+		// The board ignored set sp: go on guided, from this step.
+		r.guided, r.res.Guided = true, true
+		tol, wait = math.Max(1, 0.005*r.b.fullScale()), r.o.GuidedWait
+		r.progress("the board did not take set sp=%d within %v: guided mode from here on", sp, r.o.TakeTimeout)
+		r.progress("guided: dial in %s (sp=%d counts) and leave it there; waiting up to %v", si.Format(v, "V"), sp, wait)
+		sentAt = time.Now()
+		if to, err = s.pump(ctx, wait, took); err != nil {
+			return err
+		}
+	}
 	if to {
 		if r.guided {
 			return fmt.Errorf("%w: %s was not dialled in within %v", ErrUnreachable, si.Format(v, "V"), wait)
