@@ -91,7 +91,7 @@ func WriteRecord(dir string, res *Result, whole *analysis.Summary, now time.Time
 
 // Header is the C header of constants a firmware build can include: the advised deadband,
 // the sample period, the setpoint scale, and a comment with the identified plant, the
-// declared parts and the date. Only numbers and caploop's own words go into it.
+// declared parts and the date. Only numbers and caploop's own words go into it, in ASCII.
 func Header(res *Result, now time.Time) string {
 	b := res.Board
 	var sb strings.Builder
@@ -130,7 +130,8 @@ func Header(res *Result, now time.Time) string {
 	fmt.Fprintf(&sb, "#define CAPLOOP_SP_COUNTS_PER_V %.6gf\n", math.Ldexp(1, b.ADCBits)/b.VrefV)
 	sb.WriteString("#define CAPLOOP_SP_COUNTS(mv) ((unsigned)(((unsigned long)(mv) * (1ul << CAPLOOP_ADC_BITS) + CAPLOOP_VREF_MV / 2u) / CAPLOOP_VREF_MV))\n\n")
 	sb.WriteString("#endif /* CAPLOOP_TUNE_H */\n")
-	return sb.String()
+	// Plain ASCII for any compiler: the SI prefix micro as u.
+	return strings.ReplaceAll(strings.ReplaceAll(sb.String(), "µ", "u"), "Ω", "ohm")
 }
 
 func plantLine(p *PlantInfo) string {
