@@ -188,11 +188,13 @@ func makePlan(b BoardInfo, o Options) (*Plan, error) {
 	if span < 16 {
 		return nil, fmt.Errorf("%w: the range %s spans %.0f counts; tune needs at least 16", ErrUsage, p.Range, span)
 	}
-	// The setpoints sit in from the ends by the wide band and as much again, so that a
-	// hold in the band and one charge step past it stay inside the range.
-	wide := math.Min(math.Floor(span/10), math.Floor((fs+1)/4))
-	p.LoCounts = int(math.Ceil(lo + span/10 + wide))
-	p.HiCounts = int(math.Floor(hi - span/10 - wide))
+	// The setpoints sit in from the ends by the wide band (a sixteenth of the span) and a
+	// twentieth of the span, so that a hold in the band and a step past it stay inside
+	// the range while the steps between them stay large (long charge and discharge runs
+	// pin tau down sooner).
+	wide := math.Min(math.Floor(span/16), math.Floor((fs+1)/4))
+	p.LoCounts = int(math.Ceil(lo + span/20 + wide))
+	p.HiCounts = int(math.Floor(hi - span/20 - wide))
 	p.MarginCounts = int(math.Max(4, math.Ceil(0.03*fs)))
 	p.Guided = !b.can("sp")
 	if b.can("deadband") {

@@ -64,7 +64,7 @@ func captureRecords(t *testing.T, path string) []telemetry.Record {
 func TestTuneUnplugMidIdentify(t *testing.T) {
 	t.Parallel()
 	sc := benchScenario()
-	sc.Faults.UnplugAfter = 1.6 // board time: the before pass takes about 0.7 s
+	sc.Faults.UnplugAfter = 3.0 // board time: the before pass ends near 1.5 s, identify lasts some 4 s
 	sc.Faults.ReplugAfter = 0.3
 	dir := t.TempDir()
 	l := serveVirtual(t, newBoard(t, sc), dir)
@@ -104,9 +104,13 @@ func TestTuneQuitDuringVerify(t *testing.T) {
 	l := serveVirtual(t, newBoard(t, benchScenario()), dir)
 	ctx, cancel := context.WithCancel(context.Background())
 	defer cancel()
+	verify := 0
 	prog := syncBuf{on: func(line string) {
-		if strings.Contains(line, "verify, setpoint") && strings.Contains(line, "step ") && strings.Contains(line, "3.7 V") {
-			cancel()
+		// q on the second step of the verify pass.
+		if strings.Contains(line, ": verify, setpoint") {
+			if verify++; verify == 2 {
+				cancel()
+			}
 		}
 	}}
 	res, err := Run(ctx, l, Options{Range: Range{0.5, 4.5}, Progress: &prog})

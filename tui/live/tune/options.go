@@ -71,7 +71,7 @@ type Options struct {
 	Goals advice.Goals
 	// Gates are checked on the verify pass (the summary's gates); nil means none.
 	Gates *report.Gates
-	// MaxCycles bounds the wide-band identify cycles; 0 means 8.
+	// MaxCycles bounds the wide-band identify cycles; 0 means 10.
 	MaxCycles int
 	// AskTimeout bounds the wait for the board's meta lines and first samples (host
 	// time); 0 means 10 s. TakeTimeout bounds the wait for a `set sp` to show in the data
@@ -84,7 +84,7 @@ type Options struct {
 
 func (o Options) withDefaults() Options {
 	if o.MaxCycles <= 0 {
-		o.MaxCycles = 8
+		o.MaxCycles = 10
 	}
 	if o.AskTimeout <= 0 {
 		o.AskTimeout = 10 * time.Second
