@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/json"
 	"errors"
+	"io"
 	"os"
 	"path/filepath"
 	"strings"
@@ -102,5 +103,58 @@ func TestTuneNeedsTerminalOrYes(t *testing.T) {
 	var ee *exitError
 	if !errors.As(err, &ee) || ee.code != 2 || !strings.Contains(err.Error(), "--yes") {
 		t.Fatalf("err %v, want exit 2 asking for --yes", err)
+	}
+}
+
+// TestTuneConfirmAndQuit plays the user at a terminal: y confirms the plan, q and Enter
+// during the identify pass stops the run; the settings are restored, the exit code is 2
+// and the record folder holds what the run reached.
+func TestTuneConfirmAndQuit(t *testing.T) {
+	t.Parallel()
+	sc := virtual.DefaultScenario()
+	sc.Levels, sc.Deadband, sc.V0 = []float64{2.0}, 2, 2.0
+	port := servePTYBoard(t, sc, 8)
+	out := filepath.Join(t.TempDir(), "tuned")
+	in, user := io.Pipe()
+	defer user.Close()
+	var stdout, stderr lockedBuf
+	f := tuneFlags{rng: "0.5V..4.5V", out: out, baud: "115200", replugWait: time.Second, guidedWait: time.Second,
+		stdinTTY: func() bool { return true }, stdin: in}
+	go func() {
+		for !strings.Contains(stderr.String(), "[y/N]") {
+			time.Sleep(5 * time.Millisecond)
+		}
+		io.WriteString(user, "y\n")
+		for !strings.Contains(stderr.String(), "identify, setpoint") {
+			time.Sleep(5 * time.Millisecond)
+		}
+		io.WriteString(user, "q\n")
+	}()
+	err := runTune(context.Background(), port, f, &stdout, &stderr)
+	var ee *exitError
+	if !errors.As(err, &ee) || ee.code != 2 || !strings.Contains(err.Error(), "stopped by the user") {
+		t.Fatalf("err %v, want exit 2, stopped by the user\n%s", err, stderr.String())
+	}
+	if !strings.Contains(stdout.String(), "plan: the output stays within 500 mV..4.5 V") {
+		t.Errorf("plan not shown:\n%s", stdout.String())
+	}
+	if !strings.Contains(stderr.String(), "restored: set sp=410") {
+		t.Errorf("not restored:\n%s", stderr.String())
+	}
+	for _, name := range []string{"capture.cap", "summary.json", "report.html"} {
+		if _, err := os.Stat(filepath.Join(out, name)); err != nil {
+			t.Errorf("record folder: %v", err)
+		}
+	}
+}
+
+// TestTuneNoPort: a port that cannot be opened is exit 2 with the reason.
+func TestTuneNoPort(t *testing.T) {
+	t.Parallel()
+	var stdout, stderr bytes.Buffer
+	err := runTune(context.Background(), filepath.Join(t.TempDir(), "ttyNONE"), tuneFlags{baud: "115200", yes: true, stdinTTY: func() bool { return false }}, &stdout, &stderr)
+	var ee *exitError
+	if !errors.As(err, &ee) || ee.code != 2 {
+		t.Fatalf("err %v, want exit 2", err)
 	}
 }
