@@ -3,7 +3,6 @@ package tune
 import (
 	"bytes"
 	"context"
-	"errors"
 	"math"
 	"os"
 	"path/filepath"
@@ -13,7 +12,6 @@ import (
 	"time"
 
 	"github.com/caploop/caploop/analysis/loop/virtual"
-	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/wire"
 )
 
@@ -119,6 +117,11 @@ func TestTuneVirtualBoard(t *testing.T) {
 			t.Errorf("tau %s %g s, model %g s: off by more than 2 %%", name, *v, want)
 		}
 	}
+	// The wide-band holds show the droop: the load ratio R_load / R from it.
+	wantRatio := sc.Circuit.Load / (sc.Circuit.R + sc.Circuit.RPin)
+	if lr := res.Plant.LoadRatio; lr == nil || math.Abs(*lr/wantRatio-1) > 0.05 {
+		t.Errorf("load ratio %v, model %.4g (within 5 %%)", lr, wantRatio)
+	}
 	if res.AppliedDeadband == nil || res.Advice.DeadbandCounts == nil || *res.AppliedDeadband != *res.Advice.DeadbandCounts {
 		t.Fatalf("applied deadband %v, advice %v", res.AppliedDeadband, res.Advice.DeadbandCounts)
 	}
@@ -133,6 +136,4 @@ func TestTuneVirtualBoard(t *testing.T) {
 	if board > 20 {
 		t.Errorf("the run took %g s of board time, want under 20 s", board)
 	}
-	_ = errors.Is
-	_ = telemetry.FromBoard
 }
