@@ -137,3 +137,33 @@ func TestTuneVirtualBoard(t *testing.T) {
 		t.Errorf("the run took %g s of board time, want under 20 s", board)
 	}
 }
+
+// TestTuneSlowPlant: tau near 100 ms (110 kΩ + 25 Ω, 1 µF, 1 MΩ load: 99.1 ms) is tuned
+// in under 20 s of board time (run at 16 times real time), tau within 2 %.
+func TestTuneSlowPlant(t *testing.T) {
+	t.Parallel()
+	sc := benchScenario()
+	sc.Circuit.R = 110e3
+	b, err := virtual.NewBoard(sc)
+	if err != nil {
+		t.Fatal(err)
+	}
+	b.Speed = 16
+	l := serveVirtual(t, b, t.TempDir())
+	res, err := Run(context.Background(), l, Options{Range: Range{0.5, 4.5}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := modelTau(sc)
+	if v := res.Plant.TauChargeS; v == nil || math.Abs(*v/want-1) > 0.02 {
+		t.Errorf("tau charge %v, model %g s", v, want)
+	}
+	board := 0.0
+	for _, s := range res.Steps {
+		board += s.DwellS
+	}
+	if board > 20 {
+		t.Errorf("%g s of board time, want under 20 s", board)
+	}
+	t.Logf("tau %g s (model %g s), %.1f s of board time; %s", *res.Plant.TauChargeS, want, board, res.Compare.Line)
+}
