@@ -163,6 +163,15 @@ func (r *runner) run(ctx context.Context) error {
 		r.res.PredictedJumps = &j
 	}
 	r.progress("advise: deadband %d counts (the loop model shows %s band jumps with it)", *adv.DeadbandCounts, jumpsText(r.res.PredictedJumps))
+	if cur := adv.Current; cur != nil && !cur.MeetsGoals && len(adv.Candidates) > 0 {
+		c := adv.Candidates[0]
+		tol := ""
+		if c.Tolerance != nil && c.Tolerance.Text != "" {
+			tol = "; over the spread of parts: " + c.Tolerance.Text
+		}
+		r.progress("advise: these parts do not meet the goals in the loop model (%s); the advice: R %s, C %s, band %d (%s%s)",
+			cur.Verdict, si.Format(c.ROhm, "Ω"), si.Format(c.CF, "F"), c.DeadbandCounts, c.Verdict, tol)
+	}
 
 	// 4. apply and verify.
 	if p.WideBandCounts == nil {
