@@ -62,7 +62,7 @@ func newTuneCmd() *cobra.Command {
 
 Safety: a reading outside the range plus a margin, Ctrl-C, SIGTERM or q and Enter sends
 the restore line at once (the board's original sp, deadband, mode and period). After an
-unplug, tune restores the settings once the board is back, or says it could not.
+unplug, tune resumes once the board is back (--replug-wait), or says it could not restore.
 
 A board that takes no set sp is tuned in guided mode (--guided): tune says which setpoint
 to dial in and waits for it. Progress goes to standard error. Exit code 0 when the

@@ -10,8 +10,8 @@
 //  2. Safety: a range of volts the output may visit (default: the setpoints in use);
 //     tune never commands a setpoint outside it. A reading outside the range plus a
 //     margin, a quit or a signal sends the restore line at once (the original sp,
-//     deadband, mode and period in one `set`). An unplug restores after the re-plug,
-//     or says it could not. The plan is shown and confirmed before any `set`.
+//     deadband, mode and period in one `set`). After an unplug the run resumes when
+//     the board is back (the pass's band sent again), or says it could not restore. The plan is shown and confirmed before any `set`.
 //
 //  3. Identify: large steps up and down across the range with the board's own band
 //     (the "before" pass), then the same steps with a wide band whose holds show the

@@ -142,6 +142,7 @@ type Result struct {
 	RestoreNote    string              `json:"restore_note"`
 	Stopped        string              `json:"stopped,omitempty"` // why the run ended early
 	Guided         bool                `json:"guided"`
+	Resumed        int                 `json:"resumed"` // re-plugs the run resumed after
 
 	// The summaries of the passes (also in the record folder's JSON).
 	Identify *analysis.Summary `json:"-"`

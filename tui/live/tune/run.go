@@ -69,6 +69,7 @@ type runner struct {
 
 	ident    *analysis.Accumulator
 	tauEst   float64 // samples; 0 until known
+	passCmd  string  // the set line of the pass under way (sent again after a re-plug)
 	step, of int
 }
 
@@ -101,7 +102,7 @@ func (r *runner) run(ctx context.Context) error {
 	s.accs = []*analysis.Accumulator{before, r.ident}
 	s.conn.Annotate("tune: before pass")
 	for _, sp := range sps {
-		if err := r.dwell(ctx, "before", sp); err != nil {
+		if err := r.hold(ctx, "before", sp); err != nil {
 			r.res.Before = before.Summary()
 			return err
 		}
@@ -118,12 +119,13 @@ func (r *runner) run(ctx context.Context) error {
 		if err := r.send(cmd); err != nil {
 			return err
 		}
+		r.passCmd = cmd
 	}
 	s.conn.Annotate("tune: identify pass")
 	var sum *analysis.Summary
 	for cyc := 1; ; cyc++ {
 		for _, sp := range []int{p.HiCounts, p.LoCounts} {
-			if err := r.dwell(ctx, "identify", sp); err != nil {
+			if err := r.hold(ctx, "identify", sp); err != nil {
 				r.res.Identify = r.ident.Summary()
 				return err
 			}
@@ -189,11 +191,12 @@ func (r *runner) run(ctx context.Context) error {
 	if err := r.send(cmd); err != nil {
 		return err
 	}
+	r.passCmd = cmd
 	after := r.newAcc("after")
 	s.accs = []*analysis.Accumulator{after}
 	s.conn.Annotate("tune: verify pass")
 	for _, sp := range sps {
-		if err := r.dwell(ctx, "verify", sp); err != nil {
+		if err := r.hold(ctx, "verify", sp); err != nil {
 			r.res.After = after.Summary()
 			return err
 		}
@@ -264,6 +267,40 @@ func plantInfo(sum *analysis.Summary) *PlantInfo {
 	return &PlantInfo{TauChargeS: p.TauChargeS, TauChargeCIS: p.TauChargeCIS, TauDischargeS: p.TauDischargeS,
 		TauDischargeCIS: p.TauDischargeCIS, TauHoldS: p.TauHoldS, LoadRatio: p.LoadRatio, LoadRatioReason: p.LoadRatioReason,
 		Kind: p.Kind, NoiseRMSCounts: p.NoiseRMSCounts, TauChargeSReason: p.TauChargeSReason}
+}
+
+// maxResumes bounds the re-plugs a run resumes after.
+const maxResumes = 2
+
+// hold is dwell, resumed once the board is back when it was unplugged during the dwell:
+// the board may have rebooted with its own settings, so the pass's set line goes again
+// and the dwell starts over (the passes see the break as a reset).
+func (r *runner) hold(ctx context.Context, pass string, sp int) error {
+	for {
+		err := r.dwell(ctx, pass, sp)
+		if !errors.Is(err, ErrUnplugged) || r.res.Resumed >= maxResumes {
+			return err
+		}
+		s := r.s
+		r.progress("the board was unplugged; waiting up to %v for it to come back to resume", r.o.ReplugWait)
+		s.guard.armed = false
+		to, perr := s.pump(ctx, r.o.ReplugWait, func() bool { return s.connected && s.haveLast })
+		if perr != nil {
+			return perr
+		}
+		if to {
+			return fmt.Errorf("%w: it did not come back within %v", ErrUnplugged, r.o.ReplugWait)
+		}
+		r.res.Resumed++
+		r.step--
+		s.conn.Annotate("tune: resumed after a re-plug")
+		r.progress("the board is back: resuming the %s pass", pass)
+		if r.passCmd != "" {
+			if err := r.send(r.passCmd); err != nil {
+				return err
+			}
+		}
+	}
 }
 
 // dwell commands sp (or asks for it in guided mode), waits for the reading to arrive and

@@ -2,6 +2,7 @@ package tune
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"time"
@@ -180,8 +181,19 @@ func (s *session) pump(ctx context.Context, timeout time.Duration, cond func() b
 }
 
 // send writes one line to the board.
+// A write that fails because the port is going away is an unplug: it waits (up to a
+// second) for the Link to say so and returns ErrUnplugged then.
 func (s *session) send(cmd string) error {
 	if err := s.conn.Send(cmd); err != nil {
+		if !s.unplugged {
+			_, perr := s.pump(context.Background(), time.Second, func() bool { return s.unplugged })
+			if perr != nil && !errors.Is(perr, ErrUnplugged) {
+				return perr
+			}
+		}
+		if s.unplugged {
+			return fmt.Errorf("%w: sending %q failed", ErrUnplugged, cmd)
+		}
 		return fmt.Errorf("tune: send %q: %w", cmd, err)
 	}
 	return nil
