@@ -9,6 +9,7 @@ import (
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/advice"
+	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/si"
 )
 
@@ -192,6 +193,16 @@ func (r *runner) run(ctx context.Context) error {
 		return err
 	}
 	r.passCmd = cmd
+	// The after pass starts when the board's answer shows the new band, so that none of
+	// its segments ran under the wide one.
+	want := float64(d)
+	to, err := s.pump(ctx, r.o.TakeTimeout, func() bool { m := s.meta(); return m.Has(telemetry.FieldDeadband) && m.Deadband == want })
+	if err != nil {
+		return err
+	}
+	if to {
+		r.progress("verify: the board did not answer deadband=%d within %v; measuring anyway", d, r.o.TakeTimeout)
+	}
 	after := r.newAcc("after")
 	s.accs = []*analysis.Accumulator{after}
 	s.conn.Annotate("tune: verify pass")
