@@ -49,7 +49,7 @@ func TestTuneCommand(t *testing.T) {
 	t.Parallel()
 	sc := virtual.DefaultScenario()
 	sc.Levels, sc.Deadband, sc.V0 = []float64{2.0}, 2, 2.0
-	port := servePTYBoard(t, sc, 8)
+	port := servePTYBoard(t, sc, 4)
 	out := filepath.Join(t.TempDir(), "tuned")
 	var stdout, stderr bytes.Buffer
 	f := tuneFlags{rng: "0.5V..4.5V", out: out, baud: "115200", yes: true, replugWait: time.Second, guidedWait: time.Second,
@@ -113,7 +113,7 @@ func TestTuneConfirmAndQuit(t *testing.T) {
 	t.Parallel()
 	sc := virtual.DefaultScenario()
 	sc.Levels, sc.Deadband, sc.V0 = []float64{2.0}, 2, 2.0
-	port := servePTYBoard(t, sc, 8)
+	port := servePTYBoard(t, sc, 4)
 	out := filepath.Join(t.TempDir(), "tuned")
 	in, user := io.Pipe()
 	defer user.Close()

@@ -48,6 +48,7 @@ func buildFirmware(t *testing.T) string {
 func TestTuneReferenceFirmware(t *testing.T) {
 	t.Parallel()
 	prog := buildFirmware(t)
+	oneBoard(t)
 	cfg := loop.Config{
 		Circuit:    loop.Circuit{Supply: 5, R: 47e3, C: 1e-6, Load: 1e6},
 		ADC:        loop.ADC{Vref: 5, Bits: 10, Noise: 0.5},
@@ -58,7 +59,7 @@ func TestTuneReferenceFirmware(t *testing.T) {
 	}
 	ctx, cancel := context.WithTimeout(context.Background(), 60*time.Second)
 	defer cancel()
-	rig, err := firmware.Start(ctx, firmware.Options{Program: prog, Plant: cfg, SP: 410, Speed: 8})
+	rig, err := firmware.Start(ctx, firmware.Options{Program: prog, Plant: cfg, SP: 410, Speed: 4})
 	if err != nil {
 		t.Fatal(err)
 	}

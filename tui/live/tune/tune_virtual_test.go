@@ -40,10 +40,22 @@ func (s *syncBuf) String() string {
 	return s.b.String()
 }
 
+// boards lets one served board run at a time: each runs several times faster than real
+// time and keeps a core busy, and the suite runs on two cores beside timing-sensitive
+// tests of other packages.
+var boards = make(chan struct{}, 1)
+
+// oneBoard holds the board slot until the test ends.
+func oneBoard(t *testing.T) {
+	boards <- struct{}{}
+	t.Cleanup(func() { <-boards })
+}
+
 // serveVirtual runs dev (a virtual board, possibly wrapped) on a pseudo-terminal and
 // returns a Link to it that records to capture.cap in dir.
 func serveVirtual(t *testing.T, dev wire.Device, dir string) *wire.Link {
 	t.Helper()
+	oneBoard(t)
 	ctx, cancel := context.WithCancel(context.Background())
 	ready := make(chan string, 1)
 	done := make(chan error, 1)
@@ -91,7 +103,7 @@ func TestTuneVirtualBoard(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	b.Speed = 8
+	b.Speed = 4
 	dir := t.TempDir()
 	if d := os.Getenv("TUNE_KEEP"); d != "" {
 		dir = d
@@ -148,7 +160,7 @@ func TestTuneSlowPlant(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	b.Speed = 16
+	b.Speed = 8
 	l := serveVirtual(t, b, t.TempDir())
 	res, err := Run(context.Background(), l, Options{Range: Range{0.5, 4.5}})
 	if err != nil {
