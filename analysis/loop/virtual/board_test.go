@@ -140,7 +140,7 @@ func TestSetCommands(t *testing.T) {
 			}
 		}},
 		{"two keys", "set deadband=7 mode=three-state", []string{"# mode=three-state deadband=7"}, nil},
-		{"info", "info", []string{"# vref=5 adc_bits=10 period_us=1000 mode=three-state deadband=4", "# supply=5 r=47000 c=1e-06 load=1000000"}, nil},
+		{"info", "info", []string{"# vref=5 adc_bits=10 period_us=1000 mode=three-state deadband=4", "# supply=5 r=47000 c=1e-06 load=1000000", "# accepts=sp,mode,deadband,period_us"}, nil},
 		{"unknown key", "set gain=3", []string{`# error: unknown key "gain", want deadband, mode, period_us or sp`}, nil},
 		{"bad value", "set deadband=-1", []string{"# error: deadband wants a whole number of counts 0 to 1023"}, nil},
 		{"bad mode", "set mode=fast", []string{"# error: mode wants two-state or three-state"}, nil},
