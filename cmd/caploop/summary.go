@@ -54,7 +54,8 @@ segment (or step); --junit - (or --report -) prints that file on standard output
 instead of the text.
 
 --json prints one document for one file and an array for several; --jsonl one compact
-document per line. Each carries schema_version; numbers keep 6 significant digits.
+document per line. Each carries schema_version; numbers keep 6 significant digits. A
+file that cannot be used is {"schema_version": 1, "file": ..., "error": ...} among them.
 Derived files (--junit, --report, --plot) are replaced; a path that is a symbolic
 link, a device or a FIFO is refused.
 
