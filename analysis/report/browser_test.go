@@ -4,7 +4,9 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"fmt"
 	"html"
+	"image/color"
 	"image/png"
 	"os"
 	"os/exec"
@@ -68,7 +70,7 @@ document.addEventListener("securitypolicyviolation", function (e) { window.__pro
 
 const probeTail = `<script>
 (function () {
-  var dataColours = ["#1f5fa8", "#4f86c6", "#c83c1e", "#2e8b3e", "#8a4fa8", "#b07a10", "#7a4f9a"];
+  var dataColours = DATA_COLOURS;
   var out = { plots: [], errors: window.__probe };
   document.querySelectorAll("figure.plot").forEach(function (f) {
     var svg = f.querySelector("svg");
@@ -150,7 +152,7 @@ func TestBrowserRendersReport(t *testing.T) {
 	}
 	probe = strings.Replace(probe, csp, csp+"; script-src 'unsafe-inline'", 1)
 	probe = strings.Replace(probe, "<head>", "<head>\n"+probeHead, 1)
-	probe = strings.Replace(probe, "</body>", probeTail+"\n</body>", 1)
+	probe = strings.Replace(probe, "</body>", strings.Replace(probeTail, "DATA_COLOURS", dataColoursJS(), 1)+"\n</body>", 1)
 	probePath := filepath.Join(dir, "probe.html")
 	if err := os.WriteFile(probePath, []byte(probe), 0o644); err != nil {
 		t.Fatal(err)
@@ -202,4 +204,14 @@ func TestBrowserRendersReport(t *testing.T) {
 			t.Error(err)
 		}
 	}
+}
+
+// dataColours lists, as a JavaScript array, the stroke colours of the plots' data series
+// (plots.go), so the probe counts what is drawn in them whatever the palette.
+func dataColoursJS() string {
+	var v []string
+	for _, c := range append([]color.RGBA{colPV, colSP, colFit, colDrive, colBars}, palette...) {
+		v = append(v, fmt.Sprintf("%q", fmt.Sprintf("#%02x%02x%02x", c.R, c.G, c.B)))
+	}
+	return "[" + strings.Join(v, ", ") + "]"
 }

@@ -18,26 +18,43 @@ type GateText struct {
 	Jumps, Rejected, Gaps                         string
 }
 
-// Gates is the parsed gates; NaN means no gate.
+// Gates is the parsed gates; NaN means no gate. A voltage limit given in % is kept as
+// a fraction of full scale (the file's vref) in the matching ...FS field and turned
+// into volts file by file.
 type Gates struct {
 	ripple, robust, rms, settle, errV, overshoot float64
 	jumps, rejected, gaps                        float64
+
+	rippleFS, robustFS, rmsFS, errFS, overshootFS bool
 }
 
 func (g *GateText) Parse() (Gates, error) {
-	s := Gates{math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN(), math.NaN()}
+	nan := math.NaN()
+	s := Gates{ripple: nan, robust: nan, rms: nan, settle: nan, errV: nan, overshoot: nan, jumps: nan, rejected: nan, gaps: nan}
 	for _, p := range []struct {
 		flag, text, unit string
 		dst              *float64
+		fs               *bool
 	}{
-		{"--max-ripple", g.Ripple, "V", &s.ripple},
-		{"--max-robust-ripple", g.Robust, "V", &s.robust},
-		{"--max-rms", g.RMS, "V", &s.rms},
-		{"--max-settle", g.Settle, "s", &s.settle},
-		{"--max-error", g.Error, "V", &s.errV},
-		{"--max-overshoot", g.Overshoot, "V", &s.overshoot},
+		{"--max-ripple", g.Ripple, "V", &s.ripple, &s.rippleFS},
+		{"--max-robust-ripple", g.Robust, "V", &s.robust, &s.robustFS},
+		{"--max-rms", g.RMS, "V", &s.rms, &s.rmsFS},
+		{"--max-settle", g.Settle, "s", &s.settle, nil},
+		{"--max-error", g.Error, "V", &s.errV, &s.errFS},
+		{"--max-overshoot", g.Overshoot, "V", &s.overshoot, &s.overshootFS},
 	} {
 		if p.text == "" {
+			continue
+		}
+		if t := strings.TrimSpace(p.text); strings.HasSuffix(t, "%") {
+			if p.fs == nil {
+				return s, fmt.Errorf("summary: %s %q: a time limit has no full scale; give it in seconds, such as %s", p.flag, clean(p.text), gateExample[p.unit])
+			}
+			v, err := parsePercent(p.flag, p.text)
+			if err != nil {
+				return s, err
+			}
+			*p.dst, *p.fs = v, true
 			continue
 		}
 		v, err := parseGateValue(p.flag, p.text, p.unit)
@@ -81,6 +98,23 @@ func parseGateValue(flag, text, unit string) (float64, error) {
 	return v, nil
 }
 
+// parsePercent reads a voltage limit given as a percentage of full scale ("2%",
+// "0.5 %") and returns it as a fraction (0.02).
+func parsePercent(flag, text string) (float64, error) {
+	t := strings.TrimSpace(strings.TrimSuffix(strings.TrimSpace(text), "%"))
+	v, err := strconv.ParseFloat(t, 64)
+	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+		return 0, fmt.Errorf("summary: %s %q: want a percentage of full scale, such as 2%%", flag, clean(text))
+	}
+	if v < 0 {
+		return 0, fmt.Errorf("summary: %s %q: a limit cannot be negative", flag, clean(text))
+	}
+	if v > 100 {
+		return 0, fmt.Errorf("summary: %s %q: a limit in %% of full scale cannot exceed 100%%", flag, clean(text))
+	}
+	return v / 100, nil
+}
+
 // gateExample is the example given in a gate value's error, by unit.
 var gateExample = map[string]string{"V": "20mV or 0.02V", "s": "150ms or 0.15s"}
 
@@ -104,6 +138,22 @@ type GateResult struct {
 // Check evaluates every gate on s.
 func (g Gates) Check(s *analysis.Summary) []GateResult {
 	var out []GateResult
+	var vref *float64
+	if s.Board.VrefV != nil && *s.Board.VrefV > 0 {
+		vref = s.Board.VrefV
+	}
+	// volts turns a limit given in % of full scale into volts with the file's vref;
+	// note is said after the comparison ("2% of vref 5 V"), "" for a limit in volts.
+	volts := func(limit float64, fs bool) (v float64, note string, ok bool) {
+		if !fs {
+			return limit, "", true
+		}
+		pct := strconv.FormatFloat(limit*100, 'g', 4, 64) + "%"
+		if vref == nil {
+			return 0, pct + " of full scale: the file gives no vref", false
+		}
+		return limit * *vref, " (" + pct + " of vref " + si.FormatDigits(*vref, "V", 4) + ")", true
+	}
 	add := func(gate, scope, unit string, v *float64, limit float64, why string) {
 		r := GateResult{Gate: gate, Scope: scope, Value: v, Limit: limit}
 		switch {
@@ -120,6 +170,18 @@ func (g Gates) Check(s *analysis.Summary) []GateResult {
 		}
 		out = append(out, r)
 	}
+	// addV is add for a voltage gate whose limit may be in % of full scale.
+	addV := func(gate, scope string, v *float64, limit float64, fs bool, why string) {
+		lim, note, ok := volts(limit, fs)
+		if !ok {
+			out = append(out, GateResult{Gate: gate, Scope: scope, Status: GateSkip, Value: v, Limit: 0, Message: "no limit: " + note})
+			return
+		}
+		add(gate, scope, "V", v, lim, why)
+		if note != "" && v != nil {
+			out[len(out)-1].Message += note
+		}
+	}
 	for i := range s.Segments {
 		seg := &s.Segments[i]
 		scope := fmt.Sprintf("segment %d (%s)", i+1, levelText(seg.SetpointV, seg.SetpointCounts))
@@ -128,13 +190,13 @@ func (g Gates) Check(s *analysis.Summary) []GateResult {
 			unreach = "setpoint unreachable"
 		}
 		if !math.IsNaN(g.ripple) {
-			add("max-ripple", scope, "V", seg.RipplePPV, g.ripple, unreach)
+			addV("max-ripple", scope, seg.RipplePPV, g.ripple, g.rippleFS, unreach)
 		}
 		if !math.IsNaN(g.robust) {
-			add("max-robust-ripple", scope, "V", seg.RippleRobustPPV, g.robust, unreach)
+			addV("max-robust-ripple", scope, seg.RippleRobustPPV, g.robust, g.robustFS, unreach)
 		}
 		if !math.IsNaN(g.rms) {
-			add("max-rms", scope, "V", seg.RippleRMSV, g.rms, unreach)
+			addV("max-rms", scope, seg.RippleRMSV, g.rms, g.rmsFS, unreach)
 		}
 		if !math.IsNaN(g.errV) {
 			var v *float64
@@ -142,7 +204,7 @@ func (g Gates) Check(s *analysis.Summary) []GateResult {
 				a := math.Abs(*seg.MeanErrorV)
 				v = &a
 			}
-			add("max-error", scope, "V", v, g.errV, unreach)
+			addV("max-error", scope, v, g.errV, g.errFS, unreach)
 		}
 		if !math.IsNaN(g.jumps) {
 			j := float64(seg.BandJumps)
@@ -156,7 +218,7 @@ func (g Gates) Check(s *analysis.Summary) []GateResult {
 			add("max-settle", scope, "s", st.SettleS, g.settle, "never settled")
 		}
 		if !math.IsNaN(g.overshoot) {
-			add("max-overshoot", scope, "V", st.OvershootV, g.overshoot, "")
+			addV("max-overshoot", scope, st.OvershootV, g.overshoot, g.overshootFS, "")
 		}
 	}
 	if !math.IsNaN(g.rejected) {

@@ -66,3 +66,11 @@ func (r *FileResult) DiagnosticsAtLeast(level string) []analysis.Diagnostic {
 	}
 	return out
 }
+
+// ErrorDoc stands for a file summary could not use, in the array of several files and
+// in JSON Lines: its name and why.
+type ErrorDoc struct {
+	SchemaVersion int    `json:"schema_version"`
+	File          string `json:"file"`
+	Error         string `json:"error"`
+}

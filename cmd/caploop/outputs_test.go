@@ -59,6 +59,22 @@ func TestGateValuesAndFailOn(t *testing.T) {
 		{"unit given, passes", []string{"--max-ripple", "100mV", good}, 0, ""},
 		{"unit given, fails", []string{"--max-ripple", "90mV", good}, 1,
 			"summary: 1 gate failed: " + good + ": max-ripple segment 1 (1.2 V)"},
+		// three-state-good.txt: vref=5 V, ripple 92.77 mV = 1.855 % of full scale.
+		{"percent, passes", []string{"--max-ripple", "2%", good}, 0, ""},
+		{"percent with a space, fails", []string{"--max-ripple", "1.8 %", good}, 1,
+			"summary: 1 gate failed: " + good + ": max-ripple segment 1 (1.2 V)"},
+		{"percent of a time", []string{"--max-settle", "5%", good}, 2,
+			`summary: --max-settle "5%": a time limit has no full scale; give it in seconds, such as 150ms or 0.15s`},
+		{"percent without a number", []string{"--max-rms", "%", good}, 2,
+			`summary: --max-rms "%": want a percentage of full scale, such as 2%`},
+		{"percent not a number", []string{"--max-error", "twopc%", good}, 2,
+			`summary: --max-error "twopc%": want a percentage of full scale, such as 2%`},
+		{"percent negative", []string{"--max-overshoot", "-1%", good}, 2,
+			`summary: --max-overshoot "-1%": a limit cannot be negative`},
+		{"percent over full scale", []string{"--max-ripple", "120%", good}, 2,
+			`summary: --max-ripple "120%": a limit in % of full scale cannot exceed 100%`},
+		{"percent infinite", []string{"--max-ripple", "Inf%", good}, 2,
+			`summary: --max-ripple "Inf%": want a percentage of full scale, such as 2%`},
 		{"fail-on error, error present", []string{"--fail-on", "error", follower}, 1,
 			"summary: --fail-on error: 1 diagnostic at error or above: " + follower + ": error unreachable_setpoint"},
 		{"fail-on warning, none", []string{"--fail-on", "warning", good}, 0, ""},
@@ -365,5 +381,19 @@ func TestReportToStdout(t *testing.T) {
 	}
 	if _, _, code := runSummaryCmd(t, "--report", "-", "--junit", "-", capture(t, "three-state-good.txt")); code != 2 {
 		t.Errorf("--report - with --junit -: exit code %d, want 2", code)
+	}
+}
+
+// TestGatePercentSaysFullScale checks that a limit in % is judged against the file's
+// vref and that the verdict line says so (three-state-good.txt: vref=5 V).
+func TestGatePercentSaysFullScale(t *testing.T) {
+	t.Parallel()
+	good := capture(t, "three-state-good.txt")
+	out, _, code := runSummaryCmd(t, "--no-advice", "--max-ripple", "1.8%", good)
+	if code != 1 {
+		t.Fatalf("exit %d, want 1\n%s", code, out)
+	}
+	if want := "92.77 mV > 90 mV (1.8% of vref 5 V)"; !strings.Contains(out, want) {
+		t.Errorf("output lacks %q:\n%s", want, out)
 	}
 }

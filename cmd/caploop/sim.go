@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"io"
 	"os"
 	"os/signal"
 	"strings"
@@ -22,6 +23,7 @@ func init() { commands = append(commands, newSimCmd) }
 func newSimCmd() *cobra.Command {
 	var (
 		scenarioFile, out, link string
+		force                   bool
 		fast, usePTY, verbose   bool
 		capture, waitOpen       bool
 		speed                   float64
@@ -163,43 +165,34 @@ Values take SI prefixes and units (47k, 4k7, 1u, 100mV, 1ms). Keys:
 				})
 				return withCode(2, err)
 			}
-			w := cmd.OutOrStdout()
-			if out != "" {
-				f, err := os.Create(out)
-				if err != nil {
-					return withCode(2, err)
+			err = simOutput(out, capture, force, cmd.OutOrStdout(), func(w io.Writer) error {
+				var co *virtual.CaptureOutput
+				if capture {
+					var err error
+					if co, err = virtual.NewCaptureOutput(w, time.Now(), "virtual:"+sc.Name); err != nil {
+						return err
+					}
+					w = co
 				}
-				defer f.Close()
-				w = f
-			}
-			var co *virtual.CaptureOutput
-			if capture {
-				if co, err = virtual.NewCaptureOutput(w, time.Now(), "virtual:"+sc.Name); err != nil {
-					return withCode(2, fmt.Errorf("sim: %w", err))
+				err := b.Run(ctx, w, !fast)
+				if errors.Is(err, context.Canceled) {
+					err = nil
 				}
-				w = co
-			}
-			err = b.Run(ctx, w, !fast)
-			if errors.Is(err, context.Canceled) {
-				err = nil
-			}
-			if co != nil {
-				err = errors.Join(err, co.Flush())
-			}
+				if co != nil {
+					err = errors.Join(err, co.Flush())
+				}
+				return err
+			})
 			if err != nil {
 				return withCode(2, fmt.Errorf("sim: %w", err))
-			}
-			if f, ok := w.(*os.File); ok && out != "" {
-				if err := f.Close(); err != nil {
-					return withCode(2, fmt.Errorf("sim: %w", err))
-				}
 			}
 			return nil
 		},
 	}
 	fl := cmd.Flags()
 	fl.StringVar(&scenarioFile, "scenario", "", "scenario file (key = value lines, see above)")
-	fl.StringVarP(&out, "out", "o", "", "write to this file instead of standard output")
+	fl.StringVarP(&out, "out", "o", "", "write to this file instead of standard output (plain telemetry: written whole when the run ends, replacing an older file; with --capture: written as it comes, an existing file needs --force); a symbolic link, device or FIFO is refused")
+	fl.BoolVar(&force, "force", false, "with --capture --out: overwrite the capture file if it exists")
 	fl.BoolVar(&fast, "fast", false, "write as fast as possible instead of in real time")
 	fl.BoolVar(&capture, "capture", false, "write a caploop capture (host time, direction, line; host times from the board clock) instead of plain telemetry")
 	fl.BoolVar(&usePTY, "pty", false, "serve a pseudo-terminal and print its stable path")

@@ -54,7 +54,8 @@ segment (or step); --junit - (or --report -) prints that file on standard output
 instead of the text.
 
 --json prints one document for one file and an array for several; --jsonl one compact
-document per line. Each carries schema_version; numbers keep 6 significant digits.
+document per line. Each carries schema_version; numbers keep 6 significant digits. A
+file that cannot be used is {"schema_version": 1, "file": ..., "error": ...} among them.
 Derived files (--junit, --report, --plot) are replaced; a path that is a symbolic
 link, a device or a FIFO is refused.
 
@@ -208,15 +209,26 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 	return nil
 }
 
-// writeSummaryJSON writes the JSON of the usable files: one document for one file, an
-// array for several, or one compact document per line with jsonl. Write errors are
-// kept by out.
+// writeSummaryJSON writes the JSON of the files: one document for one file, an array
+// for several, or one compact document per line with jsonl. A file that could not be
+// used is an entry {schema_version, file, error} in the array and in JSON Lines (alone,
+// it prints nothing: its error is on standard error and the exit code is 2). Write
+// errors are kept by out.
 func writeSummaryJSON(out io.Writer, results []*report.FileResult, jsonl bool) {
-	var docs []report.SummaryDoc
+	var docs []any
+	usable := 0
 	for _, r := range results {
-		if r.Summary != nil && r.Err == nil {
+		switch {
+		case r.Summary != nil && r.Err == nil:
 			docs = append(docs, r.Doc())
+			usable++
+		case r.Err != nil:
+			docs = append(docs, report.ErrorDoc{SchemaVersion: report.SchemaVersion,
+				File: telemetry.Sanitize([]byte(r.Name)), Error: errorText(r.Err)})
 		}
+	}
+	if len(results) == 1 && usable == 0 && !jsonl {
+		return
 	}
 	var err error
 	switch {
@@ -226,7 +238,7 @@ func writeSummaryJSON(out io.Writer, results []*report.FileResult, jsonl bool) {
 				break
 			}
 		}
-	case len(results) == 1 && len(docs) == 1:
+	case len(results) == 1 && len(docs) == 1 && usable == 1:
 		err = report.WriteJSON(out, docs[0], true)
 	case len(docs) > 0:
 		err = report.WriteJSON(out, docs, true)
