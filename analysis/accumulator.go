@@ -302,8 +302,10 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 		}
 		if u == sg.prevU && sg.n > 1 {
 			sg.endRun++
+			sg.endMinE, sg.endMaxE = min(sg.endMinE, e), max(sg.endMaxE, e)
 		} else {
 			sg.endRun = 1
+			sg.endMinE, sg.endMaxE = e, e
 		}
 		if sg.steady {
 			sg.sn++

@@ -53,6 +53,17 @@ func (s *segState) rests() bool {
 	return s.switches == 0 || (s.onsets < 2 && s.dOnsets < 2) || (s.sn >= 32 && 2*s.endRun > s.sn)
 }
 
+// restsAtEnd says the loop has sat in one drive for at least 32 samples since its last
+// transient, within the steady part, and rests: see rests, or besides the onset that
+// started the steady part at most one more of each drive (a correction that noise
+// triggered once). The ripple of a resting loop is taken over that end run.
+func (s *segState) restsAtEnd() bool {
+	if s.endRun < 32 || s.endRun >= s.sn {
+		return false
+	}
+	return s.rests() || (s.firm && s.onsets <= 2 && s.dOnsets <= 2 && s.onsets+s.dOnsets <= 3)
+}
+
 // ringAt returns the i-th of the last m steady ring entries, oldest first.
 func (s *segState) ringAt(i, m int) *ringEntry {
 	j := s.rpos - m + i

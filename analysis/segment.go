@@ -53,10 +53,13 @@ type segState struct {
 	lastSeen       [2*histHalf + 1]int64 // number (1-based) of the last sample in each error bin
 	lsLo, lsHi     int
 	endRun         int64 // samples with the same drive at the end
-	lastPV         float64
-	stepT, stepPV  [stepKeep]float64
-	stepU          [stepKeep]int8
-	tail           [tailLen]float64 // the last readings, for the level an unreachable setpoint sits at
+	// Lowest and highest error over the end run: the ripple of a loop that rests,
+	// measured after its last transient.
+	endMinE, endMaxE float64
+	lastPV           float64
+	stepT, stepPV    [stepKeep]float64
+	stepU            [stepKeep]int8
+	tail             [tailLen]float64 // the last readings, for the level an unreachable setpoint sits at
 
 	// steady part
 	sn              int64
@@ -129,7 +132,7 @@ func (s *segState) reset(window int) {
 	s.entries, s.exits, s.noiseExits = 0, 0, 0
 	s.t10, s.t90, s.has10, s.has90, s.rising = 0, 0, false, false, false
 	s.lsLo, s.lsHi = 2*histHalf, 0
-	s.endRun, s.lastPV = 0, 0
+	s.endRun, s.lastPV, s.endMinE, s.endMaxE = 0, 0, 0, 0
 	s.ring = ring
 	s.clearSteady()
 }
@@ -266,6 +269,11 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 		}
 		f.rmsE = math.Sqrt(v)
 		f.ppE = s.maxE - s.minE
+		if s.restsAtEnd() {
+			// The loop bounced and then rests: its steady ripple is what it shows
+			// after the last transient, the end run of one drive.
+			f.ppE = s.endMaxE - s.endMinE
+		}
 		f.robPP = s.quantile(0.995) - s.quantile(0.005)
 		for i := range f.duty {
 			f.duty[i] = float64(s.duty[i]) / n
