@@ -299,6 +299,7 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 		if sg.firm && !sg.envOK {
 			sg.blkSum += e
 			sg.blkN++
+			sg.blkLo, sg.blkHi = min(sg.blkLo, e), max(sg.blkHi, e)
 		}
 		if u == sg.prevU && sg.n > 1 {
 			sg.endRun++

@@ -34,13 +34,15 @@ type segState struct {
 	// in a row differ by more than noise allows, the steady part starts over at the
 	// next block. envOK: a block matched its predecessor, the envelope has stopped.
 	blkSum, blkPrev float64
-	blkN            int64
-	hasPrev, envOK  bool
-	steadyAt        float64
-	db              float64
-	sawHold         bool
-	rising          bool // a step whose 10 % or 90 % crossing is still to come
-	trk             bool // opened by a tracking move (see Tracking)
+	// lowest and highest error of the open block and of the previous one
+	blkLo, blkHi, blkPrevLo, blkPrevHi float64
+	blkN                               int64
+	hasPrev, envOK                     bool
+	steadyAt                           float64
+	db                                 float64
+	sawHold                            bool
+	rising                             bool // a step whose 10 % or 90 % crossing is still to come
+	trk                                bool // opened by a tracking move (see Tracking)
 
 	// whole segment
 	minPV, maxPV   float64
@@ -126,7 +128,7 @@ func (s *segState) reset(window int) {
 	s.start, s.end, s.n, s.firstSign, s.steady, s.steadyAt, s.db, s.sawHold = 0, 0, 0, 0, false, 0, 0, false
 	s.firm, s.reachN = false, 0
 	s.blkSum, s.blkPrev, s.blkN, s.hasPrev, s.envOK = 0, 0, 0, false, false
-	s.blkSum, s.blkPrev, s.blkN, s.hasPrev, s.envOK = 0, 0, 0, false, false
+	s.blkLo, s.blkHi = math.Inf(1), math.Inf(-1)
 	s.minPV, s.maxPV, s.prevIn, s.prevU = math.Inf(1), math.Inf(-1), false, 0
 	s.trk = false
 	s.entries, s.exits, s.noiseExits = 0, 0, 0
