@@ -299,11 +299,14 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 		if sg.firm && !sg.envOK {
 			sg.blkSum += e
 			sg.blkN++
+			sg.blkLo, sg.blkHi = min(sg.blkLo, e), max(sg.blkHi, e)
 		}
 		if u == sg.prevU && sg.n > 1 {
 			sg.endRun++
+			sg.endMinE, sg.endMaxE = min(sg.endMinE, e), max(sg.endMaxE, e)
 		} else {
 			sg.endRun = 1
+			sg.endMinE, sg.endMaxE = e, e
 		}
 		if sg.steady {
 			sg.sn++

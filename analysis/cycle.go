@@ -53,6 +53,17 @@ func (s *segState) rests() bool {
 	return s.switches == 0 || (s.onsets < 2 && s.dOnsets < 2) || (s.sn >= 32 && 2*s.endRun > s.sn)
 }
 
+// restsAtEnd says the loop has sat in one drive for at least 32 samples since its last
+// transient, within the steady part, and rests: see rests, or besides the onset that
+// started the steady part at most one more of each drive (a correction that noise
+// triggered once). The ripple of a resting loop is taken over that end run.
+func (s *segState) restsAtEnd() bool {
+	if s.endRun < 32 || s.endRun >= s.sn {
+		return false
+	}
+	return s.rests() || (s.firm && s.onsets <= 2 && s.dOnsets <= 2 && s.onsets+s.dOnsets <= 3)
+}
+
 // ringAt returns the i-th of the last m steady ring entries, oldest first.
 func (s *segState) ringAt(i, m int) *ringEntry {
 	j := s.rpos - m + i
@@ -301,20 +312,26 @@ func driveName(u int8) string {
 
 // envelopeDrifts closes the open block of whole cycles of sg (at a charge onset) and
 // says whether its mean error moved from the previous block's by more than a quarter
-// count plus 4 sigma of the noise of the two means: the level is still converging to
-// its limit cycle (a two-state loop near mid-duty creeps over many cycles), so the
-// steady part starts over here. The first block that matches ends the check.
+// count plus 4 sigma of the noise of the two means, or either of its extremes by more
+// than a count plus 4 sigma: the level is still converging to its limit cycle (a
+// two-state loop near mid-duty creeps over many cycles; a fast loop's cycle grows to its
+// full swing over its first cycles), so the steady part starts over here. The first block
+// that matches ends the check.
 func (a *Accumulator) envelopeDrifts(sg *segState) bool {
 	m := sg.blkSum / float64(sg.blkN)
 	sigma := math.Sqrt(a.noiseEMA / 6)
 	drift := false
 	if sg.hasPrev {
 		thr := 0.25 + 4*sigma*math.Sqrt(2/float64(sg.blkN))
-		drift = math.Abs(m-sg.blkPrev) > thr
+		ext := 1 + 4*sigma
+		drift = math.Abs(m-sg.blkPrev) > thr ||
+			math.Abs(sg.blkLo-sg.blkPrevLo) > ext || math.Abs(sg.blkHi-sg.blkPrevHi) > ext
 		sg.envOK = !drift
 	}
 	sg.blkPrev, sg.hasPrev = m, true
+	sg.blkPrevLo, sg.blkPrevHi = sg.blkLo, sg.blkHi
 	sg.blkSum, sg.blkN = 0, 0
+	sg.blkLo, sg.blkHi = math.Inf(1), math.Inf(-1)
 	return drift
 }
 

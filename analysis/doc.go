@@ -8,7 +8,9 @@
 // duty, band jumps) say how well the reading followed it.
 //
 // The steady part of a segment starts at the first drive onset after the level reached
-// its setpoint, and again at a later onset while the cycle's mean level still drifts; its
+// its setpoint, and again at a later onset while the cycle's mean level still drifts; a
+// loop that rests (a bounce or two, then one drive for good) has its ripple measured over
+// that last run, after the last transient; its
 // limit cycle is the mean interval between charge onsets (between discharge onsets for a
 // discharge-only cycle), the ripple frequency its inverse, and the exact repeat of the
 // drive pattern is reported apart.

@@ -127,6 +127,10 @@ func decidePlant(ev plantEvidence) plantDecision {
 		rel := math.Hypot(ev.tauH.halfWidth()/ev.tauH.v, ev.tauC.halfWidth()/ev.tauC.v)
 		r := interval{v: q - 1, lo: q*(1-rel) - 1, hi: q*(1+rel) - 1}
 		switch {
+		case (math.IsInf(ev.tauH.hi, 1) || math.IsNaN(ev.tauH.hi)) && droopHides(ev):
+			// The hold sits in a band too narrow to resolve the droop that a plain
+			// load explaining v_high would give: the hold cannot tell.
+			d.ratioReason = "the hold droop is too small to resolve against the load v_high implies"
 		case math.IsInf(ev.tauH.hi, 1) || math.IsNaN(ev.tauH.hi):
 			noDroop = true
 			d.ratioReason = "no load seen: the hold droop is not significant"
@@ -268,4 +272,19 @@ func decidePlant(ev plantEvidence) plantDecision {
 		d.kindReason = "not identifiable: no hold droop and no v_high to tell a load from a buffer"
 	}
 	return d
+}
+
+// droopHides says a hold without a significant droop still admits the load that v_high
+// would imply without a buffer (rho = v_high/(Vs - v_high), tau_h = tau_c (1 + rho)):
+// the hold fit's interval for tau_h reaches down to it, so "no load" is not shown.
+func droopHides(ev plantEvidence) bool {
+	if math.IsNaN(ev.supply) || ev.supply <= 0 || !ev.vHigh.known() || ev.vHigh.v >= ev.supply || !ev.tauC.known() {
+		return false
+	}
+	if ev.supply-ev.vHigh.v <= math.Max(ev.supplyTol*ev.supply, 2*ev.lsb) {
+		return false
+	}
+	rho := ev.vHigh.v / (ev.supply - ev.vHigh.v)
+	implied := ev.tauC.v * (1 + rho)
+	return !math.IsNaN(ev.tauH.lo) && ev.tauH.lo <= implied
 }

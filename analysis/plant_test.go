@@ -472,3 +472,23 @@ func TestNoGlitchWhenTauShort(t *testing.T) {
 	}
 	t.Logf("tau charge %v samples (%s)", deref(sum.Plant.TauChargeSamples), sum.Plant.TauChargeSamplesReason)
 }
+
+// TestDecidePlantUnresolvedDroop: a hold whose droop the fit cannot resolve (its tau_h
+// interval reaches from below the load that v_high implies up to infinity) does not say
+// "no load", so a drop of the top beyond the supply tolerance is a load, not a buffer;
+// a hold whose interval lies above that load does rule it out (then the drop is a buffer's).
+func TestDecidePlantUnresolvedDroop(t *testing.T) {
+	t.Parallel()
+	// Truth: R 30 kOhm, R_L 300 kOhm, C 1 uF, T 1 ms, Vs 5 V: v_high = Vs R_L/(R+R_L)
+	// = 4.5455 V, tau_c = C (R || R_L) = 27.27 samples, tau_h = R_L C = 300 samples.
+	ev := plantEvidence{tauC: interval{27.27, 27.0, 27.5}, tauH: interval{900, 150, math.Inf(1)}, holdPairs: 3000,
+		supply: 5, supplyTol: 0.05, r: 30e3, lsb: 5.0 / 1024, vHigh: interval{4.5455, 4.54, 4.55}, vLow: unknown()}
+	got := decidePlant(ev)
+	if want := 30e3 * 4.5455 / (5 - 4.5455); got.kind != KindLoad || relErr(got.load.v, want) > 1e-9 || got.drop.known() {
+		t.Errorf("unresolved droop: got kind %q load %g drop %g, want a load of %g and no drop", got.kind, got.load.v, got.drop.v, want)
+	}
+	ev.tauH = interval{5000, 400, math.Inf(1)} // the hold rules out tau_h = 300 samples
+	if got = decidePlant(ev); got.kind != KindBuffer {
+		t.Errorf("droop ruled out: got kind %q, want %q", got.kind, KindBuffer)
+	}
+}

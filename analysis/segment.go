@@ -34,13 +34,15 @@ type segState struct {
 	// in a row differ by more than noise allows, the steady part starts over at the
 	// next block. envOK: a block matched its predecessor, the envelope has stopped.
 	blkSum, blkPrev float64
-	blkN            int64
-	hasPrev, envOK  bool
-	steadyAt        float64
-	db              float64
-	sawHold         bool
-	rising          bool // a step whose 10 % or 90 % crossing is still to come
-	trk             bool // opened by a tracking move (see Tracking)
+	// lowest and highest error of the open block and of the previous one
+	blkLo, blkHi, blkPrevLo, blkPrevHi float64
+	blkN                               int64
+	hasPrev, envOK                     bool
+	steadyAt                           float64
+	db                                 float64
+	sawHold                            bool
+	rising                             bool // a step whose 10 % or 90 % crossing is still to come
+	trk                                bool // opened by a tracking move (see Tracking)
 
 	// whole segment
 	minPV, maxPV   float64
@@ -53,10 +55,13 @@ type segState struct {
 	lastSeen       [2*histHalf + 1]int64 // number (1-based) of the last sample in each error bin
 	lsLo, lsHi     int
 	endRun         int64 // samples with the same drive at the end
-	lastPV         float64
-	stepT, stepPV  [stepKeep]float64
-	stepU          [stepKeep]int8
-	tail           [tailLen]float64 // the last readings, for the level an unreachable setpoint sits at
+	// Lowest and highest error over the end run: the ripple of a loop that rests,
+	// measured after its last transient.
+	endMinE, endMaxE float64
+	lastPV           float64
+	stepT, stepPV    [stepKeep]float64
+	stepU            [stepKeep]int8
+	tail             [tailLen]float64 // the last readings, for the level an unreachable setpoint sits at
 
 	// steady part
 	sn              int64
@@ -123,13 +128,13 @@ func (s *segState) reset(window int) {
 	s.start, s.end, s.n, s.firstSign, s.steady, s.steadyAt, s.db, s.sawHold = 0, 0, 0, 0, false, 0, 0, false
 	s.firm, s.reachN = false, 0
 	s.blkSum, s.blkPrev, s.blkN, s.hasPrev, s.envOK = 0, 0, 0, false, false
-	s.blkSum, s.blkPrev, s.blkN, s.hasPrev, s.envOK = 0, 0, 0, false, false
+	s.blkLo, s.blkHi = math.Inf(1), math.Inf(-1)
 	s.minPV, s.maxPV, s.prevIn, s.prevU = math.Inf(1), math.Inf(-1), false, 0
 	s.trk = false
 	s.entries, s.exits, s.noiseExits = 0, 0, 0
 	s.t10, s.t90, s.has10, s.has90, s.rising = 0, 0, false, false, false
 	s.lsLo, s.lsHi = 2*histHalf, 0
-	s.endRun, s.lastPV = 0, 0
+	s.endRun, s.lastPV, s.endMinE, s.endMaxE = 0, 0, 0, 0
 	s.ring = ring
 	s.clearSteady()
 }
@@ -266,6 +271,11 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 		}
 		f.rmsE = math.Sqrt(v)
 		f.ppE = s.maxE - s.minE
+		if s.restsAtEnd() {
+			// The loop bounced and then rests: its steady ripple is what it shows
+			// after the last transient, the end run of one drive.
+			f.ppE = s.endMaxE - s.endMinE
+		}
 		f.robPP = s.quantile(0.995) - s.quantile(0.005)
 		for i := range f.duty {
 			f.duty[i] = float64(s.duty[i]) / n

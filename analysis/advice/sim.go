@@ -71,8 +71,7 @@ func simulate(cfg loop.Config, p *plant, tol float64, plan runPlan) (simResult, 
 		if plan.vScale > 0 {
 			target *= plan.vScale
 		}
-		pvLo, pvHi := math.MaxInt, math.MinInt
-		steady, firstSign := false, 0
+		rr := newReadRipple(sp, db)
 		outside = outside[:0]
 		sum := 0.0
 		buf = buf[:0]
@@ -92,18 +91,8 @@ func simulate(cfg loop.Config, p *plant, tol float64, plan runPlan) (simResult, 
 				out = v2
 			}
 			outside = append(outside, math.Abs(out-target) > tol)
-			// The readings as a summary measures them: from the first reading inside
-			// the band (or across the setpoint) to the end of the setpoint.
-			if e := st.PV - sp; !steady {
-				sg := sgn(e)
-				if k == 0 {
-					firstSign = sg
-				}
-				steady = (e >= -db && e <= db) || (k > 0 && sg != firstSign)
-			}
-			if steady {
-				pvLo, pvHi = min(pvLo, st.PV), max(pvHi, st.PV)
-			}
+			// The readings as a summary measures them (readRipple).
+			rr.add(st.PV, st.U)
 			if k >= n-plan.window {
 				buf = append(buf, out)
 				sum += out
@@ -120,8 +109,8 @@ func simulate(cfg loop.Config, p *plant, tol float64, plan runPlan) (simResult, 
 		pp := spread(buf)
 		res.rippleAt[sp] = math.Max(res.rippleAt[sp], pp)
 		res.ripplePP = math.Max(res.ripplePP, pp)
-		if pvHi >= pvLo {
-			res.readPP = math.Max(res.readPP, float64(pvHi-pvLo)*p.lsb())
+		if pp, ok := rr.pp(); ok {
+			res.readPP = math.Max(res.readPP, float64(pp)*p.lsb())
 		}
 		res.staticErr = math.Max(res.staticErr, math.Abs(sum/float64(plan.window)-target))
 		if i == 1 || i == 2 {
