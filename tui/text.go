@@ -10,7 +10,7 @@ import (
 func maxLineWidth(s string) int {
 	w := 0
 	for _, l := range strings.Split(s, "\n") {
-		if n := ansi.StringWidth(l); n > w {
+		if n := cellWidth(l); n > w {
 			w = n
 		}
 	}
@@ -19,7 +19,7 @@ func maxLineWidth(s string) int {
 
 // padRight pads or cuts s to exactly width cells.
 func padRight(s string, width int) string {
-	n := ansi.StringWidth(s)
+	n := cellWidth(s)
 	if n > width {
 		return ansi.Truncate(s, width, "…")
 	}
