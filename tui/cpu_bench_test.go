@@ -3,7 +3,7 @@ package tui
 import (
 	"bytes"
 	"context"
-		"io"
+	"io"
 	"runtime"
 	"testing"
 	"time"
