@@ -44,6 +44,18 @@ func fitBlock(s string, width, height int) string {
 	return strings.Join(lines, "\n")
 }
 
+// besideOrBelow puts block b beside a when both fit in width cells with the gap, else
+// below it after a blank line, so a narrow terminal shows both whole.
+func besideOrBelow(a, b string, gap, width int) string {
+	switch {
+	case b == "":
+		return a
+	case maxLineWidth(a)+gap+maxLineWidth(b) <= width:
+		return sideBySide(a, b, gap)
+	}
+	return a + "\n\n" + b
+}
+
 // sideBySide joins two blocks of equal height, a gap between them.
 func sideBySide(a, b string, gap int) string {
 	al := strings.Split(a, "\n")
