@@ -398,7 +398,7 @@ func (m Model) View() string {
 	if m.noting {
 		msg = "note (enter stores it, esc cancels): " + string(m.note) + "█"
 	}
-	lines := []string{header, fitBlock(body, w, bodyH), padRight(msg, w), m.statusView(), padRight(m.help.ShortHelpView(m.keys.ShortHelp()), w)}
+	lines := []string{header, fitBlock(body, w, bodyH), padRight(msg, w), m.statusView(), m.helpView()}
 	return strings.Join(lines, "\n")
 }
 
@@ -429,7 +429,7 @@ func (m Model) header() string {
 // headerLine puts right at the right end of a line width cells wide after left, or
 // drops it when they do not fit.
 func headerLine(left, right string, width int) string {
-	gap := width - lipgloss.Width(left) - lipgloss.Width(right)
+	gap := width - cellWidth(left) - cellWidth(right)
 	if gap < 1 {
 		return padRight(left, width)
 	}

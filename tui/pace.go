@@ -35,6 +35,7 @@ type drawCache struct {
 	textW   int
 	text    string // figures and advice under the trace
 	status  string
+	help    string
 }
 
 // plotKey is everything the trace plot is drawn from.
@@ -77,6 +78,7 @@ func (m Model) textViews() (text, status string) {
 	if m.drawn.text == "" || m.drawn.textRev != m.textRev || m.drawn.textW != m.width {
 		m.drawn.text = m.figures.View() + "\n" + m.advice.View()
 		m.drawn.status = m.status.View()
+		m.drawn.help = padRight(m.help.ShortHelpView(m.keys.ShortHelp()), m.width)
 		m.drawn.textRev, m.drawn.textW = m.textRev, m.width
 	}
 	return m.drawn.text, m.drawn.status
@@ -85,4 +87,13 @@ func (m Model) textViews() (text, status string) {
 func (m Model) statusView() string {
 	_, st := m.textViews()
 	return st
+}
+
+// helpView is the short help line, drawn again with the text blocks (a key changes it).
+func (m Model) helpView() string {
+	if m.drawn == nil {
+		return padRight(m.help.ShortHelpView(m.keys.ShortHelp()), m.width)
+	}
+	m.textViews()
+	return m.drawn.help
 }
