@@ -225,16 +225,13 @@ func (m FiguresModel) fullView() string {
 		// What the change bought, side by side; the plant beside it when there is room.
 		head := changeHead(m.change, m.width)
 		cmp := compareBlock(m.change)
-		if maxLineWidth(cmp)+3+maxLineWidth(plant) <= m.width {
-			return head + "\n" + sideBySide(cmp, plant, 3)
-		}
-		return head + "\n" + cmp
+		return head + "\n" + besideOrBelow(cmp, plant, 3, m.width)
 	}
 	left := rowsBlock("current segment", segmentRows(live.CurrentSegment(m.sum)))
 	if showTracking(m.sum) {
 		left = rowsBlock("tracking (moving setpoint)", trackingRows(m.sum.Tracking))
 	}
-	return sideBySide(left, plant, 3)
+	return besideOrBelow(left, plant, 3, m.width)
 }
 
 // cycleText is the limit cycle as the README defines it (the mean interval between

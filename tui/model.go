@@ -102,6 +102,9 @@ type Model struct {
 	last    time.Time
 	speeds  []float64
 	speedIx int
+
+	drawn   *drawCache // the blocks last drawn (pace.go)
+	textRev int64      // bumped whenever the text blocks may read differently
 }
 
 // New returns the screen for a pipeline.
@@ -128,6 +131,7 @@ func New(src *live.Pipeline, opts Options) Model {
 		status:  NewStatus(src.Replay()),
 		charts:  [3]ChartModel{NewChart(ChartSpread, opts.Color), NewChart(ChartRipple, opts.Color), NewChart(ChartStep, opts.Color)},
 		speeds:  []float64{1, 2, 10, 0},
+		drawn:   &drawCache{},
 	}
 	if src.Replay() {
 		m.held = src.Held()
@@ -184,6 +188,9 @@ func (m *Model) setHeld(held bool) {
 
 // Update handles messages: frames from the source, keys, sizes and timers.
 func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
+	if _, ok := msg.(samplesMsg); !ok {
+		m.textRev++ // a key, a size, a reply: the text may change (takeFrame bumps its own)
+	}
 	switch msg := msg.(type) {
 	case tea.WindowSizeMsg:
 		m.width, m.height = msg.Width, msg.Height
@@ -195,7 +202,7 @@ func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
 		}
 		cmd := m.takeFrame(msg.snap)
 		m.last = time.Now()
-		return m, tea.Batch(cmd, wait(m.src, m.last))
+		return m, tea.Batch(cmd, waitEvery(m.src, m.last, m.frameEvery()))
 	case sourceErrMsg:
 		m.message = "source: " + telemetry.Sanitize([]byte(msg.err.Error()))
 		m.ended = true
@@ -231,6 +238,10 @@ func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
 func (m *Model) takeFrame(b live.Snapshot) tea.Cmd {
 	if b.Reset {
 		m.change, m.pending, m.changes = nil, nil, nil
+	}
+	if b.Reset || b.Summary != nil || b.Advice != nil || b.AdviceErr != "" || b.Stats != nil || len(b.Events) > 0 ||
+		b.Done || b.Err != nil || m.ended {
+		m.textRev++
 	}
 	var marks []Mark
 	for _, e := range b.Events {
@@ -373,7 +384,8 @@ func (m Model) View() string {
 	} else {
 		switch m.view {
 		case ViewTrace:
-			body = m.plot.View() + "\n" + m.figures.View() + "\n" + m.advice.View()
+			text, _ := m.textViews()
+			body = m.plotView() + "\n" + text
 		case ViewFigures:
 			// Every figure, then the whole advice; it scrolls when it does not fit.
 			off := m.offsets[m.view]
@@ -386,7 +398,7 @@ func (m Model) View() string {
 	if m.noting {
 		msg = "note (enter stores it, esc cancels): " + string(m.note) + "█"
 	}
-	lines := []string{header, fitBlock(body, w, bodyH), padRight(msg, w), m.status.View(), padRight(m.help.ShortHelpView(m.keys.ShortHelp()), w)}
+	lines := []string{header, fitBlock(body, w, bodyH), padRight(msg, w), m.statusView(), m.helpView()}
 	return strings.Join(lines, "\n")
 }
 
@@ -417,7 +429,7 @@ func (m Model) header() string {
 // headerLine puts right at the right end of a line width cells wide after left, or
 // drops it when they do not fit.
 func headerLine(left, right string, width int) string {
-	gap := width - lipgloss.Width(left) - lipgloss.Width(right)
+	gap := width - cellWidth(left) - cellWidth(right)
 	if gap < 1 {
 		return padRight(left, width)
 	}

@@ -333,7 +333,7 @@ func plotOnce(w Window, plotW, bodyRows int, prec uint, format func(float64) str
 		asciigraph.SeriesChars(chars...),
 		asciigraph.XAxisRange(w.From, w.To),
 		asciigraph.XAxisTickCount(tickCount(plotW)),
-		asciigraph.XAxisValueFormatter(func(v float64) string { return formatSeconds(v) }),
+		asciigraph.XAxisValueFormatter(tickFormatter(w.From, w.To, min(tickCount(plotW), plotW))),
 	}
 	if w.Color {
 		opts = append(opts, asciigraph.SeriesColors(colours...), asciigraph.AxisColor(colourAxis), asciigraph.LabelColor(colourAxis))
@@ -393,4 +393,52 @@ func formatSeconds(v float64) string {
 		return fmt.Sprintf("%dm%02ds", int(v)/60, int(v)%60)
 	}
 	return fmt.Sprintf("%dh%02dm", int(v)/3600, int(v)%3600/60)
+}
+
+// tickFormatter returns the time-axis label writer for n ticks spread evenly over
+// [from, to]: the decimals follow the spacing of the ticks, so that neighbouring labels
+// differ however short the window ("42.70s 42.71s", not "42.7s 42.7s").
+func tickFormatter(from, to float64, n int) func(float64) string {
+	if n < 2 || !(to > from) {
+		return formatSeconds
+	}
+	step := (to - from) / float64(n-1)
+	// The fewest decimals that resolve the step: step·10^d ≥ 1 (with a little slack for
+	// steps such as 0.1 that are not exact in binary).
+	d := 0
+	for d < 6 && step*math.Pow(10, float64(d)) < 1-1e-9 {
+		d++
+	}
+	// hms splits a into whole hours, minutes and seconds with d decimals (truncated, so
+	// 59.996 s stays in its minute), the seconds written with two integer digits.
+	hms := func(a float64) (int, int, string) {
+		p := math.Pow(10, float64(d))
+		units := int64(math.Floor(a*p + 1e-6))
+		whole := units / int64(p)
+		sec := float64(units%(60*int64(p))) / p
+		w := 2
+		if d > 0 {
+			w = d + 3
+		}
+		return int(whole / 3600), int(whole % 3600 / 60), fmt.Sprintf("%0*.*f", w, d, sec)
+	}
+	return func(v float64) string {
+		a := math.Abs(v)
+		switch {
+		case a < 600:
+			// As formatSeconds when the spacing allows, finer when it needs.
+			base := 1
+			if a < 10 {
+				base = 2
+			}
+			return fmt.Sprintf("%.*fs", max(base, d), v)
+		case a < 36000:
+			h, m, sec := hms(a)
+			return fmt.Sprintf("%dm%ss", 60*h+m, sec)
+		case step >= 60:
+			return formatSeconds(v)
+		}
+		h, m, sec := hms(a)
+		return fmt.Sprintf("%dh%02dm%ss", h, m, sec)
+	}
 }

@@ -10,7 +10,7 @@ import (
 func maxLineWidth(s string) int {
 	w := 0
 	for _, l := range strings.Split(s, "\n") {
-		if n := ansi.StringWidth(l); n > w {
+		if n := cellWidth(l); n > w {
 			w = n
 		}
 	}
@@ -19,7 +19,7 @@ func maxLineWidth(s string) int {
 
 // padRight pads or cuts s to exactly width cells.
 func padRight(s string, width int) string {
-	n := ansi.StringWidth(s)
+	n := cellWidth(s)
 	if n > width {
 		return ansi.Truncate(s, width, "…")
 	}
@@ -42,6 +42,18 @@ func fitBlock(s string, width, height int) string {
 		lines[i] = padRight(l, width)
 	}
 	return strings.Join(lines, "\n")
+}
+
+// besideOrBelow puts block b beside a when both fit in width cells with the gap, else
+// below it after a blank line, so a narrow terminal shows both whole.
+func besideOrBelow(a, b string, gap, width int) string {
+	switch {
+	case b == "":
+		return a
+	case maxLineWidth(a)+gap+maxLineWidth(b) <= width:
+		return sideBySide(a, b, gap)
+	}
+	return a + "\n\n" + b
 }
 
 // sideBySide joins two blocks of equal height, a gap between them.

@@ -27,9 +27,12 @@ type (
 
 // wait returns the command that waits for the next frame's worth of data from p, no
 // sooner than frameInterval after the previous frame (since).
-func wait(p *live.Pipeline, since time.Time) tea.Cmd {
+func wait(p *live.Pipeline, since time.Time) tea.Cmd { return waitEvery(p, since, frameInterval) }
+
+// waitEvery is wait with the time between frames given.
+func waitEvery(p *live.Pipeline, since time.Time, every time.Duration) tea.Cmd {
 	return func() tea.Msg {
-		if d := time.Until(since.Add(frameInterval)); d > 0 {
+		if d := time.Until(since.Add(every)); d > 0 {
 			time.Sleep(d)
 		}
 		select {

@@ -1,0 +1,26 @@
+package tui
+
+import (
+	"testing"
+
+	"github.com/charmbracelet/x/ansi"
+)
+
+// TestCellWidth checks the fast path of cellWidth against ansi.StringWidth (the
+// reference) on every rune it claims to be one cell, and on lines the screen draws.
+func TestCellWidth(t *testing.T) {
+	for r := rune(0); r < 0x3000; r++ {
+		if !narrowRune(r) {
+			continue
+		}
+		if w := ansi.StringWidth(string(r)); w != 1 {
+			t.Errorf("rune %U: ansi.StringWidth = %d, cellWidth counts 1", r, w)
+		}
+	}
+	for _, s := range []string{"", "plain", "  1.200 ┤ ━━━┄┄┄──╭╮╰╯ ▲db 9", "47 kΩ ± 5 % · 1 µF", "\x1b[38;5;166m─\x1b[0m x",
+		"wide 漢字", "emoji ⌚ ◽", "e\u0301"} {
+		if got, want := cellWidth(s), ansi.StringWidth(s); got != want {
+			t.Errorf("cellWidth(%q) = %d, want %d (ansi.StringWidth)", s, got, want)
+		}
+	}
+}
