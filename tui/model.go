@@ -102,6 +102,7 @@ type Model struct {
 	last    time.Time
 	speeds  []float64
 	speedIx int
+	tv      tuneView // the tune view (tuneview.go)
 }
 
 // New returns the screen for a pipeline.
@@ -221,6 +222,8 @@ func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
 			m.pending = nil
 		}
 		return m, nil
+	case tuneMsg:
+		return m.tuneUpdate(msg)
 	case tea.KeyMsg:
 		return m.key(msg)
 	}
@@ -370,6 +373,8 @@ func (m Model) View() string {
 	bodyH := h - 4
 	if m.full {
 		body = fitBlock("keys\n"+m.help.FullHelpView(m.keys.FullHelp()), w, bodyH)
+	} else if m.tv.shown {
+		body = m.tuneBody(w, bodyH)
 	} else {
 		switch m.view {
 		case ViewTrace:
@@ -407,6 +412,9 @@ func (m Model) header() string {
 	var right []string
 	if m.ended {
 		right = append(right, "ended")
+	}
+	if s := m.tuneStatus(); s != "" {
+		right = append(right, s)
 	}
 	if m.view == ViewTrace && !m.full {
 		right = append(right, "window "+formatSeconds(m.plot.Span()))
