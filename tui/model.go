@@ -14,6 +14,7 @@ import (
 	"github.com/caploop/caploop/analysis/advice"
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/tui/live"
+	"github.com/caploop/caploop/tui/live/tune"
 )
 
 // View is one screen of the bench screen.
@@ -40,6 +41,7 @@ type Options struct {
 	Span    float64       // initial time window, s (0 = 2 s)
 	Retain  int           // points kept for scrolling back (0 = live.DefaultRetain)
 	Timeout time.Duration // how long to wait for the board to confirm a command (0 = 5 s)
+	Tune    tune.Options  // the tune view's run (t): range, goals, gates; plan and progress are the view's
 }
 
 // frameMsg is what the root model forwards to its children after each frame.

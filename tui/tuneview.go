@@ -56,7 +56,7 @@ func (m Model) startTune() (tea.Model, tea.Cmd) {
 		m.tv.shown = !m.tv.shown
 		return m, nil
 	}
-	r, err := m.src.StartTune(tune.Options{})
+	r, err := m.src.StartTune(m.opts.Tune)
 	if err != nil {
 		m.message = "cannot tune: " + err.Error()
 		return m, nil

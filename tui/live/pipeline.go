@@ -160,6 +160,7 @@ type Pipeline struct {
 	link   *wire.Link
 	tuneMu sync.Mutex
 	tune   *TuneRun
+	linkUp bool // the link is connected (under tuneMu)
 }
 
 func newPipeline(name string, maxPoints int, adv adviser) *Pipeline {

@@ -90,6 +90,10 @@ func (p *Pipeline) StartTune(o tune.Options) (*TuneRun, error) {
 	}
 	conn := &tuneConn{link: p.link, out: make(chan []wire.Line)}
 	go relay(r.tap, conn.out, r.done)
+	if p.linkUp {
+		// The run starts on a port opened long ago: it learns so as from a fresh open.
+		r.tap <- []wire.Line{{Host: time.Now(), Dir: telemetry.HostEvent, Raw: []byte(wire.EventConnected + " (open already)")}}
+	}
 	o.Progress = &lineWriter{emit: func(s string) { r.updates <- TuneUpdate{Progress: s} }}
 	o.Confirm = func(plan string) (bool, error) {
 		r.updates <- TuneUpdate{Plan: plan}
@@ -119,6 +123,14 @@ func (p *Pipeline) StartTune(o tune.Options) (*TuneRun, error) {
 // forward hands a batch of the link to a tune run under way.
 func (p *Pipeline) forward(b []wire.Line) {
 	p.tuneMu.Lock()
+	for _, ln := range b {
+		switch ln.EventKind() {
+		case wire.EventConnected, wire.EventReconnected:
+			p.linkUp = true
+		case wire.EventUnplugged:
+			p.linkUp = false
+		}
+	}
 	r := p.tune
 	p.tuneMu.Unlock()
 	if r == nil {
