@@ -4,7 +4,9 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"fmt"
 	"html"
+	"image/color"
 	"image/png"
 	"os"
 	"os/exec"
@@ -66,9 +68,21 @@ console.error = function () { window.__probe.push("console.error: " + Array.prot
 document.addEventListener("securitypolicyviolation", function (e) { window.__probe.push("csp: " + e.violatedDirective + " " + e.blockedURI); });
 </script>`
 
-const probeTail = `<script>
+// The data colours are the plots' own (plots.go), so a change of palette keeps the probe.
+var probeTail = strings.Replace(probeTailText, "__DATA_COLOURS__", dataColoursJS(), 1)
+
+func dataColoursJS() string {
+	cols := append([]color.RGBA{colPV, colSP, colFit, colBars, colDrive}, palette...)
+	var q []string
+	for _, c := range cols {
+		q = append(q, fmt.Sprintf("%q", fmt.Sprintf("#%02x%02x%02x", c.R, c.G, c.B)))
+	}
+	return "[" + strings.Join(q, ", ") + "]"
+}
+
+const probeTailText = `<script>
 (function () {
-  var dataColours = ["#1f5fa8", "#4f86c6", "#c83c1e", "#2e8b3e", "#8a4fa8", "#b07a10", "#7a4f9a"];
+  var dataColours = __DATA_COLOURS__;
   var out = { plots: [], errors: window.__probe };
   document.querySelectorAll("figure.plot").forEach(function (f) {
     var svg = f.querySelector("svg");
