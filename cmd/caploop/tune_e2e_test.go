@@ -33,8 +33,13 @@ func TestTuneViewTmux(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	var simLog strings.Builder
-	sim.Stderr = &simLog
+	simLogPath := filepath.Join(dir, "sim.log")
+	simLog, err := os.Create(simLogPath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer simLog.Close()
+	sim.Stderr = simLog
 	if err := sim.Start(); err != nil {
 		t.Fatalf("start sim: %v", err)
 	}
@@ -42,7 +47,8 @@ func TestTuneViewTmux(t *testing.T) {
 		sim.Process.Kill()
 		sim.Wait()
 		if t.Failed() {
-			t.Logf("sim log:\n%s", simLog.String())
+			b, _ := os.ReadFile(simLogPath)
+			t.Logf("sim log:\n%s", b)
 		}
 	})
 	path, err := bufio.NewReader(stdout).ReadString('\n')
@@ -77,8 +83,31 @@ func TestTuneViewTmux(t *testing.T) {
 	if after != 0 {
 		t.Errorf("band jumps with the advised band = %d, want 0 (the loop model's prediction)", after)
 	}
-	scr.waitFor("restored", regexp.MustCompile(`tune done; restored: set `), 5*time.Second)
+	restore := scr.waitFor("restored", regexp.MustCompile(`tune done; restored: (set [^;(]+?) \(t runs`), 5*time.Second)[1]
 
+	// Again, and q in the middle of the run: the screen ends once the board has its own
+	// settings back, the restore line being the last set it took.
+	scr.keys("t")
+	scr.waitFor("plan to confirm again", regexp.MustCompile(`send these settings\? y/n`), 15*time.Second)
+	scr.keys("y")
+	scr.waitFor("second run under way", regexp.MustCompile(`tune  step [2-9] of \d+: `), 15*time.Second)
 	scr.keys("q")
-	scr.waitFor("exit status", regexp.MustCompile(`exit=0`), 5*time.Second)
+	scr.waitFor("exit status", regexp.MustCompile(`exit=0`), 10*time.Second)
+	// The board logs what it took: the restore's setpoint, then its settings line.
+	wantSP := regexp.MustCompile(`sp=(\d+)`).FindStringSubmatch(restore)
+	if wantSP == nil {
+		t.Fatalf("restore line %q has no sp", restore)
+	}
+	time.Sleep(300 * time.Millisecond)
+	log, _ := os.ReadFile(simLogPath)
+	var answers []string
+	for _, l := range strings.Split(string(log), "\n") {
+		if _, rest, ok := strings.Cut(l, "s set # "); ok {
+			answers = append(answers, rest)
+		}
+	}
+	n := len(answers)
+	if n < 2 || answers[n-2] != "setpoint "+wantSP[1]+" held" || !strings.HasSuffix(answers[n-1], " deadband=2") {
+		t.Errorf("after q the board's last answers are %q, want setpoint %s back and its own deadband=2 (restore line %q)", answers[max(n-2, 0):], wantSP[1], restore)
+	}
 }
