@@ -94,7 +94,12 @@ func (p *Pipeline) StartTune(o tune.Options) (*TuneRun, error) {
 		// The run starts on a port opened long ago: it learns so as from a fresh open.
 		r.tap <- []wire.Line{{Host: time.Now(), Dir: telemetry.HostEvent, Raw: []byte(wire.EventConnected + " (open already)")}}
 	}
-	o.Progress = &lineWriter{emit: func(s string) { r.updates <- TuneUpdate{Progress: s} }}
+	o.Progress = &lineWriter{emit: func(s string) {
+		select {
+		case r.updates <- TuneUpdate{Progress: s}:
+		default: // a screen 64 lines behind (or gone) loses a progress line, never the run
+		}
+	}}
 	o.Confirm = func(plan string) (bool, error) {
 		r.updates <- TuneUpdate{Plan: plan}
 		select {
