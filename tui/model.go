@@ -318,6 +318,9 @@ func (m *Model) event(e live.Event) (Mark, bool) {
 		m.message = e.Text
 	case live.EventSent:
 		if e.Text == "info" {
+			if m.tv.confirming {
+				break // the plan's question stays on the line
+			}
 			m.message = "asked the board for its settings (info)"
 		} else {
 			m.message = "sent: " + e.Text
