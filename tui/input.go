@@ -71,6 +71,9 @@ func (m Model) key(msg tea.KeyMsg) (tea.Model, tea.Cmd) {
 		}
 		return m, nil
 	}
+	if mm, cmd, ok := m.tuneKey(msg); ok {
+		return mm, cmd
+	}
 	if m.confirm != 0 {
 		switch {
 		case key.Matches(msg, m.keys.Confirm):
@@ -132,6 +135,8 @@ func (m Model) key(msg tea.KeyMsg) (tea.Model, tea.Cmd) {
 		m.confirm = n
 		m.keys.SetConfirming(true)
 		m.message = fmt.Sprintf("send \"set deadband=%d\" to the board? y/n", n)
+	case key.Matches(msg, k.Tune):
+		return m.startTune()
 	case key.Matches(msg, k.Mark):
 		m.noting = true
 		m.note = nil

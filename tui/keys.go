@@ -38,6 +38,7 @@ type KeyMap struct {
 	Rewind      key.Binding
 	Confirm     key.Binding
 	Cancel      key.Binding
+	Tune        key.Binding
 }
 
 // DefaultKeyMap returns the screen's key bindings.
@@ -75,6 +76,7 @@ func DefaultKeyMap() KeyMap {
 		Rewind:      key.NewBinding(key.WithKeys("home"), key.WithHelp("home", "back to the start")),
 		Confirm:     key.NewBinding(key.WithKeys("y", "enter"), key.WithHelp("y", "send it")),
 		Cancel:      key.NewBinding(key.WithKeys("n", "esc"), key.WithHelp("n/esc", "do not send")),
+		Tune:        key.NewBinding(key.WithKeys("t"), key.WithHelp("t", "tune the loop")),
 	}
 }
 
@@ -94,6 +96,7 @@ func (k *KeyMap) SetState(held, replay, canSend bool) {
 	k.Advance.SetEnabled(replay && held)
 	k.Mark.SetEnabled(!replay)
 	k.Apply.SetEnabled(canSend)
+	k.Tune.SetEnabled(canSend)
 	k.Forward.SetEnabled(true)
 	k.Confirm.SetEnabled(false)
 	k.Cancel.SetEnabled(false)
@@ -122,12 +125,13 @@ func (k KeyMap) ShortHelp() []key.Binding {
 	scroll := pair(k.Back, k.Forward, "←/→", "scroll")
 	speed := pair(k.Faster, k.Slower, "x/X", "speed")
 	steps := pair(k.NextSP, k.PrevSP, "s/S", "setpoints")
-	apply, pause, mark := k.Apply, k.Pause, k.Mark
+	apply, pause, mark, tune := k.Apply, k.Pause, k.Mark, k.Tune
 	apply.SetHelp("d", "send deadband")
 	pause.SetHelp("space", "hold/run")
 	mark.SetHelp("m", "mark")
+	tune.SetHelp("t", "tune")
 	// The most needed first: a narrow terminal cuts the tail (bubbles/help ends it with …).
-	return []key.Binding{k.Help, k.Quit, apply, pause, k.NextView, steps, zoom, scroll, speed, mark}
+	return []key.Binding{k.Help, k.Quit, apply, pause, k.NextView, steps, zoom, scroll, speed, mark, tune}
 }
 
 // FullHelp is the full key list in columns, every key once; next/previous pairs share
@@ -141,7 +145,7 @@ func (k KeyMap) FullHelp() [][]key.Binding {
 	return [][]key.Binding{
 		{k.Pause, k.ZoomIn, k.ZoomOut, k.Back, k.Forward, k.Latest, help, k.Quit},
 		{k.NextView, k.PrevView, k.PickView, k.LineUp, k.LineDown, k.PageUp, k.PageDown},
-		{k.Apply, k.Mark,
+		{k.Apply, k.Tune, k.Mark,
 			pair(k.Faster, k.Slower, "x/X", "faster/slower"), k.Advance,
 			pair(k.NextSP, k.PrevSP, "s/S", "next/previous setpoint"),
 			pair(k.NextSegment, k.PrevSegment, "g/G", "next/previous segment"),

@@ -206,6 +206,14 @@ func TestEveryKeyInHelp(t *testing.T) {
 				t.Errorf("d asks %q (confirm %d), want to send the advised deadband 4", m.message, m.confirm)
 			}
 		},
+		"t": func(t *testing.T) {
+			// The fixture's source takes commands but has no board link: t says so and
+			// starts nothing (the tmux test in cmd/caploop runs a whole tune on the view).
+			m := press(t, liveFixture(t), "t")
+			if m.tv.run != nil || !strings.Contains(m.message, "cannot tune") {
+				t.Errorf("t on a source without a link: run %v, message %q", m.tv.run, m.message)
+			}
+		},
 		"m": func(t *testing.T) {
 			if m := press(t, liveFixture(t), "m"); !m.noting {
 				t.Error("m on a live screen does not open the note for a mark")

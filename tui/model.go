@@ -14,6 +14,7 @@ import (
 	"github.com/caploop/caploop/analysis/advice"
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/tui/live"
+	"github.com/caploop/caploop/tui/live/tune"
 )
 
 // View is one screen of the bench screen.
@@ -40,6 +41,7 @@ type Options struct {
 	Span    float64       // initial time window, s (0 = 2 s)
 	Retain  int           // points kept for scrolling back (0 = live.DefaultRetain)
 	Timeout time.Duration // how long to wait for the board to confirm a command (0 = 5 s)
+	Tune    tune.Options  // the tune view's run (t): range, goals, gates; plan and progress are the view's
 }
 
 // frameMsg is what the root model forwards to its children after each frame.
@@ -105,6 +107,7 @@ type Model struct {
 
 	drawn   *drawCache // the blocks last drawn (pace.go)
 	textRev int64      // bumped whenever the text blocks may read differently
+	tv      tuneView   // the tune view (tuneview.go)
 }
 
 // New returns the screen for a pipeline.
@@ -228,6 +231,8 @@ func (m Model) Update(msg tea.Msg) (tea.Model, tea.Cmd) {
 			m.pending = nil
 		}
 		return m, nil
+	case tuneMsg:
+		return m.tuneUpdate(msg)
 	case tea.KeyMsg:
 		return m.key(msg)
 	}
@@ -324,6 +329,9 @@ func (m *Model) event(e live.Event) (Mark, bool) {
 		m.message = e.Text
 	case live.EventSent:
 		if e.Text == "info" {
+			if m.tv.confirming {
+				break // the plan's question stays on the line
+			}
 			m.message = "asked the board for its settings (info)"
 		} else {
 			m.message = "sent: " + e.Text
@@ -381,6 +389,8 @@ func (m Model) View() string {
 	bodyH := h - 4
 	if m.full {
 		body = fitBlock("keys\n"+m.help.FullHelpView(m.keys.FullHelp()), w, bodyH)
+	} else if m.tv.shown {
+		body = m.tuneBody(w, bodyH)
 	} else {
 		switch m.view {
 		case ViewTrace:
@@ -419,6 +429,9 @@ func (m Model) header() string {
 	var right []string
 	if m.ended {
 		right = append(right, "ended")
+	}
+	if s := m.tuneStatus(); s != "" {
+		right = append(right, s)
 	}
 	if m.view == ViewTrace && !m.full {
 		right = append(right, "window "+formatSeconds(m.plot.Span()))

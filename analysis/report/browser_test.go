@@ -68,9 +68,21 @@ console.error = function () { window.__probe.push("console.error: " + Array.prot
 document.addEventListener("securitypolicyviolation", function (e) { window.__probe.push("csp: " + e.violatedDirective + " " + e.blockedURI); });
 </script>`
 
-const probeTail = `<script>
+// The data colours are the plots' own (plots.go), so a change of palette keeps the probe.
+var probeTail = strings.Replace(probeTailText, "__DATA_COLOURS__", dataColoursJS(), 1)
+
+func dataColoursJS() string {
+	cols := append([]color.RGBA{colPV, colSP, colFit, colBars, colDrive}, palette...)
+	var q []string
+	for _, c := range cols {
+		q = append(q, fmt.Sprintf("%q", fmt.Sprintf("#%02x%02x%02x", c.R, c.G, c.B)))
+	}
+	return "[" + strings.Join(q, ", ") + "]"
+}
+
+const probeTailText = `<script>
 (function () {
-  var dataColours = DATA_COLOURS;
+  var dataColours = __DATA_COLOURS__;
   var out = { plots: [], errors: window.__probe };
   document.querySelectorAll("figure.plot").forEach(function (f) {
     var svg = f.querySelector("svg");
@@ -152,7 +164,7 @@ func TestBrowserRendersReport(t *testing.T) {
 	}
 	probe = strings.Replace(probe, csp, csp+"; script-src 'unsafe-inline'", 1)
 	probe = strings.Replace(probe, "<head>", "<head>\n"+probeHead, 1)
-	probe = strings.Replace(probe, "</body>", strings.Replace(probeTail, "DATA_COLOURS", dataColoursJS(), 1)+"\n</body>", 1)
+	probe = strings.Replace(probe, "</body>", probeTail+"\n</body>", 1)
 	probePath := filepath.Join(dir, "probe.html")
 	if err := os.WriteFile(probePath, []byte(probe), 0o644); err != nil {
 		t.Fatal(err)
@@ -204,14 +216,4 @@ func TestBrowserRendersReport(t *testing.T) {
 			t.Error(err)
 		}
 	}
-}
-
-// dataColours lists, as a JavaScript array, the stroke colours of the plots' data series
-// (plots.go), so the probe counts what is drawn in them whatever the palette.
-func dataColoursJS() string {
-	var v []string
-	for _, c := range append([]color.RGBA{colPV, colSP, colFit, colDrive, colBars}, palette...) {
-		v = append(v, fmt.Sprintf("%q", fmt.Sprintf("#%02x%02x%02x", c.R, c.G, c.B)))
-	}
-	return "[" + strings.Join(v, ", ") + "]"
 }

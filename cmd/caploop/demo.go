@@ -3,6 +3,7 @@ package main
 import (
 	"context"
 	"errors"
+	"slices"
 	"time"
 
 	"github.com/spf13/cobra"
@@ -10,6 +11,7 @@ import (
 	"github.com/caploop/caploop/analysis/loop/virtual"
 	"github.com/caploop/caploop/telemetry/wire"
 	"github.com/caploop/caploop/tui/live"
+	"github.com/caploop/caploop/tui/live/tune"
 )
 
 func init() { rootRun = runDemo }
@@ -22,13 +24,19 @@ func runDemo(cmd *cobra.Command, args []string) error {
 	if len(args) > 0 {
 		return withCode(2, errUnknownCommand(args[0]))
 	}
-	path, stop, err := serveBoard(virtual.DefaultScenario())
+	sc := virtual.DefaultScenario()
+	path, stop, err := serveBoard(sc)
 	if err != nil {
 		return withCode(2, err)
 	}
 	defer stop()
 	p := live.NewPort(live.PortOptions{Serial: wire.SerialConfig{Path: path}, Name: "virtual board"})
-	return runScreen(p, 0)
+	// The tune view (t) steps across the demo's own setpoints.
+	var to tune.Options
+	if len(sc.Levels) > 1 {
+		to.Range = tune.Range{Lo: slices.Min(sc.Levels), Hi: slices.Max(sc.Levels)}
+	}
+	return runScreenTune(p, 0, to)
 }
 
 // serveBoard runs the virtual board of scenario sc on a pseudo-terminal in this process

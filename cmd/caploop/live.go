@@ -18,6 +18,7 @@ import (
 	"github.com/caploop/caploop/telemetry/si"
 	"github.com/caploop/caploop/telemetry/wire"
 	"github.com/caploop/caploop/tui/live"
+	"github.com/caploop/caploop/tui/live/tune"
 )
 
 func init() { commands = append(commands, newLiveCmd) }
@@ -29,6 +30,7 @@ type liveFlags struct {
 	span                 time.Duration
 	force, all, wait     bool
 	gates                report.GateText
+	tuneRange            string
 }
 
 func newLiveCmd() *cobra.Command {
@@ -120,8 +122,16 @@ other devices, so it is never the default.`,
 				return runRack(ports, f, cfgOf, cmd.ErrOrStderr())
 			}
 			cfg := wire.SerialConfig{Path: port, Baud: int(baud), DataBits: f.dataBits, Parity: f.parity, StopBits: f.stopBits}
+			var to tune.Options
+			if f.tuneRange != "" {
+				r, err := tune.ParseRange(f.tuneRange)
+				if err != nil {
+					return withCode(2, fmt.Errorf("live: --range: %w", err))
+				}
+				to.Range = r
+			}
 			p := live.NewPort(live.PortOptions{Serial: cfg, Record: f.record})
-			return runScreen(p, f.span)
+			return runScreenTune(p, f.span, to)
 		},
 	}
 	fl := cmd.Flags()
@@ -134,6 +144,7 @@ other devices, so it is never the default.`,
 	fl.BoolVar(&f.all, "all", false, "rack: open every USB serial port (caution: opening a port resets many boards)")
 	registerGates(fl, &f.gates)
 	fl.BoolVar(&f.wait, "wait", false, "wait for PORT to appear instead of failing at once when it is not there")
+	fl.StringVar(&f.tuneRange, "range", "", "span the tune view (t) may visit, LOW..HIGH in volts (e.g. 0.5V..3V); default the setpoints in use")
 	fl.DurationVar(&f.span, "window", 2*time.Second, "time window of the plot at start (+/- change it)")
 	return cmd
 }

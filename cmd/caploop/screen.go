@@ -12,6 +12,7 @@ import (
 	"github.com/caploop/caploop/telemetry/wire"
 	"github.com/caploop/caploop/tui"
 	"github.com/caploop/caploop/tui/live"
+	"github.com/caploop/caploop/tui/live/tune"
 )
 
 // errNoTerminal is why a screen cannot start.
@@ -20,12 +21,17 @@ var errNoTerminal = errors.New("the bench screen needs a terminal; without one, 
 // runScreen shows the bench screen on p until the user quits (q, Ctrl-C) or a SIGTERM
 // arrives, then stops the source (flushing any recording) and restores the terminal.
 func runScreen(p *live.Pipeline, span time.Duration) error {
+	return runScreenTune(p, span, tune.Options{})
+}
+
+// runScreenTune is runScreen with the base options of the tune view (t).
+func runScreenTune(p *live.Pipeline, span time.Duration, to tune.Options) error {
 	if !term.IsTerminal(int(os.Stdout.Fd())) {
 		p.Close()
 		return withCode(2, errNoTerminal)
 	}
 	color := os.Getenv("NO_COLOR") == "" && term.IsTerminal(int(os.Stdout.Fd()))
-	m := tui.New(p, tui.Options{Color: color, Span: span.Seconds()})
+	m := tui.New(p, tui.Options{Color: color, Span: span.Seconds(), Tune: to})
 	prog := tea.NewProgram(m, tea.WithAltScreen())
 	_, err := prog.Run()
 	cerr := p.Close()

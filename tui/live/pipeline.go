@@ -9,6 +9,7 @@ import (
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/advice"
 	"github.com/caploop/caploop/telemetry"
+	"github.com/caploop/caploop/telemetry/wire"
 )
 
 // Pacing of the pipeline's hand-over to the screen.
@@ -154,6 +155,12 @@ type Pipeline struct {
 	adv    adviser
 	advReq chan *analysis.Summary
 	advSeq int64 // samples behind the newest advice delivered (under mu)
+
+	// A tune run driven over the link (tunerun.go); link is nil on other sources.
+	link   *wire.Link
+	tuneMu sync.Mutex
+	tune   *TuneRun
+	linkUp bool // the link is connected (under tuneMu)
 }
 
 func newPipeline(name string, maxPoints int, adv adviser) *Pipeline {
@@ -238,6 +245,7 @@ var ErrStillBlocked = errors.New("the input was still blocked; left it")
 // or ErrStillBlocked.
 func (p *Pipeline) Close() error {
 	p.once.Do(func() {
+		p.stopTune() // restore the board's settings while the link still reads
 		close(p.quit)
 		done := make(chan error, 1)
 		go func() {

@@ -54,6 +54,7 @@ func NewPort(o PortOptions) *Pipeline {
 	link := wire.Dial(o.Serial, wire.LinkOptions{RecordPath: o.Record})
 	p := newPipeline(name, o.Retain, o.adviser())
 	p.canSend = true
+	p.link = link
 	p.sendFn = link.Send
 	marks := &markLog{start: link.StartedAt()}
 	p.markFn = func(note string) error {
@@ -125,6 +126,7 @@ func (p *Pipeline) runLive(link *wire.Link, parser *telemetry.Parser, c *engine)
 				<-p.quit
 				return
 			}
+			p.forward(b)
 			for _, ln := range b {
 				c.line(parser, ln, start)
 			}
