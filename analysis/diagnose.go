@@ -42,7 +42,7 @@ func (c conv) fmtV(counts float64) string {
 	return si.Format(c.v(counts), "V")
 }
 
-func fmtS(s float64) string { return si.Format(s, "s") }
+func fmtS(s float64) string { return figure.Value(s, "s") }
 
 // diagnose writes the findings as plain sentences with the numbers behind them.
 func (a *Accumulator) diagnose(sum *Summary, figs []segFig, pf plantFit, c conv) []Diagnostic {

@@ -11,6 +11,7 @@ import (
 	"github.com/charmbracelet/x/ansi"
 
 	"github.com/caploop/caploop/analysis"
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/si"
 	"github.com/caploop/caploop/tui/live"
@@ -144,7 +145,7 @@ func fitColumns(cols []rackColumn, width int) []rackColumn {
 }
 
 // rackNone is written in a cell without a figure.
-const rackNone = "–"
+const rackNone = figure.Missing
 
 // si3 formats v with three significant digits and an SI prefix, without the space.
 func si3(v float64, unit string) string {

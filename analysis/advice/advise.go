@@ -8,6 +8,7 @@ import (
 	"strings"
 
 	"github.com/caploop/caploop/analysis"
+	"github.com/caploop/caploop/analysis/figure"
 	"github.com/caploop/caploop/analysis/loop"
 	"github.com/caploop/caploop/telemetry/si"
 )
@@ -455,5 +456,5 @@ func (p *plant) topology(sr *searchResult) ([]TopologyAdvice, error) {
 	return out, nil
 }
 
-func fmtV(v float64) string { return si.FormatDigits(v, "V", 3) }
-func fmtA(v float64) string { return si.Format(v, "A") }
+func fmtV(v float64) string { return figure.Value(v, "V") }
+func fmtA(v float64) string { return figure.Value(v, "A") }

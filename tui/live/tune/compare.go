@@ -6,6 +6,7 @@ import (
 	"strings"
 
 	"github.com/caploop/caploop/analysis"
+	"github.com/caploop/caploop/analysis/figure"
 )
 
 // Comparison is the before/after of the passes at the same setpoints: the last segment
@@ -93,7 +94,7 @@ func Compare(before, after *analysis.Summary, sps []int) *Comparison {
 func pair(x, y *float64, scale float64, unit string) string {
 	f := func(v *float64) string {
 		if v == nil {
-			return "n/a"
+			return figure.Missing
 		}
 		q := *v / scale
 		if math.Abs(q) < 10 && q != math.Trunc(q) {
