@@ -280,7 +280,13 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 		}
 		sg.tail[sg.n%tailLen] = pv
 		if !sg.steady && (in || (sg.n > 1 && sign(e) != sg.firstSign)) {
+			if sg.plat {
+				sg.clearSteady() // the level stalled short of the setpoint, then reached it
+				sg.plat = false
+			}
 			sg.steady, sg.steadyAt, sg.reachN = true, tick, sg.n
+		} else if !sg.steady {
+			a.plateau(sg, e, tick)
 		}
 		// The steady part starts over at the first drive onset (a charge or a discharge
 		// after another drive) after the reach: the level is then in its limit cycle,
@@ -308,7 +314,7 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 			sg.endRun = 1
 			sg.endMinE, sg.endMaxE = e, e
 		}
-		if sg.steady {
+		if sg.steady || sg.plat {
 			sg.sn++
 			sg.sumE += e
 			sg.sumE2 += e * e

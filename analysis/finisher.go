@@ -112,10 +112,11 @@ func (a *Accumulator) stopFinisher() {
 	a.fin = nil
 }
 
-// keepSpectrum keeps the spectrum of s when its steady part is the longest so far. It
-// must follow s.finish, which left the power spectrum in the workspace.
+// keepSpectrum keeps the spectrum of s when its steady part is the longest so far (a
+// reached one: not the level an unreachable setpoint tops out at). It must follow
+// s.finish, which left the power spectrum in the workspace.
 func (a *Accumulator) keepSpectrum(s *segState) {
-	if s.sn <= a.bestSpec.sn || s.sn < 16 || a.spec.n == 0 {
+	if !s.steady || s.sn <= a.bestSpec.sn || s.sn < 16 || a.spec.n == 0 {
 		return
 	}
 	m := int(min(s.sn, int64(len(s.ring))))

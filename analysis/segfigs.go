@@ -9,6 +9,11 @@ import (
 
 // segment converts one segment's figures.
 func (a *Accumulator) segment(f *segFig, pf plantFit, c conv) Segment {
+	unreachable := a.unreachable(f, pf)
+	if f.plateau && !unreachable {
+		g := f.withoutSteady()
+		f = &g
+	}
 	s := Segment{
 		SetpointCounts:  f.sp,
 		SetpointV:       ptr(c.v(f.sp)),
@@ -70,7 +75,13 @@ func (a *Accumulator) segment(f *segFig, pf plantFit, c conv) Segment {
 		if s.RippleNodePPCounts == nil {
 			s.RippleNodePPVReason = nodeWhy
 		}
-		if f.rests {
+		switch {
+		case f.rests && f.duty[1] == 0:
+			s.HoldDroopVPerSReason = fmt.Sprintf("the loop rests in %s, not in hold: no hold droop", driveName(int8(f.lastU)))
+			if unreachable {
+				s.HoldDroopVPerSReason += " (the level tops out short of the setpoint)"
+			}
+		case f.rests:
 			s.HoldDroopVPerS, s.HoldDroopVPerSReason = holdDroop(f.sp+f.meanE, pf, c)
 		}
 	}
@@ -78,7 +89,7 @@ func (a *Accumulator) segment(f *segFig, pf plantFit, c conv) Segment {
 		const why = "no steady part: the setpoint was not reached"
 		s.LimitCyclePeriodSReason, s.PatternPeriodSReason, s.RippleNodePPVReason = why, why, why
 	}
-	s.Unreachable = a.unreachable(f, pf)
+	s.Unreachable = unreachable
 	if s.Unreachable {
 		s.LevelV = ptr(c.v(f.level))
 		s.ShortfallV = ptr(c.v(math.Abs(f.sp - f.level)))

@@ -43,6 +43,12 @@ type segState struct {
 	sawHold                            bool
 	rising                             bool // a step whose 10 % or 90 % crossing is still to come
 	trk                                bool // opened by a tracking move (see Tracking)
+	// Before the reach: blocks of blockMin readings while the level approaches (see
+	// plateau). plat: a steady part without the reach runs, the level has stopped
+	// drifting (within plRef's threshold) short of the setpoint.
+	plSum, plPrev, plRef float64
+	plN                  int64
+	plHasPrev, plat      bool
 
 	// whole segment
 	minPV, maxPV   float64
@@ -129,6 +135,7 @@ func (s *segState) reset(window int) {
 	s.firm, s.reachN = false, 0
 	s.blkSum, s.blkPrev, s.blkN, s.hasPrev, s.envOK = 0, 0, 0, false, false
 	s.blkLo, s.blkHi = math.Inf(1), math.Inf(-1)
+	s.plSum, s.plPrev, s.plRef, s.plN, s.plHasPrev, s.plat = 0, 0, 0, 0, false, false
 	s.minPV, s.maxPV, s.prevIn, s.prevU = math.Inf(1), math.Inf(-1), false, 0
 	s.trk = false
 	s.entries, s.exits, s.noiseExits = 0, 0, 0
@@ -158,7 +165,12 @@ func (s *segState) clearSteady() {
 }
 
 // foldHist adds the error histogram of the steady part to h.
+// Only a reached steady part counts: the level an unreachable setpoint tops out at is
+// no error of the loop's regulation.
 func (s *segState) foldHist(h *[2*histHalf + 1]int64) {
+	if !s.steady {
+		return
+	}
 	for i := s.hLo; i <= s.hHi && s.sn > 0; i++ {
 		h[i] += int64(s.hist[i])
 	}
@@ -225,6 +237,7 @@ type segFig struct {
 	driveTicks              float64 // mean interval between charge (else discharge) onsets
 	pattern                 cycPattern
 	rests                   bool    // the drive did not cycle in the steady part (segState.rests)
+	plateau                 bool    // a steady part without the reach (see plateau)
 	freq                    float64 // strongest line of the ripple spectrum, cycles per sample
 	switches                int64
 	entries, exits, jumps   int64
@@ -259,8 +272,8 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 		lastU: s.prevU, endRun: s.endRun, lastPV: s.lastPV, trk: s.trk,
 		rise: math.NaN(), overshoot: math.NaN(), slewTicks: math.NaN(),
 	}
-	if s.steady {
-		f.steadyAt = s.steadyAt
+	if s.steady || s.plat {
+		f.steadyAt, f.plateau = s.steadyAt, s.plat
 	}
 	if s.sn > 0 {
 		n := float64(s.sn)
@@ -302,6 +315,11 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 		f.freq = ws.analyse(buf)
 		f.pattern = s.pattern()
 		f.nodePP, f.nodeWhy = s.nodeRipple()
+		if s.plat && s.switches == 0 {
+			// One drive over a level that stopped drifting (see plateau): no cycle, the
+			// node moves by less than the drift threshold over the whole steady part.
+			f.nodePP, f.nodeWhy = 0, ""
+		}
 		if math.IsNaN(f.nodePP) && strings.HasSuffix(f.nodeWhy, noFitWhy) && s.index < maxNodeRetries {
 			// The plant at this segment's end lacked a drive: keep the window, the
 			// summary's plant may have it (a later setpoint step gives the runs).
