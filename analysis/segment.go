@@ -267,7 +267,7 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 		n: s.n, sn: s.sn, settled: s.steady,
 		meanE: math.NaN(), rmsE: math.NaN(), ppE: math.NaN(), robPP: math.NaN(), sigPP: math.NaN(),
 		duty: [3]float64{math.NaN(), math.NaN(), math.NaN()}, periodSamples: math.NaN(),
-		driveTicks: math.NaN(), freq: math.NaN(), nodePP: math.NaN(),
+		driveTicks: math.NaN(), freq: math.NaN(), nodePP: math.NaN(), pattern: cycPattern{samples: math.NaN()},
 		switches: s.switches, entries: s.entries, exits: s.exits, jumps: s.jumps, noiseExits: s.noiseExits,
 		lastU: s.prevU, endRun: s.endRun, lastPV: s.lastPV, trk: s.trk,
 		rise: math.NaN(), overshoot: math.NaN(), slewTicks: math.NaN(),

@@ -179,7 +179,15 @@ func WriteSummaryText(w io.Writer, s *analysis.Summary) {
 	}
 	for i, g := range s.Segments {
 		if g.Unreachable {
-			fmt.Fprintf(w, "  ! segment %d: the setpoint was not reachable; the level sat at %s, %s short\n", i+1, figure.SI(g.LevelV, "V"), figure.SI(g.ShortfallV, "V"))
+			rest := ""
+			if d := restDrive(g); d != "" && d != "hold" {
+				how := "did not cycle"
+				if g.SwitchingHz != nil && *g.SwitchingHz == 0 {
+					how = "never switched"
+				}
+				rest = "; the loop rests in " + d + " (the drive " + how + " in its steady part)"
+			}
+			fmt.Fprintf(w, "  ! segment %d: the setpoint was not reachable; the level sat at %s, %s short%s\n", i+1, figure.SI(g.LevelV, "V"), figure.SI(g.ShortfallV, "V"), rest)
 		}
 	}
 	for i, g := range s.Segments {
@@ -399,4 +407,19 @@ func writeFailures(w io.Writer, results []*FileResult) {
 		}
 	}
 	tw.Flush()
+}
+
+// restDrive names the drive a resting segment rests in (the one with the largest duty
+// over its steady part), "" when it does not rest or the duties are null.
+func restDrive(g analysis.Segment) string {
+	if !g.Rests || g.DutyCharge == nil || g.DutyHold == nil || g.DutyDischarge == nil {
+		return ""
+	}
+	switch {
+	case *g.DutyCharge >= *g.DutyHold && *g.DutyCharge >= *g.DutyDischarge:
+		return "charge"
+	case *g.DutyDischarge > *g.DutyHold:
+		return "discharge"
+	}
+	return "hold"
 }

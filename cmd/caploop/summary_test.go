@@ -150,8 +150,14 @@ func TestSummaryJSON(t *testing.T) {
 		}
 	}
 	segs := docs[1]["segments"].([]any)
-	if last := segs[len(segs)-1].(map[string]any); last["unreachable"] != true || last["mean_error_v"] != nil {
-		t.Errorf("follower capture, last segment: unreachable %v, mean_error_v %v; want true and null", last["unreachable"], last["mean_error_v"])
+	// An unreachable setpoint's steady part starts where its level stops drifting: the
+	// loop rests there, its mean error is minus the shortfall (within 2 LSB of 5 V / 1024).
+	last := segs[len(segs)-1].(map[string]any)
+	me, _ := last["mean_error_v"].(float64)
+	sf, _ := last["shortfall_v"].(float64)
+	if last["unreachable"] != true || last["rests"] != true || sf <= 0 || math.Abs(me+sf) > 2*5.0/1024 {
+		t.Errorf("follower capture, last segment: unreachable %v, rests %v, mean_error_v %v, shortfall_v %v; want true, true and mean error = -shortfall",
+			last["unreachable"], last["rests"], last["mean_error_v"], last["shortfall_v"])
 	}
 }
 
