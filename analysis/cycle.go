@@ -190,10 +190,12 @@ func (a *Accumulator) currentPlant() plantFit {
 // nodeRipple returns the noise-free peak-to-peak of the node over the last steady
 // samples kept, in counts: the plant identified when the segment closed,
 // V[k+1] = a_u V[k] + b_u (the exact exponential step of each drive over one period),
-// driven by the observed drives. The trajectory is V[k] = Phi[k] V0 + c[k] (+ g[k] h
-// when the hold droop is not identified: then the hold adds a constant h per sample),
-// and V0 (and h) are the least-squares fit of it to the readings, so the noise
-// averages out of the start value without smoothing the waveform. Samples while
+// driven by the observed drives. The trajectory is V[k] = Phi[k] V0 + c[k] + g[k] h,
+// h a constant added per sample by the hold when its droop is not identified, by a
+// drive without a fit of its own, or else by every drive (the level the fits' small
+// errors would drift to), and V0 and h are the least-squares fit of it to the
+// readings, so the noise averages out of the start value without smoothing the
+// waveform. Samples while
 // Phi > 0.05 (the start value still matters) are left out when they are less than half
 // the window.
 func (s *segState) nodeRipple() (float64, string) {
@@ -247,6 +249,16 @@ func nodeRippleOf(m int, at func(int) *ringEntry, pf *plantFit) (float64, string
 			a[d], b[d] = a[o], 0
 		}
 	}
+	// With every drive fitted, a constant h added at every sample is left free instead:
+	// it moves the level the trajectory cycles about. Over a window of a few time
+	// constants the fits' small errors (a few hundredths of a count per step) add up to a
+	// drift of that level (a two-state loop at tau 200 T: +2.3 counts over 512 samples
+	// from the true start), which the p-p would count as ripple; the readings' mean pins
+	// it.
+	const all = 3
+	if free < 0 {
+		free = all
+	}
 	// Pass 1: the normal equations of (V0, h).
 	var spp, spg, sgg, spy, sgy float64
 	phi, c, g := 1.0, 0.0, 0.0
@@ -268,7 +280,7 @@ func nodeRippleOf(m int, at func(int) *ringEntry, pf *plantFit) (float64, string
 				return math.NaN(), "no " + driveName(r.u) + noFitWhy
 			}
 			phi, c, g = a[d]*phi, a[d]*c+b[d], a[d]*g
-			if int(d) == free {
+			if int(d) == free || free == all {
 				g++
 			}
 		}
@@ -281,7 +293,12 @@ func nodeRippleOf(m int, at func(int) *ringEntry, pf *plantFit) (float64, string
 	} else {
 		return math.NaN(), "the plant forgets its start too fast to place it"
 	}
-	if free >= 0 {
+	switch {
+	case free == all:
+		for d := range b {
+			b[d] += h
+		}
+	case free >= 0:
 		b[free] = h
 	}
 	if skip < 0 || skip > m/2 {
