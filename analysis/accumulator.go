@@ -366,6 +366,7 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 				r = 0
 			}
 			sg.rpos = r
+			sg.keepNode(pv, u)
 			sg.sprev = u
 		}
 		sg.sawHold = sg.sawHold || u == telemetry.Hold

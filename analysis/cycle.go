@@ -64,6 +64,46 @@ func (s *segState) restsAtEnd() bool {
 	return s.rests() || (s.firm && s.onsets <= 2 && s.dOnsets <= 2 && s.onsets+s.dOnsets <= 3)
 }
 
+// keepNode keeps a steady reading and its drive for the node ripple.
+func (s *segState) keepNode(pv float64, u telemetry.Drive) {
+	s.node[s.npos] = nodeEntry{pv: float32(pv), u: int8(u)}
+	if s.npos++; s.npos == nodeLen {
+		s.npos = 0
+	}
+}
+
+// nodeAt returns the i-th of the last m steady readings kept for the node ripple, oldest
+// first.
+func (s *segState) nodeAt(i, m int) nodeEntry {
+	j := s.npos - m + i
+	if j < 0 {
+		j += nodeLen
+	}
+	return s.node[j]
+}
+
+// nodeSpan returns the number of last steady samples the node ripple reads: 4 time
+// constants of the slowest fitted drive, at least window (the spectrum's) and at most
+// nodeLen, within the sn steady samples, and within the end run when the loop rests at
+// the end (endRun > 0; the measured ripple reads that run too). The level of a slow
+// loop wanders over a time constant (a two-state loop at tau 1000 T moves the mean of
+// its cycle by about 2 counts as the noise picks its switching), which the measured
+// ripple over the steady part sees and a window of half a time constant would not.
+func nodeSpan(pf *plantFit, sn, endRun int64, window int) int {
+	tau := 0.0
+	for _, d := range []int{0, 2} {
+		if f := pf.fit[d]; pf.ok[d] && f.A > 0 && f.A < 1 {
+			tau = max(tau, -1/math.Log(f.A))
+		}
+	}
+	m := int64(min(max(float64(window), math.Ceil(4*tau)), nodeLen))
+	m = min(m, sn)
+	if endRun > 0 {
+		m = min(m, endRun)
+	}
+	return int(m)
+}
+
 // ringAt returns the i-th of the last m steady ring entries, oldest first.
 func (s *segState) ringAt(i, m int) *ringEntry {
 	j := s.rpos - m + i
@@ -199,11 +239,15 @@ func (a *Accumulator) currentPlant() plantFit {
 // Phi > 0.05 (the start value still matters) are left out when they are less than half
 // the window.
 func (s *segState) nodeRipple() (float64, string) {
-	m := int(min(s.sn, int64(len(s.ring))))
+	var end int64
+	if s.restsAtEnd() {
+		end = s.endRun
+	}
+	m := nodeSpan(&s.pf, s.sn, end, len(s.ring))
 	if m < 8 {
 		return math.NaN(), "too few steady samples"
 	}
-	return nodeRippleOf(m, func(k int) *ringEntry { return s.ringAt(k, m) }, &s.pf)
+	return nodeRippleOf(m, func(k int) nodeEntry { return s.nodeAt(k, m) }, &s.pf)
 }
 
 // noFitWhy ends the reason of a node ripple that lacked a drive's fit: a later plant
@@ -212,7 +256,7 @@ const noFitWhy = " fit to drive the plant with"
 
 // nodeRippleOf is nodeRipple over the m steady entries at(0..m-1), oldest first, with
 // the plant pf.
-func nodeRippleOf(m int, at func(int) *ringEntry, pf *plantFit) (float64, string) {
+func nodeRippleOf(m int, at func(int) nodeEntry, pf *plantFit) (float64, string) {
 	var a, b [3]float64
 	var seen [3]bool
 	for k := 0; k < m-1; k++ {
@@ -265,7 +309,7 @@ func nodeRippleOf(m int, at func(int) *ringEntry, pf *plantFit) (float64, string
 	skip := -1
 	for k := 0; k < m; k++ {
 		r := at(k)
-		y := r.pv - c
+		y := float64(r.pv) - c
 		spp += phi * phi
 		spg += phi * g
 		sgg += g * g

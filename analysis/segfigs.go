@@ -69,7 +69,9 @@ func (a *Accumulator) segment(f *segFig, pf plantFit, c conv) Segment {
 		s.Rests = f.rests
 		nodePP, nodeWhy := f.nodePP, f.nodeWhy
 		if w := f.nodeWin; len(w) > 0 {
-			nodePP, nodeWhy = nodeRippleOf(len(w), func(k int) *ringEntry { return &w[k] }, &pf)
+			m := nodeSpan(&pf, int64(len(w)), f.nodeEnd, len(w))
+			w = w[len(w)-m:]
+			nodePP, nodeWhy = nodeRippleOf(m, func(k int) nodeEntry { return w[k] }, &pf)
 		}
 		s.RippleNodePPCounts, s.RippleNodePPV = ptr(nodePP), ptr(c.v(nodePP))
 		if s.RippleNodePPCounts == nil {

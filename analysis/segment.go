@@ -85,6 +85,8 @@ type segState struct {
 	sprev           telemetry.Drive
 	ring            []ringEntry // last Window steady readings
 	rpos            int
+	node            []nodeEntry // last nodeLen steady readings, for the node ripple
+	npos            int
 	trigSum         [trigLen]float64
 	trigCnt         [trigLen]int32
 	trigMax         int
@@ -109,6 +111,16 @@ type ringEntry struct {
 	u     int8
 }
 
+// nodeLen is the number of last steady readings and drives kept for the node ripple
+// (8 bytes each): enough for 4 time constants of a loop at tau 1000 T (see nodeSpan).
+const nodeLen = 4096
+
+// nodeEntry is one steady reading kept for the node ripple: counts and drive.
+type nodeEntry struct {
+	pv float32
+	u  int8
+}
+
 // binOf returns the histogram bin of error e: round(e) + histHalf, clamped.
 func binOf(e float64) int {
 	x := e + histHalf + 0.5
@@ -128,6 +140,9 @@ func (s *segState) reset(window int) {
 	}
 	if len(s.ring) != window {
 		s.ring = make([]ringEntry, window)
+	}
+	if s.node == nil {
+		s.node = make([]nodeEntry, nodeLen)
 	}
 	ring := s.ring
 	s.sp, s.from, s.hasFrom, s.index = 0, 0, false, 0
@@ -160,7 +175,7 @@ func (s *segState) clearSteady() {
 	s.duty = [3]int64{}
 	s.switches, s.jumps, s.onsets, s.firstOn, s.lastOn, s.sprev = 0, 0, 0, 0, 0, 0
 	s.dOnsets, s.firstDOn, s.lastDOn = 0, 0, 0
-	s.rpos = 0
+	s.rpos, s.npos = 0, 0
 	s.trigMax, s.trigJ = 0, -1
 }
 
@@ -249,7 +264,8 @@ type segFig struct {
 	tps                     float64 // ticks per sample
 	nodePP                  float64 // noise-free node p-p from the plant and the drives
 	nodeWhy                 string
-	nodeWin                 []ringEntry // the steady window, kept when nodePP lacked a fit
+	nodeWin                 []nodeEntry // the node window, kept when nodePP lacked a fit
+	nodeEnd                 int64       // the end run when the loop rests at the end (else 0)
 	// outside[i] is the last sample number (1-based) whose error was beyond
 	// outside[i].k counts (rounded); k rises, last falls. For the settling time.
 	outside []outBreak
@@ -323,10 +339,13 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 		if math.IsNaN(f.nodePP) && strings.HasSuffix(f.nodeWhy, noFitWhy) && s.index < maxNodeRetries {
 			// The plant at this segment's end lacked a drive: keep the window, the
 			// summary's plant may have it (a later setpoint step gives the runs).
-			m := int(min(s.sn, int64(len(s.ring))))
-			f.nodeWin = make([]ringEntry, m)
+			m := int(min(s.sn, nodeLen))
+			f.nodeWin = make([]nodeEntry, m)
 			for k := range f.nodeWin {
-				f.nodeWin[k] = *s.ringAt(k, m)
+				f.nodeWin[k] = s.nodeAt(k, m)
+			}
+			if s.restsAtEnd() {
+				f.nodeEnd = s.endRun
 			}
 		}
 	}
