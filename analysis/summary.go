@@ -209,11 +209,15 @@ type Segment struct {
 	// Rests says the drive did not cycle in the steady part (it never switched, or at
 	// most once into each drive): no limit cycle; the level then moves only by the hold
 	// droop, HoldDroopVPerS (positive when the level falls), at the segment's mean level.
+	// An unreachable setpoint's loop rests in charge (discharge below the lowest level)
+	// where its level stops drifting: its steady part starts there, its node ripple is 0
+	// and the hold droop is null with that reason.
 	Rests                bool     `json:"rests"`
 	HoldDroopVPerS       *float64 `json:"hold_droop_v_per_s"`
 	HoldDroopVPerSReason string   `json:"hold_droop_v_per_s_reason,omitempty"`
 	// RippleNodePPV is the ripple at the node without ADC noise: the peak-to-peak of the
-	// identified plant driven by the observed drive sequence of the last steady samples.
+	// identified plant driven by the observed drive sequence of the last steady samples
+	// (4 time constants of the slowest drive, 512 to 4096 samples).
 	// RipplePPV is the measured one, noise included.
 	RippleNodePPV       *float64 `json:"ripple_node_pp_v"`
 	RippleNodePPCounts  *float64 `json:"ripple_node_pp_counts"`
