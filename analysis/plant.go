@@ -98,6 +98,7 @@ type plantDecision struct {
 	droop            interval // R_load / R from the hold droop before the 10 % rule (unknown without a droop)
 	notes            []string
 	estimate         float64 // the load's central value, ohm, even when not identifiable (0 = none)
+	dropEstimate     float64 // a buffer's drop, V, its central value even when not identifiable (0 = none)
 }
 
 // decidePlant says whether a load, a buffer or nothing explains the top of the range.
@@ -148,15 +149,27 @@ func decidePlant(ev plantEvidence) plantDecision {
 		d.ratioReason = "needs the charge time constant"
 	}
 
-	// 2. A drop from the discharge asymptote below ground (supply-independent).
+	// 2. A drop from the discharge asymptote below ground. In the sense point's terms
+	// the follower's base is a load: charge heads for (Vs - D) rho/(1+rho), discharge
+	// for -D rho/(1+rho). The droop gives rho without the supply; without a droop
+	// (two-state loops) the supply does: rho/(1+rho) = (v_high - v_low)/Vs, so
+	// D = -v_low Vs/(v_high - v_low), within the supply's tolerance. With neither, -v_low
+	// is the drop less the base's share.
 	lowDrop := false
 	if ev.vLow.known() && ev.vLow.hi < -2*ev.lsb {
 		lowDrop = true
-		k := 1.0
-		if droopLoad {
-			k = (1 + d.ratio.v) / d.ratio.v
+		vl, vh := ev.vLow, ev.vHigh
+		switch {
+		case droopLoad:
+			k := (1 + d.ratio.v) / d.ratio.v
+			d.drop = interval{v: -vl.v * k, lo: -vl.hi * k, hi: -vl.lo * k}
+		case haveVs && vh.known() && vh.lo > vl.hi:
+			drop := func(vl, vh, vs float64) float64 { return -vl * vs / (vh - vl) }
+			d.drop = interval{v: drop(vl.v, vh.v, ev.supply),
+				lo: drop(vl.hi, vh.hi, ev.supply-tolV), hi: drop(vl.lo, vh.lo, ev.supply+tolV)}
+		default:
+			d.drop = interval{v: -vl.v, lo: -vl.hi, hi: -vl.lo}
 		}
-		d.drop = interval{v: -ev.vLow.v * k, lo: -ev.vLow.hi * k, hi: -ev.vLow.lo * k}
 		d.dropFrom = "v_low"
 	}
 
@@ -247,6 +260,7 @@ func decidePlant(ev plantEvidence) plantDecision {
 		d.loadReason = d.ratioReason
 	}
 	if buffer {
+		d.dropEstimate = max(d.drop.v, 0)
 		if ok, why := levelOK(d.drop, ev.lsb, "V"); !ok || d.drop.lo <= 0 {
 			if ok {
 				why = "not identifiable: its interval includes no drop"

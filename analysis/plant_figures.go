@@ -187,12 +187,14 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 	}
 	p.MissingCodes, p.StuckCodes = a.codeFaults(pf)
 
-	// Load or buffer.
+	// Load or buffer. The discharge asymptote is the discharge fit's or, when narrower,
+	// the steady balance's (a two-state loop's discharges are too short to fit).
+	vLowEv := narrower(vLow, a.dischargeFromBalance(pf))
 	ev := plantEvidence{tauC: tauC, tauH: tauH, holdPairs: holdPairs, supply: math.NaN(), supplyTol: a.opts.SupplyTol,
-		r: math.NaN(), lsb: lsbV, vHigh: vHigh, vLow: vLow}
+		r: math.NaN(), lsb: lsbV, vHigh: vHigh, vLow: vLowEv}
 	if volts {
 		ev.vHigh = interval{c.v(vHigh.v), c.v(vHigh.lo), c.v(vHigh.hi)}
-		ev.vLow = interval{c.v(vLow.v), c.v(vLow.lo), c.v(vLow.hi)}
+		ev.vLow = interval{c.v(vLowEv.v), c.v(vLowEv.lo), c.v(vLowEv.hi)}
 		if m.Has(telemetry.FieldSupply) {
 			ev.supply = m.Supply
 		}
@@ -221,8 +223,11 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 		p.SenseDropCIV, p.SenseDropVReason, p.SenseDropFrom = ci(dec.drop.lo, dec.drop.hi), "", dec.dropFrom
 	}
 	p.notes = append(p.notes, dec.notes...)
-	if dec.kind == KindLoad {
+	switch dec.kind {
+	case KindLoad:
 		p.loadEstimate = dec.estimate
+	case KindBuffer:
+		p.dropEstimate = dec.dropEstimate
 	}
 	p.notes = append(p.notes, metaLoadCheck(m, ev, dec, tauC, tauH)...)
 
@@ -368,6 +373,10 @@ func (a *Accumulator) diagnosePlant(p Plant, add func(code, sev, format string, 
 		}
 		add(DiagSenseDrop, "info", "A buffer between the node and the ADC lowers the sensed level by %s (%s): a follower (an emitter follower drops about 0.65 V). Setpoints above the supply less this drop are out of reach.",
 			si.Format(*p.SenseDropV, "V"), from)
+	}
+	if p.SenseDropV == nil && p.Kind != nil && *p.Kind == KindBuffer {
+		add(DiagSenseDrop, "info", "The discharge heads below ground at the sense point: a buffer (a follower) lowers the sensed level; its drop is %s. Setpoints above the supply less this drop are out of reach.",
+			p.SenseDropVReason)
 	}
 	if p.LoadRatio != nil {
 		what := "A load on the node"
