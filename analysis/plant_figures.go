@@ -319,8 +319,9 @@ type PlantModel struct {
 	TauChargeS float64
 	// Identified says Kind, LoadOhm and SenseDropV come from the data (not only the meta lines).
 	Identified bool
-	// Rough says LoadOhm is the central value of a load whose interval is too wide to
-	// show as a figure (the data show a load, not its size within 10 %).
+	// Rough says LoadOhm (a load) or SenseDropV (a buffer) is the central value of a
+	// figure whose interval is too wide to show (the data show a load or a buffer, not
+	// its size within the identifiability rule).
 	Rough bool
 }
 
@@ -346,6 +347,11 @@ func (s *Summary) Model() PlantModel {
 		pm.LoadOhm = *b.LoadOhm
 	case pm.Kind == KindLoad && p.loadEstimate > 0:
 		pm.LoadOhm, pm.Rough = p.loadEstimate, true
+	}
+	if pm.Kind == KindBuffer && pm.SenseDropV == 0 && p.dropEstimate > 0 {
+		// The data show a follower but not its drop within 2 LSB or 10 %: its central
+		// value, so that the advice designs for a buffer with a drop, never with none.
+		pm.SenseDropV, pm.Rough = p.dropEstimate, true
 	}
 	if pm.LoadRatio == 0 && pm.LoadOhm > 0 && b.ROhm != nil && *b.ROhm > 0 {
 		pm.LoadRatio = pm.LoadOhm / *b.ROhm
