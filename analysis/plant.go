@@ -175,6 +175,7 @@ func decidePlant(ev plantEvidence) plantDecision {
 
 	// 3. What v_high says, beyond the supply tolerance.
 	highDrop := false
+	ambiguous := "" // why a droop's load and a buffer cannot be told apart
 	if !ev.vHigh.known() {
 		if d.dropReason == "" && !lowDrop {
 			d.dropReason = "needs v_high"
@@ -217,6 +218,14 @@ func decidePlant(ev plantEvidence) plantDecision {
 			}
 			if !droopLoad && !noDroop && d.loadFrom == "" {
 				d.ratioReason = reasonSupplyLimited
+			}
+			if droopLoad && !lowDrop && gap.lo > 2*ev.lsb && gap.hi > margin {
+				// The top sits below what the droop's load explains, by more than its
+				// interval but not beyond the supply's tolerance: a follower's drop (its
+				// base is the load the droop shows) or a supply a little low. A load
+				// alone would be a confident wrong answer.
+				ambiguous = fmt.Sprintf("not identifiable: the hold droop shows a load on the node, and the top of the range sits %.2g-%.2g V below what that load explains: a buffer's drop or a supply below its nominal %.3g V (within its %.0f %% tolerance)",
+					gap.lo, gap.hi, ev.supply, 100*ev.supplyTol)
 			}
 		}
 	}
@@ -273,6 +282,8 @@ func decidePlant(ev plantEvidence) plantDecision {
 	switch {
 	case buffer:
 		d.kind = KindBuffer
+	case ambiguous != "":
+		d.kindReason = ambiguous
 	case hasLoad:
 		d.kind = KindLoad
 	case noDroop:
