@@ -63,6 +63,20 @@ func (a *Accumulator) dischargeFromBalance(pf plantFit) interval {
 	return interval{vd, vd - q, vd + q}
 }
 
+// lowChargeEvidence returns the charge periods that began and ended within 4 sigma + 1
+// count of code 0 (lowZ), when a plain load could not have stayed there: the charge
+// fit's step from 0 (its b, counts) is above lowZ + 4 sigma. A plain load's level is
+// never below 0, so one charge lifts it by at least b and its reading leaves that zone
+// at the first charge; behind a follower a discharged node must first climb to V_BE
+// under charge while the sense point reads 0. 0 when the fit cannot tell.
+func (a *Accumulator) lowChargeEvidence(pf plantFit) float64 {
+	f := pf.fit[2]
+	if !pf.ok[2] || !(f.A > 0 && f.A < 1) || f.B <= a.lowZ+4*math.Sqrt(a.noiseEMA/6) {
+		return 0
+	}
+	return float64(a.lowCharges)
+}
+
 // narrower returns the known one of x and y with the narrower interval.
 func narrower(x, y interval) interval {
 	switch {

@@ -77,6 +77,7 @@ type plantEvidence struct {
 	vHigh, vLow interval // sense-point asymptotes of charge and discharge
 	tauC, tauH  interval // charge and hold time constants, samples; tauH.hi may be +Inf
 	holdPairs   float64  // hold sample pairs behind tauH (0: no hold seen)
+	lowCharges  float64  // charges that left the reading near code 0 where a plain load could not
 	supply      float64  // V, NaN unknown
 	supplyTol   float64  // relative
 	r           float64  // ohm, NaN unknown
@@ -173,6 +174,10 @@ func decidePlant(ev plantEvidence) plantDecision {
 		d.dropFrom = "v_low"
 	}
 
+	// A charge cannot leave a plain load's reading near code 0 when its step from 0
+	// is far above the noise: the sensed level sits below the node by a drop.
+	stuckZero := ev.lowCharges >= 2
+
 	// 3. What v_high says, beyond the supply tolerance.
 	highDrop := false
 	ambiguous := "" // why a droop's load and a buffer cannot be told apart
@@ -201,7 +206,7 @@ func decidePlant(ev plantEvidence) plantDecision {
 			} else if math.Abs(gap.v-d.drop.v) > margin+d.drop.halfWidth()+gap.halfWidth() {
 				d.notes = append(d.notes, fmt.Sprintf("the sense drop from v_low (%.3g V) and from the supply (%.3g V) disagree by more than the supply tolerance", d.drop.v, gap.v))
 			}
-		case gap.lo > margin:
+		case gap.lo > margin && !stuckZero:
 			// No hold to tell: a plain load explains a drop of the top alone.
 			vh := ev.vHigh
 			d.ratio = interval{v: vh.v / (ev.supply - vh.v), lo: vh.lo / (ev.supply - vh.lo), hi: vh.hi / (ev.supply - vh.hi)}
@@ -219,7 +224,7 @@ func decidePlant(ev plantEvidence) plantDecision {
 			if !droopLoad && !noDroop && d.loadFrom == "" {
 				d.ratioReason = reasonSupplyLimited
 			}
-			if droopLoad && !lowDrop && gap.lo > 2*ev.lsb && gap.hi > margin {
+			if droopLoad && !lowDrop && !stuckZero && gap.lo > 2*ev.lsb && gap.hi > margin {
 				// The top sits below what the droop's load explains, by more than its
 				// interval but not beyond the supply's tolerance: a follower's drop (its
 				// base is the load the droop shows) or a supply a little low. A load
@@ -228,6 +233,16 @@ func decidePlant(ev plantEvidence) plantDecision {
 					gap.lo, gap.hi, ev.supply, 100*ev.supplyTol)
 			}
 		}
+		if stuckZero && !lowDrop && !highDrop {
+			// A drop is shown (the charges stuck at code 0): v_high against the supply
+			// sizes it, within the supply's tolerance; without a droop the base's share
+			// is unknown and Vs - v_high only bounds it from above.
+			g := interval{v: gap.v, lo: gap.lo - tolV, hi: gap.hi + tolV}
+			if !droopLoad {
+				g = interval{v: gap.v, lo: 0, hi: gap.hi + tolV}
+			}
+			d.drop, d.dropFrom = g, "v_high"
+		}
 	}
 	if !lowDrop && !highDrop && d.dropReason == "" {
 		d.dropReason = "no drop beyond the supply tolerance"
@@ -235,7 +250,7 @@ func decidePlant(ev plantEvidence) plantDecision {
 
 	// 4. The figures, shown when identifiable.
 	hasLoad := d.loadFrom != "" && d.ratio.known()
-	buffer := lowDrop || highDrop
+	buffer := lowDrop || highDrop || stuckZero
 	if hasLoad {
 		if !math.IsNaN(ev.r) && ev.r > 0 {
 			d.estimate = d.ratio.v * ev.r
@@ -271,7 +286,10 @@ func decidePlant(ev plantEvidence) plantDecision {
 	if buffer {
 		d.dropEstimate = max(d.drop.v, 0)
 		if ok, why := levelOK(d.drop, ev.lsb, "V"); !ok || d.drop.lo <= 0 {
-			if ok {
+			switch {
+			case !d.drop.known() && d.dropReason != "":
+				why = "not identifiable: " + d.dropReason + " (the readings stay at code 0 under charge: a drop, not its size)"
+			case ok:
 				why = "not identifiable: its interval includes no drop"
 			}
 			d.dropReason, d.drop = why, unknown()

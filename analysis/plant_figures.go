@@ -191,7 +191,7 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 	// the steady balance's (a two-state loop's discharges are too short to fit).
 	vLowEv := narrower(vLow, a.dischargeFromBalance(pf))
 	ev := plantEvidence{tauC: tauC, tauH: tauH, holdPairs: holdPairs, supply: math.NaN(), supplyTol: a.opts.SupplyTol,
-		r: math.NaN(), lsb: lsbV, vHigh: vHigh, vLow: vLowEv}
+		r: math.NaN(), lsb: lsbV, vHigh: vHigh, vLow: vLowEv, lowCharges: a.lowChargeEvidence(pf)}
 	if volts {
 		ev.vHigh = interval{c.v(vHigh.v), c.v(vHigh.lo), c.v(vHigh.hi)}
 		ev.vLow = interval{c.v(vLowEv.v), c.v(vLowEv.lo), c.v(vLowEv.hi)}
