@@ -173,3 +173,83 @@ func TestNodeRippleClipsAtZero(t *testing.T) {
 		t.Errorf("node p-p %g (%s), want %g (the trajectory clipped at 0, V0 from the readings above 0)", got, why, hi-lo)
 	}
 }
+
+// TestLowChargeEvidence runs three-state loops from a discharged capacitor: behind a
+// follower the first charges leave the reading at code 0 while the node climbs to
+// V_BE (about 7 periods at tau = 47 ms: 0.65 V of 5 V is 14 % of the way, ln(1/0.86) tau),
+// which a plain load or none cannot do (its first charge lifts the reading by Vs T/tau,
+// about 21 counts). The kind follows.
+func TestLowChargeEvidence(t *testing.T) {
+	t.Parallel()
+	fol := greenhouse(loop.ThreeState, 0, 31)
+	fol.Circuit.Follower = testFollower
+	cases := []struct {
+		name   string
+		cfg    loop.Config
+		buffer bool
+	}{
+		{"follower", fol, true},
+		{"420k load", greenhouse(loop.ThreeState, 420e3, 32), false},
+		{"no load", greenhouse(loop.ThreeState, 0, 33), false},
+	}
+	for _, tc := range cases {
+		t.Run(tc.name, func(t *testing.T) {
+			t.Parallel()
+			r := simulate(t, tc.cfg, schedule(4000, 400, 600), 8000, false)
+			pf := r.acc.currentPlant()
+			n := r.acc.lowChargeEvidence(pf)
+			if (n >= 2) != tc.buffer {
+				t.Errorf("%g charges stuck near code 0 (%d counted), want a follower: %v", n, r.acc.lowCharges, tc.buffer)
+			}
+			p := r.sum.Plant
+			if isBuf := p.Kind != nil && *p.Kind == KindBuffer; isBuf != tc.buffer {
+				t.Errorf("kind %s, want buffer: %v", kindOf(p), tc.buffer)
+			}
+			t.Logf("%g charges near code 0, kind %s, drop %v (%s)", n, kindOf(p), deref(p.SenseDropV), p.SenseDropVReason)
+		})
+	}
+}
+
+// TestDecidePlantDroopAndDrop: a hold droop shows a load, and the top of the range sits
+// below what that load explains by more than its interval but within the supply's
+// tolerance. Without other evidence the kind is null (a buffer's drop or a low supply),
+// never a confident "load"; with charges stuck near code 0 it is a buffer whose drop
+// v_high against the supply gives, within the supply's tolerance.
+func TestDecidePlantDroopAndDrop(t *testing.T) {
+	t.Parallel()
+	// Truth: R 50 kOhm, C 1 uF, T 1 ms, follower base 1.01 MOhm, Vs 5 V: tau_c = C (R || R_b)
+	// = 47.64 samples, tau_h = R_b C = 1010 samples, v_high = (Vs - 0.65) R_b/(R+R_b) =
+	// 4.145 V. The intervals are as wide as a droop loop of 8000 samples gives them (the
+	// grid's 3s-buffer-10b-5V case: tau_c ±11 %, tau_h ±22 %, v_high ±0.28 V).
+	lsb := 5.0 / 1024
+	ev := plantEvidence{tauC: interval{47.64, 43.0, 53.6}, tauH: interval{1010, 790, 1390}, holdPairs: 7000,
+		supply: 5, supplyTol: 0.05, r: 50e3, lsb: lsb, vHigh: interval{4.145, 3.865, 4.425}, vLow: unknown()}
+	got := decidePlant(ev)
+	if got.kind != "" || !strings.Contains(got.kindReason, "a buffer's drop or a supply below") {
+		t.Errorf("no low charges: kind %q (%s), want null: a drop or a low supply", got.kind, got.kindReason)
+	}
+	ev.lowCharges = 6
+	got = decidePlant(ev)
+	if got.kind != KindBuffer {
+		t.Fatalf("low charges: kind %q (%s), want buffer", got.kind, got.kindReason)
+	}
+	// D = Vs - v_high (1+rho)/rho, rho = tau_h/tau_c - 1 (see decidePlant).
+	rho := 1010/47.64 - 1
+	want := 5 - 4.145*(1+rho)/rho
+	if math.Abs(got.dropEstimate-want) > 1e-9 || math.Abs(want-0.65) > 0.01 {
+		t.Errorf("drop estimate %g V, want %g V (0.65 V)", got.dropEstimate, want)
+	}
+	if got.drop.known() || !strings.Contains(got.dropReason, "not identifiable") {
+		t.Errorf("drop %v (%s): want null, its interval is wider than 10 %%", got.drop, got.dropReason)
+	}
+	// The same with the intervals a tighter fit gives: the drop is shown.
+	ev.tauC, ev.tauH, ev.vHigh = interval{47.64, 47.2, 48.1}, interval{1010, 990, 1030}, interval{4.145, 4.14, 4.15}
+	ev.supplyTol = 0.01
+	got = decidePlant(ev)
+	if got.kind != KindBuffer || !got.drop.known() || math.Abs(got.drop.v-0.65) > 0.05*0.65 {
+		t.Errorf("tight: kind %q drop %v (%s), want buffer and 0.65 V within 5 %%", got.kind, got.drop, got.dropReason)
+	}
+	if !got.load.known() || math.Abs(got.load.v-1.01e6) > 0.05*1.01e6 {
+		t.Errorf("tight: load %v (%s), want 1.01 MOhm within 5 %%", got.load, got.loadReason)
+	}
+}
