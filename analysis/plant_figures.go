@@ -185,11 +185,18 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 			p.VLowVReason = "needs vref and adc_bits"
 		}
 	}
-	p.MissingCodes, p.StuckCodes = a.codeFaults(pf)
-
-	// Load or buffer. The discharge asymptote is the discharge fit's or, when narrower,
+	// The discharge asymptote the decision reads: the discharge fit's or, when narrower,
 	// the steady balance's (a two-state loop's discharges are too short to fit).
 	vLowEv := narrower(vLow, a.dischargeFromBalance(pf))
+	if p.VLowCounts == nil && vLowEv != vLow && vLowEv.hi < -2 {
+		p.VLowCountsReason = fmt.Sprintf("the discharge heads for %s, below ground (from the balance of the steady parts): the sense point sits behind a follower (see sense_drop_v)", c.fmtV(vLowEv.v))
+		if p.VLowV == nil {
+			p.VLowVReason = p.VLowCountsReason
+		}
+	}
+	p.MissingCodes, p.StuckCodes = a.codeFaults(pf)
+
+	// Load or buffer.
 	ev := plantEvidence{tauC: tauC, tauH: tauH, holdPairs: holdPairs, supply: math.NaN(), supplyTol: a.opts.SupplyTol,
 		r: math.NaN(), lsb: lsbV, vHigh: vHigh, vLow: vLowEv, lowCharges: a.lowChargeEvidence(pf)}
 	if volts {
