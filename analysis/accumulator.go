@@ -93,6 +93,9 @@ type Accumulator struct {
 	ov  overview
 	trk tracker
 	st  streamState // events, glitches and suspect lines (events.go)
+
+	lowCharges int64   // charge periods that began and ended within lowZ of code 0 (follower.go)
+	lowZ       float64 // 4 sigma of noise plus a count
 }
 
 // stepRaw is the start of one step response, kept for the plot.
@@ -382,6 +385,9 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 			ok = true
 		} else {
 			ok = a.codeSlow(pv)
+		}
+		if pv <= a.lowZ && a.p1.pv <= a.lowZ && a.p1.u == telemetry.Charge && contiguous && a.n > 1 {
+			a.lowCharges++ // a charge that left the reading near code 0 (see follower.go)
 		}
 		ok = ok && !glitch
 

@@ -77,6 +77,7 @@ type plantEvidence struct {
 	vHigh, vLow interval // sense-point asymptotes of charge and discharge
 	tauC, tauH  interval // charge and hold time constants, samples; tauH.hi may be +Inf
 	holdPairs   float64  // hold sample pairs behind tauH (0: no hold seen)
+	lowCharges  float64  // charges that left the reading near code 0 where a plain load could not
 	supply      float64  // V, NaN unknown
 	supplyTol   float64  // relative
 	r           float64  // ohm, NaN unknown
@@ -98,6 +99,7 @@ type plantDecision struct {
 	droop            interval // R_load / R from the hold droop before the 10 % rule (unknown without a droop)
 	notes            []string
 	estimate         float64 // the load's central value, ohm, even when not identifiable (0 = none)
+	dropEstimate     float64 // a buffer's drop, V, its central value even when not identifiable (0 = none)
 }
 
 // decidePlant says whether a load, a buffer or nothing explains the top of the range.
@@ -148,20 +150,37 @@ func decidePlant(ev plantEvidence) plantDecision {
 		d.ratioReason = "needs the charge time constant"
 	}
 
-	// 2. A drop from the discharge asymptote below ground (supply-independent).
+	// 2. A drop from the discharge asymptote below ground. In the sense point's terms
+	// the follower's base is a load: charge heads for (Vs - D) rho/(1+rho), discharge
+	// for -D rho/(1+rho). The droop gives rho without the supply; without a droop
+	// (two-state loops) the supply does: rho/(1+rho) = (v_high - v_low)/Vs, so
+	// D = -v_low Vs/(v_high - v_low), within the supply's tolerance. With neither, -v_low
+	// is the drop less the base's share.
 	lowDrop := false
 	if ev.vLow.known() && ev.vLow.hi < -2*ev.lsb {
 		lowDrop = true
-		k := 1.0
-		if droopLoad {
-			k = (1 + d.ratio.v) / d.ratio.v
+		vl, vh := ev.vLow, ev.vHigh
+		switch {
+		case droopLoad:
+			k := (1 + d.ratio.v) / d.ratio.v
+			d.drop = interval{v: -vl.v * k, lo: -vl.hi * k, hi: -vl.lo * k}
+		case haveVs && vh.known() && vh.lo > vl.hi:
+			drop := func(vl, vh, vs float64) float64 { return -vl * vs / (vh - vl) }
+			d.drop = interval{v: drop(vl.v, vh.v, ev.supply),
+				lo: drop(vl.hi, vh.hi, ev.supply-tolV), hi: drop(vl.lo, vh.lo, ev.supply+tolV)}
+		default:
+			d.drop = interval{v: -vl.v, lo: -vl.hi, hi: -vl.lo}
 		}
-		d.drop = interval{v: -ev.vLow.v * k, lo: -ev.vLow.hi * k, hi: -ev.vLow.lo * k}
 		d.dropFrom = "v_low"
 	}
 
+	// A charge cannot leave a plain load's reading near code 0 when its step from 0
+	// is far above the noise: the sensed level sits below the node by a drop.
+	stuckZero := ev.lowCharges >= 2
+
 	// 3. What v_high says, beyond the supply tolerance.
 	highDrop := false
+	ambiguous := "" // why a droop's load and a buffer cannot be told apart
 	if !ev.vHigh.known() {
 		if d.dropReason == "" && !lowDrop {
 			d.dropReason = "needs v_high"
@@ -187,7 +206,7 @@ func decidePlant(ev plantEvidence) plantDecision {
 			} else if math.Abs(gap.v-d.drop.v) > margin+d.drop.halfWidth()+gap.halfWidth() {
 				d.notes = append(d.notes, fmt.Sprintf("the sense drop from v_low (%.3g V) and from the supply (%.3g V) disagree by more than the supply tolerance", d.drop.v, gap.v))
 			}
-		case gap.lo > margin:
+		case gap.lo > margin && !stuckZero:
 			// No hold to tell: a plain load explains a drop of the top alone.
 			vh := ev.vHigh
 			d.ratio = interval{v: vh.v / (ev.supply - vh.v), lo: vh.lo / (ev.supply - vh.lo), hi: vh.hi / (ev.supply - vh.hi)}
@@ -205,6 +224,24 @@ func decidePlant(ev plantEvidence) plantDecision {
 			if !droopLoad && !noDroop && d.loadFrom == "" {
 				d.ratioReason = reasonSupplyLimited
 			}
+			if droopLoad && !lowDrop && !stuckZero && gap.lo > 2*ev.lsb && gap.hi > margin {
+				// The top sits below what the droop's load explains, by more than its
+				// interval but not beyond the supply's tolerance: a follower's drop (its
+				// base is the load the droop shows) or a supply a little low. A load
+				// alone would be a confident wrong answer.
+				ambiguous = fmt.Sprintf("not identifiable: the hold droop shows a load on the node, and the top of the range sits %.2g-%.2g V below what that load explains: a buffer's drop or a supply below its nominal %.3g V (within its %.0f %% tolerance)",
+					gap.lo, gap.hi, ev.supply, 100*ev.supplyTol)
+			}
+		}
+		if stuckZero && !lowDrop && !highDrop {
+			// A drop is shown (the charges stuck at code 0): v_high against the supply
+			// sizes it, within the supply's tolerance; without a droop the base's share
+			// is unknown and Vs - v_high only bounds it from above.
+			g := interval{v: gap.v, lo: gap.lo - tolV, hi: gap.hi + tolV}
+			if !droopLoad {
+				g = interval{v: gap.v, lo: 0, hi: gap.hi + tolV}
+			}
+			d.drop, d.dropFrom = g, "v_high"
 		}
 	}
 	if !lowDrop && !highDrop && d.dropReason == "" {
@@ -213,7 +250,7 @@ func decidePlant(ev plantEvidence) plantDecision {
 
 	// 4. The figures, shown when identifiable.
 	hasLoad := d.loadFrom != "" && d.ratio.known()
-	buffer := lowDrop || highDrop
+	buffer := lowDrop || highDrop || stuckZero
 	if hasLoad {
 		if !math.IsNaN(ev.r) && ev.r > 0 {
 			d.estimate = d.ratio.v * ev.r
@@ -247,8 +284,12 @@ func decidePlant(ev plantEvidence) plantDecision {
 		d.loadReason = d.ratioReason
 	}
 	if buffer {
+		d.dropEstimate = max(d.drop.v, 0)
 		if ok, why := levelOK(d.drop, ev.lsb, "V"); !ok || d.drop.lo <= 0 {
-			if ok {
+			switch {
+			case !d.drop.known() && d.dropReason != "":
+				why = "not identifiable: " + d.dropReason + " (the readings stay at code 0 under charge: a drop, not its size)"
+			case ok:
 				why = "not identifiable: its interval includes no drop"
 			}
 			d.dropReason, d.drop = why, unknown()
@@ -259,6 +300,8 @@ func decidePlant(ev plantEvidence) plantDecision {
 	switch {
 	case buffer:
 		d.kind = KindBuffer
+	case ambiguous != "":
+		d.kindReason = ambiguous
 	case hasLoad:
 		d.kind = KindLoad
 	case noDroop:

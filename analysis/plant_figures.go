@@ -185,14 +185,23 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 			p.VLowVReason = "needs vref and adc_bits"
 		}
 	}
+	// The discharge asymptote the decision reads: the discharge fit's or, when narrower,
+	// the steady balance's (a two-state loop's discharges are too short to fit).
+	vLowEv := narrower(vLow, a.dischargeFromBalance(pf))
+	if p.VLowCounts == nil && vLowEv != vLow && vLowEv.hi < -2 {
+		p.VLowCountsReason = fmt.Sprintf("the discharge heads for %s, below ground (from the balance of the steady parts): the sense point sits behind a follower (see sense_drop_v)", c.fmtV(vLowEv.v))
+		if p.VLowV == nil {
+			p.VLowVReason = p.VLowCountsReason
+		}
+	}
 	p.MissingCodes, p.StuckCodes = a.codeFaults(pf)
 
 	// Load or buffer.
 	ev := plantEvidence{tauC: tauC, tauH: tauH, holdPairs: holdPairs, supply: math.NaN(), supplyTol: a.opts.SupplyTol,
-		r: math.NaN(), lsb: lsbV, vHigh: vHigh, vLow: vLow}
+		r: math.NaN(), lsb: lsbV, vHigh: vHigh, vLow: vLowEv, lowCharges: a.lowChargeEvidence(pf)}
 	if volts {
 		ev.vHigh = interval{c.v(vHigh.v), c.v(vHigh.lo), c.v(vHigh.hi)}
-		ev.vLow = interval{c.v(vLow.v), c.v(vLow.lo), c.v(vLow.hi)}
+		ev.vLow = interval{c.v(vLowEv.v), c.v(vLowEv.lo), c.v(vLowEv.hi)}
 		if m.Has(telemetry.FieldSupply) {
 			ev.supply = m.Supply
 		}
@@ -221,8 +230,11 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 		p.SenseDropCIV, p.SenseDropVReason, p.SenseDropFrom = ci(dec.drop.lo, dec.drop.hi), "", dec.dropFrom
 	}
 	p.notes = append(p.notes, dec.notes...)
-	if dec.kind == KindLoad {
+	switch dec.kind {
+	case KindLoad:
 		p.loadEstimate = dec.estimate
+	case KindBuffer:
+		p.dropEstimate = dec.dropEstimate
 	}
 	p.notes = append(p.notes, metaLoadCheck(m, ev, dec, tauC, tauH)...)
 
@@ -314,8 +326,9 @@ type PlantModel struct {
 	TauChargeS float64
 	// Identified says Kind, LoadOhm and SenseDropV come from the data (not only the meta lines).
 	Identified bool
-	// Rough says LoadOhm is the central value of a load whose interval is too wide to
-	// show as a figure (the data show a load, not its size within 10 %).
+	// Rough says LoadOhm (a load) or SenseDropV (a buffer) is the central value of a
+	// figure whose interval is too wide to show (the data show a load or a buffer, not
+	// its size within the identifiability rule).
 	Rough bool
 }
 
@@ -341,6 +354,11 @@ func (s *Summary) Model() PlantModel {
 		pm.LoadOhm = *b.LoadOhm
 	case pm.Kind == KindLoad && p.loadEstimate > 0:
 		pm.LoadOhm, pm.Rough = p.loadEstimate, true
+	}
+	if pm.Kind == KindBuffer && pm.SenseDropV == 0 && p.dropEstimate > 0 {
+		// The data show a follower but not its drop within 2 LSB or 10 %: its central
+		// value, so that the advice designs for a buffer with a drop, never with none.
+		pm.SenseDropV, pm.Rough = p.dropEstimate, true
 	}
 	if pm.LoadRatio == 0 && pm.LoadOhm > 0 && b.ROhm != nil && *b.ROhm > 0 {
 		pm.LoadRatio = pm.LoadOhm / *b.ROhm
@@ -368,6 +386,10 @@ func (a *Accumulator) diagnosePlant(p Plant, add func(code, sev, format string, 
 		}
 		add(DiagSenseDrop, "info", "A buffer between the node and the ADC lowers the sensed level by %s (%s): a follower (an emitter follower drops about 0.65 V). Setpoints above the supply less this drop are out of reach.",
 			si.Format(*p.SenseDropV, "V"), from)
+	}
+	if p.SenseDropV == nil && p.Kind != nil && *p.Kind == KindBuffer {
+		add(DiagSenseDrop, "info", "The discharge heads below ground at the sense point: a buffer (a follower) lowers the sensed level; its drop is %s. Setpoints above the supply less this drop are out of reach.",
+			p.SenseDropVReason)
 	}
 	if p.LoadRatio != nil {
 		what := "A load on the node"

@@ -145,6 +145,9 @@ type Plant struct {
 	// loadEstimate is the load's central value, ohm, kept for the advice when its
 	// interval is too wide to show it (0 = none).
 	loadEstimate float64
+	// dropEstimate is a buffer's sense drop, V, its central value kept for the advice
+	// when its interval is too wide to show it as a figure (0 = none).
+	dropEstimate float64
 }
 
 // Segment holds the figures of one run of samples with one setpoint, over its steady part.

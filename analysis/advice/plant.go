@@ -57,6 +57,14 @@ func PlantOf(s *analysis.Summary) PlantInput {
 	switch m.Kind {
 	case analysis.KindBuffer:
 		in := PlantInput{Kind: PlantBuffer, SenseDropV: m.SenseDropV, Source: src}
+		if m.Rough {
+			in.Source += " (the drop's central value: its interval is wider than 10 %)"
+		}
+		if !(m.SenseDropV > 0) {
+			// A buffer whose drop the data leave unknown: the advice cannot design the
+			// drop in, and does not invent one.
+			return PlantInput{Kind: PlantNone, Source: "a buffer whose drop the data do not show; none assumed"}
+		}
 		if m.LoadOhm > 0 {
 			in.LoadOhm = m.LoadOhm
 			in.Source += "; its input loading from the hold droop"
