@@ -61,6 +61,19 @@ type runRef struct {
 	ok      bool
 }
 
+// add appends the pair x -> y ending at sample i. A pair that does not continue the open
+// run closes it; a full buffer closes it too, and the run goes on in a new chunk from y.
+func (r *runFit) add(i int64, x, y float64, ref runRef) {
+	if cont := len(r.buf) > 0 && i-1 == r.lastN; !cont || len(r.buf) >= runChunk {
+		r.close(ref)
+		if !cont {
+			r.buf = append(r.buf, x)
+		}
+	}
+	r.buf = append(r.buf, y)
+	r.lastN = i
+}
+
 // close fits the open run and empties the buffer. A long run joins the pool, and the
 // pool is refitted with the sums; when that fit pins a within 2 % (1 sigma of 1 - a),
 // or the pool is full, each pooled run is linearised there and added to the sums. A
@@ -416,17 +429,7 @@ func (a *Accumulator) runRefOf(d int) runRef {
 // feedRun feeds the run fit of drive d (0 discharge, 2 charge) the pair x -> y ending at
 // the current sample.
 func (a *Accumulator) feedRun(d int, x, y float64) {
-	r := &a.runs[d]
-	if cont := len(r.buf) > 0 && a.n-1 == r.lastN; !cont || len(r.buf) >= runChunk {
-		// A pair that does not continue the open run closes it; a full buffer closes
-		// it too, and the run goes on in a new chunk from y.
-		r.close(a.runRefOf(d))
-		if !cont {
-			r.buf = append(r.buf, x)
-		}
-	}
-	r.buf = append(r.buf, y)
-	r.lastN = a.n
+	a.runs[d].add(a.n, x, y, a.runRefOf(d))
 }
 
 // preferRuns replaces the pair fit of charge and discharge by the run fit where the run
