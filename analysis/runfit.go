@@ -37,7 +37,12 @@ type runFit struct {
 	pool    []float64 // long runs kept whole until the fit pins a (readings, run after run)
 	lens    []int     // their lengths
 	sums    runSums
-	skipped int64 // pooled runs dropped with no fit to linearise them at
+	skipped int64  // pooled runs dropped with no fit to linearise them at
+	last    runRef // the last joint fit: where the next one starts
+	// The fit of the closed runs, kept until a run closes (result without an open
+	// long run returns it).
+	cache            fitResult
+	cacheOK, cacheOn bool
 }
 
 // runChunk is the most readings one run holds before it is fitted as a chunk.
@@ -90,6 +95,7 @@ func (r *runFit) close(ref runRef) {
 	}
 	r.pool = append(r.pool, y...)
 	r.lens = append(r.lens, len(y))
+	r.cacheOn = false
 	f, ok := r.joint(nil, ref)
 	full := len(r.pool) > runPool-runChunk
 	if !full && !(ok && f.SeA <= 0.02*(1-f.A)) {
@@ -116,13 +122,17 @@ func (r *runFit) result(ref runRef) (fitResult, bool) {
 	if len(r.buf) >= runMinOwn {
 		return r.joint(r.buf, ref)
 	}
-	return r.joint(nil, ref)
+	if !r.cacheOn {
+		r.cache, r.cacheOK = r.joint(nil, ref)
+		r.cacheOn = true
+	}
+	return r.cache, r.cacheOK
 }
 
 // joint fits the sums, the pooled runs and extra (one more long run, or nil) together:
 // Gauss-Newton on (a, VInf), each run's c eliminated, from the sums' own solution, else
-// the own fit of the longest run, else ref; each step halved until the residual sum of
-// squares goes down.
+// the last joint fit, else the own fit of the longest run, else ref; each step halved
+// until the residual sum of squares goes down.
 func (r *runFit) joint(extra []float64, ref runRef) (fitResult, bool) {
 	runs := r.runList(extra)
 	if len(runs) == 0 {
@@ -131,6 +141,8 @@ func (r *runFit) joint(extra []float64, ref runRef) (fitResult, bool) {
 	var a, v float64
 	if f, ok := r.sums.solve(); ok && f.A > 0 && f.A < 1 {
 		a, v = f.A, f.VInf
+	} else if r.last.ok {
+		a, v = r.last.a, r.last.vinf
 	} else {
 		long := runs[0]
 		for _, y := range runs {
@@ -180,8 +192,12 @@ func (r *runFit) joint(extra []float64, ref runRef) (fitResult, bool) {
 		}
 		da := (h11*g0 - h01*g1) / det
 		dv := (h00*g1 - h01*g0) / det
+		// The step's predicted decrease of the SSR, g'H^-1 g: done when it is nothing.
+		if g0*da+g1*dv <= 1e-10*ssr+1e-24 {
+			break
+		}
 		moved := false
-		for half := 0; half < 30; half++ {
+		for half := 0; half < 20; half++ {
 			na, nv := a+da, v+dv
 			if na > 0 && na < 1 {
 				n00, n01, n11, ng0, ng1, nssr := total(na, nv)
@@ -203,6 +219,7 @@ func (r *runFit) joint(extra []float64, ref runRef) (fitResult, bool) {
 	if n < 8 || dof < 1 || !(det > 0) {
 		return fitResult{}, false
 	}
+	r.last = runRef{a: a, vinf: v, ok: true}
 	s2 := ssr / dof
 	f := fitResult{N: n, A: a, SeA: math.Sqrt(s2 * h11 / det), VInf: v, SeVInf: math.Sqrt(s2 * h00 / det),
 		S2: s2, Dof: dof, Runs: true}
