@@ -71,6 +71,7 @@ type Accumulator struct {
 	bestSpec specKeep
 
 	fits       [3]ivSums  // discharge, (unused), charge
+	runs       [3]runFit  // the same pairs, fitted as runs (discharge, unused, charge)
 	noiseEMA   float64    // running mean of squared second differences, counts^2
 	sd2, sdN   float64    // squared second differences of hold triples well inside the band (see noiseRMS)
 	inner      float64    // 2 sigma of noise plus half a count: "well inside"
@@ -414,10 +415,12 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 				case telemetry.Charge:
 					if _, hi := a.reach(int(p2.u)+1, p2.pv); hi+a.guard < p1.sp-p1.db {
 						a.fits[2].add(p2.pv, p1.pv, pv)
+						a.feedRun(2, p1.pv, pv)
 					}
 				case telemetry.Discharge:
 					if lo, _ := a.reach(int(p2.u)+1, p2.pv); lo-a.guard > p1.sp+p1.db {
 						a.fits[0].add(p2.pv, p1.pv, pv)
+						a.feedRun(0, p1.pv, pv)
 					}
 				}
 			}

@@ -56,12 +56,18 @@ var knownGaps = []knownGap{
 	{"2s-none-10b-5V-n1-tau10-midduty", "plant.*", "", "mid-duty chatter at tau 10 T: no charge run to fit: v_high, noise null (with reasons)"},
 	{"3s-none-12b-5V-n1-tau2-db40", "plant.*", "", "tau 2 T: no charge run to fit: v_high, noise null (with reasons)"},
 	{"3s-none-10b-3V3-n1-tau5-db0-chatter", "plant.*", "", "chatter at tau 5 T: no charge run to fit; tau_discharge's interval wider than 10 %"},
-	{"3s-buffer-12b-3V3-n1-tau200-db30", "plant.*", "", "follower at tau 167 T: the charge fit of one step's run reads v_high +12.4 % and noise +25 %, both taus not identifiable, so the base load (±36 %) and the drop (±0.73 V) stay null"},
-	{"*", "plant.tau_charge_s", "", "null where its 95 % interval is ±10-12 % (49-55 charge pairs of one step at tau 48-100 T; 687 pairs of a slow ramp at tau 1000 T): the 10 % rule withholds what the suite asks within 2 %"},
-	{"*", "plant.tau_discharge_s", "", "null in 6 grid cases: no discharge run far from the threshold, or its interval wider than 10 %; +2.9 % against ngspice (two-state, load 5 R)"},
+	{"3s-buffer-12b-*", "plant.sense_drop_v", "", "follower in a droop loop (12 bit, 3.3 V): the drop's interval too wide"},
+	// The discharge of a two-state loop away from its threshold: a run of two or three
+	// readings per limit cycle, at one level per setpoint, left to the pair fit (the run
+	// fit takes runs of 12 readings and more).
+	{"2s-none-10b-5V-n1-tau50", "plant.tau_discharge_s", "", "no discharge pair far enough from the threshold to fit (the discharge step is within the guard at both setpoints)"},
+	{"2s-load5-10b-5V-n1-tau20", "plant.tau_discharge_s", "", "the pair fit's 95 % interval wider than 10 %: limit-cycle discharges at one level per setpoint"},
+	{"2s-none-12b-3V3-n1-tau100-reset", "plant.tau_discharge_s", "", "the pair fit's 95 % interval wider than 10 %: limit-cycle discharges at one level"},
+	{"2s-buffer-12b-3V3-n2-tau100", "plant.tau_discharge_s", "", "the pair fit's 95 % interval wider than 10 %: limit-cycle discharges at one level per setpoint"},
+	{"spice-2s-load5-*", "plant.tau_discharge_s", "", "+2.9 % against ngspice (two-state, load 5 R): the pair fit of limit-cycle discharges, shown with ±5 %"},
+	{"3s-load10-*-unreachable", "plant.tau_discharge_s", "", "-4.4 % from one discharge of 16 readings after the step down, inside its ±5 % interval (the 10 % rule shows it; over 200 seeds this case's fit is unbiased, sd 2.8 %)"},
 	{"*", "plant.noise_rms_counts", "", "null without a charge or discharge fit (tau 0.3-0.6 T)"},
-	{"*", "plant.load_ohm", "", "a load behind a droop not identifiable within 10 % (hold droop at tau_hold = 22 tau_charge: ±29-33 %; a 900 kOhm load at tau 300 T); a follower's base load behind its droop ±27 % (tau_charge ±11 %, 55 charge pairs)"},
-	{"*", "plant.sense_drop_v", "", "a follower's 0.65 V drop null where its interval is too wide: two-state from the steady balance's v_low ±0.10-0.19 V; three-state from v_high against the supply with the droop's load ±0.61 V (tau_charge ±11 %)"},
+	{"*", "plant.sense_drop_v", "", "a follower's 0.65 V drop null in two-state loops (no drop beyond the supply tolerance, or its interval too wide)"},
 	// Segments.
 	{"*", "seg*.ripple_node_pp_v", "", "null without a charge or discharge fit (tau 2-10 T with chatter, 8 pairs)"},
 	// Not a late steady start: the steady part starts at sample 19, after the reach, and the

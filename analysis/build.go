@@ -88,6 +88,7 @@ func (a *Accumulator) Summary() *Summary {
 	var pf plantFit
 	pf.fit[0], pf.ok[0] = a.fits[0].free()
 	pf.fit[2], pf.ok[2] = a.fits[2].free()
+	a.preferRuns(&pf)
 	// The hold decays towards the discharge asymptote (a load pulls the node to ground),
 	// except behind a follower, whose discharge heads below ground at the sense point
 	// while its hold stops at 0 there (the node stops at V_BE).

@@ -75,6 +75,29 @@ type fitResult struct {
 	VInf, SeVInf float64
 	// S2 is the residual variance (counts^2).
 	S2 float64
+	// Runs marks a fit of the runs' trajectories (runFit): its residuals are readings
+	// about the fitted level (variance sigma^2), with Dof degrees of freedom. Otherwise
+	// the pair fit's: residual n[k+1] - a n[k], N - 2 degrees of freedom.
+	Runs bool
+	Dof  float64
+}
+
+// dof returns the residual degrees of freedom.
+func (r fitResult) dof() float64 {
+	if r.Runs {
+		return r.Dof
+	}
+	return r.N - 2
+}
+
+// noiseSS returns the fit's share of the noise estimate: the sum of squares of the
+// reading noise its residuals show, and its degrees of freedom.
+func (r fitResult) noiseSS() (ss, dof float64) {
+	if r.Runs {
+		return r.S2 * r.Dof, r.Dof
+	}
+	// The residual of y - a x - b is n[k+1] - a n[k]: its variance is (1 + a^2) sigma^2.
+	return r.S2 * (r.N - 2) / (1 + r.A*r.A), r.N - 2
 }
 
 // free fits a and b with the lagged instrument:
@@ -145,7 +168,7 @@ func tauOf(a, period float64) float64 {
 // tauCI returns the 95 % interval of tau from a and its standard error; the upper end is
 // +Inf when the interval of a reaches 1.
 func tauCI(r fitResult, period float64) [2]float64 {
-	q := tQuantile(r.N - 2)
+	q := tQuantile(r.dof())
 	lo, hi := r.A-q*r.SeA, r.A+q*r.SeA
 	tl := tauOf(lo, period)
 	th := math.Inf(1)

@@ -149,6 +149,19 @@ func decidePlant(ev plantEvidence) plantDecision {
 	default:
 		d.ratioReason = "needs the charge time constant"
 	}
+	// A droop too wide to show the load, with v_high below the supply by more than its
+	// tolerance and no discharge below ground: when the load that v_high implies without
+	// a buffer (rho = v_high/(Vs - v_high)) lies inside the droop's interval and is
+	// identifiable itself, the two agree and the tighter one is shown.
+	if droopLoad && haveVs && ev.vHigh.known() && !(ev.vLow.known() && ev.vLow.hi < -2*ev.lsb) {
+		vh := ev.vHigh
+		if ok, _ := scaleOK(d.ratio); !ok && vh.hi < ev.supply-math.Max(tolV, 2*ev.lsb) {
+			vr := interval{v: vh.v / (ev.supply - vh.v), lo: vh.lo / (ev.supply - vh.lo), hi: vh.hi / (ev.supply - vh.hi)}
+			if ok, _ := scaleOK(vr); ok && vr.v >= d.ratio.lo && vr.v <= d.ratio.hi {
+				d.ratio, d.loadFrom = vr, "v_high"
+			}
+		}
+	}
 
 	// 2. A drop from the discharge asymptote below ground. In the sense point's terms
 	// the follower's base is a load: charge heads for (Vs - D) rho/(1+rho), discharge

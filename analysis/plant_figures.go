@@ -16,7 +16,7 @@ func tauInterval(f fitResult) interval {
 
 // levelInterval returns a fit's asymptote in counts with its 95 % interval.
 func levelInterval(f fitResult) interval {
-	q := tQuantile(f.N - 2)
+	q := tQuantile(f.dof())
 	return interval{f.VInf, f.VInf - q*f.SeVInf, f.VInf + q*f.SeVInf}
 }
 
@@ -53,13 +53,12 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 	var ssr, dof float64
 	for _, d := range []int{0, 2} {
 		if pf.ok[d] {
-			f := pf.fit[d]
-			ssr += f.S2 * (f.N - 2) / (1 + f.A*f.A)
-			dof += f.N - 2
+			ss, df := pf.fit[d].noiseSS()
+			ssr += ss
+			dof += df
 		}
 	}
 	if dof > 0 {
-		// The residual of y - a x - b is n[k+1] - a n[k]: its variance is (1 + a^2) sigma^2.
 		p.NoiseRMSCounts = ptr(a.noiseRMS(ssr, dof))
 	} else {
 		p.NoiseRMSCountsReason = "not identified: no charge or discharge run to fit"

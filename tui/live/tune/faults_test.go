@@ -65,9 +65,10 @@ func captureRecords(t *testing.T, path string) []telemetry.Record {
 func TestTuneUnplugMidIdentify(t *testing.T) {
 	t.Parallel()
 	sc := benchScenario()
-	// Board time, at 4 times real time: the ask and the before pass end near 1.5 s (the
-	// ask's share depends on the host), the identify pass lasts some 3.5 s more.
-	sc.Faults.UnplugAfter = 3.0
+	// Board time, at 4 times real time: the ask and the before pass end near 0.7 s (the
+	// ask's share depends on the host); the identify pass lasts about 0.5 s more (the
+	// run fit identifies tau within one cycle), then advise and verify.
+	sc.Faults.UnplugAfter = 0.95
 	sc.Faults.ReplugAfter = 0.3
 	dir := t.TempDir()
 	b := newBoard(t, sc)
