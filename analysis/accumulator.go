@@ -71,6 +71,7 @@ type Accumulator struct {
 	bestSpec specKeep
 
 	fits       [3]ivSums  // discharge, (unused), charge
+	jt         jointSums  // charge and discharge with one shared factor (jointfit.go)
 	noiseEMA   float64    // running mean of squared second differences, counts^2
 	sd2, sdN   float64    // squared second differences of hold triples well inside the band (see noiseRMS)
 	inner      float64    // 2 sigma of noise plus half a count: "well inside"
@@ -406,6 +407,9 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 					if lo, _ := a.reach(int(p2.u)+1, p2.pv); lo-a.guard > p1.sp+p1.db {
 						a.fits[0].add(p2.pv, p1.pv, pv)
 					}
+				}
+				if p1.u != telemetry.Hold {
+					a.jt.add(p2, p1, pv, a.guard)
 				}
 			}
 			if p1.steady {

@@ -31,6 +31,7 @@ func (a *Accumulator) refreshGuard() {
 	// A second difference of white noise has variance 6 sigma^2.
 	a.guard = 4*math.Sqrt(a.noiseEMA/6) + a.opts.MarginCounts
 	a.inner = 2*math.Sqrt(a.noiseEMA/6) + 0.5
+	a.jt.refresh(a.opts.MarginCounts)
 	for _, d := range []int{0, 2} {
 		if a.fits[d].n < 8 {
 			continue
