@@ -268,11 +268,19 @@ func differ(ch, dis *ivSums) bool {
 	return okc && okd && math.Abs(fc.A-fd.A) > 1.959963984540054*math.Hypot(fc.SeA, fd.SeA)
 }
 
-// fillJoint gives the drives without a fit of their own (pf.ok false) the joint fit,
-// when it has one; a drive that has its own fit keeps it, and a joint factor that
-// disagrees with it (beyond both 95 % intervals) is not used.
+// fillJoint gives the drives without a fit of their own (pf.ok false), or whose own fit
+// leaves tau unidentifiable (its interval wider than the 10 % rule), the joint fit when
+// that identifies tau; a drive whose own fit identifies tau keeps it, and a joint factor
+// that disagrees with a drive's own fit (beyond both 95 % intervals) is not used.
 func (a *Accumulator) fillJoint(pf *plantFit) {
-	if pf.ok[0] && pf.ok[2] {
+	weak := func(d int) bool {
+		if !pf.ok[d] {
+			return true
+		}
+		ok, _ := tauOK(tauInterval(pf.fit[d]))
+		return !ok
+	}
+	if !weak(0) && !weak(2) {
 		return
 	}
 	r, ok := a.jt.main[0].jointFit(&a.jt.main[2], true)
@@ -286,8 +294,18 @@ func (a *Accumulator) fillJoint(pf *plantFit) {
 			return
 		}
 	}
+	if ok, _ := tauOK(tauInterval(r.fit[2])); !ok {
+		// Its tau is not identifiable either: only where a drive has no fit at all.
+		for _, d := range []int{0, 2} {
+			if !pf.ok[d] {
+				pf.fit[d], pf.ok[d], pf.joint[d] = r.fit[d], true, true
+			}
+		}
+		pf.grounded = r.grounded
+		return
+	}
 	for _, d := range []int{0, 2} {
-		if !pf.ok[d] {
+		if weak(d) {
 			pf.fit[d], pf.ok[d], pf.joint[d] = r.fit[d], true, true
 		}
 	}
