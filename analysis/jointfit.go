@@ -31,15 +31,21 @@ import (
 // heading elsewhere (a follower's sense point heads below ground).
 //
 // Selection is that of fit.go: a pair (V[k] -> V[k+1]) under drive u[k] enters only when
-// the reading before it, V[k-1], under its own drive, could not bring V[k] within reach
-// of the threshold (4 sigma of noise and MarginCounts beyond the predicted step, plus
-// 10 % of it and half a count), so u[k] did not depend on the noise of V[k]; the lagged
-// reading V[k-1] is the instrument. The step is predicted from the joint fit itself once
-// it is known within 20 %; before that, from a pilot fit over every charge and discharge
-// pair (biased by the selection near the threshold, but good enough to place the step).
+// the reading before it, V[k-1], under its own drive u[k-1], could not bring V[k] within
+// reach of the threshold (4 sigma of noise and MarginCounts beyond the predicted step,
+// plus 3 standard errors of the prediction or 2 % of the step, and half a count), so
+// u[k] did not depend on the noise of V[k]. The instrument is that prediction of V[k]
+// from V[k-1] and u[k-1]: like the lagged reading of fit.go it is independent of the
+// noise of V[k] and V[k+1], and it follows V[k] within each drive even where the lagged
+// reading does not (after a charge, the first discharge starts high from a low reading;
+// after a discharge, the next starts lower from a high one). The step is predicted from
+// the joint fit itself once it is known within 20 %; before that, from a pilot fit over
+// every charge and discharge pair with the lagged reading as its instrument (biased by
+// the selection near the threshold, so its step gets 10 % of room while more than 5 %
+// of its pairs lay near the threshold).
 type jointSums struct {
-	main  [3]ivSums // discharge, (unused), charge: the selected pairs
-	pilot [3]ivSums // every charge and discharge pair, until main has a model
+	main  [3]ivSums // discharge, (unused), charge: the selected pairs, instrument the predicted V[k]
+	pilot [3]ivSums // every charge and discharge pair, instrument V[k-1], until main has a model
 
 	// near counts the pilot's pairs whose reading chose its drive within the guard of
 	// the threshold: where the selection biases the noise.
@@ -94,7 +100,7 @@ func (j *jointSums) add(p2, p1 *memo, y, guard float64) {
 	v := p2.pv + step
 	slack := max(3*(math.Abs(dv)*j.seA+j.om*j.seT[u2]), j.frac*math.Abs(step)) + 0.5 + guard
 	if (d == 2 && v+slack < p1.sp-p1.db) || (d == 0 && v-slack > p1.sp+p1.db) {
-		j.main[d].add(p2.pv, p1.pv, y)
+		j.main[d].add(v, p1.pv, y)
 	}
 }
 
@@ -185,8 +191,8 @@ func (f *ivSums) about(L float64) (Rzz, Rxx, Ryy, Rzx, Rzy, Rxy float64) {
 // is (ybar - a xbar) / (1 - a), its variance (s^2/n + (xbar - VInf)^2 var(a)) / (1 - a)^2
 // (delta method). The free estimate is taken when tau's 95 % interval is within 10 %;
 // otherwise the grounded one, unless the free one puts the discharge's asymptote more
-// than 2 counts from ground beyond its own 95 % interval, or the two drives' own fits
-// of these pairs show different factors (separate resistors for charge and discharge).
+// than 2 counts from ground, or the two drives' own fits of these pairs show different
+// factors (separate resistors for charge and discharge), beyond zCheck standard errors.
 // ok is false with fewer than 8 pairs of either drive.
 func (dis *ivSums) jointFit(ch *ivSums, strict bool) (r jointResult, ok bool) {
 	if dis.n < 8 || ch.n < 8 {
@@ -214,28 +220,29 @@ func (dis *ivSums) jointFit(ch *ivSums, strict bool) (r jointResult, ok bool) {
 	}
 
 	// The free estimate.
-	free := false
-	var freeV, freeSe float64 // the free discharge asymptote
 	if den := Szxc + Szxd; den > 0 && Szzc+Szzd > 0 {
 		a := (Szyc + Szyd) / den
+		ssc, ssd := ssr(a, Syyc, Sxyc, Sxxc), ssr(a, Syyd, Sxyd, Sxxd)
+		s2 := (ssc + ssd) / (nc + nd - 3)
+		varA := s2 * (Szzc + Szzd) / (den * den)
 		if a > 0 && a < 1 {
-			ssc, ssd := ssr(a, Syyc, Sxyc, Sxxc), ssr(a, Syyd, Sxyd, Sxxd)
-			s2 := (ssc + ssd) / (nc + nd - 3)
-			varA := s2 * (Szzc + Szzd) / (den * den)
-			freeV, freeSe = asym(a, varA, s2, nd, xd, yd)
 			fr := fitResult{N: nc + nd, A: a, SeA: math.Sqrt(varA)}
 			if ok, _ := tauOK(tauInterval(fr)); ok {
 				set(2, a, varA, nc, xc, yc, ssc, s2)
 				set(0, a, varA, nd, xd, yd, ssd, s2)
 				return r, true
 			}
-			free = true
 		}
-	}
-	// Not on the pilot: its selection biases the check.
-	if strict && free && math.Abs(freeV)-tQuantile(nc+nd-3)*freeSe > 2 {
-		r.why = "the discharge heads away from ground (a follower?) and its runs are too short to fit it"
-		return r, false
+		// The discharge's intercept b = ybar - a xbar is (1 - a) V_lo: ground gives 0.
+		// Tested in the intercept, linear in a (the asymptote's delta method fails when
+		// a is barely known), against 2 counts of asymptote; not on the pilot (its
+		// selection biases the check).
+		b := yd - a*xd
+		seB := math.Sqrt(s2/nd + xd*xd*varA)
+		if strict && math.Abs(b)-zCheck*seB > 2*math.Abs(1-a) {
+			r.why = "the discharge heads away from ground (a follower?) and its runs are too short to fit it"
+			return r, false
+		}
 	}
 
 	// The grounded estimate.
@@ -260,18 +267,35 @@ func (dis *ivSums) jointFit(ch *ivSums, strict bool) (r jointResult, ok bool) {
 	return r, true
 }
 
-// differ says the drives' own fits of the pairs show different factors (beyond both
-// 95 % intervals).
+// zCheck is the normal quantile of the checks of the joint fit's assumptions (a shared
+// factor, a discharge heading for ground): 3.3 standard errors, a false alarm in about
+// one capture in a thousand.
+const zCheck = 3.3
+
+// disagree says two factors differ by more than zCheck standard errors of their
+// difference and 1 % of 1 - a.
+func disagree(a1, se1, a2, se2 float64) bool {
+	d := math.Abs(a1 - a2)
+	return d > zCheck*math.Hypot(se1, se2) && d > 0.01*(1-(a1+a2)/2)
+}
+
+// differ says the drives' own fits of the pairs show different factors.
 func differ(ch, dis *ivSums) bool {
 	fc, okc := ch.free()
 	fd, okd := dis.free()
-	return okc && okd && math.Abs(fc.A-fd.A) > 1.959963984540054*math.Hypot(fc.SeA, fd.SeA)
+	return okc && okd && disagree(fc.A, fc.SeA, fd.A, fd.SeA)
 }
 
 // fillJoint gives the drives without a fit of their own (pf.ok false), or whose own fit
 // leaves tau unidentifiable (its interval wider than the 10 % rule), the joint fit when
-// that identifies tau; a drive whose own fit identifies tau keeps it, and a joint factor
-// that disagrees with a drive's own fit (beyond both 95 % intervals) is not used.
+// that identifies tau; a drive whose own fit identifies tau keeps it. The joint fit is
+// not used when its factor disagrees with a drive's own fit (see disagree), or its
+// charge asymptote lies above the supply (with the supply's tolerance and 2 counts,
+// beyond zCheck standard errors).
+//
+// What no check here can see: in a chatter whose levels do not spread, a charge slower
+// than the discharge (a larger resistor on the charge path of a three-state board with
+// two switches) looks like a load: the joint factor is then the discharge's.
 func (a *Accumulator) fillJoint(pf *plantFit) {
 	weak := func(d int) bool {
 		if !pf.ok[d] {
@@ -289,8 +313,17 @@ func (a *Accumulator) fillJoint(pf *plantFit) {
 		return
 	}
 	for _, d := range []int{0, 2} {
-		if f := pf.fit[d]; pf.ok[d] && math.Abs(f.A-r.fit[d].A) > 1.959963984540054*math.Hypot(f.SeA, r.fit[d].SeA) {
+		if f := pf.fit[d]; pf.ok[d] && disagree(f.A, f.SeA, r.fit[d].A, r.fit[d].SeA) {
 			pf.jointWhy = "the joint fit of charge and discharge disagrees with the " + driveName(int8(d-1)) + " fit"
+			return
+		}
+	}
+	// A charge faster than the discharge (a smaller resistor) shows as a charge
+	// asymptote above the supply when fitted with the discharge's factor.
+	if m := a.meta; m.Has(telemetry.FieldSupply) && m.Supply > 0 && m.LSB() > 0 {
+		top := m.Supply*(1+a.opts.SupplyTol)/m.LSB() + 2
+		if f := r.fit[2]; f.VInf-zCheck*f.SeVInf > top {
+			pf.jointWhy = "the joint fit puts the charge asymptote above the supply: charge and discharge do not share one time constant (separate resistors?)"
 			return
 		}
 	}
