@@ -66,6 +66,9 @@ type jointSums struct {
 	// second differences within runs of one drive, which a fast loop has few of and
 	// curves through).
 	guard float64
+	// seen is the number of pairs (main and pilot) at the last refresh: the model is
+	// refreshed when 16 pairs and an eighth more have come since.
+	seen float64
 }
 
 // groundSigma is the standard uncertainty of the reading of ground, counts, that the
@@ -94,19 +97,31 @@ func (j *jointSums) add(p2, p1 *memo, y, guard float64) {
 	}
 	// The predicted step, with 3 standard errors of it (bounded above by the sum of the
 	// two terms) or the bias allowance, half a count and the guard as slack.
+	// (Plain comparisons: the float max builtin's NaN and signed-zero rules cost more
+	// than the rest of the selection here.)
 	u2 := int(p2.u) + 1
 	dv := j.tgt[u2] - p2.pv
-	step := j.om * dv
-	v := p2.pv + step
-	slack := max(3*(math.Abs(dv)*j.seA+j.om*j.seT[u2]), j.frac*math.Abs(step)) + 0.5 + guard
-	if (d == 2 && v+slack < p1.sp-p1.db) || (d == 0 && v-slack > p1.sp+p1.db) {
+	v := p2.pv + j.om*dv
+	adv := math.Abs(dv)
+	slack := 3 * (adv*j.seA + j.om*j.seT[u2])
+	if b := j.frac * j.om * adv; b > slack {
+		slack = b
+	}
+	// The threshold is sp - db for a charge, sp + db for a discharge: with s = +1 and
+	// -1 (the drive's value), V[k] must lie beyond it on its side by the slack.
+	if s := float64(p1.u); s*(p1.sp-v)-p1.db > slack+0.5+guard {
 		j.main[d].add(v, p1.pv, y)
 	}
 }
 
-// refresh updates the step model of the selection (every 64 samples); margin is
-// Options.MarginCounts.
+// refresh updates the step model of the selection (called every 64 samples, it works
+// when enough new pairs came: see seen); margin is Options.MarginCounts.
 func (j *jointSums) refresh(margin float64) {
+	n := j.main[0].n + j.main[2].n + j.pilot[0].n + j.pilot[2].n
+	if n < j.seen+max(16, j.seen/8) {
+		return
+	}
+	j.seen = n
 	r, ok := j.main[0].jointFit(&j.main[2], false)
 	j.fromMain = ok && r.model()
 	j.frac = 0.02
@@ -227,7 +242,7 @@ func (dis *ivSums) jointFit(ch *ivSums, strict bool) (r jointResult, ok bool) {
 		varA := s2 * (Szzc + Szzd) / (den * den)
 		if a > 0 && a < 1 {
 			fr := fitResult{N: nc + nd, A: a, SeA: math.Sqrt(varA)}
-			if ok, _ := tauOK(tauInterval(fr)); ok {
+			if identifiable(fr, strict) {
 				set(2, a, varA, nc, xc, yc, ssc, s2)
 				set(0, a, varA, nd, xd, yd, ssd, s2)
 				return r, true
@@ -267,6 +282,40 @@ func (dis *ivSums) jointFit(ch *ivSums, strict bool) (r jointResult, ok bool) {
 	return r, true
 }
 
+// identifiable applies tauOK (the 10 % rule on tau's 95 % interval) to a fit without
+// the cost of Student's t quantile where the answer does not depend on it: with 30 or
+// more degrees of freedom the quantile lies between 1.96 and 2.05 (2.042 at 30), so an
+// interval within the rule at 2.05 is within it, and one outside it at 1.96 is outside.
+// Between the two, exact takes the quantile (the summary's rule), else 2 (the step
+// model of the selection, refreshed every 64 samples).
+func identifiable(f fitResult, exact bool) bool {
+	at := func(q float64) bool {
+		lo, hi := f.A-q*f.SeA, f.A+q*f.SeA
+		i := interval{tauOf(f.A, 1), tauOf(lo, 1), math.Inf(1)}
+		if math.IsNaN(i.lo) {
+			i.lo = 0
+		}
+		if hi < 1 {
+			i.hi = tauOf(hi, 1)
+		}
+		ok, _ := tauOK(i)
+		return ok
+	}
+	if f.N-2 >= 30 {
+		if at(2.05) {
+			return true
+		}
+		if !at(1.96) {
+			return false
+		}
+	}
+	if !exact {
+		return at(2)
+	}
+	ok, _ := tauOK(tauInterval(f))
+	return ok
+}
+
 // zCheck is the normal quantile of the checks of the joint fit's assumptions (a shared
 // factor, a discharge heading for ground): 3.3 standard errors, a false alarm in about
 // one capture in a thousand.
@@ -301,8 +350,7 @@ func (a *Accumulator) fillJoint(pf *plantFit) {
 		if !pf.ok[d] {
 			return true
 		}
-		ok, _ := tauOK(tauInterval(pf.fit[d]))
-		return !ok
+		return !identifiable(pf.fit[d], true)
 	}
 	if !weak(0) && !weak(2) {
 		return
@@ -327,7 +375,7 @@ func (a *Accumulator) fillJoint(pf *plantFit) {
 			return
 		}
 	}
-	if ok, _ := tauOK(tauInterval(r.fit[2])); !ok {
+	if !identifiable(r.fit[2], true) {
 		// Its tau is not identifiable either: only where a drive has no fit at all.
 		for _, d := range []int{0, 2} {
 			if !pf.ok[d] {
