@@ -178,7 +178,7 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 			p.VLowCountsReason = why
 		}
 	} else if pf.joint[0] && pf.grounded {
-		p.VLowCountsReason = "not identified: the discharge was taken to head for ground (a joint fit with the charge: no run of either drive to fit on its own)"
+		p.VLowCountsReason = "not identified: taken as ground by the joint fit"
 	} else if pf.ok[0] {
 		p.VLowCountsReason = "not identified: the discharge shows no asymptote"
 	} else {
