@@ -23,7 +23,7 @@ import (
 // V_hi even when v barely moves between pairs of one drive: the discharge's asymptote is
 // known, so its pairs fix a by the ratio of the levels, and the charge's then fix V_hi.
 //
-// Two estimates come from the same sums (see jointSums.fit): the free one (a shared, both
+// Two estimates come from the same sums (see ivSums.jointFit): the free one (a shared, both
 // asymptotes fitted, from the spread of the levels within each drive) needs no
 // assumption about the discharge's asymptote; the grounded one (V_lo = 0 counts) works
 // at a single pair of levels. The free one is used when its tau is identifiable, the
@@ -124,17 +124,17 @@ func (j *jointSums) refresh(margin float64) {
 	j.seen = n
 	r, ok := j.main[0].jointFit(&j.main[2], false)
 	j.fromMain = ok && r.model()
-	j.frac = 0.02
+	frac := 0.02
 	if !j.fromMain {
 		r, ok = j.pilot[0].jointFit(&j.pilot[2], false)
 		if !ok || !r.model() {
 			return
 		}
 		if j.near > 0.05*(j.pilot[0].n+j.pilot[2].n) {
-			j.frac = 0.1
+			frac = 0.1
 		}
 	}
-	j.om, j.seA, j.ok = 1-r.fit[0].A, r.fit[0].SeA, true
+	j.om, j.seA, j.frac, j.ok = 1-r.fit[0].A, r.fit[0].SeA, frac, true
 	// The residual of y - a x - b is n[k+1] - a n[k]: its variance is (1 + a^2) sigma^2.
 	f0, f2 := r.fit[0], r.fit[2]
 	s2 := (f0.S2*(f0.N-2) + f2.S2*(f2.N-2)) / (f0.N + f2.N - 4)
@@ -192,7 +192,8 @@ func (f *ivSums) about(L float64) (Rzz, Rxx, Ryy, Rzx, Rzy, Rxy float64) {
 }
 
 // jointFit fits the discharge sums dis and the charge sums ch (the receiver is dis)
-// with a shared factor a. The free estimate solves, with the lagged instrument,
+// with a shared factor a. With the instrument z of the sums (the predicted level for
+// main, the lagged reading for the pilot), the free estimate is
 //
 //	a = (Szy_c + Szy_d) / (Szx_c + Szx_d)                  (centred sums per drive)
 //	var(a) = s^2 (Szz_c + Szz_d) / (Szx_c + Szx_d)^2,  s^2 = sum of squared residuals / (n - 3)
@@ -204,7 +205,9 @@ func (f *ivSums) about(L float64) (Rzz, Rxx, Ryy, Rzx, Rzy, Rxy float64) {
 //
 // (the last term: the reading of ground is known within groundSigma). Each asymptote
 // is (ybar - a xbar) / (1 - a), its variance (s^2/n + (xbar - VInf)^2 var(a)) / (1 - a)^2
-// (delta method). The free estimate is taken when tau's 95 % interval is within 10 %;
+// (delta method); N is the drive's own pairs, so the intervals of the summary take
+// Student's t of the smaller count. The free estimate is taken when tau's 95 % interval
+// is within 10 % (identifiable);
 // otherwise the grounded one, unless the free one puts the discharge's asymptote more
 // than 2 counts from ground, or the two drives' own fits of these pairs show different
 // factors (separate resistors for charge and discharge), beyond zCheck standard errors.
@@ -287,7 +290,7 @@ func (dis *ivSums) jointFit(ch *ivSums, strict bool) (r jointResult, ok bool) {
 // more degrees of freedom the quantile lies between 1.96 and 2.05 (2.042 at 30), so an
 // interval within the rule at 2.05 is within it, and one outside it at 1.96 is outside.
 // Between the two, exact takes the quantile (the summary's rule), else 2 (the step
-// model of the selection, refreshed every 64 samples).
+// model of the selection, refreshed as the pairs come).
 func identifiable(f fitResult, exact bool) bool {
 	at := func(q float64) bool {
 		lo, hi := f.A-q*f.SeA, f.A+q*f.SeA
