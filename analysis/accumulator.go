@@ -72,6 +72,7 @@ type Accumulator struct {
 
 	fits       [3]ivSums  // discharge, (unused), charge
 	runs       [3]runFit  // the same pairs, fitted as runs (discharge, unused, charge)
+	jt         jointSums  // charge and discharge with one shared factor (jointfit.go)
 	noiseEMA   float64    // running mean of squared second differences, counts^2
 	sd2, sdN   float64    // squared second differences of hold triples well inside the band (see noiseRMS)
 	inner      float64    // 2 sigma of noise plus half a count: "well inside"
@@ -422,6 +423,9 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 						a.fits[0].add(p2.pv, p1.pv, pv)
 						a.feedRun(0, p1.pv, pv)
 					}
+				}
+				if p1.u != telemetry.Hold {
+					a.jt.add(p2, p1, pv, a.guard)
 				}
 			}
 			if p1.steady {

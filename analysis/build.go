@@ -38,6 +38,11 @@ func (c conv) v(counts float64) float64 { return counts * c.lsb }
 type plantFit struct {
 	fit [3]fitResult
 	ok  [3]bool
+	// joint says a drive's fit is the joint one (jointfit.go); grounded that its
+	// discharge asymptote was taken as ground; jointWhy why there is no joint fit.
+	joint    [3]bool
+	grounded bool
+	jointWhy string
 }
 
 // Summary returns the figures so far. It may be called at any time and repeatedly; its
@@ -89,6 +94,7 @@ func (a *Accumulator) Summary() *Summary {
 	pf.fit[0], pf.ok[0] = a.fits[0].free()
 	pf.fit[2], pf.ok[2] = a.fits[2].free()
 	a.preferRuns(&pf)
+	a.fillJoint(&pf)
 	// The hold decays towards the discharge asymptote (a load pulls the node to ground),
 	// except behind a follower, whose discharge heads below ground at the sense point
 	// while its hold stops at 0 there (the node stops at V_BE).

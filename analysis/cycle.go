@@ -220,6 +220,7 @@ func (a *Accumulator) currentPlant() plantFit {
 	pf.fit[0], pf.ok[0] = a.fits[0].free()
 	pf.fit[2], pf.ok[2] = a.fits[2].free()
 	a.preferRuns(&pf)
+	a.fillJoint(&pf)
 	hc := 0.0
 	if pf.ok[0] && !math.IsNaN(pf.fit[0].VInf) {
 		hc = pf.fit[0].VInf

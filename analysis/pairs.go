@@ -32,6 +32,7 @@ func (a *Accumulator) refreshGuard() {
 	a.guard = 4*math.Sqrt(a.noiseEMA/6) + a.opts.MarginCounts
 	a.inner = 2*math.Sqrt(a.noiseEMA/6) + 0.5
 	a.lowZ = 4*math.Sqrt(a.noiseEMA/6) + 1
+	a.jt.refresh(a.opts.MarginCounts)
 	for _, d := range []int{0, 2} {
 		if a.fits[d].n < 8 {
 			continue

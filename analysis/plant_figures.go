@@ -41,6 +41,12 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 		StuckCodes:     []int{},
 		SupplyTol:      a.opts.SupplyTol,
 	}
+	if pf.joint[2] {
+		p.ChargePairs = int64(pf.fit[2].N)
+	}
+	if pf.joint[0] {
+		p.DischargePairs = int64(pf.fit[0].N)
+	}
 	T := c.period
 	m := a.meta
 	volts := !math.IsNaN(c.lsb)
@@ -90,6 +96,9 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 	if pf.ok[0] {
 		setTau(tauInterval(pf.fit[0]), &p.TauDischargeSamples, &p.TauDischargeS, &p.TauDischargeCIS, &p.TauDischargeSamplesReason, &p.TauDischargeSReason)
 		vLow = levelInterval(pf.fit[0])
+		if pf.joint[0] && pf.grounded {
+			vLow = unknown()
+		}
 	} else {
 		p.TauDischargeSReason = a.noFit("discharge")
 		p.TauDischargeSamplesReason = p.TauDischargeSReason
@@ -167,6 +176,8 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 		} else {
 			p.VLowCountsReason = why
 		}
+	} else if pf.joint[0] && pf.grounded {
+		p.VLowCountsReason = "not identified: taken as ground by the joint fit"
 	} else if pf.ok[0] {
 		p.VLowCountsReason = "not identified: the discharge shows no asymptote"
 	} else {
