@@ -52,6 +52,8 @@ func captureRecords(t *testing.T, path string) []telemetry.Record {
 			r.Sample = sc.Sample()
 		case telemetry.RecEvent:
 			r.Event = sc.Event()
+		case telemetry.RecMeta:
+			r.Delta = sc.MetaChange()
 		}
 		out = append(out, r)
 	}

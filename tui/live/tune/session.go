@@ -37,6 +37,10 @@ type session struct {
 	unplugged  bool
 	boardLines int64 // lines from the board since the last (re)connection
 	answers    []string
+	// said is what the board's meta lines said since the last command tune sent (the
+	// Link delivers a command before the board can answer it): an answer to that
+	// command, never a setting left over from before it or from before a reset.
+	said telemetry.Meta
 
 	guard guard
 }
@@ -90,6 +94,7 @@ func (s *session) handle(ln wire.Line) error {
 			s.lastHost = ln.Host
 			return s.sample(rec.Sample)
 		case telemetry.RecMeta:
+			s.said = s.said.Merge(rec.Delta)
 			m := s.parser.Meta()
 			for _, a := range s.accs {
 				a.SetMeta(m)
@@ -99,6 +104,8 @@ func (s *session) handle(ln wire.Line) error {
 				s.answers = append(s.answers, telemetry.SanitizeN(ln.Raw, 120))
 			}
 		}
+	case telemetry.ToBoard:
+		s.said = telemetry.Meta{}
 	case telemetry.HostEvent:
 		switch ln.EventKind() {
 		case wire.EventConnected, wire.EventReconnected:
