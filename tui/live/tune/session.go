@@ -37,10 +37,12 @@ type session struct {
 	unplugged  bool
 	boardLines int64 // lines from the board since the last (re)connection
 	answers    []string
-	// said is what the board's meta lines said since the last command tune sent (the
-	// Link delivers a command before the board can answer it): an answer to that
-	// command, never a setting left over from before it or from before a reset.
-	said telemetry.Meta
+	// said is what the board's meta lines said since the last command tune sent came
+	// back on the link (the Link delivers a command before the board can answer it): an
+	// answer to that command, never a setting left over from before it. awaiting is
+	// that command until it comes back; nothing is said before.
+	said     telemetry.Meta
+	awaiting string
 
 	guard guard
 }
@@ -94,7 +96,9 @@ func (s *session) handle(ln wire.Line) error {
 			s.lastHost = ln.Host
 			return s.sample(rec.Sample)
 		case telemetry.RecMeta:
-			s.said = s.said.Merge(rec.Delta)
+			if s.awaiting == "" {
+				s.said = s.said.Merge(rec.Delta)
+			}
 			m := s.parser.Meta()
 			for _, a := range s.accs {
 				a.SetMeta(m)
@@ -106,6 +110,9 @@ func (s *session) handle(ln wire.Line) error {
 		}
 	case telemetry.ToBoard:
 		s.said = telemetry.Meta{}
+		if string(ln.Raw) == s.awaiting {
+			s.awaiting = ""
+		}
 	case telemetry.HostEvent:
 		switch ln.EventKind() {
 		case wire.EventConnected, wire.EventReconnected:
@@ -191,6 +198,7 @@ func (s *session) pump(ctx context.Context, timeout time.Duration, cond func() b
 // A write that fails because the port is going away is an unplug: it waits (up to a
 // second) for the Link to say so and returns ErrUnplugged then.
 func (s *session) send(cmd string) error {
+	s.said, s.awaiting = telemetry.Meta{}, cmd
 	if err := s.conn.Send(cmd); err != nil {
 		if !s.unplugged {
 			_, perr := s.pump(context.Background(), time.Second, func() bool { return s.unplugged })
