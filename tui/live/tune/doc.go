@@ -10,8 +10,17 @@
 //  2. Safety: a range of volts the output may visit (default: the setpoints in use);
 //     tune never commands a setpoint outside it. A reading outside the range plus a
 //     margin, a quit or a signal sends the restore line at once (the original sp,
-//     deadband, mode and period in one `set`). After an unplug the run resumes when
-//     the board is back (the pass's band sent again), or says it could not restore. The plan is shown and confirmed before any `set`.
+//     deadband, mode and period in one `set`). The plan is shown and confirmed before
+//     any `set`.
+//
+//     Unplug: whatever the step (a hold, or a `set` that could not be sent or was not
+//     answered, as at the hand-over from advise to verify), the run waits up to
+//     Options.ReplugWait for the board, asks it for its settings again (`info`: a board
+//     that reset has lost the band tune set), sends the pass's set line again and waits
+//     for its answer before measuring; the readings of the break are kept out of the
+//     pass. It resumes after two re-plugs a run at most. A board that does not come back
+//     ends the run (ErrUnplugged); the restore line is then sent if the board is back
+//     within a second ReplugWait, else Result.RestoreNote says it was not sent.
 //
 //  3. Identify: large steps up and down across the range with the board's own band
 //     (the "before" pass), then the same steps with a wide band whose holds show the

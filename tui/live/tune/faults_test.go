@@ -52,6 +52,8 @@ func captureRecords(t *testing.T, path string) []telemetry.Record {
 			r.Sample = sc.Sample()
 		case telemetry.RecEvent:
 			r.Event = sc.Event()
+		case telemetry.RecMeta:
+			r.Delta = sc.MetaChange()
 		}
 		out = append(out, r)
 	}
@@ -113,17 +115,23 @@ func TestTuneUnplugMidIdentify(t *testing.T) {
 }
 
 // TestTuneUnplugForGood: a board that does not come back within the wait ends the run
-// with ErrUnplugged, and tune says it could not restore the settings.
+// with ErrUnplugged, and tune says it could not restore the settings. The unplug comes
+// 1.6 s of board time in, in the verify pass: the whole run takes under 2 s of board
+// time since identify needs one cycle, so at 2 s the run had often ended already.
 func TestTuneUnplugForGood(t *testing.T) {
 	t.Parallel()
 	sc := benchScenario()
-	sc.Faults.UnplugAfter = 2.0
+	sc.Faults.UnplugAfter = 1.6
 	sc.Faults.ReplugAfter = 30
 	b := newBoard(t, sc)
 	l := serveVirtual(t, b, t.TempDir())
-	res, err := Run(context.Background(), l, Options{Range: Range{0.5, 4.5}, ReplugWait: 300 * time.Millisecond})
+	var prog syncBuf
+	res, err := Run(context.Background(), l, Options{Range: Range{0.5, 4.5}, Progress: &prog, ReplugWait: 300 * time.Millisecond})
 	if !errors.Is(err, ErrUnplugged) {
-		t.Fatalf("err %v, want ErrUnplugged", err)
+		t.Fatalf("err %v, want ErrUnplugged\n%s", err, prog.String())
+	}
+	if !strings.Contains(err.Error(), "did not come back within 300ms") {
+		t.Errorf("err %v: it does not say how long it waited", err)
 	}
 	if res.Restored || !strings.HasPrefix(res.RestoreNote, "could not restore") {
 		t.Errorf("restored %v: %s", res.Restored, res.RestoreNote)

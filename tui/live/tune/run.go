@@ -9,7 +9,6 @@ import (
 
 	"github.com/caploop/caploop/analysis"
 	"github.com/caploop/caploop/analysis/advice"
-	"github.com/caploop/caploop/telemetry"
 	"github.com/caploop/caploop/telemetry/si"
 )
 
@@ -71,6 +70,7 @@ type runner struct {
 	ident    *analysis.Accumulator
 	tauEst   float64 // samples; 0 until known
 	passCmd  string  // the set line of the pass under way (sent again after a re-plug)
+	passBand int     // the deadband passCmd sets
 	step, of int
 }
 
@@ -117,10 +117,9 @@ func (r *runner) run(ctx context.Context) error {
 		if p.ThreeState {
 			cmd += " mode=three-state"
 		}
-		if err := r.send(cmd); err != nil {
+		if err := r.setPass(ctx, "identify", cmd, *w); err != nil {
 			return err
 		}
-		r.passCmd = cmd
 	}
 	s.conn.Annotate("tune: identify pass")
 	var sum *analysis.Summary
@@ -189,19 +188,11 @@ func (r *runner) run(ctx context.Context) error {
 		cmd += fmt.Sprintf(" period_us=%d", us)
 		r.res.AppliedPeriodUS = &us
 	}
-	if err := r.send(cmd); err != nil {
-		return err
-	}
-	r.passCmd = cmd
 	// The after pass starts when the board's answer shows the new band, so that none of
-	// its segments ran under the wide one.
-	want := float64(d)
-	to, err := s.pump(ctx, r.o.TakeTimeout, func() bool { m := s.meta(); return m.Has(telemetry.FieldDeadband) && m.Deadband == want })
-	if err != nil {
+	// its segments ran under the wide one; an unplug on the way is waited for, and the
+	// line sent again when the board is back.
+	if err := r.setPass(ctx, "verify", cmd, d); err != nil {
 		return err
-	}
-	if to {
-		r.progress("verify: the board did not answer deadband=%d within %v; measuring anyway", d, r.o.TakeTimeout)
 	}
 	after := r.newAcc("after")
 	s.accs = []*analysis.Accumulator{after}
@@ -278,40 +269,6 @@ func plantInfo(sum *analysis.Summary) *PlantInfo {
 	return &PlantInfo{TauChargeS: p.TauChargeS, TauChargeCIS: p.TauChargeCIS, TauDischargeS: p.TauDischargeS,
 		TauDischargeCIS: p.TauDischargeCIS, TauHoldS: p.TauHoldS, LoadRatio: p.LoadRatio, LoadRatioReason: p.LoadRatioReason,
 		Kind: p.Kind, NoiseRMSCounts: p.NoiseRMSCounts, TauChargeSReason: p.TauChargeSReason}
-}
-
-// maxResumes bounds the re-plugs a run resumes after.
-const maxResumes = 2
-
-// hold is dwell, resumed once the board is back when it was unplugged during the dwell:
-// the board may have rebooted with its own settings, so the pass's set line goes again
-// and the dwell starts over (the passes see the break as a reset).
-func (r *runner) hold(ctx context.Context, pass string, sp int) error {
-	for {
-		err := r.dwell(ctx, pass, sp)
-		if !errors.Is(err, ErrUnplugged) || r.res.Resumed >= maxResumes {
-			return err
-		}
-		s := r.s
-		r.progress("the board was unplugged; waiting up to %v for it to come back to resume", r.o.ReplugWait)
-		s.guard.armed = false
-		to, perr := s.pump(ctx, r.o.ReplugWait, func() bool { return s.connected && s.haveLast })
-		if perr != nil {
-			return perr
-		}
-		if to {
-			return fmt.Errorf("%w: it did not come back within %v", ErrUnplugged, r.o.ReplugWait)
-		}
-		r.res.Resumed++
-		r.step--
-		s.conn.Annotate("tune: resumed after a re-plug")
-		r.progress("the board is back: resuming the %s pass", pass)
-		if r.passCmd != "" {
-			if err := r.send(r.passCmd); err != nil {
-				return err
-			}
-		}
-	}
 }
 
 // dwell commands sp (or asks for it in guided mode), waits for the reading to arrive and

@@ -37,6 +37,12 @@ type session struct {
 	unplugged  bool
 	boardLines int64 // lines from the board since the last (re)connection
 	answers    []string
+	// said is what the board's meta lines said since the last command tune sent came
+	// back on the link (the Link delivers a command before the board can answer it): an
+	// answer to that command, never a setting left over from before it. awaiting is
+	// that command until it comes back; nothing is said before.
+	said     telemetry.Meta
+	awaiting string
 
 	guard guard
 }
@@ -90,6 +96,9 @@ func (s *session) handle(ln wire.Line) error {
 			s.lastHost = ln.Host
 			return s.sample(rec.Sample)
 		case telemetry.RecMeta:
+			if s.awaiting == "" {
+				s.said = s.said.Merge(rec.Delta)
+			}
 			m := s.parser.Meta()
 			for _, a := range s.accs {
 				a.SetMeta(m)
@@ -98,6 +107,11 @@ func (s *session) handle(ln wire.Line) error {
 			if len(ln.Raw) > 0 && ln.Raw[0] == '#' && len(s.answers) < 64 {
 				s.answers = append(s.answers, telemetry.SanitizeN(ln.Raw, 120))
 			}
+		}
+	case telemetry.ToBoard:
+		s.said = telemetry.Meta{}
+		if string(ln.Raw) == s.awaiting {
+			s.awaiting = ""
 		}
 	case telemetry.HostEvent:
 		switch ln.EventKind() {
@@ -184,6 +198,7 @@ func (s *session) pump(ctx context.Context, timeout time.Duration, cond func() b
 // A write that fails because the port is going away is an unplug: it waits (up to a
 // second) for the Link to say so and returns ErrUnplugged then.
 func (s *session) send(cmd string) error {
+	s.said, s.awaiting = telemetry.Meta{}, cmd
 	if err := s.conn.Send(cmd); err != nil {
 		if !s.unplugged {
 			_, perr := s.pump(context.Background(), time.Second, func() bool { return s.unplugged })
