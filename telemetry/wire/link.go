@@ -68,8 +68,8 @@ type LinkOptions struct {
 	// further, the oldest waiting lines are dropped from delivery (never from the
 	// recording) and counted in LinkStats.Dropped. 0 = 65536.
 	Queue int
-	// Gather is how long the reader lets bytes build up in the port after a small read
-	// (under a quarter of its buffer) before it reads again: a board that sends a line
+	// Gather is how long the reader lets bytes build up in the port after two small
+	// reads in a row (under a quarter of its buffer each) before it reads again: a board that sends a line
 	// per millisecond then costs a read per Gather, not a thousand reads a second (each
 	// one a system call and a few wake-ups). The lines of one read share its host time,
 	// so host times are as coarse as Gather; a board fast enough to fill the buffer is
@@ -397,6 +397,7 @@ func (l *Link) readLoop(p io.Reader, buf []byte) (int64, error) {
 	cut := false
 	var lines []Line
 	var gather *time.Timer
+	small := false // the previous read was small
 	defer func() {
 		if gather != nil {
 			gather.Stop()
@@ -475,9 +476,12 @@ func (l *Link) readLoop(p io.Reader, buf []byte) (int64, error) {
 		if n == 0 && l.isDone() {
 			return total, io.EOF
 		}
-		if l.opt.Gather > 0 && n < len(buf)/4 {
-			// A slow board: let its next lines gather in the port (the reader waits
-			// on a timer, never on the consumer).
+		wasSmall := small
+		small = n < len(buf)/4
+		if l.opt.Gather > 0 && small && wasSmall {
+			// A slow board (two small reads in a row; a fast one gives a short read now
+			// and then between full ones): let its next lines gather in the port. The
+			// reader waits on a timer, never on the consumer.
 			if gather == nil {
 				gather = time.NewTimer(l.opt.Gather)
 			} else {
