@@ -69,11 +69,11 @@ type LinkOptions struct {
 	// recording) and counted in LinkStats.Dropped. 0 = 65536.
 	Queue int
 	// Gather is how long the reader lets bytes build up in the port after two small
-	// reads in a row (under a quarter of its buffer each) before it reads again: a board that sends a line
-	// per millisecond then costs a read per Gather, not a thousand reads a second (each
-	// one a system call and a few wake-ups). The lines of one read share its host time,
-	// so host times are as coarse as Gather; a board fast enough to fill the buffer is
-	// read without a pause. 0 = 10 ms; negative = no pause.
+	// reads in a row (under a quarter of its buffer each) before it reads again: a
+	// board that sends a line per millisecond then costs a read per Gather, not a
+	// thousand reads a second (each one a system call and a few wake-ups). The lines of
+	// one read share its host time, so host times are as coarse as Gather; a board fast
+	// enough to fill the buffer is read without a pause. 0 = 10 ms; negative = none.
 	Gather time.Duration
 	// FailFirst stops the Link when the very first open fails (Err says why) instead of
 	// polling until the port appears.
