@@ -46,6 +46,10 @@ func serveBoard(sc virtual.Scenario) (path string, stop func(), err error) {
 	if err != nil {
 		return "", nil, err
 	}
+	// What is due every 20 ms in one write: the screen draws at most 30 frames a second,
+	// and a write per millisecond would wake the board, the pseudo-terminal and the link
+	// a thousand times a second for nothing (the lines carry their own board time).
+	board.Batch = demoBatch
 	ctx, cancel := context.WithCancel(context.Background())
 	ready := make(chan string, 1)
 	served := make(chan error, 1)
@@ -66,6 +70,9 @@ func serveBoard(sc virtual.Scenario) (path string, stop func(), err error) {
 	}
 	return path, func() { cancel(); <-served }, nil
 }
+
+// demoBatch is how long the demo board lets its lines build up between two writes.
+const demoBatch = 20 * time.Millisecond
 
 type errUnknownCommand string
 

@@ -211,7 +211,7 @@ func TestReplayScreenQuits(t *testing.T) {
 
 // needTmux skips the test when tmux is missing, and fails it under CI=true, where .ci/run
 // installs tmux.
-func needTmux(t *testing.T) {
+func needTmux(t testing.TB) {
 	t.Helper()
 	if testing.Short() {
 		t.Skip("-short: skips the end-to-end screen test (it runs tmux)")

@@ -71,7 +71,10 @@ With no command, caploop shows the bench screen on its built-in virtual board.`,
 
 func main() {
 	root := newRoot()
-	if err := root.Execute(); err != nil {
+	stopProfile := startProfile()
+	err := root.Execute()
+	stopProfile()
+	if err != nil {
 		fmt.Fprintln(os.Stderr, "caploop:", errorText(err))
 		var ee *exitError
 		if errors.As(err, &ee) {

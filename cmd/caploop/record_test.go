@@ -18,7 +18,7 @@ import (
 )
 
 // buildCaploop builds the caploop binary into dir and returns its path.
-func buildCaploop(t *testing.T, dir string) string {
+func buildCaploop(t testing.TB, dir string) string {
 	t.Helper()
 	buildOnce.Do(func() { builtBin, buildErr = buildBinary() })
 	if buildErr != nil {

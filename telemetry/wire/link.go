@@ -68,6 +68,13 @@ type LinkOptions struct {
 	// further, the oldest waiting lines are dropped from delivery (never from the
 	// recording) and counted in LinkStats.Dropped. 0 = 65536.
 	Queue int
+	// Gather is how long the reader lets bytes build up in the port after two small
+	// reads in a row (under a quarter of its buffer each) before it reads again: a
+	// board that sends a line per millisecond then costs a read per Gather, not a
+	// thousand reads a second (each one a system call and a few wake-ups). The lines of
+	// one read share its host time, so host times are as coarse as Gather; a board fast
+	// enough to fill the buffer is read without a pause. 0 = 10 ms; negative = none.
+	Gather time.Duration
 	// FailFirst stops the Link when the very first open fails (Err says why) instead of
 	// polling until the port appears.
 	FailFirst bool
@@ -142,6 +149,9 @@ func Dial(cfg SerialConfig, opt LinkOptions) *Link {
 	}
 	if opt.Queue <= 0 {
 		opt.Queue = 1 << 16
+	}
+	if opt.Gather == 0 {
+		opt.Gather = defaultGather
 	}
 	l := &Link{
 		cfg:        cfg,
@@ -369,6 +379,12 @@ func (l *Link) run() {
 	}
 }
 
+// defaultGather is LinkOptions.Gather when not set. At the fastest a full-speed USB
+// serial device delivers (about 1 MB/s) 10 ms is about 10 KB, well inside what the
+// terminal layer buffers (up to 64 KiB; a USB device beyond that is held back, not
+// dropped); a 921600-baud UART sends under 1 KB in that time.
+const defaultGather = 10 * time.Millisecond
+
 // readLoop reads the open port until it fails, splitting lines and dropping the partial
 // first one (see wholeRecord for when the first line is kept). It returns the number of bytes read and the error that ended it.
 func (l *Link) readLoop(p io.Reader, buf []byte) (int64, error) {
@@ -380,6 +396,13 @@ func (l *Link) readLoop(p io.Reader, buf []byte) (int64, error) {
 	cur := make([]byte, 0, 256)
 	cut := false
 	var lines []Line
+	var gather *time.Timer
+	small := false // the previous read was small
+	defer func() {
+		if gather != nil {
+			gather.Stop()
+		}
+	}()
 	for {
 		n, err := p.Read(buf)
 		now := time.Now()
@@ -452,6 +475,23 @@ func (l *Link) readLoop(p io.Reader, buf []byte) (int64, error) {
 		}
 		if n == 0 && l.isDone() {
 			return total, io.EOF
+		}
+		wasSmall := small
+		small = n < len(buf)/4
+		if l.opt.Gather > 0 && small && wasSmall {
+			// A slow board (two small reads in a row; a fast one gives a short read now
+			// and then between full ones): let its next lines gather in the port. The
+			// reader waits on a timer, never on the consumer.
+			if gather == nil {
+				gather = time.NewTimer(l.opt.Gather)
+			} else {
+				gather.Reset(l.opt.Gather)
+			}
+			select {
+			case <-gather.C:
+			case <-l.done:
+				return total, io.EOF
+			}
 		}
 	}
 }

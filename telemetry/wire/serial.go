@@ -15,9 +15,10 @@ import (
 	"go.bug.st/serial"
 )
 
-// This is the only file (with ports.go for the port list) that imports go.bug.st/serial.
-// Reads use serial.NoTimeout: a Read blocks until bytes arrive, and Close (or an unplug,
-// which Linux reports as a closed port or EIO) ends it.
+// This is the only file (with ports.go for the port list, and poll_*.go for the reads)
+// that imports go.bug.st/serial. Reads use serial.NoTimeout: a Read blocks until bytes
+// arrive, and Close (or an unplug, which Linux reports as a hang-up or EIO) ends it. On
+// Linux the reads and writes go through the runtime's poller (poll_linux.go).
 
 // Errors of serial ports. A *SerialError wraps one of these (errors.Is works) together with
 // the operating system's cause.
@@ -196,7 +197,7 @@ func readError(path, op string, err error) error {
 	return &SerialError{Path: path, Op: op, Kind: ErrUnplugged, Err: err}
 }
 
-// openPort opens and configures the port, with reads that block until data arrives.
+// openPort opens and configures the port, with reads that wait until data arrives.
 func openPort(cfg SerialConfig) (serial.Port, error) {
 	m, err := cfg.mode()
 	if err != nil {
@@ -210,7 +211,7 @@ func openPort(cfg SerialConfig) (serial.Port, error) {
 		p.Close()
 		return nil, openError(cfg.Path, err)
 	}
-	return p, nil
+	return polled(p), nil
 }
 
 // SerialSource is an open serial port read as a telemetry Source; OpenSerial returns one.

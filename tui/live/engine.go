@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"github.com/caploop/caploop/analysis"
+	"github.com/caploop/caploop/analysis/advice"
 	"github.com/caploop/caploop/telemetry"
 )
 
@@ -40,6 +41,9 @@ type engine struct {
 
 	sumSamples int64 // samples at the last summary
 
+	advIn   advice.Inputs // the inputs of the newest advice asked for
+	advHave bool          // advIn is set
+
 	statsNow bool // deliver the counters with the next flush (a replay control changed them)
 
 	connectedAt time.Time // live: last (re)connection
@@ -63,6 +67,7 @@ func (c *engine) restart() {
 	c.haveT0, c.haveN = false, false
 	c.lastT, c.samples, c.rejected, c.gaps = 0, 0, 0, 0
 	c.sumSamples = -1
+	c.advHave = false
 	c.pts = c.pts[:0]
 	c.evs = c.evs[:0]
 	c.p.deliver(nil, nil, func(b *Snapshot) {
@@ -197,7 +202,7 @@ func (c *engine) flush(force bool) {
 		sum = c.acc.Summary()
 		c.lastSum = now
 		if force || now.Sub(c.lastAdv) >= adviceInterval {
-			c.p.requestAdvice(sum)
+			c.p.requestAdvice(sum, !c.adviceDue(sum, force))
 			c.lastAdv = now
 		}
 	}
@@ -233,6 +238,25 @@ func (c *engine) flush(force bool) {
 	})
 	c.pts = c.pts[:0]
 	c.evs = c.evs[:0]
+}
+
+// adviceDue reports whether the advice should run for sum: always when forced or when
+// the pipeline cannot tell the advice's inputs, else only when they moved materially
+// (adviceRel) from those of the newest advice asked for. Advice simulates candidates;
+// a board running steady would otherwise pay for the same answer every adviceInterval.
+// When it is not due, the last advice is handed over again for sum: the screen still
+// sees an update every adviceInterval (its "same deadband 3 updates running" counts
+// them), and it is the advice these inputs give.
+func (c *engine) adviceDue(sum *analysis.Summary, force bool) bool {
+	if c.p.advIn == nil {
+		return true
+	}
+	in := c.p.advIn(sum)
+	if !force && c.advHave && in.Near(c.advIn, adviceRel) {
+		return false
+	}
+	c.advIn, c.advHave = in, true
+	return true
 }
 
 // finish delivers the final summary and advice (computed here, so the last figures are

@@ -16,7 +16,12 @@ import (
 const (
 	summaryInterval = 100 * time.Millisecond // summary snapshots at most this often
 	adviceInterval  = 2 * time.Second        // advice (which simulates candidates) at most this often
-	statsInterval   = time.Second            // rate window
+	// adviceRel is how far (a fraction) a measured input of the advice (tau, noise,
+	// load, ...) must move from the one the shown advice was made from before the
+	// advice runs again; a change of anything else (deadband, setpoints, board) counts
+	// at once. The measured figures wander by less than this on a steady board.
+	adviceRel     = 0.03
+	statsInterval = time.Second // rate window
 )
 
 // DefaultRetain is the default number of points a pipeline holds for a lagging screen,
@@ -153,7 +158,8 @@ type Pipeline struct {
 
 	// Advice runs beside the pipeline so it never holds up the analysis.
 	adv    adviser
-	advReq chan *analysis.Summary
+	advIn  func(s *analysis.Summary) advice.Inputs // what adv designs from; nil = always advise
+	advReq chan adviceReq
 	advSeq int64 // samples behind the newest advice delivered (under mu)
 
 	// A tune run driven over the link (tunerun.go); link is nil on other sources.
@@ -174,7 +180,7 @@ func newPipeline(name string, maxPoints int, adv adviser) *Pipeline {
 		quit:   make(chan struct{}),
 		closed: make(chan struct{}),
 		adv:    adv,
-		advReq: make(chan *analysis.Summary, 1),
+		advReq: make(chan adviceReq, 1),
 	}
 	if adv != nil {
 		go p.adviceLoop()
@@ -310,22 +316,42 @@ func (p *Pipeline) deliver(pts []Point, evs []Event, f func(b *Snapshot)) {
 	}
 }
 
+// adviceReq asks the advice goroutine for the advice of a summary; again says the
+// advice's inputs have not moved materially since the last one it computed, which it
+// hands over once more, for this summary, instead of simulating the same candidates.
+type adviceReq struct {
+	s     *analysis.Summary
+	again bool
+}
+
 func (p *Pipeline) adviceLoop() {
+	var last *advice.Advice
+	var lastErr error
+	have := false
 	for {
 		select {
 		case <-p.quit:
 			return
-		case s := <-p.advReq:
-			p.deliverAdvice(s)
+		case r := <-p.advReq:
+			if !r.again || !have {
+				last, lastErr = p.adv(r.s)
+				have = true
+			}
+			p.handAdvice(r.s, last, lastErr)
 		}
 	}
 }
 
-// deliverAdvice computes the advice for s and hands it to the screen, unless advice for
-// a newer summary got there first (the final advice must not be overwritten by a late
-// one for an older summary).
+// deliverAdvice computes the advice for s and hands it to the screen.
 func (p *Pipeline) deliverAdvice(s *analysis.Summary) {
 	a, err := p.adv(s)
+	p.handAdvice(s, a, err)
+}
+
+// handAdvice hands the advice for s to the screen, unless advice for a newer summary got
+// there first (the final advice must not be overwritten by a late one for an older
+// summary).
+func (p *Pipeline) handAdvice(s *analysis.Summary, a *advice.Advice, err error) {
 	es := ""
 	if err != nil {
 		es = telemetry.Sanitize([]byte(err.Error()))
@@ -339,19 +365,23 @@ func (p *Pipeline) deliverAdvice(s *analysis.Summary) {
 	})
 }
 
-// requestAdvice hands the newest summary to the advice goroutine, replacing a waiting one.
-func (p *Pipeline) requestAdvice(s *analysis.Summary) {
+// requestAdvice hands the newest summary to the advice goroutine, replacing a waiting
+// one; again is set when the advice's inputs are those of the last request.
+func (p *Pipeline) requestAdvice(s *analysis.Summary, again bool) {
 	if p.adv == nil {
 		return
 	}
+	r := adviceReq{s: s, again: again}
 	for {
 		select {
-		case p.advReq <- s:
+		case p.advReq <- r:
 			return
 		default:
 		}
 		select {
-		case <-p.advReq:
+		case old := <-p.advReq:
+			// The replaced request may have been the one with the new inputs.
+			r.again = r.again && old.again
 		default:
 		}
 	}

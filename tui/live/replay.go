@@ -32,6 +32,7 @@ func NewReplay(o ReplayOptions) (*Pipeline, error) {
 	}
 	name := filepath.Base(o.Path)
 	p := newPipeline(name, o.Retain, o.adviser())
+	p.advIn = o.adviceInputs()
 	p.replay = true
 	p.speed = o.Speed
 	p.held = o.Paused

@@ -36,6 +36,16 @@ func (o Options) adviser() adviser {
 	return func(s *analysis.Summary) (*advice.Advice, error) { return advice.FromSummary(s, g) }
 }
 
+// adviceInputs returns what the adviser designs from, so the engine can skip the advice
+// while it stays put; nil without advice.
+func (o Options) adviceInputs() func(s *analysis.Summary) advice.Inputs {
+	if o.NoAdvice {
+		return nil
+	}
+	g := o.Goals
+	return func(s *analysis.Summary) advice.Inputs { return advice.InputsOfSummary(s, g) }
+}
+
 // PortOptions configure NewPort.
 type PortOptions struct {
 	Options
@@ -53,6 +63,7 @@ func NewPort(o PortOptions) *Pipeline {
 	}
 	link := wire.Dial(o.Serial, wire.LinkOptions{RecordPath: o.Record})
 	p := newPipeline(name, o.Retain, o.adviser())
+	p.advIn = o.adviceInputs()
 	p.canSend = true
 	p.link = link
 	p.sendFn = link.Send

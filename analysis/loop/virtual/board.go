@@ -65,6 +65,10 @@ type Board struct {
 	// Speed is the real-time factor of Run with realtime true: 1 is real time, 10 is ten
 	// times faster. Zero means 1. Set it before Run.
 	Speed float64
+	// Batch is how long Run with realtime true lets the output build up between two
+	// writes, as a USB serial bridge sends what is due once per frame: fewer, larger
+	// writes cost the reader fewer wake-ups. Zero means 4 ms. Set it before Run.
+	Batch time.Duration
 	// OnEvent, when set before Run, is called from the running goroutine for every event.
 	OnEvent func(Event)
 
@@ -206,9 +210,9 @@ type Plugger interface {
 // Run powers the board up and writes its output to w: the banner and meta lines, then one
 // data line per sample period, until ctx ends or the scenario's Samples or Duration limit
 // is reached. With realtime false it runs as fast as it can; with realtime true it paces
-// the lines by the sample period (scaled by Speed), writing what is due every few
-// milliseconds. Run returns nil at the limit, ctx.Err() when cancelled, or the write
-// error. A board runs once.
+// the lines by the sample period (scaled by Speed), writing what is due every Batch. Run
+// returns nil at the limit, ctx.Err() when cancelled, or the write error. A board runs
+// once.
 func (b *Board) Run(ctx context.Context, w io.Writer, realtime bool) error {
 	b.mu.Lock()
 	if b.ran {
@@ -229,6 +233,10 @@ func (b *Board) Run(ctx context.Context, w io.Writer, realtime bool) error {
 	b.boot()
 	start := time.Now()
 	const chunk = 32 << 10
+	batch := b.Batch
+	if batch <= 0 {
+		batch = 4 * time.Millisecond
+	}
 	var timer *time.Timer
 	for {
 		if b.done() {
@@ -240,7 +248,7 @@ func (b *Board) Run(ctx context.Context, w io.Writer, realtime bool) error {
 				if err := b.flush(w); err != nil {
 					return err
 				}
-				wait = max(wait, 4*time.Millisecond)
+				wait = max(wait, batch)
 				if timer == nil {
 					timer = time.NewTimer(wait)
 					defer timer.Stop()
