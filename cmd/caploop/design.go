@@ -65,8 +65,9 @@ E24. Values outside the input range table are refused, never replaced by default
 			if err != nil {
 				return withCode(2, err)
 			}
-			out := newCheckedWriter(cmd.OutOrStdout())
+			out := newTextWriter(cmd.OutOrStdout())
 			if f.jsonOut {
+				out = newCheckedWriter(cmd.OutOrStdout())
 				doc := struct {
 					SchemaVersion int `json:"schema_version"`
 					*advice.Advice

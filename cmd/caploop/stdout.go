@@ -12,12 +12,20 @@ import (
 // that text sent to a full disk or a closed standard output ends the command with a
 // message and exit code 2, as a failed JSON write does.
 type checkedWriter struct {
-	bw  *bufio.Writer
-	err error
+	bw    *bufio.Writer
+	err   error
+	flush func() error // the text wrapper's (see textOut), or nil
 }
 
 func newCheckedWriter(w io.Writer) *checkedWriter {
 	return &checkedWriter{bw: bufio.NewWriterSize(w, 64<<10)}
+}
+
+// newTextWriter is newCheckedWriter for prose and tables: on a terminal, long prose
+// lines wrap to its width (textOut). Never for JSON or CSV.
+func newTextWriter(w io.Writer) *checkedWriter {
+	tw, flush := textOut(w)
+	return &checkedWriter{bw: bufio.NewWriterSize(tw, 64<<10), flush: flush}
 }
 
 func (c *checkedWriter) Write(p []byte) (int, error) {
@@ -36,6 +44,9 @@ func (c *checkedWriter) Write(p []byte) (int, error) {
 func (c *checkedWriter) Close(what string) error {
 	if c.err == nil {
 		c.err = c.bw.Flush()
+	}
+	if c.err == nil && c.flush != nil {
+		c.err = c.flush()
 	}
 	if c.err != nil {
 		return withCode(2, fmt.Errorf("%s: write to standard output: %w", what, telemetry.CleanPathError(c.err)))

@@ -156,6 +156,9 @@ func runSummary(stdout, stderr io.Writer, files []string, f *summaryFlags, note 
 		text = io.Discard
 	}
 	out := newCheckedWriter(text)
+	if !f.json && !f.jsonl {
+		out = newTextWriter(text)
+	}
 	switch {
 	case f.json || f.jsonl:
 		writeSummaryJSON(out, results, f.jsonl)
