@@ -51,8 +51,14 @@ import (
 // then. Keep this list honest and short; every other pair must hold.
 var knownGaps = []knownGap{
 	// Plant.
-	{"3s-buffer-12b-*", "plant.sense_drop_v", "", "follower in a droop loop (12 bit, 3.3 V): the drop's interval too wide"},
-	{"*", "plant.sense_drop_v", "", "a follower's 0.65 V drop null in two-state loops (no drop beyond the supply tolerance, or its interval too wide)"},
+	// Data-limited, not a wrong figure: the drop -v_low Vs/(v_high - v_low) = 0.662 V
+	// (+1.8 %) has the interval [0.571, 0.758] V (±0.093 V), wider than the rule's
+	// ±0.066 V (10 %; 2 LSB is 9.8 mV). Its parts: v_low from the balance, -0.636 V
+	// [-0.695, -0.576] (±12.2 counts, ±9.4 %: 1 sigma 4.6 counts from the charge's mean
+	// step over its 426 pairs, 4.0 from tau_charge's ±1.9 %, a run fit of 44 readings),
+	// v_high ±0.046 V, and the supply's ±5 %. Either main part alone would pass: with the
+	// supply exact [0.601, 0.722] (±0.060 V), with v_low exact [0.623, 0.702] (±0.039 V).
+	{"2s-buffer-10b-5V-n1-tau47", "plant.sense_drop_v", "", "a follower's 0.65 V drop (0.662 V) null: ±0.093 V, over the 10 % rule; v_low ±9.4 % (charge step noise, tau_charge ±1.9 %) and the supply's ±5 % together"},
 	// Segments.
 	// Not a late steady start: the steady part starts at sample 19, after the reach, and the
 	// node's range in its first 250 samples (-7.4 .. +14.9 counts) is that of its last

@@ -73,6 +73,9 @@ type fitResult struct {
 	B      float64
 	// VInf is the asymptote B/(1-A) in counts with its standard error.
 	VInf, SeVInf float64
+	// CovAV is the covariance of A and VInf (counts): what a better-known A moves VInf
+	// by (dischargeSharedFactor). 0 when the fit does not give it.
+	CovAV float64
 	// S2 is the residual variance (counts^2).
 	S2 float64
 	// Runs marks a fit of the runs' trajectories (runFit): its residuals are readings
@@ -137,6 +140,8 @@ func (f *ivSums) free() (r fitResult, ok bool) {
 		// var(VInf) = (s^2/n + (xbar - VInf)^2 var(a)) / (1-a)^2  (delta method)
 		d := xb - vinf
 		r.SeVInf = math.Sqrt((s2/n + d*d*varA) / ((1 - a) * (1 - a)))
+		// dVInf/da = (VInf - xbar)/(1 - a); ybar is uncorrelated with a.
+		r.CovAV = -d * varA / (1 - a)
 		r.VInf = vinf + f.off
 	} else {
 		r.VInf = math.NaN()

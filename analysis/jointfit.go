@@ -233,6 +233,7 @@ func (dis *ivSums) jointFit(ch *ivSums, strict bool) (r jointResult, ok bool) {
 	set := func(d int, a, varA, n, xb, yb, ss, s2 float64) {
 		f := fitResult{N: n, A: a, SeA: math.Sqrt(varA), S2: ss / math.Max(n-2, 1)}
 		f.VInf, f.SeVInf = asym(a, varA, s2, n, xb, yb)
+		f.CovAV = (f.VInf - xb) * varA / (1 - a) // dVInf/da = (VInf - xbar)/(1 - a)
 		f.B = f.VInf * (1 - a)
 		r.fit[d] = f
 	}

@@ -214,9 +214,17 @@ func decidePlant(ev plantEvidence) plantDecision {
 		case gap.lo > margin && (droopLoad || lowDrop || noDroop):
 			// The load is known (or known absent): what is left is a buffer's drop.
 			highDrop = true
-			if !lowDrop {
+			switch {
+			case !lowDrop:
 				d.drop, d.dropFrom = gap, "v_high"
-			} else if math.Abs(gap.v-d.drop.v) > margin+d.drop.halfWidth()+gap.halfWidth() {
+			case !droopLoad && !noDroop:
+				// No hold gives the load: the follower's base lowers v_high too, so
+				// Vs - v_high only bounds the drop from above (the drop from v_low
+				// already read the supply).
+				if d.drop.lo > gap.hi+margin {
+					d.notes = append(d.notes, fmt.Sprintf("the sense drop from v_low (%.3g V) exceeds the whole gap between v_high and the supply (%.3g V) by more than the supply tolerance", d.drop.v, gap.v))
+				}
+			case math.Abs(gap.v-d.drop.v) > margin+d.drop.halfWidth()+gap.halfWidth():
 				d.notes = append(d.notes, fmt.Sprintf("the sense drop from v_low (%.3g V) and from the supply (%.3g V) disagree by more than the supply tolerance", d.drop.v, gap.v))
 			}
 		case gap.lo > margin && !stuckZero:

@@ -195,11 +195,17 @@ func (a *Accumulator) plant(pf plantFit, c conv) Plant {
 			p.VLowVReason = "needs vref and adc_bits"
 		}
 	}
-	// The discharge asymptote the decision reads: the discharge fit's or, when narrower,
-	// the steady balance's (a two-state loop's discharges are too short to fit).
-	vLowEv := narrower(vLow, a.dischargeFromBalance(pf))
+	// The discharge asymptote the decision reads: the narrowest of the discharge fit's,
+	// the steady balance's (a two-state loop's discharges are too short to fit) and the
+	// discharge fit's at the charge's factor (a three-state loop's one discharge run is).
+	vLowBal, vLowShared := a.dischargeFromBalance(pf), dischargeSharedFactor(pf)
+	vLowEv := narrower(narrower(vLow, vLowBal), vLowShared)
 	if p.VLowCounts == nil && vLowEv != vLow && vLowEv.hi < -2 {
-		p.VLowCountsReason = fmt.Sprintf("the discharge heads for %s, below ground (from the balance of the steady parts): the sense point sits behind a follower (see sense_drop_v)", c.fmtV(vLowEv.v))
+		from := "from the balance of the steady parts"
+		if vLowEv == vLowShared {
+			from = "the discharge fitted at the charge's time constant"
+		}
+		p.VLowCountsReason = fmt.Sprintf("the discharge heads for %s, below ground (%s): the sense point sits behind a follower (see sense_drop_v)", c.fmtV(vLowEv.v), from)
 		if p.VLowV == nil {
 			p.VLowVReason = p.VLowCountsReason
 		}

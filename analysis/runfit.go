@@ -223,7 +223,7 @@ func (r *runFit) joint(extra []float64, ref runRef) (fitResult, bool) {
 	r.last = runRef{a: a, vinf: v, ok: true}
 	s2 := ssr / dof
 	f := fitResult{N: n, A: a, SeA: math.Sqrt(s2 * h11 / det), VInf: v, SeVInf: math.Sqrt(s2 * h00 / det),
-		S2: s2, Dof: dof, Runs: true}
+		CovAV: -s2 * h01 / det, S2: s2, Dof: dof, Runs: true}
 	f.B = v * (1 - a)
 	return f, true
 }
@@ -284,7 +284,7 @@ func (s *runSums) solve() (r fitResult, ok bool) {
 	}
 	s2 := ssr / dof
 	r = fitResult{N: s.n, A: s.aRef + t0, SeA: math.Sqrt(s2 * i00), VInf: s.off + t1, SeVInf: math.Sqrt(s2 * i11),
-		S2: s2, Dof: dof, Runs: true}
+		CovAV: s2 * i01, S2: s2, Dof: dof, Runs: true}
 	r.B = r.VInf * (1 - r.A)
 	return r, true
 }
