@@ -329,6 +329,7 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 			if e > sg.maxE {
 				sg.maxE = e
 			}
+			sg.half.Add(e)
 			sg.hist[b]++
 			sg.hLo = min(sg.hLo, b)
 			sg.hHi = max(sg.hHi, b)

@@ -60,13 +60,6 @@ var knownGaps = []knownGap{
 	// supply exact [0.601, 0.722] (±0.060 V), with v_low exact [0.623, 0.702] (±0.039 V).
 	{"2s-buffer-10b-5V-n1-tau47", "plant.sense_drop_v", "", "a follower's 0.65 V drop (0.662 V) null: ±0.093 V, over the 10 % rule; v_low ±9.4 % (charge step noise, tau_charge ±1.9 %) and the supply's ±5 % together"},
 	// Segments.
-	// Not a late steady start: the steady part starts at sample 19, after the reach, and the
-	// node's range in its first 250 samples (-7.4 .. +14.9 counts) is that of its last
-	// 250 (-7.3 .. +15.0). The readings' extremes -11 and +18 are noise: 2.3 and 2.9 counts
-	// (1 LSB rms) beyond the node's range in their 250-sample blocks (-8.7, +15.1), at
-	// samples 1269-1769, in the first half the truth leaves out: the max - min of 3981
-	// noisy readings against 2000.
-	{"2s-none-10b-5V-n1-tau50", "seg0.ripple_pp_v", "", "measured ripple +16 % (29 counts for 25): max - min over the steady part (3981 samples) against the last half (2000): two noise extremes in the first half"},
 }
 
 type knownGap struct{ kase, fig, only, why string }

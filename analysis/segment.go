@@ -73,6 +73,7 @@ type segState struct {
 	sn              int64
 	sumE, sumE2     float64
 	minE, maxE      float64
+	half            HalfRange // extremes by blocks, for max - min over the last half
 	hist            [2*histHalf + 1]uint32
 	hLo, hHi        int
 	duty            [3]int64 // discharge, hold, charge
@@ -171,6 +172,7 @@ func (s *segState) clearSteady() {
 		s.trigSum[i], s.trigCnt[i] = 0, 0
 	}
 	s.sn, s.sumE, s.sumE2, s.minE, s.maxE = 0, 0, 0, math.Inf(1), math.Inf(-1)
+	s.half.Reset()
 	s.hLo, s.hHi = 2*histHalf, 0
 	s.duty = [3]int64{}
 	s.switches, s.jumps, s.onsets, s.firstOn, s.lastOn, s.sprev = 0, 0, 0, 0, 0, 0
@@ -299,7 +301,7 @@ func (s *segState) finish(ws *spectral, buf []float64) (segFig, []float64) {
 			v = 0
 		}
 		f.rmsE = math.Sqrt(v)
-		f.ppE = s.maxE - s.minE
+		f.ppE = s.half.PP(s.sn)
 		if s.restsAtEnd() {
 			// The loop bounced and then rests: its steady ripple is what it shows
 			// after the last transient, the end run of one drive.

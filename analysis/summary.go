@@ -221,7 +221,8 @@ type Segment struct {
 	// RippleNodePPV is the ripple at the node without ADC noise: the peak-to-peak of the
 	// identified plant driven by the observed drive sequence of the last steady samples
 	// (4 time constants of the slowest drive, 512 to 4096 samples).
-	// RipplePPV is the measured one, noise included.
+	// RipplePPV is the measured one, noise included: max - min of the readings over the
+	// last half of the steady part (see HalfRange).
 	RippleNodePPV       *float64 `json:"ripple_node_pp_v"`
 	RippleNodePPCounts  *float64 `json:"ripple_node_pp_counts"`
 	RippleNodePPVReason string   `json:"ripple_node_pp_v_reason,omitempty"`

@@ -60,7 +60,7 @@ func (p *plant) notes(a *Advice, sr *searchResult) []string {
 	}
 	n = append(n, fmt.Sprintf("figures are from the loop model (ADC noise %.2f counts rms, %s), not from formulas: %d pairs tried, %d pruned by closed forms, %d run in closed loop, the best run again over %d samples per setpoint with %d other seeds (figures: their mean; verdict: the worst seed)",
 		p.g.noise, src, sr.tried, sr.tried-sr.simmed, sr.simmed, p.verifyWin, p.nSeeds))
-	n = append(n, fmt.Sprintf("ripple is shown twice: at the node (noise-free, the spread between the 0.5 %% and 99.5 %% points over the steady part) and as the ADC reads it (max - min of the readings over the steady part, from the first reading in the band, of a hold of the settling time plus %d samples, with %.2f counts rms noise and quantisation), the figure a --max-ripple gate measures; the suggested gate adds a quarter for margin",
+	n = append(n, fmt.Sprintf("ripple is shown twice: at the node (noise-free, the spread between the 0.5 %% and 99.5 %% points over the steady part) and as the ADC reads it (max - min of the readings over the last half of the steady part, which starts at the first reading in the band, of a hold of the settling time plus %d samples, with %.2f counts rms noise and quantisation), the figure a --max-ripple gate measures; the suggested gate adds a quarter for margin",
 		p.verifyWin, p.g.noise))
 	n = append(n, fmt.Sprintf("settling is timed on a step from %d to %d counts and back, to within %s of the setpoint, at each setpoint (counts %v) the largest ripple counts",
 		p.lo, p.hi, fmtV(a.Goals.SettleTolV), p.sps))

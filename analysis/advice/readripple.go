@@ -1,6 +1,9 @@
 package advice
 
-import "github.com/caploop/caploop/analysis/loop"
+import (
+	"github.com/caploop/caploop/analysis"
+	"github.com/caploop/caploop/analysis/loop"
+)
 
 // readRipple measures the ripple of the readings over one setpoint as a summary does
 // (package analysis): the steady part starts at the first reading inside the band (or
@@ -17,9 +20,9 @@ type readRipple struct {
 	firm         bool
 	reachK       int
 	prevU        loop.Drive
-	sn           int // steady readings
-	lo, hi       int // over the steady part
-	endRun       int // readings with the same drive at the end
+	sn           int                // steady readings
+	half         analysis.HalfRange // the readings' extremes, for max - min over the steady part's last half
+	endRun       int                // readings with the same drive at the end
 	endLo, endHi int
 	switches     int    // drive changes in the steady part
 	onsets       [2]int // charge and discharge onsets in the steady part
@@ -51,10 +54,10 @@ func (r *readRipple) add(pv int, u loop.Drive) {
 	}
 	if r.steady {
 		if r.sn == 0 {
-			r.lo, r.hi = pv, pv
+			r.half.Reset()
 		}
 		r.sn++
-		r.lo, r.hi = min(r.lo, pv), max(r.hi, pv)
+		r.half.Add(float64(pv))
 		if (r.sn > 1 && u != r.prevU) || restart {
 			if !restart {
 				r.switches++
@@ -80,5 +83,5 @@ func (r *readRipple) pp() (int, bool) {
 	if rests && r.endRun >= 32 && r.endRun < r.sn {
 		return r.endHi - r.endLo, true
 	}
-	return r.hi - r.lo, true
+	return int(r.half.PP(int64(r.sn))), true
 }

@@ -28,7 +28,7 @@ type simResult struct {
 	jumpsAt                map[int]int64   // band jumps per setpoint
 	rippleAt               map[int]float64 // ripple p-p per setpoint, V
 	// readPP is the ripple as the ADC reads it: max - min of the readings (noise and
-	// quantisation included) over the steady window, the largest over the setpoints, V
+	// quantisation included) over the last half of the steady part, the largest over the setpoints, V
 	// (worst seed); readMean is its mean over the seeds.
 	readPP, readMean float64
 }
@@ -37,7 +37,9 @@ type simResult struct {
 // used setpoint, a full-scale step up to the highest, a full-scale step down, then each
 // other used setpoint. Settling is timed on the two full-scale steps: the time after the
 // change until the output stays within tol of the setpoint. Ripple and static error come
-// from the last plan.window samples of every setpoint. Output is the sense voltage.
+// from the last plan.window samples of every setpoint. Every setpoint, the first too, is
+// held for the settling time and the window, so the read ripple (an extreme: it grows with
+// the readings counted) is read over the same span at each. Output is the sense voltage.
 func simulate(cfg loop.Config, p *plant, tol float64, plan runPlan) (simResult, error) {
 	cfg.V0 = p.nodeV(p.lo)
 	sim, err := loop.New(cfg)
@@ -65,7 +67,7 @@ func simulate(cfg loop.Config, p *plant, tol float64, plan runPlan) (simResult, 
 	for i, sp := range seq {
 		n := plan.settleLen + plan.window
 		if i == 0 {
-			n = plan.window + plan.window/4
+			n = max(plan.settleLen, plan.window/4) + plan.window
 		}
 		target := p.senseV(sp)
 		if plan.vScale > 0 {

@@ -85,7 +85,7 @@ func (a *Advice) WriteText(w io.Writer) error {
 		}
 		if g != nil && len(a.Candidates) > 0 {
 			c := a.Candidates[0]
-			fmt.Fprintf(&b, "  ADC p-p is the ripple as the board will read it (max - min over the steady part of a hold of the settling time plus %d samples, %.2f counts rms noise); gate suggestion for the top pair: --max-ripple %s\n",
+			fmt.Fprintf(&b, "  ADC p-p is the ripple as the board will read it (max - min over the last half of the steady part of a hold of the settling time plus %d samples, %.2f counts rms noise); gate suggestion for the top pair: --max-ripple %s\n",
 				c.ReadWindowSamples, g.NoiseRMSCounts, c.SuggestedGate)
 		}
 	}

@@ -99,7 +99,7 @@ type Candidate struct {
 	MeetsGoals    bool     `json:"meets_goals"`           // every numeric goal met in the loop model (worst seed)
 	RulesBroken   []string `json:"rules_broken"`          // rules of the trade broken (RuleLoad, ...), empty = none
 
-	// Ripple as it will be measured: max - min of the ADC readings over the steady part
+	// Ripple as it will be measured: max - min of the ADC readings over the last half of the steady part
 	// (from the first reading in the band, as a summary measures it) of a hold of the
 	// settling time plus ReadWindowSamples (noise and quantisation included), the mean
 	// over the checking seeds, and a --max-ripple gate with margin for it.
