@@ -49,7 +49,7 @@ func screenLoop(tb testing.TB, m Model, want int64, timeout time.Duration) (Mode
 }
 
 // BenchmarkReplayMax runs the screen's pipeline as fast as it goes: scanner, analysis,
-// the screen model's Update and View at most 30 times a second. Reports lines/s.
+// the screen model's Update and View at most FrameRate times a second. Reports lines/s.
 func BenchmarkReplayMax(b *testing.B) {
 	const n = 1_000_000
 	for i := 0; i < b.N; i++ {

@@ -4,7 +4,7 @@
 //
 // The engine is package tui/live: a live.Pipeline reads its source, analyses every
 // sample and leaves a live.Snapshot (display points, events, summary, advice, counters);
-// the screen's Model takes it with a re-armed command at most about 30 times a second
+// the screen's Model takes it with a re-armed command at most 20 times a second
 // and redraws from it. This package holds the models and views only.
 //
 //	p, err := live.NewReplay(live.ReplayOptions{Path: "bench.cap", Speed: 1})

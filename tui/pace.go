@@ -14,7 +14,7 @@ import (
 // hands over a summary at most every 100 ms, so nothing but the trace moves faster.
 const slowFrame = 100 * time.Millisecond
 
-// frameEvery is the time between two frames for what is on screen: at most 30 a second
+// frameEvery is the time between two frames for what is on screen: at most FrameRate a second
 // on the trace while it follows the data, one per plot column when a column lasts longer
 // (a wide window moves less than a column in a thirtieth of a second), and one per
 // summary on the views of whole-run figures, the help, or a held or frozen trace.

@@ -9,8 +9,13 @@ import (
 )
 
 // frameInterval is the shortest time between two frames: the screen redraws at most
-// about 30 times a second, however fast the source.
-const frameInterval = time.Second / 30
+// 20 times a second, however fast the source (smooth enough for a trace that scrolls,
+// and a third less drawing than 30; FrameRate is the same for the renderer).
+const frameInterval = time.Second / FrameRate
+
+// FrameRate is the most frames a second the screen draws; the program's renderer should
+// run at it too (tea.WithFPS), so it does not wake more often than frames come.
+const FrameRate = 20
 
 // Messages from the pipeline to the screen.
 type (

@@ -11,7 +11,7 @@ import (
 // box-drawing, block and shape characters the screen draws with) and of CSI escape
 // sequences (colours), which take none, has as many cells as runes outside the
 // sequences. Any other rune or escape sends the line to ansi.StringWidth, which measures
-// grapheme clusters; the plots' lines, coloured and redrawn 30 times a second, never do.
+// grapheme clusters; the plots' lines, coloured and redrawn up to 20 times a second, never do.
 func cellWidth(s string) int {
 	n := 0
 	for i := 0; i < len(s); {

@@ -166,7 +166,10 @@ func runRack(ports []string, f liveFlags, cfgOf func(path string) wire.SerialCon
 		Verdict: verdictOf(gs, g != ""),
 		Gates:   g,
 	})
-	final, err := tea.NewProgram(m, tea.WithAltScreen()).Run()
+	stop := make(chan struct{})
+	go governCores(stop)
+	final, err := tea.NewProgram(m, tea.WithAltScreen(), tea.WithFPS(tui.FrameRate)).Run()
+	close(stop)
 	var cerr error
 	for _, p := range srcs {
 		cerr = errors.Join(cerr, p.Close())

@@ -32,8 +32,11 @@ func runScreenTune(p *live.Pipeline, span time.Duration, to tune.Options) error 
 	}
 	color := os.Getenv("NO_COLOR") == "" && term.IsTerminal(int(os.Stdout.Fd()))
 	m := tui.New(p, tui.Options{Color: color, Span: span.Seconds(), Tune: to})
-	prog := tea.NewProgram(m, tea.WithAltScreen())
+	prog := tea.NewProgram(m, tea.WithAltScreen(), tea.WithFPS(tui.FrameRate))
+	stop := make(chan struct{})
+	go governCores(stop)
 	_, err := prog.Run()
+	close(stop)
 	cerr := p.Close()
 	if errors.Is(err, tea.ErrInterrupted) {
 		err = nil
