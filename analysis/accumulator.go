@@ -74,6 +74,8 @@ type Accumulator struct {
 	runs       [3]runFit  // the same pairs, fitted as runs (discharge, unused, charge)
 	jt         jointSums  // charge and discharge with one shared factor (jointfit.go)
 	noiseEMA   float64    // running mean of squared second differences, counts^2
+	gSlack     float64    // glitch margins (glitchFactors): noise and quantisation, counts
+	gUp, gDn   float64    // glitch margins: factors on the charge and discharge reach
 	sd2, sdN   float64    // squared second differences of hold triples well inside the band (see noiseRMS)
 	inner      float64    // 2 sigma of noise plus half a count: "well inside"
 	guard      float64    // 4 sigma of noise plus MarginCounts

@@ -234,15 +234,8 @@ func (a *Accumulator) glitch(pv float64, line int64, contiguous bool) bool {
 	// The identified step is known within 10 % or 3 standard errors of its fit,
 	// whichever is larger; the reading within 6 sigma of noise and a count of
 	// quantisation.
-	slack := 6*math.Sqrt(a.noiseEMA/6) + 1
-	fUp, fDn := 1+max(0.1, 3*a.stepRel[2]), 1+max(0.1, 3*a.stepRel[0])
-	if !a.stepOK[2] {
-		fUp = fDn
-	}
-	if !a.stepOK[0] {
-		fDn = fUp
-	}
-	if pv > v+fUp*up+slack || pv < v-fDn*down-slack {
+	// (The factors come from refreshGuard, every 64 samples.)
+	if pv > v+a.gUp*up+a.gSlack || pv < v-a.gDn*down-a.gSlack {
 		st.run++
 		st.goodK = k
 		st.glitches.add(line)
@@ -255,7 +248,7 @@ func (a *Accumulator) glitch(pv float64, line int64, contiguous bool) bool {
 // plantReach returns how far the node can move up and down from v in k periods, in
 // counts, from the identified drives (NaN when there is none, or tau <= 2 T).
 func (a *Accumulator) plantReach(v float64, k int) (up, down float64) {
-	limit := math.Exp(-0.5)
+	const limit = 0.6065306597126334 // exp(-0.5): tau of 2 periods
 	aUp, vUp, okUp := a.stepA[2], a.stepV[2], a.stepOK[2]
 	aDn, vDn, okDn := a.stepA[0], a.stepV[0], a.stepOK[0]
 	if !okUp && !okDn {

@@ -33,6 +33,7 @@ func (a *Accumulator) refreshGuard() {
 	a.inner = 2*math.Sqrt(a.noiseEMA/6) + 0.5
 	a.lowZ = 4*math.Sqrt(a.noiseEMA/6) + 1
 	a.jt.refresh(a.opts.MarginCounts)
+	defer a.glitchFactors()
 	for _, d := range []int{0, 2} {
 		if a.fits[d].n < 8 {
 			continue
@@ -85,4 +86,18 @@ func (a *Accumulator) growCodes(code int) {
 	copy(c, a.codes)
 	a.codes = c
 	a.setCodeLim()
+}
+
+// glitchFactors sets the glitch rule's margins (see glitch) from the noise estimate and
+// the step fits: 6 sigma of noise and a count of quantisation; the identified step known
+// within 10 % or 3 standard errors of its fit, whichever is larger.
+func (a *Accumulator) glitchFactors() {
+	a.gSlack = 6*math.Sqrt(a.noiseEMA/6) + 1
+	a.gUp, a.gDn = 1+max(0.1, 3*a.stepRel[2]), 1+max(0.1, 3*a.stepRel[0])
+	if !a.stepOK[2] {
+		a.gUp = a.gDn
+	}
+	if !a.stepOK[0] {
+		a.gDn = a.gUp
+	}
 }
