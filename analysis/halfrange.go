@@ -60,9 +60,9 @@ func (h *HalfRange) Add(e float64) {
 }
 
 // HalfMin is the fewest readings whose last half PP reads: a shorter series is read whole
-// (a steady part of a few hundred readings is short already, and its half would read
-// less than its robust 0.5-99.5 % spread).
-const HalfMin = 1024
+// (the few dozen readings of a moving setpoint's segments would leave a half too short
+// to hold one cycle, reading less than their robust 0.5-99.5 % spread).
+const HalfMin = 128
 
 // PP returns max - min over the last half of the n readings added (n >= 1), taking whole
 // blocks from the newest back until they cover it; over all n when n < HalfMin.
