@@ -100,6 +100,11 @@ type Accumulator struct {
 
 	lowCharges int64   // charge periods that began and ended within lowZ of code 0 (follower.go)
 	lowZ       float64 // 4 sigma of noise plus a count
+
+	// glitchFactors: plantReach's model for glitch's common case.
+	gOff         bool    // plantReach is NaN whatever the reading
+	gBoth        bool    // both drives identified
+	gOmUp, gOmDn float64 // 1 - a of the charge and the discharge
 }
 
 // stepRaw is the start of one step response, kept for the plot.

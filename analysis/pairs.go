@@ -100,4 +100,11 @@ func (a *Accumulator) glitchFactors() {
 	if !a.stepOK[0] {
 		a.gDn = a.gUp
 	}
+	// plantReach's model for glitch: off when it returns NaN whatever the reading (no
+	// drive identified, or the drive standing in for a missing one at tau <= 2 T), and
+	// its common case, both drives identified, with their 1 - a.
+	okUp, okDn := a.stepOK[2], a.stepOK[0]
+	a.gOff = (!okUp && !okDn) || (okUp && a.stepA[2] <= reachLimit) || (okDn && a.stepA[0] <= reachLimit)
+	a.gBoth = okUp && okDn
+	a.gOmUp, a.gOmDn = 1-a.stepA[2], 1-a.stepA[0]
 }
