@@ -336,7 +336,12 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 			if e > sg.maxE {
 				sg.maxE = e
 			}
-			sg.half.Add(e)
+			if h := &sg.half; h.cn+1 < h.size { // HalfRange.Add's common case
+				h.clo, h.chi = min(h.clo, e), max(h.chi, e)
+				h.cn++
+			} else {
+				h.Add(e)
+			}
 			sg.hist[b]++
 			sg.hLo = min(sg.hLo, b)
 			sg.hHi = max(sg.hHi, b)
