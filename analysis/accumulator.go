@@ -105,6 +105,8 @@ type Accumulator struct {
 	gOff         bool    // plantReach is NaN whatever the reading
 	gBoth        bool    // both drives identified
 	gOmUp, gOmDn float64 // 1 - a of the charge and the discharge
+
+	fitSeen [3]float64 // refreshGuard: pairs in fits[d] when it last read its step model
 }
 
 // stepRaw is the start of one step response, kept for the plot.

@@ -35,9 +35,12 @@ func (a *Accumulator) refreshGuard() {
 	a.jt.refresh(a.opts.MarginCounts)
 	defer a.glitchFactors()
 	for _, d := range []int{0, 2} {
-		if a.fits[d].n < 8 {
+		// The step model is a function of the fit's sums alone: without a new pair
+		// since the last look it would come out the same.
+		if a.fits[d].n < 8 || a.fits[d].n == a.fitSeen[d] {
 			continue
 		}
+		a.fitSeen[d] = a.fits[d].n
 		if f, ok := a.fits[d].free(); ok && f.A > 0 && f.A < 1 && !math.IsNaN(f.VInf) && f.SeA < 0.2*(1-f.A) {
 			a.stepA[d], a.stepV[d], a.stepOK[d] = f.A, f.VInf, true
 			a.stepRel[d] = f.SeA / (1 - f.A)
