@@ -275,13 +275,13 @@ func (a *Accumulator) plantReach(v float64, k int) (up, down float64) {
 		return math.NaN(), math.NaN()
 	}
 	if !okUp {
-		aUp, vUp = aDn, math.Max(float64(a.maxCode), v)
+		aUp, vUp = aDn, max(float64(a.maxCode), v)
 	}
 	if !okDn {
 		// No discharge fit: the charge's time constant, heading below ground by up to
 		// a quarter of full scale (a follower's drop: the sense point then falls
 		// towards -V_BE, not 0).
-		aDn, vDn = aUp, math.Min(0, v)-0.25*float64(a.maxCode)
+		aDn, vDn = aUp, min(0, v)-0.25*float64(a.maxCode)
 	}
 	if aUp <= reachLimit || aDn <= reachLimit {
 		return math.NaN(), math.NaN()
@@ -289,7 +289,9 @@ func (a *Accumulator) plantReach(v float64, k int) (up, down float64) {
 	if k > 1 {
 		aUp, aDn = math.Pow(aUp, float64(k)), math.Pow(aDn, float64(k))
 	}
-	return (1 - aUp) * math.Max(vUp-v, 0), (1 - aDn) * math.Max(v-vDn, 0)
+	// (The max and min builtins: math.Max's and math.Min's rules for NaN and zeros,
+	// without a call.)
+	return (1 - aUp) * max(vUp-v, 0), (1 - aDn) * max(v-vDn, 0)
 }
 
 // suspect notes a data line that lacks an optional field.
