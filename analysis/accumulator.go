@@ -100,6 +100,13 @@ type Accumulator struct {
 
 	lowCharges int64   // charge periods that began and ended within lowZ of code 0 (follower.go)
 	lowZ       float64 // 4 sigma of noise plus a count
+
+	// glitchFactors: plantReach's model for glitch's common case.
+	gOff         bool    // plantReach is NaN whatever the reading
+	gBoth        bool    // both drives identified
+	gOmUp, gOmDn float64 // 1 - a of the charge and the discharge
+
+	fitSeen [3]float64 // refreshGuard: pairs in fits[d] when it last read its step model
 }
 
 // stepRaw is the start of one step response, kept for the plot.
@@ -331,7 +338,12 @@ func (a *Accumulator) addRun(ss []telemetry.Sample) {
 			if e > sg.maxE {
 				sg.maxE = e
 			}
-			sg.half.Add(e)
+			if h := &sg.half; h.cn+1 < h.size { // HalfRange.Add's common case
+				h.clo, h.chi = min(h.clo, e), max(h.chi, e)
+				h.cn++
+			} else {
+				h.Add(e)
+			}
 			sg.hist[b]++
 			sg.hLo = min(sg.hLo, b)
 			sg.hHi = max(sg.hHi, b)

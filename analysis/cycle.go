@@ -249,20 +249,37 @@ func (s *segState) nodeRipple() (float64, string) {
 	if m < 8 {
 		return math.NaN(), "too few steady samples"
 	}
-	return nodeRippleOf(m, func(k int) nodeEntry { return s.nodeAt(k, m) }, &s.pf)
+	return nodeRippleOf(s.nodeWindow(m), &s.pf)
+}
+
+// nodeWindow returns the last m steady readings kept for the node ripple, oldest first,
+// in one slice: part of the ring when they do not wrap round it, else a copy (in a
+// scratch slice of s, valid until the next call).
+func (s *segState) nodeWindow(m int) []nodeEntry {
+	if m <= s.npos {
+		return s.node[s.npos-m : s.npos]
+	}
+	if s.nodeTmp == nil {
+		s.nodeTmp = make([]nodeEntry, nodeLen)
+	}
+	w := s.nodeTmp[:m]
+	k := copy(w, s.node[nodeLen-(m-s.npos):])
+	copy(w[k:], s.node[:s.npos])
+	return w
 }
 
 // noFitWhy ends the reason of a node ripple that lacked a drive's fit: a later plant
 // may have it (see segFig.nodeWin).
 const noFitWhy = " fit to drive the plant with"
 
-// nodeRippleOf is nodeRipple over the m steady entries at(0..m-1), oldest first, with
-// the plant pf.
-func nodeRippleOf(m int, at func(int) nodeEntry, pf *plantFit) (float64, string) {
+// nodeRippleOf is nodeRipple over the steady entries w, oldest first, with the plant
+// pf.
+func nodeRippleOf(w []nodeEntry, pf *plantFit) (float64, string) {
+	m := len(w)
 	var a, b [3]float64
 	var seen [3]bool
 	for k := 0; k < m-1; k++ {
-		seen[at(k).u+1] = true
+		seen[w[k].u+1] = true
 	}
 	for d := 0; d < 3; d++ {
 		// A fit drives the plant when 1 - a is known within 50 % (95 %): a time constant
@@ -322,7 +339,7 @@ func nodeRippleOf(m int, at func(int) nodeEntry, pf *plantFit) (float64, string)
 	phi, c, g := 1.0, 0.0, 0.0
 	skip := -1
 	for k := 0; k < m; k++ {
-		r := at(k)
+		r := w[k]
 		if r.pv > 0 {
 			y := float64(r.pv) - c
 			spp += phi * phi
@@ -390,7 +407,7 @@ func nodeRippleOf(m int, at func(int) nodeEntry, pf *plantFit) (float64, string)
 			s := max(v, 0)
 			lo, hi = min(lo, s), max(hi, s)
 		}
-		d := at(k).u + 1
+		d := w[k].u + 1
 		v = a[d]*v + b[d]
 	}
 	return hi - lo, ""

@@ -226,7 +226,24 @@ func (a *Accumulator) glitch(pv float64, line int64, contiguous bool) bool {
 	}
 	k := st.goodK + 1
 	v := st.good
-	up, down := a.plantReach(v, k)
+	var up, down float64
+	switch {
+	case a.gOff:
+		up = math.NaN() // no identified plant, or tau at most 2 periods
+	case a.gBoth && k == 1:
+		// plantReach's common case, written out: both drives identified, one period
+		// since the last good reading (1 - a from glitchFactors, the same value).
+		up, down = a.stepV[2]-v, v-a.stepV[0]
+		if up < 0 { // math.Max(x, 0) but for the sign of a zero, which cannot matter here
+			up = 0
+		}
+		if down < 0 {
+			down = 0
+		}
+		up, down = a.gOmUp*up, a.gOmDn*down
+	default:
+		up, down = a.plantReach(v, k)
+	}
 	if math.IsNaN(up) || st.run >= 2 {
 		st.good, st.goodK, st.run = pv, 0, 0
 		return false
@@ -245,31 +262,36 @@ func (a *Accumulator) glitch(pv float64, line int64, contiguous bool) bool {
 	return false
 }
 
+// reachLimit is exp(-1/2), a of a drive with tau of 2 periods: a faster plant is never
+// a reason to call a reading a glitch.
+const reachLimit = 0.6065306597126334
+
 // plantReach returns how far the node can move up and down from v in k periods, in
 // counts, from the identified drives (NaN when there is none, or tau <= 2 T).
 func (a *Accumulator) plantReach(v float64, k int) (up, down float64) {
-	const limit = 0.6065306597126334 // exp(-0.5): tau of 2 periods
 	aUp, vUp, okUp := a.stepA[2], a.stepV[2], a.stepOK[2]
 	aDn, vDn, okDn := a.stepA[0], a.stepV[0], a.stepOK[0]
 	if !okUp && !okDn {
 		return math.NaN(), math.NaN()
 	}
 	if !okUp {
-		aUp, vUp = aDn, math.Max(float64(a.maxCode), v)
+		aUp, vUp = aDn, max(float64(a.maxCode), v)
 	}
 	if !okDn {
 		// No discharge fit: the charge's time constant, heading below ground by up to
 		// a quarter of full scale (a follower's drop: the sense point then falls
 		// towards -V_BE, not 0).
-		aDn, vDn = aUp, math.Min(0, v)-0.25*float64(a.maxCode)
+		aDn, vDn = aUp, min(0, v)-0.25*float64(a.maxCode)
 	}
-	if aUp <= limit || aDn <= limit {
+	if aUp <= reachLimit || aDn <= reachLimit {
 		return math.NaN(), math.NaN()
 	}
 	if k > 1 {
 		aUp, aDn = math.Pow(aUp, float64(k)), math.Pow(aDn, float64(k))
 	}
-	return (1 - aUp) * math.Max(vUp-v, 0), (1 - aDn) * math.Max(v-vDn, 0)
+	// (The max and min builtins: math.Max's and math.Min's rules for NaN and zeros,
+	// without a call.)
+	return (1 - aUp) * max(vUp-v, 0), (1 - aDn) * max(v-vDn, 0)
 }
 
 // suspect notes a data line that lacks an optional field.

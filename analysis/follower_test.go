@@ -168,7 +168,7 @@ func TestNodeRippleClipsAtZero(t *testing.T) {
 	if lo != 0 {
 		t.Fatalf("the test's trajectory does not reach 0 (low %g)", lo)
 	}
-	got, why := nodeRippleOf(len(ring), func(k int) nodeEntry { return ring[k] }, &pf)
+	got, why := nodeRippleOf(ring, &pf)
 	if why != "" || math.Abs(got-(hi-lo)) > 1e-6 {
 		t.Errorf("node p-p %g (%s), want %g (the trajectory clipped at 0, V0 from the readings above 0)", got, why, hi-lo)
 	}

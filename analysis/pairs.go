@@ -35,9 +35,12 @@ func (a *Accumulator) refreshGuard() {
 	a.jt.refresh(a.opts.MarginCounts)
 	defer a.glitchFactors()
 	for _, d := range []int{0, 2} {
-		if a.fits[d].n < 8 {
+		// The step model is a function of the fit's sums alone: without a new pair
+		// since the last look it would come out the same.
+		if a.fits[d].n < 8 || a.fits[d].n == a.fitSeen[d] {
 			continue
 		}
+		a.fitSeen[d] = a.fits[d].n
 		if f, ok := a.fits[d].free(); ok && f.A > 0 && f.A < 1 && !math.IsNaN(f.VInf) && f.SeA < 0.2*(1-f.A) {
 			a.stepA[d], a.stepV[d], a.stepOK[d] = f.A, f.VInf, true
 			a.stepRel[d] = f.SeA / (1 - f.A)
@@ -100,4 +103,11 @@ func (a *Accumulator) glitchFactors() {
 	if !a.stepOK[0] {
 		a.gDn = a.gUp
 	}
+	// plantReach's model for glitch: off when it returns NaN whatever the reading (no
+	// drive identified, or the drive standing in for a missing one at tau <= 2 T), and
+	// its common case, both drives identified, with their 1 - a.
+	okUp, okDn := a.stepOK[2], a.stepOK[0]
+	a.gOff = (!okUp && !okDn) || (okUp && a.stepA[2] <= reachLimit) || (okDn && a.stepA[0] <= reachLimit)
+	a.gBoth = okUp && okDn
+	a.gOmUp, a.gOmDn = 1-a.stepA[2], 1-a.stepA[0]
 }

@@ -71,7 +71,7 @@ func (a *Accumulator) segment(f *segFig, pf plantFit, c conv) Segment {
 		if w := f.nodeWin; len(w) > 0 {
 			m := nodeSpan(&pf, int64(len(w)), f.nodeEnd, len(w))
 			w = w[len(w)-m:]
-			nodePP, nodeWhy = nodeRippleOf(m, func(k int) nodeEntry { return w[k] }, &pf)
+			nodePP, nodeWhy = nodeRippleOf(w, &pf)
 		}
 		s.RippleNodePPCounts, s.RippleNodePPV = ptr(nodePP), ptr(c.v(nodePP))
 		if s.RippleNodePPCounts == nil {

@@ -88,6 +88,7 @@ type segState struct {
 	rpos            int
 	node            []nodeEntry // last nodeLen steady readings, for the node ripple
 	npos            int
+	nodeTmp         []nodeEntry // nodeWindow's copy of a window that wraps round node
 	trigSum         [trigLen]float64
 	trigCnt         [trigLen]int32
 	trigMax         int

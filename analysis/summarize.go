@@ -72,22 +72,22 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 		}
 	}()
 	b := <-free
+	// The scanner parses each sample straight into the batch's next slot.
+	sc.SetSampleDst(&b.samples[:batchLen][0])
 	var feed recordFeed
 	for sc.Scan() {
 		switch sc.Kind() {
 		case telemetry.RecSample:
-			// Field by field (see Scanner.CurrentSample), into the batch in place.
-			n := len(b.samples)
-			b.samples = b.samples[:n+1]
-			d, p := &b.samples[n], sc.CurrentSample()
-			d.Line, d.Index, d.T, d.N, d.Host = p.Line, p.Index, p.T, p.N, p.Host
-			d.SP, d.PV, d.U, d.Flags = p.SP, p.PV, p.U, p.Flags
-			feed.lastLine = p.Line
-			if len(b.samples) == batchLen {
+			n := len(b.samples) + 1
+			b.samples = b.samples[:n]
+			feed.lastLine = b.samples[n-1].Line
+			if n == batchLen {
 				full <- b
 				b = <-free
 				b.samples, b.metas = b.samples[:0], b.metas[:0]
+				n = 0
 			}
+			sc.SetSampleDst(&b.samples[:batchLen][n])
 		case telemetry.RecMeta:
 			// Comment lines between the last sample and this meta line (the scanner
 			// skips them, its counts show them) may open a restart banner.
@@ -100,6 +100,7 @@ func Summarize(sc *telemetry.Scanner, opts Options) (*Summary, error) {
 			b.metas = append(b.metas, metaAt{at: len(b.samples), kind: telemetry.RecEvent, ev: sc.Event()})
 		}
 	}
+	sc.SetSampleDst(nil)
 	full <- b
 	close(full)
 	<-done

@@ -33,6 +33,10 @@ func TestDigits(t *testing.T) {
 					if got != want || end != pre+len(num) {
 						t.Fatalf("digits(%q [len %d], %d) = %d, %d; want %d, %d", full, len(b), pre, got, end, want, pre+len(num))
 					}
+					got, end = digits8(b, pre)
+					if got != want || end != pre+len(num) {
+						t.Fatalf("digits8(%q [len %d], %d) = %d, %d; want %d, %d", full, len(b), pre, got, end, want, pre+len(num))
+					}
 				}
 			}
 		}

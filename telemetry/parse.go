@@ -75,6 +75,7 @@ type Parser struct {
 	meta   Meta
 	delta  Meta
 	sample Sample
+	dst    *Sample // where the next sample goes (Scanner.SetSampleDst); nil: sample
 	extras []Extra
 	event  Event
 	names  map[string]string
@@ -126,7 +127,7 @@ func (p *Parser) parseLine(line []byte, host int64, hasHost bool) Record {
 	r := Record{Kind: k, Meta: p.meta}
 	switch k {
 	case RecSample:
-		r.Sample, r.Extras = p.sample, p.extras
+		r.Sample, r.Extras = *p.out(), p.extras
 	case RecMeta:
 		r.Delta = p.delta
 	case RecEvent:
@@ -230,10 +231,19 @@ func (p *Parser) parseBoard(line []byte, host int64, hasHost bool) RecordKind {
 // utf8BOM is the byte order mark some programs write at the start of a UTF-8 file.
 var utf8BOM = []byte{0xEF, 0xBB, 0xBF}
 
+// out returns where the sample of the line being parsed goes: dst when set, else
+// sample.
+func (p *Parser) out() *Sample {
+	if p.dst != nil {
+		return p.dst
+	}
+	return &p.sample
+}
+
 // accept completes p.sample and counts it, or rejects line when sp or pv lies outside
 // the converter's range. The values dropped from the line are recorded when it is kept.
 func (p *Parser) accept(host int64, hasHost bool, line []byte) RecordKind {
-	s := &p.sample
+	s := p.out()
 	if p.countCheck && (s.SP < 0 || s.SP > p.countMax || s.PV < 0 || s.PV > p.countMax) {
 		return p.rejectCount(line)
 	}
@@ -308,7 +318,7 @@ func (p *Parser) unwrap(raw uint64) int64 {
 // rejectCount rejects a line whose sp or pv lies outside 0..2^adc_bits-1.
 func (p *Parser) rejectCount(line []byte) RecordKind {
 	line = bytes.TrimRight(line, "\r\n")
-	s := &p.sample
+	s := p.out()
 	field, v := "sp", s.SP
 	if s.SP >= 0 && s.SP <= p.countMax {
 		field, v = "pv", s.PV

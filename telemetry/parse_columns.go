@@ -88,7 +88,7 @@ func (p *Parser) parseRow(line []byte, i int, host int64, hasHost bool) RecordKi
 	if p.cols == nil {
 		return p.reject(ErrNoHeader, "", line)
 	}
-	s := &p.sample
+	s := p.out()
 	*s = Sample{}
 	p.extras = p.extras[:0]
 	n := len(line)

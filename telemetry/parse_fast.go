@@ -82,7 +82,7 @@ func (p *Parser) fastLine(b []byte, needNL bool) (int, bool) {
 	default:
 		return 0, false
 	}
-	s := &p.sample
+	s := p.out()
 	s.T, s.N, s.Host = 0, int64(seq), 0
 	s.SP, s.PV, s.U, s.Flags = float64(sp), float64(pv), u, flags
 	if flags&HasT != 0 {

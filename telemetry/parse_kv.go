@@ -18,7 +18,7 @@ func isKeyByte(c byte) bool { return isKeyStart(c) || isDigit(c) || c == '.' }
 func (p *Parser) parseKV(line []byte, i int, host int64, hasHost bool) RecordKind {
 	// Fill p.sample in place: Sample is valid only for RecSample, so a rejected line
 	// may leave it half written.
-	s := &p.sample
+	s := p.out()
 	*s = Sample{}
 	var seen uint8
 	p.extras = p.extras[:0]

@@ -219,13 +219,19 @@ func (s *Scanner) fill() {
 func (s *Scanner) Kind() RecordKind { return s.kind }
 
 // Sample returns the current sample (valid when Kind is RecSample).
-func (s *Scanner) Sample() Sample { return s.p.sample }
+func (s *Scanner) Sample() Sample { return *s.p.out() }
 
 // CurrentSample returns the current sample in place (valid when Kind is RecSample, until the
 // next Scan; do not keep it). Copying its fields one by one is cheaper right after Scan
 // than copying the whole struct: the parser has just stored them one by one, and a wider
 // load of stores still in flight stalls.
-func (s *Scanner) CurrentSample() *Sample { return &s.p.sample }
+func (s *Scanner) CurrentSample() *Sample { return s.p.out() }
+
+// SetSampleDst makes the following Scans parse samples straight into *dst (nil: into the
+// Scanner's own), saving a copy: a reader filling a batch points it at the batch's next
+// slot. *dst is written only by Scan and is the current sample while Kind is RecSample;
+// a line that is not a sample may leave it half written.
+func (s *Scanner) SetSampleDst(dst *Sample) { s.p.dst = dst }
 
 // Extras returns the extra channels of the current sample; the slice is reused by the
 // next Scan.
