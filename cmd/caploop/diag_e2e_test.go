@@ -1,10 +1,8 @@
 package main
 
 import (
-	"bufio"
 	"fmt"
 	"os"
-	"os/exec"
 	"path/filepath"
 	"regexp"
 	"strings"
@@ -24,28 +22,7 @@ func TestLiveDiagnosticsFixedTmux(t *testing.T) {
 	bin := buildCaploop(t, dir)
 
 	link := filepath.Join(dir, "board")
-	sim := exec.Command(bin, "sim", "--pty", "--link", link)
-	stdout, err := sim.StdoutPipe()
-	if err != nil {
-		t.Fatal(err)
-	}
-	var simLog strings.Builder
-	sim.Stderr = &simLog
-	if err := sim.Start(); err != nil {
-		t.Fatalf("start sim: %v", err)
-	}
-	t.Cleanup(func() {
-		sim.Process.Kill()
-		sim.Wait()
-		if t.Failed() {
-			t.Logf("sim log:\n%s", simLog.String())
-		}
-	})
-	path, err := bufio.NewReader(stdout).ReadString('\n')
-	if err != nil {
-		t.Fatalf("sim did not print its device path: %v", err)
-	}
-	path = strings.TrimSpace(path)
+	path := servePTY(t, bin, 1, "--link", link)[0]
 
 	scr := &tmuxScreen{t: t, socket: fmt.Sprintf("caploop-diag-%d", os.Getpid()), name: "live"}
 	cmdline := fmt.Sprintf("NO_COLOR=1 %s live %s", bin, path)

@@ -1,7 +1,6 @@
 package main
 
 import (
-	"bufio"
 	"fmt"
 	"os"
 	"os/exec"
@@ -75,28 +74,7 @@ func TestLiveScreenTmux(t *testing.T) {
 
 	// The virtual board: unplugged after 25 s, back 3 s later, behind a stable link.
 	link := filepath.Join(dir, "board")
-	sim := exec.Command(bin, "sim", "--pty", "--link", link, "--unplug-after", "25s", "--replug-after", "3s")
-	stdout, err := sim.StdoutPipe()
-	if err != nil {
-		t.Fatal(err)
-	}
-	var simLog strings.Builder
-	sim.Stderr = &simLog
-	if err := sim.Start(); err != nil {
-		t.Fatalf("start sim: %v", err)
-	}
-	t.Cleanup(func() {
-		sim.Process.Kill()
-		sim.Wait()
-		if t.Failed() {
-			t.Logf("sim log:\n%s", simLog.String())
-		}
-	})
-	path, err := bufio.NewReader(stdout).ReadString('\n')
-	if err != nil {
-		t.Fatalf("sim did not print its device path: %v", err)
-	}
-	path = strings.TrimSpace(path)
+	path := servePTY(t, bin, 1, "--link", link, "--unplug-after", "25s", "--replug-after", "3s")[0]
 	if path != link {
 		t.Fatalf("sim printed %q, want the link %q", path, link)
 	}

@@ -1,7 +1,6 @@
 package main
 
 import (
-	"bufio"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -14,37 +13,11 @@ import (
 	"time"
 )
 
-// startSim starts `caploop sim --pty` with args and returns the device paths it prints
-// (one a board).
+// startSim starts the rack's boards: `caploop sim --pty --wait-open --speed 2` with args,
+// and returns the device paths it prints (one a board).
 func startSim(t *testing.T, bin string, boards int, args ...string) []string {
 	t.Helper()
-	sim := exec.Command(bin, append([]string{"sim", "--pty", "--wait-open", "--speed", "2"}, args...)...)
-	stdout, err := sim.StdoutPipe()
-	if err != nil {
-		t.Fatal(err)
-	}
-	var log strings.Builder
-	sim.Stderr = &log
-	if err := sim.Start(); err != nil {
-		t.Fatalf("start sim: %v", err)
-	}
-	t.Cleanup(func() {
-		sim.Process.Kill()
-		sim.Wait()
-		if t.Failed() {
-			t.Logf("sim %v log:\n%s", args, log.String())
-		}
-	})
-	rd := bufio.NewReader(stdout)
-	var paths []string
-	for i := 0; i < boards; i++ {
-		p, err := rd.ReadString('\n')
-		if err != nil {
-			t.Fatalf("sim %v printed %d of %d paths: %v", args, i, boards, err)
-		}
-		paths = append(paths, strings.TrimSpace(p))
-	}
-	return paths
+	return servePTY(t, bin, boards, append([]string{"--wait-open", "--speed", "2"}, args...)...)
 }
 
 // rowRE matches the rack row of the port ending in name, in the given state, with the
