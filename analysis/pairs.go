@@ -29,11 +29,11 @@ func (a *Accumulator) reach(d int, v float64) (lo, hi float64) {
 // from the fits (every 64 samples, so its cost per sample is small).
 func (a *Accumulator) refreshGuard() {
 	// A second difference of white noise has variance 6 sigma^2.
-	a.guard = 4*math.Sqrt(a.noiseEMA/6) + a.opts.MarginCounts
-	a.inner = 2*math.Sqrt(a.noiseEMA/6) + 0.5
-	a.lowZ = 4*math.Sqrt(a.noiseEMA/6) + 1
+	sigma := math.Sqrt(a.noiseEMA / 6)
+	a.guard = 4*sigma + a.opts.MarginCounts
+	a.inner = 2*sigma + 0.5
+	a.lowZ = 4*sigma + 1
 	a.jt.refresh(a.opts.MarginCounts)
-	defer a.glitchFactors()
 	for _, d := range []int{0, 2} {
 		// The step model is a function of the fit's sums alone: without a new pair
 		// since the last look it would come out the same.
@@ -46,6 +46,7 @@ func (a *Accumulator) refreshGuard() {
 			a.stepRel[d] = f.SeA / (1 - f.A)
 		}
 	}
+	a.glitchFactors(sigma)
 }
 
 // codeSlow counts a reading in the ADC code histogram (when it is a code) and at the
@@ -91,11 +92,11 @@ func (a *Accumulator) growCodes(code int) {
 	a.setCodeLim()
 }
 
-// glitchFactors sets the glitch rule's margins (see glitch) from the noise estimate and
+// glitchFactors sets the glitch rule's margins (see glitch) from the noise sigma and
 // the step fits: 6 sigma of noise and a count of quantisation; the identified step known
 // within 10 % or 3 standard errors of its fit, whichever is larger.
-func (a *Accumulator) glitchFactors() {
-	a.gSlack = 6*math.Sqrt(a.noiseEMA/6) + 1
+func (a *Accumulator) glitchFactors(sigma float64) {
+	a.gSlack = 6*sigma + 1
 	a.gUp, a.gDn = 1+max(0.1, 3*a.stepRel[2]), 1+max(0.1, 3*a.stepRel[0])
 	if !a.stepOK[2] {
 		a.gUp = a.gDn
